@@ -1,0 +1,339 @@
+"""The ``radsolve`` command line: a thin layer over the Python API.
+
+Every command here calls functions a script can call too
+(:func:`radsolve.registry.potential`, :func:`radsolve.solve.solve`,
+:func:`radsolve.check.check`, :mod:`radsolve.report`).  Only typer and the
+standard library are imported at module level so that ``radsolve --help``
+answers at once; numpy, scipy and the solvers are imported inside the
+commands.
+
+Exit status: 0 success; 1 ``radsolve check`` found a failure; 2 bad input
+or usage (one line ``radsolve: error: ...`` on stderr, no traceback);
+3 ``radsolve levels`` finished but some level did not converge to ``--tol``
+(the output is still written, those levels are marked); 4 an unexpected
+internal error (set RADSOLVE_TRACEBACK=1 to see the traceback).
+"""
+
+from __future__ import annotations
+
+import os
+import sys
+from contextlib import contextmanager
+from enum import Enum
+from pathlib import Path
+from typing import Annotated, Iterator, Optional
+
+import typer
+
+EXIT_OK = 0
+EXIT_CHECK_FAILED = 1
+EXIT_BAD_INPUT = 2
+EXIT_NOT_CONVERGED = 3
+EXIT_INTERNAL = 4
+
+ENERGY_UNITS_HELP = "hartree, eV, meV, keV, MeV, rydberg, cm-1"
+
+app = typer.Typer(
+    name="radsolve",
+    help=(
+        "Bound states of the radial Schroedinger equation "
+        "-1/(2 mu) u'' + [V(r) + l(l+1)/(2 mu r^2)] u = E u "
+        "for central potentials, in atomic units (hartree, bohr, electron masses).\n\n"
+        "Exit status: 0 ok; 1 'check' found a failure; 2 bad input or usage; "
+        "3 'levels' finished but some level did not converge to --tol; "
+        "4 internal error (RADSOLVE_TRACEBACK=1 shows the traceback)."
+    ),
+    add_completion=False,
+    no_args_is_help=True,
+    rich_markup_mode=None,
+    pretty_exceptions_enable=False,
+    context_settings={"help_option_names": ["-h", "--help"]},
+)
+
+
+class Method(str, Enum):
+    fd = "fd"
+    numerov = "numerov"
+    both = "both"
+
+
+class OutputFormat(str, Enum):
+    table = "table"
+    json = "json"
+    csv = "csv"
+
+
+# ---------------------------------------------------------------- plumbing
+
+
+def _say(text: str) -> None:
+    """One line on stderr."""
+    typer.echo(f"radsolve: {text}", err=True)
+
+
+def _fail(message: str, status: int = EXIT_BAD_INPUT) -> typer.Exit:
+    _say(f"error: {message}")
+    return typer.Exit(status)
+
+
+@contextmanager
+def _reported_errors() -> Iterator[None]:
+    """Turn radsolve's user-facing errors into one stderr line and exit status 2.
+
+    Anything else is a bug (ours or a plug-in's that the registry did not
+    wrap); it gets one line and status 4 unless RADSOLVE_TRACEBACK is set.
+    """
+    from radsolve.errors import RadsolveError
+
+    try:
+        yield
+    except typer.Exit:
+        raise
+    except RadsolveError as exc:
+        raise _fail(str(exc)) from None
+    except KeyboardInterrupt:
+        raise _fail("interrupted", 130) from None
+    except Exception as exc:  # noqa: BLE001 - the last line of defence against tracebacks
+        if os.environ.get("RADSOLVE_TRACEBACK"):
+            raise
+        raise _fail(f"internal error: {type(exc).__name__}: {exc} "
+                    "(please report it; RADSOLVE_TRACEBACK=1 shows where)",
+                    EXIT_INTERNAL) from None
+
+
+def parse_assignments(items: list[str] | None, option: str = "-p") -> dict[str, str]:
+    """``["KEY=VALUE", ...]`` -> ``{KEY: VALUE}``, values left as text.
+
+    Raises
+    ------
+    InputError
+        An item without ``=``, with an empty key or value, or a key given twice.
+    """
+    from radsolve.errors import InputError
+
+    params: dict[str, str] = {}
+    for item in items or []:
+        key, sep, value = item.partition("=")
+        key, value = key.strip(), value.strip()
+        if not sep:
+            raise InputError(f"{option} {item!r}: expected KEY=VALUE, e.g. {option} depth=2.5")
+        if not key:
+            raise InputError(f"{option} {item!r}: the parameter name before '=' is empty")
+        if not value:
+            raise InputError(f"{option} {item!r}: no value after '=' for parameter {key!r}")
+        if key in params:
+            raise InputError(f"{option}: parameter {key!r} is given twice")
+        params[key] = value
+    return params
+
+
+def _plugin_dirs(plugins: list[Path] | None) -> list[str] | None:
+    return [str(p) for p in plugins] if plugins else None
+
+
+def _check_tol(tol: float) -> None:
+    from radsolve.errors import InputError
+
+    if not 0.0 < tol < 1.0:  # NaN fails too
+        raise InputError(f"--tol {tol}: must be a relative tolerance with 0 < tol < 1, "
+                         "e.g. 1e-10")
+
+
+def _with_option(option: str, func, value):
+    """``func(value)``, with the option's name put in front of any error message."""
+    from radsolve.errors import InputError, RadsolveError
+
+    try:
+        return func(value)
+    except RadsolveError as exc:
+        message, plain = str(exc), option.lstrip("-")
+        if message.startswith(plain + ":") or message.startswith(plain + " "):
+            message = "--" + message  # "mass must be ..." -> "--mass must be ..."
+        else:
+            message = f"{option}: {message}"
+        raise InputError(message) from None
+
+
+def _l_values(l: list[int] | None, lmax: int | None) -> list[int]:
+    from radsolve.errors import InputError
+
+    if l and lmax is not None:
+        raise InputError("--l and --lmax: give one or the other (--lmax L means l = 0 ... L)")
+    if lmax is not None:
+        return list(range(lmax + 1))
+    if l:
+        return sorted(set(l))
+    return [0]
+
+
+PLUGINS_HELP = ("folder of potential plug-ins (*.py); repeatable; folders in the "
+                "RADSOLVE_PLUGINS environment variable are searched too")
+
+
+# ---------------------------------------------------------------- commands
+
+
+@app.command("levels")
+def levels_command(
+    name: Annotated[str, typer.Argument(
+        metavar="NAME", help="potential family, e.g. coulomb (list: radsolve potentials)")],
+    param: Annotated[Optional[list[str]], typer.Option(
+        "-p", "--param", metavar="KEY=VALUE",
+        help="potential parameter, repeatable; atomic units unless a unit is attached, "
+             "e.g. -p width=0.5angstrom")] = None,
+    l: Annotated[Optional[list[int]], typer.Option(
+        "--l", "-l", min=0, metavar="L",
+        help="orbital angular momentum, repeatable [default: 0]")] = None,
+    lmax: Annotated[Optional[int], typer.Option(
+        "--lmax", min=0, metavar="L", help="every l from 0 to L (not with --l)")] = None,
+    count: Annotated[int, typer.Option(
+        "--count", "-k", min=1, metavar="K", help="the K lowest levels for each l")] = 5,
+    mass: Annotated[str, typer.Option(
+        "--mass", "-m", metavar="M",
+        help="reduced mass: electron masses, or particles such as electron+proton")] = "1",
+    tol: Annotated[float, typer.Option(
+        "--tol", metavar="T", help="target relative error of each energy, 0 < T < 1")] = 1e-10,
+    method: Annotated[Method, typer.Option(
+        "--method", help="fd (finite differences), numerov (shooting) or both")] = Method.fd,
+    unit: Annotated[str, typer.Option(
+        "--unit", "-u", metavar="U", help=f"energy unit of the output: {ENERGY_UNITS_HELP}")
+    ] = "hartree",
+    fmt: Annotated[OutputFormat, typer.Option(
+        "--format", "-f", help="table for reading, json or csv for programs")
+    ] = OutputFormat.table,
+    out: Annotated[Optional[Path], typer.Option(
+        "--out", "-o", metavar="FILE", help="write the output to FILE instead of stdout")
+    ] = None,
+    plugins: Annotated[Optional[list[Path]], typer.Option(
+        "--plugins", metavar="DIR", help=PLUGINS_HELP)] = None,
+) -> None:
+    """The K lowest bound levels of potential NAME for each l.
+
+    Energies come with an error estimate. If fewer than K levels are bound,
+    those found are shown with a note (exit 0, also when none is bound). A
+    level that did not reach --tol is marked NO in the 'conv' column, a
+    warning goes to stderr and the exit status is 3.
+    """
+    with _reported_errors():
+        from radsolve.errors import InputError
+
+        params = parse_assignments(param)
+        ls = _l_values(l, lmax)
+        _check_tol(tol)
+        from radsolve.units import energy_unit_factor, parse_mass
+
+        _with_option("--unit", energy_unit_factor, unit)
+        mu = _with_option("--mass", parse_mass, mass)
+        if out is not None and not (out.parent if str(out.parent) else Path(".")).is_dir():
+            raise InputError(f"--out {str(out)!r}: folder {str(out.parent)!r} does not exist")
+
+        from radsolve.registry import potential
+        from radsolve.report import render
+        from radsolve.solve import solve
+
+        pot = potential(name, plugins=_plugin_dirs(plugins), **params)
+        result = solve(pot, l=ls if len(ls) > 1 else ls[0], count=count, mass=mu,
+                       tol=tol, method=method.value)
+        text = render(result, unit, fmt.value)
+
+        if out is None:
+            typer.echo(text, nl=False)
+        else:
+            try:
+                out.write_text(text, encoding="utf-8")
+            except OSError as exc:
+                raise InputError(f"--out {str(out)!r}: cannot write: {exc.strerror}") from None
+            _say(f"wrote {len(result.levels)} levels ({fmt.value}) to {out}")
+            if result.message:
+                _say(result.message)
+        if fmt is not OutputFormat.table and out is None and result.message:
+            _say(result.message)
+
+        unconverged = [lev.label for lev in result.levels if not lev.converged]
+        if unconverged:
+            _say(f"warning: {len(unconverged)} level(s) did not converge to tol {tol:g}: "
+                 + ", ".join(unconverged))
+            raise typer.Exit(EXIT_NOT_CONVERGED)
+
+
+@app.command("check")
+def check_command(
+    tol: Annotated[float, typer.Option(
+        "--tol", metavar="T", help="relative tolerance asked and judged, 0 < T < 1")] = 1e-10,
+    quick: Annotated[bool, typer.Option(
+        "--quick", help="a reduced set (Z = 1 and 92, mass 1, n <= 4) for a fast smoke run")
+    ] = False,
+) -> None:
+    """Solve -Z/r with every method and compare with the exact -mu Z^2/(2 n^2).
+
+    The full set: Z = 1, 2, 10, 92; reduced mass 1, electron+proton and
+    muon+proton; every n <= 10 and l < n. Each level is marked when its
+    error exceeds --tol, when its error estimate understates the true error
+    by more than 10 times (above the double-precision floor), or when it is
+    missing or not converged. Ends with a one-line verdict; exit status 1 on
+    any failure.
+    """
+    with _reported_errors():
+        _check_tol(tol)
+        from radsolve.check import check, format_check
+
+        kwargs = dict(charges=(1, 92), masses=(1.0,), nmax=4) if quick else {}
+        progress = _say if sys.stderr.isatty() else None
+        report = check(tol=tol, progress=progress, **kwargs)
+        typer.echo(format_check(report), nl=False)
+        if not report.passed:
+            raise typer.Exit(EXIT_CHECK_FAILED)
+
+
+@app.command("potentials")
+def potentials_command(
+    name: Annotated[Optional[str], typer.Argument(
+        metavar="NAME", help="show this family in full")] = None,
+    plugins: Annotated[Optional[list[Path]], typer.Option(
+        "--plugins", metavar="DIR", help=PLUGINS_HELP)] = None,
+) -> None:
+    """List the potential families (built-in and plug-ins), or describe one."""
+    with _reported_errors():
+        from radsolve import registry
+
+        dirs = _plugin_dirs(plugins)
+        if name is None:
+            from radsolve.report import families_list
+
+            typer.echo(families_list(registry.discover(dirs)), nl=False)
+        else:
+            # potential() gives the registry's own message (with suggestions) for a bad name.
+            family = registry.potential(name, plugins=dirs).family
+            text = registry.describe(family)
+            typer.echo(text if text.endswith("\n") else text + "\n", nl=False)
+
+
+def _version_callback(value: bool) -> None:
+    if value:
+        from importlib.metadata import PackageNotFoundError, version
+
+        try:
+            typer.echo(f"radsolve {version('radsolve')}")
+        except PackageNotFoundError:
+            typer.echo("radsolve (version unknown: not installed)")
+        raise typer.Exit()
+
+
+@app.callback()
+def _root(
+    version: Annotated[bool, typer.Option(
+        "--version", callback=_version_callback, is_eager=True,
+        help="print the version and exit")] = False,
+) -> None:
+    pass
+
+
+def main(argv: list[str] | None = None) -> None:
+    """Entry point of the ``radsolve`` console script and ``python -m radsolve``."""
+    try:
+        app(args=argv, prog_name="radsolve")
+    except BrokenPipeError:
+        # Output piped into e.g. `head` that closed early: not an error of ours.
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+        sys.exit(0)
