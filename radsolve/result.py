@@ -1,0 +1,213 @@
+"""What a solve returns: :class:`Level` and :class:`SolveResult`.
+
+All energies here are in hartree and all lengths in bohr; conversion to other
+units happens only in :meth:`SolveResult.to_dict` and in the command line.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+SPECTROSCOPIC_LETTERS = "spdfghiklmnoqrtuvwxyz"  # j is skipped by convention
+
+
+def orbital_letter(l: int) -> str:
+    """Spectroscopic letter of orbital angular momentum ``l`` (s, p, d, f, g, h, i, k, ...)."""
+    if l < len(SPECTROSCOPIC_LETTERS):
+        return SPECTROSCOPIC_LETTERS[l]
+    return f"[l={l}]"
+
+
+def level_label(n: int, l: int) -> str:
+    """Spectroscopic label such as ``"3d"`` for principal number ``n`` and ``l``."""
+    return f"{n}{orbital_letter(l)}"
+
+
+@dataclass(frozen=True)
+class GridSample:
+    """One wavefunction on one grid of the refinement sequence.
+
+    Attributes
+    ----------
+    step : float
+        Uniform step ``h`` of the mapping variable x of this grid.
+    r : ndarray
+        Radii of the grid points, bohr.
+    weights : ndarray
+        Quadrature weights, bohr, so that ``sum(weights * f(r))`` approximates
+        the integral of f over r (trapezoid rule in x, which is spectrally
+        accurate for the decaying integrands met here).
+    u : ndarray
+        Reduced radial function u(r) = r R(r) at ``r``, normalized so that
+        ``sum(weights * u**2) == 1``, positive near the origin; bohr**-1/2.
+    energy : float
+        The energy on this grid before extrapolation, hartree.
+    """
+
+    step: float
+    r: np.ndarray
+    weights: np.ndarray
+    u: np.ndarray
+    energy: float
+
+
+@dataclass
+class Level:
+    """One bound level.
+
+    Attributes
+    ----------
+    n, l, nodes : int
+        Principal number n = nodes + l + 1, orbital angular momentum, number
+        of interior zeros of u.
+    label : str
+        Spectroscopic label, e.g. ``"2p"``.
+    energy : float
+        Best energy estimate (Richardson-extrapolated), hartree.
+    error_estimate : float
+        Estimated absolute error of ``energy``, hartree (non-negative).
+    converged : bool
+        Whether ``error_estimate <= tol * |energy|`` was reached.
+    method : str
+        ``"fd"``, ``"numerov"`` or ``"both"``.
+    order : float or None
+        Observed order of convergence in the grid step (None if fewer than
+        three grids were used).
+    samples : tuple of GridSample
+        The state on each grid of the refinement sequence, coarsest first.
+        ``samples[-1]`` is the finest; observables extrapolate across them.
+    exact : float or None
+        The exact energy, hartree, when the potential knows it (pure Coulomb,
+        harmonic, ...).
+    method_energies : dict
+        For ``method="both"``: each method's own energy, hartree.
+    """
+
+    n: int
+    l: int
+    nodes: int
+    label: str
+    energy: float
+    error_estimate: float
+    converged: bool
+    method: str
+    order: float | None = None
+    samples: tuple[GridSample, ...] = ()
+    exact: float | None = None
+    method_energies: dict[str, float] = field(default_factory=dict)
+    method_errors: dict[str, float] = field(default_factory=dict)
+
+    @property
+    def r(self) -> np.ndarray:
+        """Radii of the finest grid, bohr."""
+        return self.samples[-1].r
+
+    @property
+    def u(self) -> np.ndarray:
+        """Normalized u(r) on the finest grid, bohr**-1/2, positive near r = 0."""
+        return self.samples[-1].u
+
+    @property
+    def R(self) -> np.ndarray:
+        """Radial function R(r) = u(r)/r on the finest grid, bohr**-3/2."""
+        return self.samples[-1].u / self.samples[-1].r
+
+    @property
+    def deviation(self) -> float | None:
+        """``energy - exact`` in hartree, when the exact value is known."""
+        return None if self.exact is None else self.energy - self.exact
+
+    @property
+    def relative_error_estimate(self) -> float:
+        """``error_estimate / |energy|``."""
+        return self.error_estimate / abs(self.energy) if self.energy else float("inf")
+
+    def to_dict(self, unit_factor: float = 1.0) -> dict[str, Any]:
+        """Plain-data view; energies divided by ``unit_factor`` (hartree per unit)."""
+        out: dict[str, Any] = {
+            "n": self.n,
+            "l": self.l,
+            "nodes": self.nodes,
+            "label": self.label,
+            "energy": self.energy / unit_factor,
+            "error_estimate": self.error_estimate / unit_factor,
+            "converged": bool(self.converged),
+        }
+        if self.exact is not None:
+            out["exact"] = self.exact / unit_factor
+            out["deviation"] = (self.energy - self.exact) / unit_factor
+        if self.method_energies:
+            out["method_energies"] = {k: v / unit_factor for k, v in self.method_energies.items()}
+        return out
+
+
+@dataclass
+class SolveResult:
+    """The bound levels of one potential, as returned by :func:`radsolve.solve`.
+
+    Attributes
+    ----------
+    levels : list of Level
+        Sorted by l, then by n.
+    success : bool
+        True when every returned level converged to ``tol``.
+    message : str
+        Human-readable summary: how many levels are bound per l when fewer than
+        asked, which levels did not converge, or that nothing is bound.
+    potential : Potential
+        The potential solved.
+    mass : float
+        Reduced mass, electron masses.
+    tol : float
+        Target relative error of each energy.
+    method : str
+        Method used.
+    bound_counts : dict
+        For each l asked, the number of bound levels found on the final box
+        when fewer than ``count`` are bound; ``None`` when at least ``count``
+        exist (their total was not needed).
+    v_infinity : float
+        The continuum threshold lim V(r), r -> inf, hartree (inf if confining).
+    """
+
+    levels: list[Level]
+    success: bool
+    message: str
+    potential: Any
+    mass: float
+    tol: float
+    method: str
+    bound_counts: dict[int, int | None]
+    v_infinity: float
+
+    def level(self, label: str) -> Level:
+        """The level with spectroscopic ``label`` (e.g. ``"2p"``); KeyError if absent."""
+        for lev in self.levels:
+            if lev.label == label:
+                return lev
+        raise KeyError(label)
+
+    @property
+    def energies(self) -> np.ndarray:
+        """Energies of ``levels`` in order, hartree."""
+        return np.array([lev.energy for lev in self.levels])
+
+    def to_dict(self, unit: str = "hartree") -> dict[str, Any]:
+        """The JSON document of the command line, energies in ``unit``."""
+        from .units import energy_unit_factor
+
+        factor = energy_unit_factor(unit)
+        return {
+            "potential": self.potential.name,
+            "parameters": dict(self.potential.parameters),
+            "mass": self.mass,
+            "unit": unit,
+            "method": self.method,
+            "tol": self.tol,
+            "success": bool(self.success),
+            "message": self.message,
+            "levels": [lev.to_dict(factor) for lev in self.levels],
+        }

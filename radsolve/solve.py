@@ -1,0 +1,377 @@
+"""The front door: :func:`solve` finds the bound levels of a central potential.
+
+For every method the same plan is followed:
+
+1. probe the potential (:mod:`radsolve.probe`): threshold V(inf), small-r law
+   (refusing a fall to the centre), inner length, range, breakpoints;
+2. choose the box on a coarse grid: grow it until the levels asked for are
+   bound in it (or until it is far larger than the range of V, so that no
+   further level can appear), then set the outer radius where the weakest
+   level asked for has decayed (WKB) well below ``tol``;
+3. solve on a sequence of nested grids, halving the step, Richardson-
+   extrapolate each level, and stop when every estimated error meets
+   ``tol`` (or the finest affordable grid is reached: the level is then
+   returned with ``converged=False`` and its achieved estimate).
+
+Levels are identified by their node count (Sturm count), so n and the label
+are exact, and the k-th level can be neither missed nor duplicated.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Iterable
+
+import numpy as np
+
+from . import probe as probing
+from .errors import InputError
+from .grids import GridSpan
+from .result import GridSample, Level, SolveResult, level_label
+from .solvers.base import METHODS, RadialSolver, solver_class
+
+#: Step in x of the coarsest grid of the refinement sequence.
+COARSE_STEP = 0.1
+#: Step of the grid used to choose the box.
+PLANNING_STEP = 0.2
+#: The finest grid allowed: this many halvings of COARSE_STEP.
+MAX_REFINEMENTS = 7
+#: Never use more points than this on one grid.
+MAX_POINTS = 400_000
+#: Initial box, in units of the inner length of the potential.
+_INITIAL_BOX = 30.0
+#: Largest box, in units of the inner length, for potentials of infinite range.
+_LARGEST_BOX = 1e10
+#: A short-range potential is followed out to this multiple of its range.
+_RANGE_MARGIN = 20.0
+
+
+@dataclass(frozen=True)
+class _BoxPlan:
+    span: GridSpan
+    inner_radius: dict[int, float]
+    wanted: dict[int, int]
+    bound_counts: dict[int, int | None]
+    notes: tuple[str, ...]
+
+
+def _validate(l, count, tol, method) -> tuple[list[int], int, float, list[str]]:
+    if isinstance(l, (int, np.integer)) and not isinstance(l, bool):
+        ls = [int(l)]
+    elif isinstance(l, Iterable) and not isinstance(l, (str, bytes)):
+        ls = []
+        for item in l:
+            if not isinstance(item, (int, np.integer)) or isinstance(item, bool):
+                raise InputError(f"l must be a whole number >= 0 (got {item!r})")
+            ls.append(int(item))
+        if not ls:
+            raise InputError("l: at least one angular momentum is needed")
+    else:
+        raise InputError(f"l must be a whole number >= 0 or a list of them (got {l!r})")
+    for value in ls:
+        if value < 0:
+            raise InputError(f"l must be >= 0 (got {value})")
+        if value > 200:
+            raise InputError(f"l must be <= 200 (got {value})")
+    ls = sorted(set(ls))
+    if not isinstance(count, (int, np.integer)) or isinstance(count, bool) or count < 1:
+        raise InputError(f"count must be a whole number >= 1 (got {count!r})")
+    if count > 1000:
+        raise InputError(f"count must be <= 1000 levels per l (got {count})")
+    try:
+        tol = float(tol)
+    except (TypeError, ValueError):
+        raise InputError(f"tol must be a number between 1e-14 and 0.1 (got {tol!r})") from None
+    if not (1e-14 <= tol <= 0.1):
+        raise InputError(f"tol must be between 1e-14 and 0.1 (got {tol!r})")
+    if method == "both":
+        methods = list(METHODS)
+    elif method in METHODS:
+        methods = [method]
+    else:
+        raise InputError(f"unknown method {method!r}; allowed: {', '.join(list(METHODS) + ['both'])}")
+    return ls, int(count), tol, methods
+
+
+def _resolve_potential(potential, plugins):
+    if isinstance(potential, str):
+        from .registry import potential as make_potential
+
+        return make_potential(potential, plugins=plugins)
+    if not callable(potential) or not hasattr(potential, "parameters"):
+        raise InputError(f"potential must be a family name or a radsolve Potential (got {type(potential).__name__})")
+    return potential
+
+
+def _resolve_mass(mass) -> float:
+    from .units import parse_mass
+
+    return parse_mass(mass)
+
+
+def _inner_index(span: GridSpan, refinement: int, radius: float, coarse_r: np.ndarray) -> int:
+    """Index on grid ``refinement`` of the coarse-grid point just below ``radius``."""
+    i0 = int(np.searchsorted(coarse_r, radius, side="right")) - 1
+    return max(i0, 0) * 2**refinement
+
+
+def _spectrum_on(grid, values, l, mass, inner, cls: type[RadialSolver], v_inf, count, guesses=None):
+    solver = cls(grid, values, l, mass, inner)
+    if math.isinf(v_inf):
+        available = count
+    else:
+        available = min(count, solver.count_below(v_inf))
+    indices = list(range(available))
+    if not indices:
+        return np.zeros(0), np.zeros((0, grid.size)), 0
+    energies, u = solver.levels(indices, guesses=None if guesses is None else guesses[:available])
+    return energies, u, available
+
+
+def _plan_box(pot, prof, ls, count, mass, tol, cls) -> _BoxPlan:
+    """Choose the outer radius and the number of levels to compute per l."""
+    r_in = prof.inner_length
+    inner_radius = {l: prof.inner_cutoff(l, mass, tol) for l in ls}
+    r_min = min(inner_radius.values())
+    anchor = prof.breakpoints[0] if prof.breakpoints else None
+    biggest_feature = max(prof.breakpoints, default=0.0)
+    radius = max(_INITIAL_BOX * r_in, 4.0 * biggest_feature)
+    if math.isfinite(prof.range):
+        limit = max(_RANGE_MARGIN * prof.range, radius)
+    else:
+        limit = _LARGEST_BOX * r_in
+    nepers = 0.5 * math.log(1.0 / (1e-3 * tol)) + 3.0
+    notes: list[str] = []
+    for _ in range(80):
+        scale = radius / max(math.log(radius / r_min), 1.0)
+        span = GridSpan.covering(r_min, radius, PLANNING_STEP, scale, anchor)
+        grid = span.grid(0)
+        values = pot(grid.r)
+        found: dict[int, int] = {}
+        needed = 0.0
+        for l in ls:
+            inner = _inner_index(span, 0, inner_radius[l], grid.r)
+            energies, _, available = _spectrum_on(grid, values, l, mass, inner, cls, prof.v_infinity, count)
+            found[l] = available
+            if available:
+                needed = max(needed, probing.decay_radius(pot, l, mass, float(energies[-1]), r_min, nepers))
+        short = [l for l in ls if found[l] < count]
+        if needed > radius:
+            radius = min(1.3 * needed, max(limit, 1.3 * needed))
+            continue
+        if short and not prof.confining and radius < limit:
+            radius = min(4.0 * radius, limit)
+            continue
+        break
+    else:  # pragma: no cover - the loop above always reaches its limit
+        notes.append("box search did not settle")
+    if short and not prof.confining and not math.isfinite(prof.range) and radius >= limit:
+        notes.append(f"box limit of {radius:.3g} bohr reached")
+    wanted = {l: found[l] for l in ls}
+    bound_counts = {l: (found[l] if found[l] < count else None) for l in ls}
+    final_radius = needed if needed > 0 else radius
+    final_radius = max(final_radius, 2.0 * biggest_feature, 4.0 * r_in)
+    scale = final_radius / max(math.log(final_radius / r_min), 1.0)
+    span = GridSpan.covering(r_min, final_radius, COARSE_STEP, scale, anchor)
+    return _BoxPlan(span, inner_radius, wanted, bound_counts, tuple(notes))
+
+
+def _richardson(energies: list[float], orders: tuple[int, ...]):
+    """Extrapolate energies on grids of steps h, h/2, h/4, ...
+
+    Returns (value, error_estimate, observed_order).
+    """
+    e = np.asarray(energies, dtype=float)
+    k = e.size
+    floor = 64.0 * np.finfo(float).eps * abs(e[-1])
+    if k == 1:
+        return float(e[-1]), math.inf, None
+    observed = None
+    if k >= 3:
+        d1, d2 = abs(e[-3] - e[-2]), abs(e[-2] - e[-1])
+        if d2 > 0 and d1 > 0:
+            observed = math.log2(d1 / d2)
+    table = [list(e)]
+    for j in range(min(k - 1, len(orders))):
+        factor = 2.0 ** orders[j] - 1.0
+        prev = table[-1]
+        table.append([prev[i + 1] + (prev[i + 1] - prev[i]) / factor for i in range(len(prev) - 1)])
+    best = table[-1][-1]
+    estimate = abs(best - table[-2][-1])
+    if len(table[-1]) >= 2:
+        estimate = max(estimate, abs(best - table[-1][-2]))
+    elif len(table) >= 3:
+        estimate = max(estimate, abs(best - table[-2][-2]))
+    regular = observed is None or abs(observed - orders[0]) < 0.7 or abs(e[-2] - e[-1]) < 1e3 * floor
+    if not regular:
+        # The error is not the expected power series (e.g. a non-smooth V):
+        # extrapolate once with the observed order and claim only the size
+        # of that correction.
+        p = min(max(observed, 0.5), float(orders[0]))
+        best = e[-1] + (e[-1] - e[-2]) / (2.0**p - 1.0)
+        estimate = max(abs(best - e[-1]), abs(e[-1] - e[-2]))
+    return float(best), float(max(estimate, floor)), observed
+
+
+def _box_error(grid, u_row, values, l, mass, energy) -> float:
+    """First-order energy shift (hartree) caused by the outer wall (Hadamard formula)."""
+    r = grid.r
+    du = u_row[-2] / (r[-1] - r[-2])
+    v_eff = values[-2] + l * (l + 1) / (2.0 * mass * r[-2] ** 2)
+    kappa = math.sqrt(max(2.0 * mass * (v_eff - energy), 1e-300))
+    return float(du * du / (2.0 * mass) / (2.0 * kappa))
+
+
+def _run_method(pot, plan: _BoxPlan, ls, mass, tol, cls: type[RadialSolver], v_inf):
+    """Solve on nested grids until every level meets tol.  Returns {l: [level dicts]}."""
+    span = plan.span
+    coarse_r = span.grid(0).r
+    history: dict[int, list[tuple]] = {l: [] for l in ls}
+    results: dict[int, list[dict]] = {}
+    for refinement in range(MAX_REFINEMENTS + 1):
+        grid = span.grid(refinement)
+        if grid.size > MAX_POINTS:
+            break
+        values = pot(grid.r)
+        all_met = True
+        for l in ls:
+            want = plan.wanted[l]
+            if want == 0:
+                continue
+            inner = _inner_index(span, refinement, plan.inner_radius[l], coarse_r)
+            guesses = [h[0] for h in history[l][-1]] if history[l] else None
+            energies, u, available = _spectrum_on(grid, values, l, mass, inner, cls, math.inf, want, guesses)
+            history[l].append([(float(energies[k]), u[k], grid) for k in range(want)])
+            levels = []
+            for k in range(want):
+                series = [step[k][0] for step in history[l]]
+                value, estimate, observed = _richardson(series, cls.error_orders)
+                estimate += _box_error(grid, u[k], values, l, mass, value)
+                scale = abs(value) if math.isinf(v_inf) else max(abs(value), abs(value - v_inf))
+                met = len(series) >= 3 and estimate <= tol * scale
+                all_met &= met
+                levels.append(dict(nodes=k, energy=value, error=estimate, order=observed, converged=met))
+            results[l] = levels
+        if refinement >= 2 and all_met:
+            break
+    samples = {
+        l: [
+            tuple(GridSample(step=g.step, r=g.r, weights=g.weights, u=uk, energy=e) for (e, uk, g) in (step[k] for step in history[l]))
+            for k in range(plan.wanted[l])
+        ]
+        for l in ls
+    }
+    return results, samples
+
+
+def solve(potential, l=0, count: int = 5, mass=1.0, tol: float = 1e-10, method: str = "fd", plugins=None) -> SolveResult:
+    """Bound levels of a particle in a central potential.
+
+    Parameters
+    ----------
+    potential : Potential or str
+        A potential from :func:`radsolve.potential`, or a family name (then
+        with its default parameters).
+    l : int or sequence of int
+        Orbital angular momenta to solve for.
+    count : int
+        Number of lowest levels wanted for each l.  When fewer are bound, the
+        bound ones are returned and ``result.bound_counts`` says how many.
+    mass : float or str
+        Reduced mass in electron masses, or particles joined by ``+``
+        (``"electron+proton"``), whose reduced mass is used.
+    tol : float
+        Target relative error of each energy (1e-14 ... 0.1).
+    method : str
+        ``"fd"`` (finite differences), ``"numerov"`` (Numerov shooting) or
+        ``"both"`` (both run; their disagreement is folded into the error
+        estimate).
+    plugins : sequence of path, optional
+        Extra folders of potential plug-ins (when ``potential`` is a name).
+
+    Returns
+    -------
+    SolveResult
+        ``.levels`` with energies in hartree, each with ``error_estimate``
+        and ``converged``; ``.success`` and ``.message``.
+
+    Raises
+    ------
+    InputError, PluginError, UnboundedBelowError
+        For bad input or a potential that collapses into the origin.
+    """
+    ls, count, tol, methods = _validate(l, count, tol, method)
+    pot = _resolve_potential(potential, plugins)
+    mu = _resolve_mass(mass)
+    prof = probing.profile(pot, mu)
+    for value in ls:
+        prof.check_bounded_below(value, mu)
+
+    plan = _plan_box(pot, prof, ls, count, mu, tol, solver_class(methods[0]))
+    runs = {m: _run_method(pot, plan, ls, mu, tol, solver_class(m), prof.v_infinity) for m in methods}
+
+    levels: list[Level] = []
+    for value in ls:
+        for k in range(plan.wanted[value]):
+            per = {m: runs[m][0][value][k] for m in methods}
+            n = k + value + 1
+            best_method = min(methods, key=lambda m: per[m]["error"])
+            best = per[best_method]
+            energy, error = best["energy"], best["error"]
+            if len(methods) > 1:
+                spread = max(p["energy"] for p in per.values()) - min(p["energy"] for p in per.values())
+                error = max(max(p["error"] for p in per.values()), spread)
+            scale = abs(energy) if math.isinf(prof.v_infinity) else max(abs(energy), abs(energy - prof.v_infinity))
+            converged = all(p["converged"] for p in per.values()) and error <= tol * scale
+            exact = pot.exact_energy(n, value, mu)
+            levels.append(
+                Level(
+                    n=n,
+                    l=value,
+                    nodes=k,
+                    label=level_label(n, value),
+                    energy=energy,
+                    error_estimate=error,
+                    converged=bool(converged),
+                    method=method,
+                    order=best["order"],
+                    samples=runs[best_method][1][value][k],
+                    exact=None if exact is None else float(exact),
+                    method_energies={m: per[m]["energy"] for m in methods} if len(methods) > 1 else {},
+                    method_errors={m: per[m]["error"] for m in methods} if len(methods) > 1 else {},
+                )
+            )
+
+    message_parts = []
+    for value in ls:
+        found = plan.wanted[value]
+        if found == 0:
+            message_parts.append(f"no bound level for l = {value}")
+        elif plan.bound_counts[value] is not None:
+            message_parts.append(f"only {found} bound level{'s' if found != 1 else ''} for l = {value} (asked {count})")
+    if any(plan.bound_counts[v] is not None for v in ls) and not prof.confining:
+        message_parts.append(
+            f"bound means below V(inf) = {prof.v_infinity:.6g} hartree; levels bound by less than "
+            f"~{math.pi**2 / (2 * mu * plan.span.r_max**2):.2g} hartree would need a larger box"
+        )
+    unconverged = [lev for lev in levels if not lev.converged]
+    if unconverged:
+        worst = ", ".join(f"{lev.label} ({lev.relative_error_estimate:.1e})" for lev in unconverged[:8])
+        message_parts.append(f"NOT CONVERGED to tol = {tol:.1e}: {worst}; their estimates are what was achieved")
+    message_parts.extend(plan.notes)
+    if not levels:
+        message = "no bound state: " + "; ".join(message_parts)
+    else:
+        message = "; ".join(message_parts) if message_parts else f"all {len(levels)} levels converged to tol = {tol:.1e}"
+    return SolveResult(
+        levels=levels,
+        success=not unconverged,
+        message=message,
+        potential=pot,
+        mass=mu,
+        tol=tol,
+        method=method,
+        bound_counts={v: plan.bound_counts[v] for v in ls},
+        v_infinity=prof.v_infinity,
+    )

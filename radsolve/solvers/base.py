@@ -1,0 +1,116 @@
+"""The interface every bound-state method implements, and the method registry.
+
+A method sees one grid at a time.  It is handed the Liouville coefficients of
+the transformed radial equation (see :mod:`radsolve.grids`)
+
+    -1/(2 mu) w'' + q w = E b w,   w = 0 at the boundary points,
+
+and answers two questions: how many levels lie below an energy (its own node
+or Sturm count), and what are the energies and normalized wavefunctions of
+the levels with given node numbers.  Choosing grids, refining them,
+extrapolating and labelling are done once for all methods in
+:mod:`radsolve.solve`.
+
+Adding a method: write ``radsolve/solvers/mymethod.py`` with a subclass of
+:class:`RadialSolver` and add ``"mymethod": "radsolve.solvers.mymethod:MyClass"``
+to :data:`METHODS`.
+"""
+
+from __future__ import annotations
+
+import importlib
+from typing import Sequence
+
+import numpy as np
+
+from ..errors import InputError
+from ..grids import RadialGrid
+
+#: Method name -> "module:Class", imported on first use.
+METHODS: dict[str, str] = {
+    "fd": "radsolve.solvers.fd:FiniteDifference",
+    "numerov": "radsolve.solvers.numerov:NumerovShooting",
+}
+
+
+def solver_class(method: str) -> type["RadialSolver"]:
+    """The RadialSolver subclass registered as ``method``."""
+    try:
+        target = METHODS[method]
+    except KeyError:
+        raise InputError(f"unknown method {method!r}; allowed: {', '.join(sorted(METHODS))} or 'both'") from None
+    module_name, class_name = target.split(":")
+    return getattr(importlib.import_module(module_name), class_name)
+
+
+class RadialSolver:
+    """Base class of the bound-state methods.
+
+    Parameters
+    ----------
+    grid : RadialGrid
+        The grid; ``grid.r[inner]`` and ``grid.r[-1]`` are Dirichlet walls.
+    potential_values : ndarray
+        V at ``grid.r``, hartree.
+    l : int
+        Orbital angular momentum.
+    mass : float
+        Reduced mass, electron masses.
+    inner : int
+        Index of the inner wall (points below it are outside the problem).
+
+    Class attributes
+    ----------------
+    name : str
+        Registry name.
+    error_orders : tuple of int
+        Powers of the step h in the asymptotic error expansion of the
+        energies, leading first (used by Richardson extrapolation).
+    """
+
+    name = "base"
+    error_orders: tuple[int, ...] = (2, 4, 6, 8)
+
+    def __init__(self, grid: RadialGrid, potential_values: np.ndarray, l: int, mass: float, inner: int = 0):
+        self.grid = grid
+        self.l = l
+        self.mass = mass
+        self.inner = inner
+        self.b, self.q = grid.liouville_coefficients(potential_values, l, mass)
+
+    def count_below(self, energy: float) -> int:
+        """Number of levels of this discrete problem with energy below ``energy`` (hartree)."""
+        raise NotImplementedError
+
+    def levels(self, indices: Sequence[int], guesses: Sequence[float] | None = None) -> tuple[np.ndarray, np.ndarray]:
+        """Energies (hartree) and wavefunctions of the levels with these node numbers.
+
+        ``guesses`` are this method's own energies for the same levels on the
+        previous, coarser grid (hartree), which a method may use to start its
+        search; they are None on the first grid.
+
+        Returns
+        -------
+        energies : ndarray, shape (k,)
+        u : ndarray, shape (k, grid.size)
+            u(r) = sqrt(dr/dx) w on the whole grid, zero outside the walls,
+            normalized with ``grid.weights`` and positive near the origin.
+        """
+        raise NotImplementedError
+
+    # Shared helpers --------------------------------------------------------
+
+    def to_u(self, w_interior: np.ndarray, start: int) -> np.ndarray:
+        """Embed w (rows) given from grid index ``start`` on, convert to normalized u."""
+        w_interior = np.atleast_2d(w_interior)
+        u = np.zeros((w_interior.shape[0], self.grid.size))
+        stop = start + w_interior.shape[1]
+        u[:, start:stop] = w_interior * np.sqrt(self.grid.jacobian[start:stop])
+        norm = np.sqrt(np.sum(self.grid.weights * u**2, axis=1))
+        u /= norm[:, None]
+        # Sign convention: positive where |u| first exceeds a small fraction of its maximum.
+        for row in u:
+            big = np.nonzero(np.abs(row) > 1e-3 * np.max(np.abs(row)))[0]
+            if big.size and row[big[0]] < 0:
+                row *= -1.0
+        return u
