@@ -89,11 +89,12 @@ class PotentialProfile:
     def inner_cutoff(self, l: int, mass: float, tol: float) -> float:
         """Radius (bohr) below which u(r) may be set to zero for angular momentum l.
 
-        A Dirichlet wall at a shifts a level by about (a/inner_length)**(2 lambda)
-        relative, so a is chosen to make that 1e-2 * tol.
+        With u ~ r**lambda, a Dirichlet wall at a shifts a level by about
+        (a/inner_length)**(2 lambda - 1) relative, so a is chosen to make that
+        1e-3 * tol.
         """
         lam = self.origin_exponent(l, mass)
-        return self.inner_length * (1e-2 * tol) ** (1.0 / (2.0 * lam))
+        return self.inner_length * (1e-3 * tol) ** (1.0 / max(2.0 * lam - 1.0, 0.25))
 
 
 def _values(potential, r):
@@ -185,7 +186,8 @@ def decay_radius(potential, l: int, mass: float, energy: float, start: float, ne
     with kappa = sqrt(2 mu (V_eff - E)).  ``start`` (bohr) is a radius inside
     the classically allowed region (or near the inner scale).
     """
-    r = np.geomspace(max(start, 1e-16), max(start, 1e-16) * 1e12, 4000)
+    first = max(start, 1e-16)
+    r = np.geomspace(first, max(first * 1e12, 1e9), 12000)
     u = effective_potential(potential, l, mass, r) - energy
     allowed = np.nonzero(u < 0)[0]
     i_turn = allowed[-1] if allowed.size else 0

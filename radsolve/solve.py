@@ -223,7 +223,26 @@ def _box_error(grid, u_row, values, l, mass, energy) -> float:
     return float(du * du / (2.0 * mass) / (2.0 * kappa))
 
 
-def _run_method(pot, plan: _BoxPlan, ls, mass, tol, cls: type[RadialSolver], v_inf):
+def _inner_wall_error(grid, u_row, inner, mass, exponent) -> float:
+    """Energy shift (hartree) caused by the inner wall at a = r[inner].
+
+    Below the wall u ~ C r**lambda; the walled solution is
+    C (r**lambda - a**(2 lambda - 1) r**(1 - lambda)), and integrating the
+    Hadamard formula dE/da = u'(a)**2 / (2 mu) from 0 to a gives
+    C**2 (2 lambda - 1) a**(2 lambda - 1) / (2 mu).  C is read off u where
+    it is well above the rounding noise of the eigenvector.
+    """
+    r, a = grid.r, grid.r[inner]
+    peak = np.max(np.abs(u_row))
+    reliable = np.nonzero(np.abs(u_row[inner + 1 :]) > 1e-6 * peak)[0]
+    if reliable.size == 0:
+        return 0.0
+    j = inner + 1 + int(reliable[0])
+    coeff = abs(u_row[j]) / r[j] ** exponent
+    return float(coeff**2 * max(2.0 * exponent - 1.0, 0.25) * a ** (2.0 * exponent - 1.0) / (2.0 * mass))
+
+
+def _run_method(pot, plan: _BoxPlan, ls, mass, tol, cls: type[RadialSolver], prof):
     """Solve on nested grids until every level meets tol.  Returns {l: [level dicts]}."""
     span = plan.span
     coarse_r = span.grid(0).r
@@ -248,6 +267,8 @@ def _run_method(pot, plan: _BoxPlan, ls, mass, tol, cls: type[RadialSolver], v_i
                 series = [step[k][0] for step in history[l]]
                 value, estimate, observed = _richardson(series, cls.error_orders)
                 estimate += _box_error(grid, u[k], values, l, mass, value)
+                estimate += _inner_wall_error(grid, u[k], inner, mass, prof.origin_exponent(l, mass))
+                v_inf = prof.v_infinity
                 scale = abs(value) if math.isinf(v_inf) else max(abs(value), abs(value - v_inf))
                 met = len(series) >= 3 and estimate <= tol * scale
                 all_met &= met
@@ -309,7 +330,7 @@ def solve(potential, l=0, count: int = 5, mass=1.0, tol: float = 1e-10, method: 
         prof.check_bounded_below(value, mu)
 
     plan = _plan_box(pot, prof, ls, count, mu, tol, solver_class(methods[0]))
-    runs = {m: _run_method(pot, plan, ls, mu, tol, solver_class(m), prof.v_infinity) for m in methods}
+    runs = {m: _run_method(pot, plan, ls, mu, tol, solver_class(m), prof) for m in methods}
 
     levels: list[Level] = []
     for value in ls:

@@ -1,0 +1,42 @@
+"""radsolve: bound states of the radial Schrödinger equation in central potentials.
+
+The public API (imported on first use, so that the command line starts fast):
+
+- :func:`potential` — a potential family bound to parameter values;
+- :func:`solve` — the bound levels, with error estimates (``method="fd" | "numerov" | "both"``);
+- :func:`check` — the convergence reporter against exact hydrogen-like levels;
+- :func:`families` — the potential families found (built-in and plug-ins).
+
+All quantities are in atomic units (hartree, bohr, electron masses) unless a
+function says otherwise.
+"""
+
+from importlib import import_module
+
+__version__ = "0.1.0"
+
+_EXPORTS = {
+    "potential": ("radsolve.registry", "potential"),
+    "families": ("radsolve.registry", "families"),
+    "discover": ("radsolve.registry", "discover"),
+    "Parameter": ("radsolve.registry", "Parameter"),
+    "solve": ("radsolve.solve", "solve"),
+    "check": ("radsolve.check", "check"),
+    "SolveResult": ("radsolve.result", "SolveResult"),
+    "Level": ("radsolve.result", "Level"),
+    "RadsolveError": ("radsolve.errors", "RadsolveError"),
+}
+
+__all__ = sorted(_EXPORTS)
+
+
+def __getattr__(name):
+    try:
+        module_name, attr = _EXPORTS[name]
+    except KeyError:
+        raise AttributeError(f"module 'radsolve' has no attribute {name!r}") from None
+    return getattr(import_module(module_name), attr)
+
+
+def __dir__():
+    return sorted(list(globals()) + __all__)
