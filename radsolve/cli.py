@@ -215,7 +215,7 @@ def levels_command(
     warning goes to stderr and the exit status is 3.
     """
     with _reported_errors():
-        from radsolve.errors import InputError
+        from radsolve.errors import InputError, RadsolveError
 
         params = parse_assignments(param)
         ls = _l_values(l, lmax)
@@ -228,12 +228,20 @@ def levels_command(
             raise InputError(f"--out {str(out)!r}: folder {str(out.parent)!r} does not exist")
 
         from radsolve.registry import potential
+
+        pot = potential(name, plugins=_plugin_dirs(plugins), **params)
+
         from radsolve.report import render
         from radsolve.solve import solve
 
-        pot = potential(name, plugins=_plugin_dirs(plugins), **params)
-        result = solve(pot, l=ls if len(ls) > 1 else ls[0], count=count, mass=mu,
-                       tol=tol, method=method.value)
+        try:
+            result = solve(pot, l=ls if len(ls) > 1 else ls[0], count=count, mass=mu,
+                           tol=tol, method=method.value)
+        except RadsolveError as exc:
+            if repr(pot.name) in str(exc):
+                raise
+            # Say which potential the solver's complaint is about.
+            raise type(exc)(f"potential {pot.name!r}: {exc}") from None
         text = render(result, unit, fmt.value)
 
         if out is None:
@@ -244,10 +252,10 @@ def levels_command(
             except OSError as exc:
                 raise InputError(f"--out {str(out)!r}: cannot write: {exc.strerror}") from None
             _say(f"wrote {len(result.levels)} levels ({fmt.value}) to {out}")
-            if result.message:
-                _say(result.message)
-        if fmt is not OutputFormat.table and out is None and result.message:
-            _say(result.message)
+        noteworthy = (not result.success or not result.levels
+                      or any(v is not None for v in result.bound_counts.values()))
+        if result.message and noteworthy and (out is not None or fmt is not OutputFormat.table):
+            _say(result.message)  # the table has it already; JSON/CSV readers may not look
 
         unconverged = [lev.label for lev in result.levels if not lev.converged]
         if unconverged:
@@ -302,9 +310,7 @@ def potentials_command(
 
             typer.echo(families_list(registry.discover(dirs)), nl=False)
         else:
-            # potential() gives the registry's own message (with suggestions) for a bad name.
-            family = registry.potential(name, plugins=dirs).family
-            text = registry.describe(family)
+            text = registry.describe(name, plugins=dirs)
             typer.echo(text if text.endswith("\n") else text + "\n", nl=False)
 
 

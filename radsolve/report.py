@@ -138,9 +138,13 @@ def levels_table(result, unit: str = "hartree") -> str:
     rows, has_exact = _level_rows(result, unit)
     factor = _unit_factor(unit)
     pot = result.potential
-    params = ", ".join(f"{k} = {_value_text(v)}" for k, v in dict(pot.parameters).items())
-    lines = _wrap(f"potential {pot.name}" + (f" ({params})" if params else "")
-                  + " -- parameters in atomic units (bohr, hartree)")
+    specs = getattr(getattr(pot, "family", None), "parameters", {})
+    params = []
+    for key, value in dict(pot.parameters).items():
+        p_unit = getattr(specs.get(key), "unit", "") if isinstance(value, (int, float)) else ""
+        params.append(f"{key} = {_value_text(value)}" + (f" {p_unit}" if p_unit else ""))
+    lines = _wrap(f"potential {pot.name}" + (": " + ", ".join(params) if params else "")
+                  + "  (atomic units)")
     settings = (f"reduced mass {result.mass:.10g} electron masses | energies in {unit} | "
                 f"method {result.method} | tol {result.tol:.1e}")
     v_inf = getattr(result, "v_infinity", 0.0)
@@ -152,7 +156,7 @@ def levels_table(result, unit: str = "hartree") -> str:
     if not rows:
         lines.append("no bound level found")
     else:
-        header = ["level", "n", "l", "nodes", f"energy/{unit}", "est.error", "conv"]
+        header = ["level", "n", "l", "nodes", f"energy/{unit}", "est.err", "conv"]
         right = {1, 2, 3, 4, 5}
         if has_exact:
             header += ["exact", "deviation"]
@@ -233,36 +237,18 @@ def render(result, unit: str = "hartree", fmt: str = "table") -> str:
 # ---------------------------------------------------------------- families
 
 
-def _kind_unit(kind: str | None) -> str:
-    return {"length": "bohr", "energy": "hartree", "inverse_length": "1/bohr",
-            "dimensionless": "", "choice": ""}.get(kind or "dimensionless", "")
-
-
 def parameter_text(name: str, param: Any) -> str:
-    """``name = default unit`` for one parameter (a Parameter or a bare default)."""
-    default = getattr(param, "default", param)
-    kind = getattr(param, "kind", None)
-    text = f"{name} = {_value_text(default)}"
-    unit = _kind_unit(kind)
-    if unit:
-        text += f" {unit}"
-    choices = getattr(param, "choices", None)
-    if choices:
-        text += " (one of " + "|".join(str(c) for c in choices) + ")"
-    lo, hi = getattr(param, "minimum", None), getattr(param, "maximum", None)
-    if lo is not None or hi is not None:
-        lo_t = "" if lo is None else f"{_value_text(lo)} <= "
-        hi_t = "" if hi is None else f" <= {_value_text(hi)}"
-        text += f" [{lo_t}{name}{hi_t}]"
-    return text
+    """``name = default unit [range]`` for one :class:`radsolve.registry.Parameter`."""
+    text = f"{name} = {param.default_text()}"
+    rng = param.range_text()
+    return text + (f" [{rng}]" if rng else "")
 
 
 def family_description(family: Any) -> str:
     """The one-line description of a family, or '' if it has none."""
-    desc = getattr(family, "description", None)
-    if not desc:
-        doc = getattr(family, "doc", None) or getattr(family, "__doc__", None) or ""
-        desc = doc.strip().splitlines()[0] if doc.strip() else ""
+    desc = family.description
+    if not desc and family.doc.strip():
+        desc = family.doc.strip().splitlines()[0]
     return str(desc).strip()
 
 
@@ -281,13 +267,12 @@ def families_list(families: dict[str, Any]) -> str:
         fam = families[name]
         desc = family_description(fam)
         lines += _wrap(f"{name}" + (f" -- {desc}" if desc else ""), indent="    ")
-        params = dict(getattr(fam, "parameters", {}) or {})
-        if params:
-            lines += _wrap("    " + "; ".join(parameter_text(k, p) for k, p in params.items()),
-                           indent="    ")
-        else:
+        params = dict(fam.parameters)
+        for key, spec in params.items():
+            desc = f"  -- {spec.description}" if spec.description else ""
+            lines += _wrap(f"    {parameter_text(key, spec)}{desc}", indent="        ")
+        if not params:
             lines.append("    (no parameters)")
-        origin = getattr(fam, "origin", None) or getattr(fam, "source", None)
-        if origin and not str(origin).startswith("radsolve.potentials"):
-            lines += _wrap(f"    from {origin}", indent="    ")
+        if getattr(fam, "origin", "built-in") != "built-in":
+            lines += _wrap(f"    from {fam.source} ({fam.origin})", indent="    ")
     return "\n".join(lines) + "\n"

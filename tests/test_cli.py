@@ -20,7 +20,6 @@ import io
 import json
 import subprocess
 import sys
-import textwrap
 from pathlib import Path
 from types import SimpleNamespace
 
@@ -141,3 +140,215 @@ def test_csv_round_trips_every_digit(exact_levels):
 def test_csv_without_exact_has_no_exact_columns():
     header = report.levels_csv(fake_result([fake_level(1, 0, -0.75)])).splitlines()[0]
     assert header == "n,l,nodes,label,energy,error_estimate,converged,unit"
+
+
+# ---------------------------------------------------------------- end to end
+
+PLUGINS = Path(__file__).parent / "cli_plugins"
+
+
+def levels_json(*args: str, env: dict | None = None) -> dict:
+    result = run("levels", *args, "--format", "json", env=env)
+    assert result.exit_code == 0, (result.stdout, result.stderr)
+    return json.loads(result.stdout)
+
+
+def test_levels_json_schema_and_exact_coulomb_values():
+    doc = levels_json("coulomb", "-p", "Z=2", "--lmax", "1", "--count", "2", "--tol", "1e-8")
+    assert {"potential", "parameters", "mass", "unit", "levels"} <= set(doc)
+    assert doc["potential"] == "coulomb" and doc["parameters"] == {"Z": 2.0}
+    assert doc["mass"] == 1.0 and doc["unit"] == "hartree"
+    assert [lev["label"] for lev in doc["levels"]] == ["1s", "2s", "2p", "3p"]
+    for lev in doc["levels"]:
+        assert set(lev) == {"n", "l", "nodes", "label", "energy", "error_estimate",
+                            "converged", "exact", "deviation"}
+        assert lev["n"] == lev["nodes"] + lev["l"] + 1
+        expected = exact_hydrogenic(lev["n"], 2, 1.0)  # sympy E_nl
+        assert lev["exact"] == pytest.approx(expected, rel=1e-14)
+        assert lev["converged"] is True
+        assert abs(lev["energy"] - expected) <= 1e-8 * abs(expected), lev
+        assert lev["deviation"] == pytest.approx(lev["energy"] - lev["exact"], abs=1e-15)
+
+
+def test_unit_ev_is_hartree_times_codata_factor():
+    args = ("coulomb", "--lmax", "1", "--count", "2", "--tol", "1e-8")
+    in_hartree = levels_json(*args)
+    in_ev = levels_json(*args, "--unit", "eV")
+    assert in_ev["unit"] == "eV"
+    for h, e in zip(in_hartree["levels"], in_ev["levels"]):
+        # CODATA via scipy.constants
+        assert e["energy"] == pytest.approx(h["energy"] / EV_IN_HARTREE, rel=1e-14)
+        assert e["error_estimate"] == pytest.approx(h["error_estimate"] / EV_IN_HARTREE,
+                                                    rel=1e-14)
+        assert e["exact"] == pytest.approx(exact_hydrogenic(h["n"], 1, 1.0) / EV_IN_HARTREE,
+                                           rel=1e-14)
+
+
+def test_reduced_mass_from_particles():
+    # CODATA via scipy.constants: hydrogen reduced mass m_p/(m_e + m_p) in electron masses
+    ratio = physical_constants["proton-electron mass ratio"][0]
+    mu = ratio / (1.0 + ratio)
+    doc = levels_json("coulomb", "--mass", "electron+proton", "--count", "2", "--tol", "1e-8")
+    assert doc["mass"] == pytest.approx(mu, rel=1e-14)
+    for lev in doc["levels"]:
+        expected = exact_hydrogenic(lev["n"], 1, mu)
+        assert abs(lev["energy"] - expected) <= 1e-8 * abs(expected)
+
+
+def test_table_output_end_to_end():
+    result = run("levels", "coulomb", "-p", "Z=92", "--lmax", "2", "--count", "3",
+                 "--tol", "1e-8", "--unit", "eV")
+    assert result.exit_code == 0, result.stderr
+    lines = result.stdout.splitlines()
+    assert max(len(line) for line in lines) <= 80
+    assert lines[0].startswith("potential coulomb: Z = 92")
+    rows = {line.split()[0]: line.split() for line in lines
+            if line[:1].isdigit() and len(line.split()) >= 9}
+    assert list(rows) == ["1s", "2s", "3s", "2p", "3p", "4p", "3d", "4d", "5d"]
+    for label, cells in rows.items():
+        n = int(cells[1])
+        expected = exact_hydrogenic(n, 92, 1.0) / EV_IN_HARTREE  # sympy E_nl, CODATA eV
+        assert float(cells[4]) == pytest.approx(expected, rel=1e-8)  # 12 digits shown
+        assert float(cells[7]) == pytest.approx(expected, rel=1e-11)
+        assert cells[6] == "yes"
+
+
+def test_csv_output_matches_json():
+    args = ("coulomb", "--lmax", "1", "--count", "2", "--tol", "1e-8")
+    doc = levels_json(*args)
+    result = run("levels", *args, "--format", "csv")
+    assert result.exit_code == 0
+    rows = list(csv.DictReader(io.StringIO(result.stdout)))
+    assert len(rows) == len(doc["levels"])
+    for row, lev in zip(rows, doc["levels"]):
+        assert row["label"] == lev["label"] and int(row["nodes"]) == lev["nodes"]
+        assert float(row["energy"]) == lev["energy"]
+        assert float(row["exact"]) == lev["exact"]
+
+
+def test_out_writes_the_file(tmp_path):
+    target = tmp_path / "levels.json"
+    result = run("levels", "coulomb", "--count", "2", "--tol", "1e-8", "-f", "json",
+                 "--out", str(target))
+    assert result.exit_code == 0, result.stderr
+    assert result.stdout == ""
+    assert str(target) in result.stderr
+    doc = json.loads(target.read_text())
+    assert [lev["label"] for lev in doc["levels"]] == ["1s", "2s"]
+
+
+@pytest.mark.parametrize("args, labels", [
+    ([], ["1s", "2s", "3s", "4s", "5s"]),                  # default l = 0, count 5
+    (["--count", "2"], ["1s", "2s"]),
+    (["--lmax", "2", "--count", "1"], ["1s", "2p", "3d"]),
+    (["--l", "3", "--l", "1", "--count", "2"], ["2p", "3p", "4f", "5f"]),
+    (["-l", "1", "-l", "1", "--count", "1"], ["2p"]),    # repeated l counted once
+])
+def test_l_and_count_selection(args, labels):
+    doc = levels_json("coulomb", *args, "--tol", "1e-6")
+    assert [lev["label"] for lev in doc["levels"]] == labels
+    # labels agree with n = nodes + l + 1 and with the exact degenerate levels (sympy)
+    for lev in doc["levels"]:
+        assert lev["energy"] == pytest.approx(exact_hydrogenic(lev["n"], 1, 1.0), rel=1e-6)
+
+
+def test_both_methods_report_each_energy():
+    doc = levels_json("coulomb", "--count", "1", "--tol", "1e-8", "--method", "both")
+    assert doc["method"] == "both"
+    lev = doc["levels"][0]
+    assert set(lev["method_energies"]) == {"fd", "numerov"}
+    for value in lev["method_energies"].values():
+        assert value == pytest.approx(exact_hydrogenic(1, 1, 1.0), rel=1e-8)  # sympy E_nl
+
+
+def test_no_bound_state_exits_zero_with_message():
+    # V = height exp(-r/decay) >= 0 everywhere: a bound level would need E < V(inf) = 0
+    # while E > min V = 0 (textbook bound), so nothing is bound.
+    args = ("levels", "cli_bump", "--plugins", str(PLUGINS / "repulsive"), "--tol", "1e-6")
+    result = run(*args)
+    assert result.exit_code == 0, result.stderr
+    assert "no bound level" in result.stdout
+    result = run(*args, "--format", "json")
+    assert result.exit_code == 0
+    doc = json.loads(result.stdout)
+    assert doc["levels"] == [] and doc["message"]
+    assert doc["message"] in result.stderr  # said on stderr too, for a JSON consumer
+
+
+def test_plugin_potential_can_be_solved():
+    # Any bound level lies between min V = -depth and V(inf) = 0 (textbook bound).
+    doc = levels_json("cli_gauss_dip", "--plugins", str(PLUGINS / "good"),
+                      "-p", "depth=3", "--count", "1", "--tol", "1e-6")
+    assert doc["parameters"] == {"depth": 3.0, "width": 1.5}
+    (lev,) = doc["levels"]
+    assert lev["label"] == "1s" and -3.0 < lev["energy"] < 0.0
+    assert "exact" not in lev
+
+
+def test_non_converged_levels_exit_3_and_are_marked(monkeypatch):
+    # The real solver rarely fails to converge on demand, so a double stands in for it
+    # here: this checks only how the command line reports such a result.
+    import radsolve.solve
+
+    def not_converged(pot, **kwargs):
+        return SolveResult(levels=[fake_level(1, 0, -0.5, err=1e-3, converged=False)],
+                           success=False, message="1s did not converge", potential=pot,
+                           mass=1.0, tol=kwargs["tol"], method="fd", bound_counts={0: None},
+                           v_infinity=0.0)
+
+    monkeypatch.setattr(radsolve.solve, "solve", not_converged)
+    result = run("levels", "coulomb", "--count", "1")
+    assert result.exit_code == 3
+    assert "NO" in result.stdout and "did not converge" in result.stderr
+    assert "1s" in result.stderr
+
+
+def test_potentials_lists_builtins_and_plugins():
+    result = run("potentials")
+    assert result.exit_code == 0
+    for name in ("coulomb", "yukawa", "harmonic"):
+        assert f"\n{name} -- " in result.stdout
+    assert "cli_gauss_dip" not in result.stdout
+    assert "screening_length = 5 bohr" in result.stdout  # default with its unit
+
+    result = run("potentials", "--plugins", str(PLUGINS / "good"))
+    assert "cli_gauss_dip -- Gaussian dip" in result.stdout
+    assert "width = 1.5 bohr" in result.stdout
+
+    result = run("potentials", env={"RADSOLVE_PLUGINS": str(PLUGINS / "envdir")})
+    assert result.exit_code == 0
+    assert "cli_env_dip" in result.stdout and "RADSOLVE_PLUGINS" in result.stdout
+
+
+def test_potentials_name_shows_the_docstring():
+    import radsolve.potentials.coulomb as coulomb
+
+    result = run("potentials", "coulomb")
+    assert result.exit_code == 0
+    assert coulomb.__doc__.strip().splitlines()[0] in result.stdout
+    assert "V(r) = -Z/r" in result.stdout
+
+    result = run("potentials", "cli_gauss_dip", "--plugins", str(PLUGINS / "good"))
+    assert result.exit_code == 0
+    assert "depth in hartree, width in bohr" in result.stdout  # from its docstring
+
+
+def test_python_dash_m_and_help():
+    proc = subprocess.run([sys.executable, "-m", "radsolve", "--help"],
+                          capture_output=True, text=True, timeout=60)
+    assert proc.returncode == 0
+    for command in ("levels", "check", "potentials"):
+        assert command in proc.stdout
+    assert "Exit status" in proc.stdout
+    proc = subprocess.run([sys.executable, "-m", "radsolve", "levels", "coulomb", "--count", "1",
+                           "--tol", "1e-8", "--format", "json"],
+                          capture_output=True, text=True, timeout=120)
+    assert proc.returncode == 0, proc.stderr
+    (lev,) = json.loads(proc.stdout)["levels"]
+    assert lev["energy"] == pytest.approx(exact_hydrogenic(1, 1, 1.0), rel=1e-8)  # sympy
+
+
+def test_levels_help_documents_exit_status_for_non_convergence():
+    result = run("levels", "--help")
+    assert result.exit_code == 0
+    assert "exit status is 3" in " ".join(result.stdout.split())

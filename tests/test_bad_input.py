@@ -1,0 +1,193 @@
+"""Bad input on the command line: a clear one-line message and exit status 2.
+
+Every case checks three things: the exit status is 2, the message on stderr
+names the offending input (and, where there is a short list, what is
+allowed), and there is no traceback.  A few cases run in a real process
+(``python -m radsolve``) so that nothing is hidden by the in-process runner.
+
+The fall-to-the-centre case uses V = -g/r^2 with g = 1, mu = 1, l = 0:
+the Hamiltonian is unbounded below when 2 mu g > (l + 1/2)^2 (textbook
+result, e.g. Landau & Lifshitz, Quantum Mechanics, section 35).
+"""
+
+from __future__ import annotations
+
+import os
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+from typer.testing import CliRunner
+
+from radsolve.cli import app
+
+PLUGINS = Path(__file__).parent / "cli_plugins"
+runner = CliRunner()
+
+
+def run(args, env=None):
+    return runner.invoke(app, [str(a) for a in args], env=env)
+
+
+def assert_clean_failure(result, *words, status=2):
+    """Exit ``status``, every word on stderr, no traceback anywhere."""
+    assert result.exit_code == status, (result.exit_code, result.stdout, result.stderr,
+                                        result.exception)
+    assert "Traceback" not in result.stdout + result.stderr
+    # An uncaught exception inside the runner would show up here.
+    assert result.exception is None or isinstance(result.exception, SystemExit)
+    for word in words:
+        assert word in result.stderr, (word, result.stderr)
+    assert result.stdout == ""  # nothing that could be mistaken for a result
+
+
+# -------------------------------------------------------------- our own checks
+# Messages raised as RadsolveError: exactly one line "radsolve: error: ...".
+
+RADSOLVE_ERRORS = [
+    # malformed -p
+    (["coulomb", "-p", "Z"], ["-p", "'Z'", "KEY=VALUE"]),
+    (["coulomb", "-p", "=2"], ["-p", "'=2'", "name"]),
+    (["coulomb", "-p", "Z="], ["-p", "'Z'", "value"]),
+    (["coulomb", "-p", "Z=1", "-p", "Z=2"], ["'Z'", "twice"]),
+    # values the parameter does not accept
+    (["coulomb", "-p", "Z=abc"], ["'Z'", "abc"]),
+    (["coulomb", "-p", "Z=nan"], ["'Z'", "nan"]),
+    (["coulomb", "-p", "Z=inf"], ["'Z'", "inf"]),
+    (["coulomb", "-p", "Z=-1"], ["'Z'", "> 0"]),
+    (["yukawa", "-p", "screening_length=-2"], ["'screening_length'", "> 0"]),
+    (["yukawa", "-p", "screening_length=0.5angstrom", "-p", "Z=1e999"], ["'Z'", "finite"]),
+    (["yukawa", "-p", "screening_length=3eV"], ["'screening_length'", "eV", "angstrom"]),
+    # unknown names, with a near-name suggestion
+    (["yukawwa"], ["'yukawwa'", "did you mean 'yukawa'"]),
+    (["yukawa", "-p", "screening=2"], ["'screening'", "did you mean 'screening_length'"]),
+    # mass
+    (["coulomb", "--mass", "-1"], ["--mass", "positive"]),
+    (["coulomb", "--mass", "0"], ["--mass", "positive"]),
+    (["coulomb", "--mass", "nan"], ["--mass", "nan"]),
+    (["coulomb", "--mass", "inf"], ["--mass", "inf"]),
+    (["coulomb", "--mass", "muonn+proton"], ["--mass", "'muonn'", "'muon'"]),
+    (["coulomb", "--mass", "electron+"], ["--mass", "empty"]),
+    # unit, tolerance, l options
+    (["coulomb", "--unit", "kcal"], ["--unit", "'kcal'", "hartree", "eV", "cm-1"]),
+    (["coulomb", "--tol", "0"], ["--tol", "0 < tol < 1"]),
+    (["coulomb", "--tol", "1"], ["--tol", "0 < tol < 1"]),
+    (["coulomb", "--tol", "-1e-8"], ["--tol", "0 < tol < 1"]),
+    (["coulomb", "--tol", "2"], ["--tol", "0 < tol < 1"]),
+    (["coulomb", "--tol", "nan"], ["--tol", "0 < tol < 1"]),
+    (["coulomb", "--tol", "inf"], ["--tol", "0 < tol < 1"]),
+    (["coulomb", "--l", "1", "--lmax", "2"], ["--l", "--lmax"]),
+    # files and folders
+    (["coulomb", "--plugins", "/nonexistent/radsolve-plugins"], ["/nonexistent/radsolve-plugins"]),
+    (["coulomb", "--out", "/nonexistent/folder/levels.json"], ["--out", "/nonexistent/folder"]),
+]
+
+
+@pytest.mark.parametrize("args, words", RADSOLVE_ERRORS, ids=lambda a: " ".join(map(str, a)))
+def test_levels_rejects(args, words):
+    result = run(["levels", *args])
+    assert_clean_failure(result, *words)
+    lines = result.stderr.strip().splitlines()
+    assert len(lines) == 1 and lines[0].startswith("radsolve: error: "), result.stderr
+
+
+# ------------------------------------------------- usage errors from typer/click
+
+USAGE_ERRORS = [
+    (["levels", "coulomb", "--method", "rk4"], ["--method", "rk4", "numerov"]),
+    (["levels", "coulomb", "--format", "xml"], ["--format", "xml", "json"]),
+    (["levels", "coulomb", "--l", "-1"], ["--l"]),
+    (["levels", "coulomb", "--l", "one"], ["--l", "integer"]),
+    (["levels", "coulomb", "--lmax", "-1"], ["--lmax"]),
+    (["levels", "coulomb", "--count", "0"], ["--count"]),
+    (["levels", "coulomb", "--count", "two"], ["--count"]),
+    (["levels", "coulomb", "--tol", "small"], ["--tol", "number"]),
+    (["levels", "coulomb", "--no-such-option"], ["--no-such-option"]),
+    (["levels"], ["NAME"]),
+    (["no-such-command"], ["no-such-command"]),
+    (["check", "--tol", "x"], ["--tol"]),
+]
+
+
+@pytest.mark.parametrize("args, words", USAGE_ERRORS, ids=lambda a: " ".join(map(str, a)))
+def test_usage_errors(args, words):
+    assert_clean_failure(run(args), *words)
+
+
+@pytest.mark.parametrize("tol", ["0", "1", "nan"])
+def test_check_rejects_bad_tol(tol):
+    assert_clean_failure(run(["check", "--quick", "--tol", tol]), "--tol", "0 < tol < 1")
+
+
+def test_potentials_unknown_name_suggests():
+    assert_clean_failure(run(["potentials", "yukawwa"]), "'yukawwa'", "did you mean 'yukawa'")
+
+
+# ---------------------------------------------------------------- bad plug-ins
+
+
+def test_plugin_that_fails_to_import_names_file_and_cause():
+    folder = PLUGINS / "broken_import"
+    for args in (["potentials", "--plugins", folder],
+                 ["levels", "coulomb", "--plugins", folder]):
+        assert_clean_failure(run(args), "cli_broken.py", "radsolve_no_such_module_for_tests")
+
+
+def test_broken_plugin_through_environment_variable():
+    env = {"RADSOLVE_PLUGINS": str(PLUGINS / "broken_import")}
+    assert_clean_failure(run(["potentials"], env=env), "cli_broken.py")
+
+
+BAD_PLUGINS = [
+    ("nan_v", "cli_nan_tail", ["nan"]),
+    ("complex_v", "cli_complex", ["complex"]),
+    ("wrong_shape", "cli_wrong_shape", ["shape"]),
+    ("raises", "cli_raises", ["ZeroDivisionError", "deliberate failure"]),
+]
+
+
+@pytest.mark.parametrize("folder, name, words", BAD_PLUGINS, ids=[b[1] for b in BAD_PLUGINS])
+def test_plugin_returning_unusable_values(folder, name, words):
+    result = run(["levels", name, "--plugins", PLUGINS / folder, "--count", "1", "--tol", "1e-6"])
+    assert_clean_failure(result, name, *words)
+
+
+def test_fall_to_the_centre_is_refused():
+    # 2 mu g = 2 > (l + 1/2)^2 = 1/4 (textbook result): no ground state exists.
+    result = run(["levels", "cli_inverse_square", "--plugins", PLUGINS / "inverse_square",
+                  "--count", "1", "--tol", "1e-6"])
+    assert_clean_failure(result, "cli_inverse_square")
+    assert any(w in result.stderr.lower() for w in ("fall", "unbounded", "no ground state"))
+
+
+# ----------------------------------------------------------- in a real process
+
+
+def run_process(*args, env_extra=None):
+    env = dict(os.environ)
+    env.pop("RADSOLVE_PLUGINS", None)
+    env.pop("RADSOLVE_TRACEBACK", None)
+    env.update(env_extra or {})
+    return subprocess.run([sys.executable, "-m", "radsolve", *map(str, args)],
+                          capture_output=True, text=True, env=env, timeout=120)
+
+
+@pytest.mark.parametrize("args, words", [
+    (["levels", "coulomb", "-p", "Z"], ["-p", "KEY=VALUE"]),
+    (["levels", "yukawwa"], ["did you mean 'yukawa'"]),
+    (["levels", "coulomb", "--count", "0"], ["--count"]),
+    (["levels", "cli_nan_tail", "--plugins", PLUGINS / "nan_v", "--count", "1"],
+     ["cli_nan_tail", "nan"]),
+    (["levels", "cli_inverse_square", "--plugins", PLUGINS / "inverse_square", "--count", "1"],
+     ["cli_inverse_square"]),
+    (["potentials", "--plugins", PLUGINS / "broken_import"], ["cli_broken.py"]),
+], ids=["malformed -p", "unknown potential", "count 0", "NaN plug-in", "fall to centre",
+        "broken plug-in"])
+def test_real_process_has_no_traceback(args, words):
+    proc = run_process(*args)
+    assert proc.returncode == 2, (proc.returncode, proc.stderr)
+    assert "Traceback" not in proc.stdout + proc.stderr
+    assert proc.stdout == ""
+    for word in words:
+        assert word in proc.stderr, (word, proc.stderr)
