@@ -20,7 +20,7 @@ _EXPORTS = {
     "families": ("radsolve.registry", "families"),
     "discover": ("radsolve.registry", "discover"),
     "Parameter": ("radsolve.registry", "Parameter"),
-    "solve": ("radsolve.solve", "solve"),
+    "solve": ("radsolve.spectrum", "solve"),
     "check": ("radsolve.check", "check"),
     "SolveResult": ("radsolve.result", "SolveResult"),
     "Level": ("radsolve.result", "Level"),

@@ -9,7 +9,7 @@ and answers two questions: how many levels lie below an energy (its own node
 or Sturm count), and what are the energies and normalized wavefunctions of
 the levels with given node numbers.  Choosing grids, refining them,
 extrapolating and labelling are done once for all methods in
-:mod:`radsolve.solve`.
+:mod:`radsolve.spectrum`.
 
 Adding a method: write ``radsolve/solvers/mymethod.py`` with a subclass of
 :class:`RadialSolver` and add ``"mymethod": "radsolve.solvers.mymethod:MyClass"``
