@@ -229,7 +229,7 @@ def check(tol: float = 1e-10,
     """
     from .errors import InputError, RadsolveError
     from .result import level_label
-    from .solve import solve
+    from .spectrum import solve
     from .units import parse_mass
 
     if not (isinstance(tol, (int, float)) and 0.0 < tol < 1.0):

@@ -232,7 +232,7 @@ def levels_command(
         pot = potential(name, plugins=_plugin_dirs(plugins), **params)
 
         from radsolve.report import render
-        from radsolve.solve import solve
+        from radsolve.spectrum import solve
 
         try:
             result = solve(pot, l=ls if len(ls) > 1 else ls[0], count=count, mass=mu,

@@ -288,7 +288,7 @@ def test_plugin_potential_can_be_solved():
 def test_non_converged_levels_exit_3_and_are_marked(monkeypatch):
     # The real solver rarely fails to converge on demand, so a double stands in for it
     # here: this checks only how the command line reports such a result.
-    import radsolve.solve
+    import radsolve.spectrum
 
     def not_converged(pot, **kwargs):
         return SolveResult(levels=[fake_level(1, 0, -0.5, err=1e-3, converged=False)],
@@ -296,7 +296,7 @@ def test_non_converged_levels_exit_3_and_are_marked(monkeypatch):
                            mass=1.0, tol=kwargs["tol"], method="fd", bound_counts={0: None},
                            v_infinity=0.0)
 
-    monkeypatch.setattr(radsolve.solve, "solve", not_converged)
+    monkeypatch.setattr(radsolve.spectrum, "solve", not_converged)
     result = run("levels", "coulomb", "--count", "1")
     assert result.exit_code == 3
     assert "NO" in result.stdout and "did not converge" in result.stderr
