@@ -44,7 +44,11 @@ def exact_energy(n, l, mass, slope):
     """-a_n (F²/(2μ))^(1/3) for l = 0 (a_n: n-th zero of Airy Ai); None for l > 0."""
     if l != 0 or n < 1:
         return None
-    from scipy.special import ai_zeros
+    from scipy.special import ai_zeros, airy
 
-    a_n = ai_zeros(n)[0][n - 1]
+    a_n = float(ai_zeros(n)[0][n - 1])
+    # scipy's zeros can be off by ~1e-12 relative; Newton steps on Ai polish them.
+    for _ in range(3):
+        ai, aip, _, _ = airy(a_n)
+        a_n -= ai / aip
     return -a_n * (slope**2 / (2.0 * mass)) ** (1.0 / 3.0)
