@@ -147,7 +147,7 @@ def _plan_box(pot, prof, ls, count, mass, tol, cls) -> _BoxPlan:
         scale = radius / max(math.log(radius / r_min), 1.0)
         span = GridSpan.covering(r_min, radius, PLANNING_STEP, scale, anchor)
         grid = span.grid(0)
-        values = pot(grid.r)
+        values = potential_on_grid(pot, grid.r, prof.breakpoints)
         found: dict[int, int] = {}
         needed = 0.0
         for l in ls:
@@ -177,24 +177,56 @@ def _plan_box(pot, prof, ls, count, mass, tol, cls) -> _BoxPlan:
     return _BoxPlan(span, inner_radius, wanted, bound_counts, tuple(notes))
 
 
-def _richardson(energies: list[float], orders: tuple[int, ...]):
-    """Extrapolate energies on grids of steps h, h/2, h/4, ...
+def potential_on_grid(pot, r: np.ndarray, breakpoints) -> np.ndarray:
+    """V at the grid radii, with the mean of the one-sided limits at breakpoints.
 
-    Returns (value, error_estimate, observed_order).
+    Where V jumps at a grid point, the mean of its two limits keeps the
+    discretization error a regular power series in the step.
+    """
+    values = pot(r)
+    for b in breakpoints:
+        i = int(np.searchsorted(r, b))
+        for j in (i - 1, i):
+            if 0 <= j < r.size and abs(r[j] - b) <= 1e-12 * b:
+                sides = pot(np.array([b * (1.0 - 1e-12), b * (1.0 + 1e-12)]))
+                values[j] = 0.5 * (sides[0] + sides[1])
+    return values
+
+
+def _richardson(energies: list[float], orders: tuple[int, ...]):
+    """Extrapolate energies on grids of steps h, h/2, h/4, ... to h = 0.
+
+    ``orders`` are the powers of h expected in the error.  When the observed
+    leading order (from the last three grids) differs from the expected one,
+    as it does for a potential with a jump, the observed order, rounded to a
+    whole number, and the powers above it are eliminated instead; when it is
+    not close to a whole number only one conservative step is taken.
+
+    Returns (value, error_estimate, observed_order).  The estimate is the
+    larger of the last two changes of the extrapolated value, which bounds the
+    error of the value before it (common practice for Richardson tables).
     """
     e = np.asarray(energies, dtype=float)
     k = e.size
     floor = 64.0 * np.finfo(float).eps * abs(e[-1])
-    if k == 1:
+    if k < 3:
         return float(e[-1]), math.inf, None
-    observed = None
-    if k >= 3:
-        d1, d2 = abs(e[-3] - e[-2]), abs(e[-2] - e[-1])
-        if d2 > 0 and d1 > 0:
-            observed = math.log2(d1 / d2)
+    d1, d2 = abs(e[-3] - e[-2]), abs(e[-2] - e[-1])
+    observed = math.log2(d1 / d2) if d1 > 0 and d2 > 0 else None
+    noisy = d2 < 1e3 * floor
+    if noisy or observed is None or abs(observed - orders[0]) < 0.3:
+        use = orders
+    elif observed >= 0.8 and abs(observed - round(observed)) < 0.2:
+        q = int(round(observed))
+        use = tuple(range(q, q + 8))
+    else:
+        p = min(max(observed, 0.5), float(orders[0]))
+        best = e[-1] + (e[-1] - e[-2]) / (2.0**p - 1.0)
+        estimate = max(abs(best - e[-1]), abs(e[-1] - e[-2]))
+        return float(best), float(max(estimate, floor)), observed
     table = [list(e)]
-    for j in range(min(k - 1, len(orders))):
-        factor = 2.0 ** orders[j] - 1.0
+    for j in range(min(k - 1, len(use))):
+        factor = 2.0 ** use[j] - 1.0
         prev = table[-1]
         table.append([prev[i + 1] + (prev[i + 1] - prev[i]) / factor for i in range(len(prev) - 1)])
     best = table[-1][-1]
@@ -203,14 +235,6 @@ def _richardson(energies: list[float], orders: tuple[int, ...]):
         estimate = max(estimate, abs(best - table[-1][-2]))
     elif len(table) >= 3:
         estimate = max(estimate, abs(best - table[-2][-2]))
-    regular = observed is None or abs(observed - orders[0]) < 0.7 or abs(e[-2] - e[-1]) < 1e3 * floor
-    if not regular:
-        # The error is not the expected power series (e.g. a non-smooth V):
-        # extrapolate once with the observed order and claim only the size
-        # of that correction.
-        p = min(max(observed, 0.5), float(orders[0]))
-        best = e[-1] + (e[-1] - e[-2]) / (2.0**p - 1.0)
-        estimate = max(abs(best - e[-1]), abs(e[-1] - e[-2]))
     return float(best), float(max(estimate, floor)), observed
 
 
@@ -243,39 +267,51 @@ def _inner_wall_error(grid, u_row, inner, mass, exponent) -> float:
 
 
 def _run_method(pot, plan: _BoxPlan, ls, mass, tol, cls: type[RadialSolver], prof):
-    """Solve on nested grids until every level meets tol.  Returns {l: [level dicts]}."""
+    """Solve on nested grids until every level meets tol, or rounding noise wins.
+
+    Returns ``(results, samples)``: for each l a list of per-level dicts
+    (energy, error, order, converged) and of GridSample tuples.  Each level
+    keeps the extrapolation with the smallest estimated error seen.
+    """
     span = plan.span
     coarse_r = span.grid(0).r
-    history: dict[int, list[tuple]] = {l: [] for l in ls}
-    results: dict[int, list[dict]] = {}
+    v_inf = prof.v_infinity
+    history: dict[int, list[list[tuple]]] = {l: [] for l in ls}
+    best: dict[int, list[dict]] = {l: [] for l in ls}
     for refinement in range(MAX_REFINEMENTS + 1):
         grid = span.grid(refinement)
         if grid.size > MAX_POINTS:
             break
-        values = pot(grid.r)
-        all_met = True
+        values = potential_on_grid(pot, grid.r, prof.breakpoints)
+        all_met, any_improving = True, False
         for l in ls:
             want = plan.wanted[l]
             if want == 0:
                 continue
             inner = _inner_index(span, refinement, plan.inner_radius[l], coarse_r)
-            guesses = [h[0] for h in history[l][-1]] if history[l] else None
-            energies, u, available = _spectrum_on(grid, values, l, mass, inner, cls, math.inf, want, guesses)
+            guesses = [entry[0] for entry in history[l][-1]] if history[l] else None
+            energies, u, _ = _spectrum_on(grid, values, l, mass, inner, cls, math.inf, want, guesses)
             history[l].append([(float(energies[k]), u[k], grid) for k in range(want)])
-            levels = []
+            exponent = prof.origin_exponent(l, mass)
             for k in range(want):
                 series = [step[k][0] for step in history[l]]
                 value, estimate, observed = _richardson(series, cls.error_orders)
                 estimate += _box_error(grid, u[k], values, l, mass, value)
-                estimate += _inner_wall_error(grid, u[k], inner, mass, prof.origin_exponent(l, mass))
-                v_inf = prof.v_infinity
+                estimate += _inner_wall_error(grid, u[k], inner, mass, exponent)
                 scale = abs(value) if math.isinf(v_inf) else max(abs(value), abs(value - v_inf))
-                met = len(series) >= 3 and estimate <= tol * scale
+                entry = dict(nodes=k, energy=value, error=estimate, order=observed, converged=False)
+                if len(best[l]) <= k:
+                    best[l].append(entry)
+                elif estimate < best[l][k]["error"]:
+                    best[l][k] = entry
+                    any_improving = True
+                met = len(series) >= 3 and best[l][k]["error"] <= tol * scale
+                best[l][k]["converged"] = met
                 all_met &= met
-                levels.append(dict(nodes=k, energy=value, error=estimate, order=observed, converged=met))
-            results[l] = levels
         if refinement >= 2 and all_met:
             break
+        if refinement >= 3 and not any_improving:
+            break  # rounding noise dominates: finer grids will not help
     samples = {
         l: [
             tuple(GridSample(step=g.step, r=g.r, weights=g.weights, u=uk, energy=e) for (e, uk, g) in (step[k] for step in history[l]))
@@ -283,7 +319,7 @@ def _run_method(pot, plan: _BoxPlan, ls, mass, tol, cls: type[RadialSolver], pro
         ]
         for l in ls
     }
-    return results, samples
+    return best, samples
 
 
 def solve(potential, l=0, count: int = 5, mass=1.0, tol: float = 1e-10, method: str = "fd", plugins=None) -> SolveResult:
