@@ -164,9 +164,8 @@ class CheckReport:
         if not self.rows:
             return "check FAILED: nothing was compared"
         if n_fail == 0:
-            return (f"check passed: all {total} results ({len(self.rows)} levels x "
-                    f"{len(self.methods)} methods) within tol {self.tol:.1e}, "
-                    f"error estimates honest")
+            return (f"check passed: {len(self.rows)} levels x {len(self.methods)} methods "
+                    f"within tol {self.tol:.1e}, estimates honest")
         return (f"check FAILED: {n_fail} of {total} results marked "
                 f"(tol {self.tol:.1e}); see the marks above")
 
