@@ -84,6 +84,12 @@ class Level:
         harmonic, ...).
     method_energies : dict
         For ``method="both"``: each method's own energy, hartree.
+    method_errors : dict
+        For ``method="both"``: each method's own error estimate, hartree.
+    sample_method : str
+        The method that produced ``samples`` (for ``"both"``, the one with
+        the smaller estimate); its error expansion is
+        ``radsolve.solvers.solver_class(sample_method).error_orders``.
     """
 
     n: int
@@ -99,6 +105,7 @@ class Level:
     exact: float | None = None
     method_energies: dict[str, float] = field(default_factory=dict)
     method_errors: dict[str, float] = field(default_factory=dict)
+    sample_method: str = ""
 
     @property
     def r(self) -> np.ndarray:

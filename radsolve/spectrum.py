@@ -397,6 +397,7 @@ def solve(potential, l=0, count: int = 5, mass=1.0, tol: float = 1e-10, method: 
                     exact=None if exact is None else float(exact),
                     method_energies={m: per[m]["energy"] for m in methods} if len(methods) > 1 else {},
                     method_errors={m: per[m]["error"] for m in methods} if len(methods) > 1 else {},
+                    sample_method=best_method,
                 )
             )
 
