@@ -346,6 +346,16 @@ def format_check(report: CheckReport) -> str:
                               _num(o.relative_error, "+.1e"), _num(o.relative_estimate, ".1e"),
                               _num(o.order, ".2f"), mark])
         lines += format_columns(header, table, right={2, 3, 4, 5})
+    # Why levels are missing does not fit in the table: say it once per reason.
+    reasons: dict[str, int] = {}
+    for row in report.rows:
+        for o in row.outcomes.values():
+            for p in o.problems:
+                if p.startswith("missing ("):
+                    reasons[p[len("missing ("):-1]] = reasons.get(p[len("missing ("):-1], 0) + 1
+    for reason, times in reasons.items():
+        lines.append("")
+        lines += _wrap(f"!MISSING x {times}: the solver refused: {reason}")
     lines.append("")
     lines.append(report.verdict)
     return "\n".join(lines) + "\n"

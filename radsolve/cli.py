@@ -192,7 +192,8 @@ def levels_command(
         "--mass", "-m", metavar="M",
         help="reduced mass: electron masses, or particles such as electron+proton")] = "1",
     tol: Annotated[float, typer.Option(
-        "--tol", metavar="T", help="target relative error of each energy, 0 < T < 1")] = 1e-10,
+        "--tol", metavar="T",
+        help="target relative error of each energy (the solver accepts 1e-14 ... 0.1)")] = 1e-10,
     method: Annotated[Method, typer.Option(
         "--method", help="fd (finite differences), numerov (shooting) or both")] = Method.fd,
     unit: Annotated[str, typer.Option(
@@ -238,9 +239,15 @@ def levels_command(
             result = solve(pot, l=ls if len(ls) > 1 else ls[0], count=count, mass=mu,
                            tol=tol, method=method.value)
         except RadsolveError as exc:
-            if repr(pot.name) in str(exc):
+            message = str(exc)
+            if isinstance(exc, InputError):
+                # About an option: "tol must be ..." -> "--tol must be ..."
+                if message.split(" ", 1)[0].rstrip(":") in ("l", "count", "tol", "mass"):
+                    raise InputError("--" + message) from None
                 raise
-            # Say which potential the solver's complaint is about.
+            if repr(pot.name) in message:
+                raise
+            # Say which potential the solver's complaint (e.g. fall to the centre) is about.
             raise type(exc)(f"potential {pot.name!r}: {exc}") from None
         text = render(result, unit, fmt.value)
 
@@ -267,7 +274,8 @@ def levels_command(
 @app.command("check")
 def check_command(
     tol: Annotated[float, typer.Option(
-        "--tol", metavar="T", help="relative tolerance asked and judged, 0 < T < 1")] = 1e-10,
+        "--tol", metavar="T",
+        help="relative tolerance asked of the solvers and judged (1e-14 ... 0.1)")] = 1e-10,
     quick: Annotated[bool, typer.Option(
         "--quick", help="a reduced set (Z = 1 and 92, mass 1, n <= 4) for a fast smoke run")
     ] = False,
@@ -339,7 +347,8 @@ def main(argv: list[str] | None = None) -> None:
     try:
         app(args=argv, prog_name="radsolve")
     except BrokenPipeError:
-        # Output piped into e.g. `head` that closed early: not an error of ours.
+        # Output piped into e.g. `head` that closed early: stop quietly, but not with
+        # status 0, since the output was cut short.
         devnull = os.open(os.devnull, os.O_WRONLY)
         os.dup2(devnull, sys.stdout.fileno())
-        sys.exit(0)
+        sys.exit(1)

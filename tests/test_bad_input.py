@@ -77,7 +77,10 @@ RADSOLVE_ERRORS = [
     (["coulomb", "--tol", "2"], ["--tol", "0 < tol < 1"]),
     (["coulomb", "--tol", "nan"], ["--tol", "0 < tol < 1"]),
     (["coulomb", "--tol", "inf"], ["--tol", "0 < tol < 1"]),
+    (["coulomb", "--tol", "1e-16"], ["--tol", "1e-14"]),  # below what the solver accepts
     (["coulomb", "--l", "1", "--lmax", "2"], ["--l", "--lmax"]),
+    (["coulomb", "--l", "300"], ["--l", "300"]),
+    (["coulomb", "--count", "5000"], ["--count", "5000"]),
     # files and folders
     (["coulomb", "--plugins", "/nonexistent/radsolve-plugins"], ["/nonexistent/radsolve-plugins"]),
     (["coulomb", "--out", "/nonexistent/folder/levels.json"], ["--out", "/nonexistent/folder"]),

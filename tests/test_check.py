@@ -94,12 +94,23 @@ def test_impossible_tolerance_fails_in_python():
     assert report.failures and report.verdict.startswith("check FAILED")
 
 
+def test_tolerance_at_the_rounding_floor_fails_on_accuracy():
+    # 1e-14 relative for |E| = 4232 hartree is at the double-precision floor (common
+    # practice), so the solver cannot honestly meet it; the reporter must then say
+    # "not converged" or "error > tol" (not merely "missing").
+    report = check(tol=1e-14, charges=(92,), masses=(1.0,), nmax=2)
+    assert not report.passed
+    problems = {p for row in report.rows for o in row.outcomes.values() for p in o.problems}
+    assert problems and problems <= {"not converged", "error > tol", "estimate too small"}
+
+
 def test_impossible_tolerance_fails_on_the_command_line():
     result = CliRunner().invoke(app, ["check", "--quick", "--tol", "1e-18"])
     assert result.exit_code == 1, (result.stdout, result.stderr)
     assert "Traceback" not in result.stdout + result.stderr
     last = result.stdout.strip().splitlines()[-1]
     assert last.startswith("check FAILED")
+    assert "1e-18" in result.stdout  # why the levels are missing is said once
 
 
 # -------------------------------------------------- the marking rules themselves
