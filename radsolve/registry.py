@@ -212,7 +212,14 @@ class Parameter:
             return str(self.default)
         if isinstance(self.default, str):
             return self.default
-        return f"{_fmt(float(self.default))}{_UNIT_OF_KIND[self.kind]}"
+        value = float(self.default)
+        text = f"{_fmt(value)}{_UNIT_OF_KIND[self.kind]}"
+        if self.kind == "length" and 0 < abs(value) < 1e-3:
+            # Nuclear sizes read better in femtometres.
+            from .units import length_unit_factor
+
+            text += f" (= {value / length_unit_factor('fm'):.6g} fm)"
+        return text
 
 
 def as_parameter(spec: Any, name: str = "", source: str = "") -> Parameter:

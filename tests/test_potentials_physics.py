@@ -36,22 +36,10 @@ def sharp_radius(A):
 # Mass numbers: A ≈ 2Z, A = 1 for hydrogen (from memory).
 NUCLEI = {1: 1, 6: 12, 20: 40}
 
-# Cases the solver does not resolve yet (reported to the solver's owner):
-# for Z = 1 the shift is ~4e-10 of E, so 1% of it asks for ~4e-12 relative
-# accuracy in E.  Marked strict, so the marker must go once they pass.
-_UNRESOLVED = {(1, "fd", 2)}
-
-
-def _shift_cases():
-    for Z in NUCLEI:
-        for method in ("fd", "numerov"):
-            for n in (1, 2):
-                marks = []
-                if (Z, method, n) in _UNRESOLVED:
-                    marks = [pytest.mark.xfail(
-                        strict=True,
-                        reason="solver does not resolve a 4e-10 relative shift to 1% (reported)")]
-                yield pytest.param(Z, method, n, marks=marks, id=f"Z{Z}-{method}-{n}s")
+# For Z = 1 the shift is ~4e-10 of E, so 1% of it asks for ~4e-12 relative
+# accuracy in E: the strictest of these checks.
+SHIFT_CASES = [pytest.param(Z, method, n, id=f"Z{Z}-{method}-{n}s")
+               for Z in NUCLEI for method in ("fd", "numerov") for n in (1, 2)]
 
 
 @pytest.fixture(scope="module")
@@ -69,7 +57,7 @@ def uniform_levels():
     return get
 
 
-@pytest.mark.parametrize("Z, method, n", list(_shift_cases()))
+@pytest.mark.parametrize("Z, method, n", SHIFT_CASES)
 def test_uniform_sphere_shift_first_order(uniform_levels, Z, method, n):
     """ΔE = (2/5) Z⁴ R²/n³ hartree for ns levels (first-order perturbation theory,
     textbook formula), R the sharp radius; corrections are O(Z R) ~ 1e-3 relative here."""
@@ -151,8 +139,7 @@ def zero_energy_node_count(D, r_max_factor=80.0):
 # from memory).  Bound-state counts are checked against the zero-energy solution.
 @pytest.mark.parametrize("D", [
     0.82,
-    pytest.param(0.845, marks=pytest.mark.xfail(
-        strict=True, reason="a level bound by ~1e-5 hartree is reported as unbound (reported)")),
+    0.845,  # bound by only ~1e-5 hartree
     0.86,
     2.0,
     5.0,

@@ -517,3 +517,11 @@ def test_family_objects_are_accepted():
     assert isinstance(fam, PotentialFamily)
     pot = potential(fam, omega="0.1hartree")
     assert isinstance(pot, Potential) and pot.parameters["omega"] == 0.1
+
+
+def test_default_text_shows_small_lengths_in_fm():
+    # 1 fm in bohr from CODATA via scipy.constants.
+    spec = Parameter(0.84 * femto / BOHR_M, kind="length")
+    assert spec.default_text().endswith("bohr (= 0.84 fm)")
+    assert Parameter(2.0, kind="length").default_text() == "2 bohr"
+    assert Parameter(0.3, kind="energy").default_text() == "0.3 hartree"
