@@ -21,7 +21,7 @@ _EXPORTS = {
     "discover": ("radsolve.registry", "discover"),
     "Parameter": ("radsolve.registry", "Parameter"),
     "solve": ("radsolve.spectrum", "solve"),
-    "check": ("radsolve.check", "check"),
+    "check": ("radsolve.convergence", "check"),
     "SolveResult": ("radsolve.result", "SolveResult"),
     "Level": ("radsolve.result", "Level"),
     "RadsolveError": ("radsolve.errors", "RadsolveError"),

@@ -2,7 +2,7 @@
 
 Every command here calls functions a script can call too
 (:func:`radsolve.registry.potential`, :func:`radsolve.solve.solve`,
-:func:`radsolve.check.check`, :mod:`radsolve.report`).  Only typer and the
+:func:`radsolve.convergence.check`, :mod:`radsolve.report`).  Only typer and the
 standard library are imported at module level so that ``radsolve --help``
 answers at once; numpy, scipy and the solvers are imported inside the
 commands.
@@ -291,7 +291,7 @@ def check_command(
     """
     with _reported_errors():
         _check_tol(tol)
-        from radsolve.check import check, format_check
+        from radsolve.convergence import check, format_check
 
         kwargs = dict(charges=(1, 92), masses=(1.0,), nmax=4) if quick else {}
         progress = _say if sys.stderr.isatty() else None

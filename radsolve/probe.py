@@ -87,14 +87,15 @@ class PotentialProfile:
             )
 
     def inner_cutoff(self, l: int, mass: float, tol: float) -> float:
-        """Radius (bohr) below which u(r) may be set to zero for angular momentum l.
+        """Radius (bohr) where the grid may start for angular momentum l.
 
-        With u ~ r**lambda, a Dirichlet wall at a shifts a level by about
-        (a/inner_length)**(2 lambda - 1) relative, so a is chosen to make that
-        1e-3 * tol.
+        The solvers impose u ~ r**lambda at the first point.  Neglecting the
+        potential's correction to that power law there shifts a level by
+        about (a/inner_length)**(2 lambda) relative, so a is chosen to make
+        that 1e-3 * tol.
         """
         lam = self.origin_exponent(l, mass)
-        return self.inner_length * (1e-3 * tol) ** (1.0 / max(2.0 * lam - 1.0, 0.25))
+        return self.inner_length * (1e-3 * tol) ** (1.0 / max(2.0 * lam, 0.5))
 
 
 def _values(potential, r):

@@ -116,8 +116,8 @@ def _inner_index(span: GridSpan, refinement: int, radius: float, coarse_r: np.nd
     return max(i0, 0) * 2**refinement
 
 
-def _spectrum_on(grid, values, l, mass, inner, cls: type[RadialSolver], v_inf, count, guesses=None):
-    solver = cls(grid, values, l, mass, inner)
+def _spectrum_on(grid, values, l, mass, inner, cls: type[RadialSolver], v_inf, count, exponent, guesses=None):
+    solver = cls(grid, values, l, mass, inner, origin_exponent=exponent)
     if math.isinf(v_inf):
         available = count
     else:
@@ -152,7 +152,9 @@ def _plan_box(pot, prof, ls, count, mass, tol, cls) -> _BoxPlan:
         needed = 0.0
         for l in ls:
             inner = _inner_index(span, 0, inner_radius[l], grid.r)
-            energies, _, available = _spectrum_on(grid, values, l, mass, inner, cls, prof.v_infinity, count)
+            energies, _, available = _spectrum_on(
+                grid, values, l, mass, inner, cls, prof.v_infinity, count, prof.origin_exponent(l, mass)
+            )
             found[l] = available
             if available:
                 needed = max(needed, probing.decay_radius(pot, l, mass, float(energies[-1]), r_min, nepers))
@@ -172,9 +174,45 @@ def _plan_box(pot, prof, ls, count, mass, tol, cls) -> _BoxPlan:
     bound_counts = {l: (found[l] if found[l] < count else None) for l in ls}
     final_radius = needed if needed > 0 else radius
     final_radius = max(final_radius, 2.0 * biggest_feature, 4.0 * r_in)
+    if not prof.confining:
+        final_radius = _verify_box(pot, prof, ls, wanted, mass, tol, cls, inner_radius, r_min, final_radius, anchor)
     scale = final_radius / max(math.log(final_radius / r_min), 1.0)
     span = GridSpan.covering(r_min, final_radius, COARSE_STEP, scale, anchor)
     return _BoxPlan(span, inner_radius, wanted, bound_counts, tuple(notes))
+
+
+def _verify_box(pot, prof, ls, wanted, mass, tol, cls, inner_radius, r_min, radius, anchor) -> float:
+    """Grow the outer radius until the wall shifts no wanted level by more than 1e-3 tol.
+
+    The WKB decay estimate ignores the amplitude's prefactor, which is large
+    for weakly bound, extended levels; the wall's own shift (Hadamard
+    formula, see :func:`_box_error`) on the planning grid settles it.
+    """
+    for _ in range(6):
+        scale = radius / max(math.log(radius / r_min), 1.0)
+        span = GridSpan.covering(r_min, radius, PLANNING_STEP, scale, anchor)
+        grid = span.grid(0)
+        values = potential_on_grid(pot, grid.r, prof.breakpoints)
+        growth = 0.0
+        for l in ls:
+            if not wanted[l]:
+                continue
+            inner = _inner_index(span, 0, inner_radius[l], grid.r)
+            energies, u, available = _spectrum_on(
+                grid, values, l, mass, inner, cls, math.inf, wanted[l], prof.origin_exponent(l, mass)
+            )
+            for energy, row in zip(energies, u):
+                scale_e = max(abs(energy), abs(energy - prof.v_infinity))
+                shift = _box_error(grid, row, values, l, mass, energy)
+                target = 1e-3 * tol * scale_e
+                if shift > target:
+                    v_eff = values[-2] + l * (l + 1) / (2.0 * mass * grid.r[-2] ** 2)
+                    kappa = math.sqrt(max(2.0 * mass * (v_eff - energy), 1e-300))
+                    growth = max(growth, (math.log(shift / target) + 1.0) / (2.0 * kappa))
+        if growth == 0.0:
+            return radius
+        radius += min(growth, 4.0 * radius)
+    return radius
 
 
 def potential_on_grid(pot, r: np.ndarray, breakpoints) -> np.ndarray:
@@ -193,7 +231,7 @@ def potential_on_grid(pot, r: np.ndarray, breakpoints) -> np.ndarray:
     return values
 
 
-def _richardson(energies: list[float], orders: tuple[int, ...]):
+def _richardson(energies: list[float], orders: tuple[int, ...], relative_rounding: float = 1e-14):
     """Extrapolate energies on grids of steps h, h/2, h/4, ... to h = 0.
 
     ``orders`` are the powers of h expected in the error.  When the observed
@@ -208,7 +246,7 @@ def _richardson(energies: list[float], orders: tuple[int, ...]):
     """
     e = np.asarray(energies, dtype=float)
     k = e.size
-    floor = 64.0 * np.finfo(float).eps * abs(e[-1])
+    floor = max(64.0 * np.finfo(float).eps, relative_rounding) * abs(e[-1])
     if k < 3:
         return float(e[-1]), math.inf, None
     d1, d2 = abs(e[-3] - e[-2]), abs(e[-2] - e[-1])
@@ -247,14 +285,16 @@ def _box_error(grid, u_row, values, l, mass, energy) -> float:
     return float(du * du / (2.0 * mass) / (2.0 * kappa))
 
 
-def _inner_wall_error(grid, u_row, inner, mass, exponent) -> float:
-    """Energy shift (hartree) caused by the inner wall at a = r[inner].
+def _inner_boundary_error(grid, u_row, inner, mass, exponent, values, energy) -> float:
+    """Energy shift (hartree) from imposing u ~ r**lambda at a = r[inner].
 
-    Below the wall u ~ C r**lambda; the walled solution is
-    C (r**lambda - a**(2 lambda - 1) r**(1 - lambda)), and integrating the
-    Hadamard formula dE/da = u'(a)**2 / (2 mu) from 0 to a gives
-    C**2 (2 lambda - 1) a**(2 lambda - 1) / (2 mu).  C is read off u where
-    it is well above the rounding noise of the eigenvector.
+    A hard wall at a would shift the level by C**2 (2 lambda - 1)
+    a**(2 lambda - 1) / (2 mu) (the Hadamard formula dE/da = u'(a)**2/(2 mu)
+    integrated from 0 to a, with u ~ C r**lambda below a).  The power-law
+    condition errs only by the potential's relative correction to the
+    logarithmic derivative of u at a, about 2 mu a**2 |V(a) - E| / lambda,
+    which multiplies that shift.  C is read off u where it is well above the
+    rounding noise of the eigenvector.
     """
     r, a = grid.r, grid.r[inner]
     peak = np.max(np.abs(u_row))
@@ -263,7 +303,9 @@ def _inner_wall_error(grid, u_row, inner, mass, exponent) -> float:
         return 0.0
     j = inner + 1 + int(reliable[0])
     coeff = abs(u_row[j]) / r[j] ** exponent
-    return float(coeff**2 * max(2.0 * exponent - 1.0, 0.25) * a ** (2.0 * exponent - 1.0) / (2.0 * mass))
+    hard_wall = coeff**2 * max(2.0 * exponent - 1.0, 0.25) * a ** (2.0 * exponent - 1.0) / (2.0 * mass)
+    correction = 2.0 * mass * a * a * abs(values[inner] - energy) / exponent
+    return float(hard_wall * min(correction, 1.0))
 
 
 def _run_method(pot, plan: _BoxPlan, ls, mass, tol, cls: type[RadialSolver], prof):
@@ -290,14 +332,14 @@ def _run_method(pot, plan: _BoxPlan, ls, mass, tol, cls: type[RadialSolver], pro
                 continue
             inner = _inner_index(span, refinement, plan.inner_radius[l], coarse_r)
             guesses = [entry[0] for entry in history[l][-1]] if history[l] else None
-            energies, u, _ = _spectrum_on(grid, values, l, mass, inner, cls, math.inf, want, guesses)
-            history[l].append([(float(energies[k]), u[k], grid) for k in range(want)])
             exponent = prof.origin_exponent(l, mass)
+            energies, u, _ = _spectrum_on(grid, values, l, mass, inner, cls, math.inf, want, exponent, guesses)
+            history[l].append([(float(energies[k]), u[k], grid) for k in range(want)])
             for k in range(want):
                 series = [step[k][0] for step in history[l]]
-                value, estimate, observed = _richardson(series, cls.error_orders)
+                value, estimate, observed = _richardson(series, cls.error_orders, cls.relative_rounding(grid.size))
                 estimate += _box_error(grid, u[k], values, l, mass, value)
-                estimate += _inner_wall_error(grid, u[k], inner, mass, exponent)
+                estimate += _inner_boundary_error(grid, u[k], inner, mass, exponent, values, value)
                 scale = abs(value) if math.isinf(v_inf) else max(abs(value), abs(value - v_inf))
                 entry = dict(nodes=k, energy=value, error=estimate, order=observed, converged=False)
                 if len(best[l]) <= k:

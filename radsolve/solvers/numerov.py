@@ -27,47 +27,12 @@ from __future__ import annotations
 from typing import Sequence
 
 import numpy as np
-from scipy.linalg.lapack import dtbtrs
 from scipy.optimize import brentq
 
+from ..recurrence import three_term
 from .base import RadialSolver
 
 _INWARD_EFOLDS = 45.0
-_CHUNK = 512
-
-
-def _recurrence(d: np.ndarray, y_prev: float, y_cur: float) -> np.ndarray:
-    """Y[0] = y_cur, Y[k+1] = d[k] Y[k] - Y[k-1] (Y[-1] = y_prev), rescaled per chunk.
-
-    Returns len(d) + 1 values.  Each chunk is one banded triangular solve
-    (LAPACK dtbtrs), i.e. the recurrence run in compiled code; between chunks
-    the values are divided by a positive factor to stay far from overflow,
-    which changes neither signs nor ratios.
-    """
-    out = np.empty(d.size + 1)
-    out[0] = y_cur
-    pos = 0
-    prev, cur = y_prev, y_cur
-    while pos < d.size:
-        dc = d[pos : pos + _CHUNK]
-        n = dc.size
-        band = np.zeros((3, n))
-        band[0] = 1.0
-        band[1, : n - 1] = -dc[1:]
-        band[2, : n - 2] = 1.0
-        rhs = np.zeros((n, 1))
-        rhs[0, 0] = dc[0] * cur - prev
-        if n > 1:
-            rhs[1, 0] = -cur
-        z = dtbtrs(band, rhs, uplo="L", diag="U")[0][:, 0]
-        scale = np.max(np.abs(z))
-        if not np.isfinite(scale) or scale == 0.0:
-            scale = 1.0
-        out[: pos + 1] /= scale
-        out[pos + 1 : pos + 1 + n] = z / scale
-        prev, cur = out[pos + n - 1], out[pos + n]
-        pos += n
-    return out
 
 
 def _sign_changes(y: np.ndarray) -> int:
@@ -118,10 +83,10 @@ class NumerovShooting(RadialSolver):
         t = self._h2 * f / 12.0
         d = 2.0 + 12.0 * t / (1.0 - t)
         a = self.inner
-        # outward: y[a] = 0, y[a+1] = 1, up to y[m+1]
-        y_out = _recurrence(d[a + 1 : m + 1], 0.0, 1.0)  # y[a+1 .. m+1]
+        # outward from the power law at the origin: w[a] = ghost_ratio * w[a+1]
+        y_out = three_term(d[a + 1 : m + 1], None, self.ghost_ratio * (1.0 - t[a]), 1.0 - t[a + 1])  # y[a+1 .. m+1]
         # inward: y[s+1] = 0, y[s] = 1, down to y[m]
-        y_in = _recurrence(d[m + 1 : s + 1][::-1], 0.0, 1.0)[::-1]  # y[m .. s]
+        y_in = three_term(d[m + 1 : s + 1][::-1], None, 0.0, 1.0)[::-1]  # y[m .. s]
         return m, s, y_out, y_in, t
 
     def count_below(self, energy: float) -> int:
