@@ -27,7 +27,7 @@ import numpy as np
 
 from . import probe as probing
 from .errors import InputError
-from .grids import GridSpan
+from .grids import GridSpan, mapping_x
 from .result import GridSample, Level, SolveResult, level_label
 from .solvers.base import METHODS, RadialSolver, solver_class
 
@@ -215,6 +215,20 @@ def _verify_box(pot, prof, ls, wanted, mass, tol, cls, inner_radius, r_min, radi
     return radius
 
 
+def _grown(plan: _BoxPlan, growth: float) -> _BoxPlan:
+    """The same plan with the outer wall moved out by ``growth`` bohr (at most 4x).
+
+    The mapping and the inner end stay as they were (so an anchored
+    breakpoint stays a grid point); only whole coarse steps are added.
+    """
+    span = plan.span
+    radius = span.r_max + min(growth, 4.0 * span.r_max)
+    extra = float(mapping_x(radius, span.scale)) - span.x_hi
+    steps = max(int(np.ceil(extra / span.coarse_step)), 1)
+    new = GridSpan(x_lo=span.x_lo, x_hi=span.x_hi + steps * span.coarse_step, scale=span.scale, coarse_step=span.coarse_step)
+    return _BoxPlan(new, plan.inner_radius, plan.wanted, plan.bound_counts, plan.notes)
+
+
 def potential_on_grid(pot, r: np.ndarray, breakpoints) -> np.ndarray:
     """V at the grid radii, with the mean of the one-sided limits at breakpoints.
 
@@ -274,6 +288,24 @@ def _richardson(energies: list[float], orders: tuple[int, ...], relative_roundin
     elif len(table) >= 3:
         estimate = max(estimate, abs(best - table[-2][-2]))
     return float(best), float(max(estimate, floor)), observed
+
+
+def _decay_rate(grid, values, l, mass, energy) -> float:
+    """kappa = sqrt(2 mu (V_eff - E)) just inside the outer wall, bohr**-1."""
+    v_eff = values[-2] + l * (l + 1) / (2.0 * mass * grid.r[-2] ** 2)
+    return math.sqrt(max(2.0 * mass * (v_eff - energy), 1e-300))
+
+
+def _wall_growth(best: dict[int, list[dict]], tol: float, v_inf: float) -> float:
+    """How far (bohr) to move the outer wall so no level's wall shift exceeds 1e-3 tol."""
+    growth = 0.0
+    for levels in best.values():
+        for entry in levels:
+            scale = abs(entry["energy"]) if math.isinf(v_inf) else max(abs(entry["energy"]), abs(entry["energy"] - v_inf))
+            target = 1e-3 * tol * scale
+            if entry["wall"] > target:
+                growth = max(growth, (math.log(entry["wall"] / target) + 1.0) / (2.0 * entry["kappa"]))
+    return growth
 
 
 def _box_error(grid, u_row, values, l, mass, energy) -> float:
@@ -338,10 +370,12 @@ def _run_method(pot, plan: _BoxPlan, ls, mass, tol, cls: type[RadialSolver], pro
             for k in range(want):
                 series = [step[k][0] for step in history[l]]
                 value, estimate, observed = _richardson(series, cls.error_orders, cls.relative_rounding(grid.size))
-                estimate += _box_error(grid, u[k], values, l, mass, value)
+                wall = _box_error(grid, u[k], values, l, mass, value)
+                estimate += wall
                 estimate += _inner_boundary_error(grid, u[k], inner, mass, exponent, values, value)
                 scale = abs(value) if math.isinf(v_inf) else max(abs(value), abs(value - v_inf))
-                entry = dict(nodes=k, energy=value, error=estimate, order=observed, converged=False)
+                entry = dict(nodes=k, energy=value, error=estimate, order=observed, converged=False,
+                             wall=wall, kappa=_decay_rate(grid, values, l, mass, value))
                 if len(best[l]) <= k:
                     best[l].append(entry)
                 elif estimate < best[l][k]["error"]:
@@ -350,6 +384,8 @@ def _run_method(pot, plan: _BoxPlan, ls, mass, tol, cls: type[RadialSolver], pro
                 met = len(series) >= 3 and best[l][k]["error"] <= tol * scale
                 best[l][k]["converged"] = met
                 all_met &= met
+        if refinement == 1 and not prof.confining and _wall_growth(best, tol, v_inf) > 0.0:
+            break  # the wall is too close: the caller grows the box before refining further
         if refinement >= 2 and all_met:
             break
         if refinement >= 3 and not any_improving:
@@ -408,7 +444,14 @@ def solve(potential, l=0, count: int = 5, mass=1.0, tol: float = 1e-10, method: 
         prof.check_bounded_below(value, mu)
 
     plan = _plan_box(pot, prof, ls, count, mu, tol, solver_class(methods[0]))
-    runs = {m: _run_method(pot, plan, ls, mu, tol, solver_class(m), prof) for m in methods}
+    runs = {}
+    for m in methods:
+        for _attempt in range(4):
+            runs[m] = _run_method(pot, plan, ls, mu, tol, solver_class(m), prof)
+            growth = 0.0 if prof.confining else _wall_growth(runs[m][0], tol, prof.v_infinity)
+            if growth == 0.0:
+                break
+            plan = _grown(plan, growth)
 
     levels: list[Level] = []
     for value in ls:
