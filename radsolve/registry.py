@@ -53,7 +53,8 @@ RESERVED_PARAMETER_NAMES = frozenset({"r", "n", "l", "mass", "plugins"})
 
 #: The optional hooks of a family and how many positional arguments each takes
 #: before the parameters (see DEVELOPERS.md).
-HOOKS = {"v_infinity": 0, "small_r": 0, "exact_energy": 3, "breakpoints": 0, "validate": 0}
+HOOKS = {"v_infinity": 0, "small_r": 0, "exact_energy": 3, "breakpoints": 0, "validate": 0,
+         "V_l": 2, "spin_orbit": 1}
 
 _NAME_RE = re.compile(r"^[A-Za-z][A-Za-z0-9_\-]*$")
 _PARAM_RE = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*$")
@@ -266,6 +267,10 @@ class PotentialFamily:
         ``"built-in"``, ``"entry point"``, ``"RADSOLVE_PLUGINS"`` or ``"plugin folder"``.
     v_infinity, small_r, exact_energy, breakpoints, validate : callable or None
         The optional hooks (see DEVELOPERS.md).
+    V_l, spin_orbit : callable or None
+        ``V_l(r, l, **params)``: the potential felt with orbital angular
+        momentum l (semilocal families); ``spin_orbit(r, **params)``: the
+        radial factor V_so(r) of the spin-orbit term V_so(r) <l.s>.
     """
 
     name: str
@@ -282,6 +287,8 @@ class PotentialFamily:
     exact_energy: Callable[..., Any] | None = None
     breakpoints: Callable[..., Any] | None = None
     validate: Callable[..., Any] | None = None
+    V_l: Callable[..., Any] | None = None
+    spin_orbit: Callable[..., Any] | None = None
     file: str | None = field(default=None, repr=False)
 
     @property
@@ -726,21 +733,25 @@ class Potential:
         r_arr = np.asarray(r, dtype=float)
         view = r_arr.view()
         view.flags.writeable = False  # a plug-in must not modify the solver's grid
+        return self._checked("V", lambda: self._family.V(view, **self._params), r_arr)
+
+    def _checked(self, what: str, compute: Callable[[], Any], r_arr: np.ndarray) -> np.ndarray:
+        """Run ``compute`` (a plug-in function of r) and check its values as for V."""
         try:
-            out = self._family.V(view, **self._params)
+            out = compute()
         except RadsolveError:
             raise
         except Exception as exc:  # noqa: BLE001
-            raise PluginError(f"{self._where()}: V raised {_describe_exception(exc)}") from None
+            raise PluginError(f"{self._where()}: {what} raised {_describe_exception(exc)}") from None
         try:
             values = np.asarray(out)
         except Exception as exc:  # noqa: BLE001
-            raise PluginError(f"{self._where()}: V returned {type(out).__name__}, not numbers "
+            raise PluginError(f"{self._where()}: {what} returned {type(out).__name__}, not numbers "
                               f"({_describe_exception(exc)})") from None
         if values.shape != r_arr.shape:
             raise PluginError(
-                f"{self._where()}: V returned shape {values.shape} for r of shape {r_arr.shape}; "
-                "V must return one value per radius (np.full_like(r, c) for a constant)"
+                f"{self._where()}: {what} returned shape {values.shape} for r of shape {r_arr.shape}; "
+                f"{what} must return one value per radius (np.full_like(r, c) for a constant)"
             )
         if np.iscomplexobj(values):
             imag = values.imag
@@ -748,7 +759,7 @@ class Potential:
             if bad.size:
                 i = bad[0]
                 raise PluginError(
-                    f"{self._where()}: V returned a complex value {values.flat[i]!r} at "
+                    f"{self._where()}: {what} returned a complex value {values.flat[i]!r} at "
                     f"r = {_fmt(r_arr.flat[i])} bohr; a potential must be real"
                 )
             values = values.real
@@ -756,15 +767,15 @@ class Potential:
             try:
                 values = values.astype(float)
             except (TypeError, ValueError):
-                raise PluginError(f"{self._where()}: V returned values of type {values.dtype}, "
+                raise PluginError(f"{self._where()}: {what} returned values of type {values.dtype}, "
                                   "not real numbers") from None
         values = values.astype(float, copy=False)
         finite = np.isfinite(values)
         if not finite.all():
             i = np.flatnonzero(~finite)[0]
             raise PluginError(
-                f"{self._where()}: V returned {values.flat[i]} at r = {_fmt(r_arr.flat[i])} bohr; "
-                "V must be finite at every radius asked for (r > 0)"
+                f"{self._where()}: {what} returned {values.flat[i]} at r = {_fmt(r_arr.flat[i])} bohr; "
+                f"{what} must be finite at every radius asked for (r > 0)"
             )
         if values.ndim == 0:
             return np.float64(values)
@@ -839,6 +850,38 @@ class Potential:
             raise PluginError(f"{self._where()}: breakpoints must be positive finite radii, got {bad}")
         return sorted(set(points))
 
+    @property
+    def l_dependent(self) -> bool:
+        """True when the family defines V_l (a different potential per l)."""
+        return self._family.V_l is not None
+
+    @property
+    def has_spin_orbit(self) -> bool:
+        """True when the family defines a spin-orbit term."""
+        return self._family.spin_orbit is not None
+
+    def channel(self, l: int, j: float | None = None) -> "ChannelPotential":
+        """The potential felt in the partial wave (l, j), hartree at r in bohr.
+
+        V_l(r) (or V(r) when the family has no V_l), plus V_so(r) <l.s> with
+        <l.s> = [j(j+1) - l(l+1) - 3/4] / 2 when ``j`` is given.
+
+        Raises
+        ------
+        InputError
+            If ``j`` is given for a family without a spin-orbit term, or is not
+            l +- 1/2 (j = 1/2 only, for l = 0).
+        """
+        if j is not None:
+            if not self.has_spin_orbit:
+                raise InputError(f"potential {self.name!r} has no spin-orbit term; "
+                                 "families with one define spin_orbit(r, ...)")
+            allowed = (0.5,) if l == 0 else (l - 0.5, l + 0.5)
+            if float(j) not in allowed:
+                raise InputError(f"j = {j} is not allowed for l = {l}; allowed: "
+                                 + ", ".join(f"{a:g}" for a in allowed))
+        return ChannelPotential(self, int(l), None if j is None else float(j))
+
     def with_parameters(self, **changes: Any) -> "Potential":
         """A new Potential of the same family with some parameters changed."""
         return self._family.bind(**{**self._params, **changes})
@@ -859,3 +902,71 @@ class Potential:
 
     def __reduce__(self):
         return (_rebuild_potential, (self.name, self._family.file, self._family.origin, self._params))
+
+
+class ChannelPotential:
+    """The potential of one partial wave (l, j) of a :class:`Potential`.
+
+    It has the interface the solver uses (call, v_infinity, small_r,
+    breakpoints, exact_energy); the small-r law and the exact levels of the
+    central V are passed on only when the channel adds nothing to V.
+    """
+
+    __slots__ = ("base", "l", "j")
+
+    def __init__(self, base: Potential, l: int, j: float | None):
+        self.base, self.l, self.j = base, l, j
+
+    @property
+    def name(self) -> str:
+        return self.base.name
+
+    @property
+    def parameters(self) -> dict[str, Any]:
+        return self.base.parameters
+
+    @property
+    def family(self) -> PotentialFamily:
+        return self.base.family
+
+    @property
+    def plain(self) -> bool:
+        """True when this channel is just the central V."""
+        return self.j is None and not self.base.l_dependent
+
+    @property
+    def spin_orbit_factor(self) -> float:
+        """<l.s> = [j(j+1) - l(l+1) - 3/4] / 2 (0 without j)."""
+        if self.j is None:
+            return 0.0
+        return 0.5 * (self.j * (self.j + 1.0) - self.l * (self.l + 1.0) - 0.75)
+
+    def __call__(self, r: Any) -> np.ndarray:
+        base, fam, params = self.base, self.base.family, self.base.parameters
+        r_arr = np.asarray(r, dtype=float)
+        view = r_arr.view()
+        view.flags.writeable = False
+        if fam.V_l is not None:
+            values = base._checked("V_l", lambda: fam.V_l(view, self.l, **params), r_arr)
+        else:
+            values = base(r_arr)
+        if self.j is not None and self.spin_orbit_factor != 0.0:
+            so = base._checked("spin_orbit", lambda: fam.spin_orbit(view, **params), r_arr)
+            values = values + self.spin_orbit_factor * so
+        return values
+
+    def v_infinity(self) -> float | None:
+        return self.base.v_infinity()
+
+    def small_r(self) -> tuple[float, float] | None:
+        return self.base.small_r() if self.plain else None
+
+    def breakpoints(self) -> list[float]:
+        return self.base.breakpoints()
+
+    def exact_energy(self, n: int, l: int, mass: float = 1.0) -> float | None:
+        return self.base.exact_energy(n, l, mass) if self.plain else None
+
+    def __repr__(self) -> str:
+        jtxt = "" if self.j is None else f", j={self.j:g}"
+        return f"ChannelPotential({self.base!r}, l={self.l}{jtxt})"
