@@ -17,6 +17,7 @@ import math
 import numbers
 import re
 import unicodedata
+from dataclasses import dataclass
 from functools import lru_cache
 
 from .errors import InputError
@@ -385,3 +386,77 @@ def parse_mass(value: object) -> float:
         else:
             masses.append(particle_mass(term))
     return masses[0] if len(masses) == 1 else reduced_mass(*masses)
+
+
+# --- unit systems ------------------------------------------------------------
+
+UNIT_SYSTEMS = ("atomic", "nuclear")
+
+
+@dataclass(frozen=True)
+class UnitSystem:
+    """The units a solve works in.
+
+    The radial equation is solved as -1/(2 m) u'' + (V - E) u = 0 in the
+    system's own energy and length units, where m = ``kinetic_mass(mass)``
+    absorbs hbar**2: in atomic units m is the reduced mass in electron
+    masses; in nuclear units (MeV, fm) m = mu c**2 / (hbar c)**2 in
+    MeV**-1 fm**-2, with mu c**2 in MeV.
+
+    Attributes
+    ----------
+    name : str
+        ``"atomic"`` or ``"nuclear"``.
+    energy_unit, length_unit, mass_unit : str
+        ``hartree``/``bohr``/``electron masses``, or ``MeV``/``fm``/``MeV/c^2``.
+    """
+
+    name: str
+    energy_unit: str
+    length_unit: str
+    mass_unit: str
+
+    def energy_factor(self) -> float:
+        """Hartree per energy unit of this system."""
+        return energy_unit_factor(self.energy_unit)
+
+    def parse_mass(self, value: object) -> float:
+        """A reduced mass in ``mass_unit``: a number, or particles joined by '+'."""
+        if self.name == "atomic":
+            return parse_mass(value)
+        from scipy import constants as const
+
+        electron_MeV = const.physical_constants["electron mass energy equivalent in MeV"][0]
+        if isinstance(value, str) and not _looks_numeric(value):
+            return parse_mass(value) * electron_MeV
+        number = _finite_number(value, "mass")
+        if number <= 0:
+            raise InputError(f"mass must be > 0 MeV/c^2 (got {value!r})")
+        return number
+
+    def kinetic_mass(self, mass: float) -> float:
+        """The m of -1/(2 m) u'' in this system's units for reduced mass ``mass``."""
+        if self.name == "atomic":
+            return float(mass)
+        from scipy import constants as const
+
+        hbar_c_MeV_fm = const.hbar * const.c / (const.mega * const.e * const.femto)
+        return float(mass) / hbar_c_MeV_fm**2
+
+
+def _looks_numeric(text: str) -> bool:
+    try:
+        float(text)
+    except ValueError:
+        return False
+    return True
+
+
+def unit_system(name: str | None) -> UnitSystem:
+    """The :class:`UnitSystem` called ``name`` (``"atomic"`` when None)."""
+    key = "atomic" if name is None else str(name).strip().lower()
+    if key == "atomic":
+        return UnitSystem("atomic", "hartree", "bohr", "electron masses")
+    if key == "nuclear":
+        return UnitSystem("nuclear", "MeV", "fm", "MeV/c^2")
+    raise InputError(f"unknown unit system {name!r}; allowed: {', '.join(UNIT_SYSTEMS)}")
