@@ -61,7 +61,7 @@ class RadialGrid:
         """Trapezoid weights in x mapped to r: sum(weights * f) ~ integral f dr, bohr."""
         return self.step * self.jacobian
 
-    def liouville_coefficients(self, potential_values: np.ndarray, l: int, mass: float):
+    def liouville_coefficients(self, potential_values: np.ndarray, l: int, mass: float, centrifugal: float | None = None):
         """Return (b, q) of the transformed equation for angular momentum ``l``.
 
         Parameters
@@ -72,9 +72,13 @@ class RadialGrid:
             Orbital angular momentum.
         mass : float
             Reduced mass, electron masses.
+        centrifugal : float, optional
+            The factor in the centrifugal term c/(2 mu r**2); l(l+1) by
+            default, L(L+1) with L = l + (d-3)/2 in d dimensions.
         """
         b = self.jacobian**2
-        centrifugal = l * (l + 1) / (2.0 * mass * self.r**2)
+        factor = l * (l + 1) if centrifugal is None else centrifugal
+        centrifugal = factor / (2.0 * mass * self.r**2)
         q = b * (potential_values + centrifugal) - self.schwarzian / (4.0 * mass)
         return b, q
 

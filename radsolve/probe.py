@@ -58,14 +58,17 @@ class PotentialProfile:
     def confining(self) -> bool:
         return math.isinf(self.v_infinity)
 
-    def origin_exponent(self, l: int, mass: float) -> float:
-        """lambda in u ~ r**lambda as r -> 0 for angular momentum l."""
+    def origin_exponent(self, l: float, mass: float) -> float:
+        """lambda in u ~ r**lambda as r -> 0 for (effective) angular momentum l.
+
+        In d dimensions pass L = l + (d-3)/2.
+        """
         p, c = self.small_r_power, self.small_r_coefficient
         if abs(p + 2.0) < 1e-3:
             return 0.5 + math.sqrt(max((l + 0.5) ** 2 + 2.0 * mass * c, 0.0))
         return l + 1.0
 
-    def check_bounded_below(self, l: int, mass: float) -> None:
+    def check_bounded_below(self, l: float, mass: float) -> None:
         """Raise UnboundedBelowError when V collapses the state into the origin."""
         p, c = self.small_r_power, self.small_r_coefficient
         if c >= 0.0 or p > -2.0 + 1e-3:
@@ -122,7 +125,9 @@ def _tail_limit(potential) -> float:
         return math.inf  # slow (e.g. logarithmic) confinement
     # Assume V = V(inf) + a/r for the last two points (exact for a Coulomb
     # tail, conservative for faster decays).
-    return float((r[2] * v[2] - r[1] * v[1]) / (r[2] - r[1]))
+    limit = float((r[2] * v[2] - r[1] * v[1]) / (r[2] - r[1]))
+    # below this the difference of the tail values is rounding, not a threshold
+    return 0.0 if abs(limit) < 1e-200 else limit
 
 
 def _small_r_law(potential) -> tuple[float, float]:
@@ -174,12 +179,12 @@ def profile(potential, mass: float) -> PotentialProfile:
     )
 
 
-def effective_potential(potential, l: int, mass: float, r: np.ndarray) -> np.ndarray:
-    """V(r) + l(l+1)/(2 mu r**2), hartree."""
+def effective_potential(potential, l: float, mass: float, r: np.ndarray) -> np.ndarray:
+    """V(r) + l(l+1)/(2 mu r**2), hartree (l may be the effective L of d dimensions)."""
     return _values(potential, r) + l * (l + 1) / (2.0 * mass * r**2)
 
 
-def decay_radius(potential, l: int, mass: float, energy: float, start: float, nepers: float) -> float:
+def decay_radius(potential, l: float, mass: float, energy: float, start: float, nepers: float) -> float:
     """Radius (bohr) beyond the outer turning point where a level at ``energy`` has decayed.
 
     Returns the R at which the WKB amplitude exp(-int kappa dr), integrated

@@ -86,6 +86,11 @@ class Level:
         For ``method="both"``: each method's own energy, hartree.
     method_errors : dict
         For ``method="both"``: each method's own error estimate, hartree.
+    j : float or None
+        Total angular momentum l +- 1/2 when a spin-orbit term was included.
+    degeneracy : int
+        Number of states in the level: 2j+1 with spin-orbit, else the
+        orbital multiplicity (2l+1 in three dimensions; spin not counted).
     sample_method : str
         The method that produced ``samples`` (for ``"both"``, the one with
         the smaller estimate); its error expansion is
@@ -106,6 +111,8 @@ class Level:
     method_energies: dict[str, float] = field(default_factory=dict)
     method_errors: dict[str, float] = field(default_factory=dict)
     sample_method: str = ""
+    j: float | None = None
+    degeneracy: int = 1
 
     @property
     def r(self) -> np.ndarray:
@@ -143,6 +150,9 @@ class Level:
             "error_estimate": self.error_estimate / unit_factor,
             "converged": bool(self.converged),
         }
+        if self.j is not None:
+            out["j"] = self.j
+            out["degeneracy"] = self.degeneracy
         if self.exact is not None:
             out["exact"] = self.exact / unit_factor
             out["deviation"] = (self.energy - self.exact) / unit_factor
@@ -177,7 +187,12 @@ class SolveResult:
         when fewer than ``count`` are bound; ``None`` when at least ``count``
         exist (their total was not needed).
     v_infinity : float
-        The continuum threshold lim V(r), r -> inf, hartree (inf if confining).
+        The continuum threshold lim V(r), r -> inf (inf if confining).
+    units : str
+        The unit system of all energies, lengths and the mass: ``"atomic"``
+        (hartree, bohr, electron masses) or ``"nuclear"`` (MeV, fm, MeV/c^2).
+    dimension : int
+        The space dimension d.
     """
 
     levels: list[Level]
@@ -187,8 +202,10 @@ class SolveResult:
     mass: float
     tol: float
     method: str
-    bound_counts: dict[int, int | None]
+    bound_counts: dict
     v_infinity: float
+    units: str = "atomic"
+    dimension: int = 3
 
     def level(self, label: str) -> Level:
         """The level with spectroscopic ``label`` (e.g. ``"2p"``); KeyError if absent."""
@@ -202,15 +219,24 @@ class SolveResult:
         """Energies of ``levels`` in order, hartree."""
         return np.array([lev.energy for lev in self.levels])
 
-    def to_dict(self, unit: str = "hartree") -> dict[str, Any]:
-        """The JSON document of the command line, energies in ``unit``."""
-        from .units import energy_unit_factor
+    def to_dict(self, unit: str | None = None) -> dict[str, Any]:
+        """The JSON document of the command line, energies in ``unit``.
 
-        factor = energy_unit_factor(unit)
+        ``unit`` defaults to the unit system's energy unit (hartree or MeV).
+        """
+        from .units import energy_unit_factor, unit_system
+
+        system = unit_system(self.units)
+        unit = system.energy_unit if unit is None else unit
+        # energies are stored in the system's unit: factor = (system unit) per (unit)
+        factor = energy_unit_factor(unit) / system.energy_factor()
         return {
             "potential": self.potential.name,
             "parameters": dict(self.potential.parameters),
+            "units": self.units,
+            "dimension": self.dimension,
             "mass": self.mass,
+            "mass_unit": system.mass_unit,
             "unit": unit,
             "method": self.method,
             "tol": self.tol,

@@ -1,27 +1,41 @@
 """The front door: :func:`solve` finds the bound levels of a central potential.
 
+Work is organised by partial wave ("channel"): an orbital angular momentum l,
+and with a spin-orbit term also j = l +- 1/2.  Each channel has its own
+potential (V, or V_l of a semilocal family, plus V_so <l.s>) and its own
+centrifugal factor L(L+1), L = l + (d-3)/2 in d dimensions.  All channels of
+one solve share one sequence of nested grids, so that states of different l
+can be combined (matrix elements) grid by grid.
+
 For every method the same plan is followed:
 
-1. probe the potential (:mod:`radsolve.probe`): threshold V(inf), small-r law
-   (refusing a fall to the centre), inner length, range, breakpoints;
+1. probe each channel's potential (:mod:`radsolve.probe`): threshold V(inf),
+   small-r law (refusing a fall to the centre), inner length, range,
+   breakpoints;
 2. choose the box on a coarse grid: grow it until the levels asked for are
    bound in it (or until it is far larger than the range of V, so that no
    further level can appear), then set the outer radius where the weakest
-   level asked for has decayed (WKB) well below ``tol``;
+   level asked for has decayed (WKB), and check it by the shift the wall
+   itself causes;
 3. solve on a sequence of nested grids, halving the step, Richardson-
    extrapolate each level, and stop when every estimated error meets
-   ``tol`` (or the finest affordable grid is reached: the level is then
-   returned with ``converged=False`` and its achieved estimate).
+   ``tol`` (or rounding noise or the finest affordable grid is reached: the
+   level is then returned with ``converged=False`` and its achieved
+   estimate).
 
 Levels are identified by their node count (Sturm count), so n and the label
 are exact, and the k-th level can be neither missed nor duplicated.
+
+Energies and lengths are in the units of the solve's unit system (hartree and
+bohr, or MeV and fm); ``mass`` below is always the kinetic mass m of
+-1/(2m) u'' in those units (see :class:`radsolve.units.UnitSystem`).
 """
 
 from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Iterable
+from typing import Any, Iterable
 
 import numpy as np
 
@@ -46,17 +60,44 @@ _LARGEST_BOX = 1e10
 #: A short-range potential is followed out to this multiple of its range.
 _RANGE_MARGIN = 20.0
 
+Key = tuple  # (l, j) with j None without spin-orbit
+
+
+@dataclass(frozen=True)
+class _Channel:
+    """One partial wave: its potential, what probing learned, its centrifugal term."""
+
+    l: int
+    j: float | None
+    potential: Any
+    profile: probing.PotentialProfile
+    effective_l: float  # L = l + (d-3)/2
+    exponent: float  # u ~ r**exponent at the origin
+
+    @property
+    def key(self) -> Key:
+        return (self.l, self.j)
+
+    @property
+    def centrifugal(self) -> float:
+        return self.effective_l * (self.effective_l + 1.0)
+
+    def energy_scale(self, energy: float) -> float:
+        """What 'relative error' is relative to: |E|, or |E - V(inf)| if larger."""
+        v_inf = self.profile.v_infinity
+        return abs(energy) if math.isinf(v_inf) else max(abs(energy), abs(energy - v_inf))
+
 
 @dataclass(frozen=True)
 class _BoxPlan:
     span: GridSpan
-    inner_radius: dict[int, float]
-    wanted: dict[int, int]
-    bound_counts: dict[int, int | None]
+    inner_radius: dict
+    wanted: dict
+    bound_counts: dict
     notes: tuple[str, ...]
 
 
-def _validate(l, count, tol, method) -> tuple[list[int], int, float, list[str]]:
+def _validate(l, count, tol, method, dimension) -> tuple[list[int], int, float, list[str], int]:
     if isinstance(l, (int, np.integer)) and not isinstance(l, bool):
         ls = [int(l)]
     elif isinstance(l, Iterable) and not isinstance(l, (str, bytes)):
@@ -91,7 +132,9 @@ def _validate(l, count, tol, method) -> tuple[list[int], int, float, list[str]]:
         methods = [method]
     else:
         raise InputError(f"unknown method {method!r}; allowed: {', '.join(list(METHODS) + ['both'])}")
-    return ls, int(count), tol, methods
+    if not isinstance(dimension, (int, np.integer)) or isinstance(dimension, bool) or not 2 <= dimension <= 50:
+        raise InputError(f"dimension must be a whole number from 2 to 50 (got {dimension!r})")
+    return ls, int(count), tol, methods, int(dimension)
 
 
 def _resolve_potential(potential, plugins):
@@ -104,10 +147,39 @@ def _resolve_potential(potential, plugins):
     return potential
 
 
-def _resolve_mass(mass) -> float:
-    from .units import parse_mass
+def _unit_system(pot, units):
+    from .units import unit_system
 
-    return parse_mass(mass)
+    declared = getattr(getattr(getattr(pot, "family", None), "module", None), "UNITS", "atomic")
+    declared = "atomic" if declared is None else str(declared).lower()
+    system = unit_system(declared if units is None else units)
+    if system.name != declared:
+        raise InputError(
+            f"potential {pot.name!r} is written in {declared} units; unit system {system.name!r} "
+            f"is not supported for it (allowed: {declared})"
+        )
+    return system
+
+
+def _channels(pot, ls, spin_orbit, dimension, mass) -> list[_Channel]:
+    if spin_orbit and not getattr(pot, "has_spin_orbit", False):
+        raise InputError(
+            f"spin_orbit was asked for, but potential {pot.name!r} has no spin-orbit term "
+            "(families with one define spin_orbit(r, ...))"
+        )
+    shift = (dimension - 3) / 2.0
+    out = []
+    for l in ls:
+        js = [None]
+        if spin_orbit:
+            js = [0.5] if l == 0 else [l - 0.5, l + 0.5]
+        for j in js:
+            channel_pot = pot.channel(l, j) if hasattr(pot, "channel") else pot
+            prof = probing.profile(channel_pot, mass)
+            effective = l + shift
+            prof.check_bounded_below(effective, mass)
+            out.append(_Channel(l, j, channel_pot, prof, effective, prof.origin_exponent(effective, mass)))
+    return out
 
 
 def _inner_index(span: GridSpan, refinement: int, radius: float, coarse_r: np.ndarray) -> int:
@@ -116,8 +188,8 @@ def _inner_index(span: GridSpan, refinement: int, radius: float, coarse_r: np.nd
     return max(i0, 0) * 2**refinement
 
 
-def _spectrum_on(grid, values, l, mass, inner, cls: type[RadialSolver], v_inf, count, exponent, guesses=None):
-    solver = cls(grid, values, l, mass, inner, origin_exponent=exponent)
+def _spectrum_on(grid, values, ch: _Channel, mass, inner, cls: type[RadialSolver], v_inf, count, guesses=None):
+    solver = cls(grid, values, ch.l, mass, inner, origin_exponent=ch.exponent, centrifugal=ch.centrifugal)
     if math.isinf(v_inf):
         available = count
     else:
@@ -129,85 +201,89 @@ def _spectrum_on(grid, values, l, mass, inner, cls: type[RadialSolver], v_inf, c
     return energies, u, available
 
 
-def _plan_box(pot, prof, ls, count, mass, tol, cls) -> _BoxPlan:
-    """Choose the outer radius and the number of levels to compute per l."""
-    r_in = prof.inner_length
-    inner_radius = {l: prof.inner_cutoff(l, mass, tol) for l in ls}
+def _breakpoints(channels) -> tuple[float, ...]:
+    return tuple(sorted({b for ch in channels for b in ch.profile.breakpoints}))
+
+
+def _plan_box(channels, count, mass, tol, cls) -> _BoxPlan:
+    """Choose the outer radius and the number of levels to compute per channel."""
+    r_in = min(ch.profile.inner_length for ch in channels)
+    inner_radius = {ch.key: ch.profile.inner_cutoff(ch.effective_l, mass, tol) for ch in channels}
     r_min = min(inner_radius.values())
-    anchor = prof.breakpoints[0] if prof.breakpoints else None
-    biggest_feature = max(prof.breakpoints, default=0.0)
+    breakpoints = _breakpoints(channels)
+    anchor = breakpoints[0] if breakpoints else None
+    biggest_feature = max(breakpoints, default=0.0)
     radius = max(_INITIAL_BOX * r_in, 4.0 * biggest_feature)
-    if math.isfinite(prof.range):
-        limit = max(_RANGE_MARGIN * prof.range, radius)
+    ranges = [ch.profile.range for ch in channels]
+    if all(math.isfinite(x) for x in ranges):
+        limit = max(_RANGE_MARGIN * max(ranges), radius)
     else:
         limit = _LARGEST_BOX * r_in
+    confining = all(ch.profile.confining for ch in channels)
     nepers = 0.5 * math.log(1.0 / (1e-3 * tol)) + 3.0
     notes: list[str] = []
+    found: dict = {}
+    short: list = []
+    needed = 0.0
     for _ in range(80):
         scale = radius / max(math.log(radius / r_min), 1.0)
         span = GridSpan.covering(r_min, radius, PLANNING_STEP, scale, anchor)
         grid = span.grid(0)
-        values = potential_on_grid(pot, grid.r, prof.breakpoints)
-        found: dict[int, int] = {}
         needed = 0.0
-        for l in ls:
-            inner = _inner_index(span, 0, inner_radius[l], grid.r)
-            energies, _, available = _spectrum_on(
-                grid, values, l, mass, inner, cls, prof.v_infinity, count, prof.origin_exponent(l, mass)
-            )
-            found[l] = available
+        for ch in channels:
+            values = potential_on_grid(ch.potential, grid.r, breakpoints)
+            inner = _inner_index(span, 0, inner_radius[ch.key], grid.r)
+            energies, _, available = _spectrum_on(grid, values, ch, mass, inner, cls, ch.profile.v_infinity, count)
+            found[ch.key] = available
             if available:
-                needed = max(needed, probing.decay_radius(pot, l, mass, float(energies[-1]), r_min, nepers))
-        short = [l for l in ls if found[l] < count]
+                needed = max(needed, probing.decay_radius(ch.potential, ch.effective_l, mass, float(energies[-1]), r_min, nepers))
+        short = [ch.key for ch in channels if found[ch.key] < count]
         if needed > radius:
             radius = min(1.3 * needed, max(limit, 1.3 * needed))
             continue
-        if short and not prof.confining and radius < limit:
+        if short and not confining and radius < limit:
             radius = min(4.0 * radius, limit)
             continue
         break
     else:  # pragma: no cover - the loop above always reaches its limit
         notes.append("box search did not settle")
-    if short and not prof.confining and not math.isfinite(prof.range) and radius >= limit:
-        notes.append(f"box limit of {radius:.3g} bohr reached")
-    wanted = {l: found[l] for l in ls}
-    bound_counts = {l: (found[l] if found[l] < count else None) for l in ls}
+    if short and not confining and not math.isfinite(max(ranges)) and radius >= limit:
+        notes.append(f"box limit of {radius:.3g} reached")
+    wanted = {ch.key: found[ch.key] for ch in channels}
+    bound_counts = {ch.key: (found[ch.key] if found[ch.key] < count else None) for ch in channels}
     final_radius = needed if needed > 0 else radius
     final_radius = max(final_radius, 2.0 * biggest_feature, 4.0 * r_in)
-    if not prof.confining:
-        final_radius = _verify_box(pot, prof, ls, wanted, mass, tol, cls, inner_radius, r_min, final_radius, anchor)
+    if not confining:
+        final_radius = _verify_box(channels, wanted, mass, tol, cls, inner_radius, r_min, final_radius, anchor)
     scale = final_radius / max(math.log(final_radius / r_min), 1.0)
     span = GridSpan.covering(r_min, final_radius, COARSE_STEP, scale, anchor)
     return _BoxPlan(span, inner_radius, wanted, bound_counts, tuple(notes))
 
 
-def _verify_box(pot, prof, ls, wanted, mass, tol, cls, inner_radius, r_min, radius, anchor) -> float:
+def _verify_box(channels, wanted, mass, tol, cls, inner_radius, r_min, radius, anchor) -> float:
     """Grow the outer radius until the wall shifts no wanted level by more than 1e-3 tol.
 
     The WKB decay estimate ignores the amplitude's prefactor, which is large
     for weakly bound, extended levels; the wall's own shift (Hadamard
     formula, see :func:`_box_error`) on the planning grid settles it.
     """
+    breakpoints = _breakpoints(channels)
     for _ in range(6):
         scale = radius / max(math.log(radius / r_min), 1.0)
         span = GridSpan.covering(r_min, radius, PLANNING_STEP, scale, anchor)
         grid = span.grid(0)
-        values = potential_on_grid(pot, grid.r, prof.breakpoints)
         growth = 0.0
-        for l in ls:
-            if not wanted[l]:
+        for ch in channels:
+            if not wanted[ch.key] or ch.profile.confining:
                 continue
-            inner = _inner_index(span, 0, inner_radius[l], grid.r)
-            energies, u, available = _spectrum_on(
-                grid, values, l, mass, inner, cls, math.inf, wanted[l], prof.origin_exponent(l, mass)
-            )
+            values = potential_on_grid(ch.potential, grid.r, breakpoints)
+            inner = _inner_index(span, 0, inner_radius[ch.key], grid.r)
+            energies, u, _ = _spectrum_on(grid, values, ch, mass, inner, cls, math.inf, wanted[ch.key])
             for energy, row in zip(energies, u):
-                scale_e = max(abs(energy), abs(energy - prof.v_infinity))
-                shift = _box_error(grid, row, values, l, mass, energy)
-                target = 1e-3 * tol * scale_e
+                shift = _box_error(grid, row, values, ch.centrifugal, mass, energy)
+                target = 1e-3 * tol * ch.energy_scale(energy)
                 if shift > target:
-                    v_eff = values[-2] + l * (l + 1) / (2.0 * mass * grid.r[-2] ** 2)
-                    kappa = math.sqrt(max(2.0 * mass * (v_eff - energy), 1e-300))
+                    kappa = _decay_rate(grid, values, ch.centrifugal, mass, energy)
                     growth = max(growth, (math.log(shift / target) + 1.0) / (2.0 * kappa))
         if growth == 0.0:
             return radius
@@ -216,7 +292,7 @@ def _verify_box(pot, prof, ls, wanted, mass, tol, cls, inner_radius, r_min, radi
 
 
 def _grown(plan: _BoxPlan, growth: float) -> _BoxPlan:
-    """The same plan with the outer wall moved out by ``growth`` bohr (at most 4x).
+    """The same plan with the outer wall moved out by ``growth`` (at most 4x).
 
     The mapping and the inner end stay as they were (so an anchored
     breakpoint stays a grid point); only whole coarse steps are added.
@@ -290,29 +366,32 @@ def _richardson(energies: list[float], orders: tuple[int, ...], relative_roundin
     return float(best), float(max(estimate, floor)), observed
 
 
-def _decay_rate(grid, values, l, mass, energy) -> float:
+def _decay_rate(grid, values, centrifugal, mass, energy) -> float:
     """kappa = sqrt(2 mu (V_eff - E)) just inside the outer wall, bohr**-1."""
-    v_eff = values[-2] + l * (l + 1) / (2.0 * mass * grid.r[-2] ** 2)
+    v_eff = values[-2] + centrifugal / (2.0 * mass * grid.r[-2] ** 2)
     return math.sqrt(max(2.0 * mass * (v_eff - energy), 1e-300))
 
 
-def _wall_growth(best: dict[int, list[dict]], tol: float, v_inf: float) -> float:
-    """How far (bohr) to move the outer wall so no level's wall shift exceeds 1e-3 tol."""
+def _wall_growth(best: dict, tol: float, channels) -> float:
+    """How far to move the outer wall so no level's wall shift exceeds 1e-3 tol."""
     growth = 0.0
-    for levels in best.values():
+    by_key = {ch.key: ch for ch in channels}
+    for key, levels in best.items():
+        ch = by_key[key]
+        if ch.profile.confining:
+            continue
         for entry in levels:
-            scale = abs(entry["energy"]) if math.isinf(v_inf) else max(abs(entry["energy"]), abs(entry["energy"] - v_inf))
-            target = 1e-3 * tol * scale
+            target = 1e-3 * tol * ch.energy_scale(entry["energy"])
             if entry["wall"] > target:
                 growth = max(growth, (math.log(entry["wall"] / target) + 1.0) / (2.0 * entry["kappa"]))
     return growth
 
 
-def _box_error(grid, u_row, values, l, mass, energy) -> float:
+def _box_error(grid, u_row, values, centrifugal, mass, energy) -> float:
     """First-order energy shift (hartree) caused by the outer wall (Hadamard formula)."""
     r = grid.r
     du = u_row[-2] / (r[-1] - r[-2])
-    v_eff = values[-2] + l * (l + 1) / (2.0 * mass * r[-2] ** 2)
+    v_eff = values[-2] + centrifugal / (2.0 * mass * r[-2] ** 2)
     kappa = math.sqrt(max(2.0 * mass * (v_eff - energy), 1e-300))
     return float(du * du / (2.0 * mass) / (2.0 * kappa))
 
@@ -340,67 +419,97 @@ def _inner_boundary_error(grid, u_row, inner, mass, exponent, values, energy) ->
     return float(hard_wall * min(correction, 1.0))
 
 
-def _run_method(pot, plan: _BoxPlan, ls, mass, tol, cls: type[RadialSolver], prof):
+def _run_method(channels, plan: _BoxPlan, mass, tol, cls: type[RadialSolver]):
     """Solve on nested grids until every level meets tol, or rounding noise wins.
 
-    Returns ``(results, samples)``: for each l a list of per-level dicts
-    (energy, error, order, converged) and of GridSample tuples.  Each level
-    keeps the extrapolation with the smallest estimated error seen.
+    Returns ``(best, samples)``: for each channel key a list of per-level
+    dicts (energy, error, order, converged, ...) and of GridSample tuples.
+    Each level keeps the extrapolation with the smallest estimated error seen.
     """
     span = plan.span
     coarse_r = span.grid(0).r
-    v_inf = prof.v_infinity
-    history: dict[int, list[list[tuple]]] = {l: [] for l in ls}
-    best: dict[int, list[dict]] = {l: [] for l in ls}
+    breakpoints = _breakpoints(channels)
+    history: dict = {ch.key: [] for ch in channels}
+    best: dict = {ch.key: [] for ch in channels}
     for refinement in range(MAX_REFINEMENTS + 1):
         grid = span.grid(refinement)
         if grid.size > MAX_POINTS:
             break
-        values = potential_on_grid(pot, grid.r, prof.breakpoints)
         all_met, any_improving = True, False
-        for l in ls:
-            want = plan.wanted[l]
+        for ch in channels:
+            want = plan.wanted[ch.key]
             if want == 0:
                 continue
-            inner = _inner_index(span, refinement, plan.inner_radius[l], coarse_r)
-            guesses = [entry[0] for entry in history[l][-1]] if history[l] else None
-            exponent = prof.origin_exponent(l, mass)
-            energies, u, _ = _spectrum_on(grid, values, l, mass, inner, cls, math.inf, want, exponent, guesses)
-            history[l].append([(float(energies[k]), u[k], grid) for k in range(want)])
+            values = potential_on_grid(ch.potential, grid.r, breakpoints)
+            inner = _inner_index(span, refinement, plan.inner_radius[ch.key], coarse_r)
+            guesses = [entry[0] for entry in history[ch.key][-1]] if history[ch.key] else None
+            energies, u, _ = _spectrum_on(grid, values, ch, mass, inner, cls, math.inf, want, guesses)
+            history[ch.key].append([(float(energies[k]), u[k], grid) for k in range(want)])
+            levels = best[ch.key]
             for k in range(want):
-                series = [step[k][0] for step in history[l]]
+                series = [step[k][0] for step in history[ch.key]]
                 value, estimate, observed = _richardson(series, cls.error_orders, cls.relative_rounding(grid.size))
-                wall = _box_error(grid, u[k], values, l, mass, value)
+                wall = _box_error(grid, u[k], values, ch.centrifugal, mass, value)
                 estimate += wall
-                estimate += _inner_boundary_error(grid, u[k], inner, mass, exponent, values, value)
-                scale = abs(value) if math.isinf(v_inf) else max(abs(value), abs(value - v_inf))
+                estimate += _inner_boundary_error(grid, u[k], inner, mass, ch.exponent, values, value)
                 entry = dict(nodes=k, energy=value, error=estimate, order=observed, converged=False,
-                             wall=wall, kappa=_decay_rate(grid, values, l, mass, value))
-                if len(best[l]) <= k:
-                    best[l].append(entry)
-                elif estimate < best[l][k]["error"]:
-                    best[l][k] = entry
+                             wall=wall, kappa=_decay_rate(grid, values, ch.centrifugal, mass, value))
+                if len(levels) <= k:
+                    levels.append(entry)
+                elif estimate < levels[k]["error"]:
+                    levels[k] = entry
                     any_improving = True
-                met = len(series) >= 3 and best[l][k]["error"] <= tol * scale
-                best[l][k]["converged"] = met
+                met = len(series) >= 3 and levels[k]["error"] <= tol * ch.energy_scale(levels[k]["energy"])
+                levels[k]["converged"] = met
                 all_met &= met
-        if refinement == 1 and not prof.confining and _wall_growth(best, tol, v_inf) > 0.0:
+        if refinement == 1 and _wall_growth(best, tol, channels) > 0.0:
             break  # the wall is too close: the caller grows the box before refining further
         if refinement >= 2 and all_met:
             break
         if refinement >= 3 and not any_improving:
             break  # rounding noise dominates: finer grids will not help
     samples = {
-        l: [
-            tuple(GridSample(step=g.step, r=g.r, weights=g.weights, u=uk, energy=e) for (e, uk, g) in (step[k] for step in history[l]))
-            for k in range(plan.wanted[l])
+        ch.key: [
+            tuple(GridSample(step=g.step, r=g.r, weights=g.weights, u=uk, energy=e)
+                  for (e, uk, g) in (step[k] for step in history[ch.key]))
+            for k in range(plan.wanted[ch.key])
         ]
-        for l in ls
+        for ch in channels
     }
     return best, samples
 
 
-def solve(potential, l=0, count: int = 5, mass=1.0, tol: float = 1e-10, method: str = "fd", plugins=None) -> SolveResult:
+def _degeneracy(l: int, j: float | None, dimension: int) -> int:
+    """Number of states of one level: 2j+1 with spin-orbit, else the orbital multiplicity."""
+    if j is not None:
+        return int(round(2 * j + 1))
+    if dimension == 2:
+        return 1 if l == 0 else 2
+    # dimension of the space of harmonic polynomials of degree l in d variables
+    return math.comb(l + dimension - 1, dimension - 1) - (math.comb(l + dimension - 3, dimension - 1) if l >= 2 else 0)
+
+
+def _label(nodes: int, l: int, j: float | None, units: str) -> tuple[int, str]:
+    """(n, label): atomic n = nodes + l + 1 ('2p3/2'); nuclear n = nodes + 1 ('1p3/2')."""
+    n = nodes + 1 if units == "nuclear" else nodes + l + 1
+    label = level_label(n, l)
+    if j is not None:
+        label += f"{int(round(2 * j))}/2"
+    return n, label
+
+
+def solve(
+    potential,
+    l=0,
+    count: int = 5,
+    mass=1.0,
+    tol: float = 1e-10,
+    method: str = "fd",
+    plugins=None,
+    spin_orbit: bool = False,
+    dimension: int = 3,
+    units: str | None = None,
+) -> SolveResult:
     """Bound levels of a particle in a central potential.
 
     Parameters
@@ -411,110 +520,141 @@ def solve(potential, l=0, count: int = 5, mass=1.0, tol: float = 1e-10, method: 
     l : int or sequence of int
         Orbital angular momenta to solve for.
     count : int
-        Number of lowest levels wanted for each l.  When fewer are bound, the
-        bound ones are returned and ``result.bound_counts`` says how many.
+        Number of lowest levels wanted for each l (each (l, j) with spin-orbit).
+        When fewer are bound, the bound ones are returned and
+        ``result.bound_counts`` says how many.
     mass : float or str
-        Reduced mass in electron masses, or particles joined by ``+``
-        (``"electron+proton"``), whose reduced mass is used.
+        Reduced mass: in electron masses (atomic units) or MeV/c**2 (nuclear
+        units), or particles joined by ``+`` (``"electron+proton"``), whose
+        reduced mass is used.
     tol : float
-        Target relative error of each energy (1e-14 ... 0.1).
+        Target relative error of each energy (1e-14 ... 0.1), relative to
+        |E| (or to |E - V(inf)| when that is larger).
     method : str
         ``"fd"`` (finite differences), ``"numerov"`` (Numerov shooting) or
         ``"both"`` (both run; their disagreement is folded into the error
         estimate).
     plugins : sequence of path, optional
         Extra folders of potential plug-ins (when ``potential`` is a name).
+    spin_orbit : bool
+        Split each l > 0 into j = l - 1/2 and l + 1/2 with the family's
+        V_so(r) <l.s> term.
+    dimension : int
+        Space dimension d >= 2; the centrifugal term uses L = l + (d-3)/2.
+    units : {"atomic", "nuclear"}, optional
+        The unit system; by default the one the family is written in.
+        Atomic: hartree, bohr, electron masses.  Nuclear: MeV, fm, MeV/c**2.
 
     Returns
     -------
     SolveResult
-        ``.levels`` with energies in hartree, each with ``error_estimate``
-        and ``converged``; ``.success`` and ``.message``.
+        ``.levels`` with energies in the unit system's energy unit, each with
+        ``error_estimate`` and ``converged``; ``.success`` and ``.message``.
 
     Raises
     ------
     InputError, PluginError, UnboundedBelowError
         For bad input or a potential that collapses into the origin.
     """
-    ls, count, tol, methods = _validate(l, count, tol, method)
+    ls, count, tol, methods, dimension = _validate(l, count, tol, method, dimension)
     pot = _resolve_potential(potential, plugins)
-    mu = _resolve_mass(mass)
-    prof = probing.profile(pot, mu)
-    for value in ls:
-        prof.check_bounded_below(value, mu)
+    system = _unit_system(pot, units)
+    mu = system.parse_mass(mass)
+    kinetic = system.kinetic_mass(mu)
+    channels = _channels(pot, ls, bool(spin_orbit), dimension, kinetic)
 
-    plan = _plan_box(pot, prof, ls, count, mu, tol, solver_class(methods[0]))
+    plan = _plan_box(channels, count, kinetic, tol, solver_class(methods[0]))
     runs = {}
     for m in methods:
         for _attempt in range(4):
-            runs[m] = _run_method(pot, plan, ls, mu, tol, solver_class(m), prof)
-            growth = 0.0 if prof.confining else _wall_growth(runs[m][0], tol, prof.v_infinity)
+            runs[m] = _run_method(channels, plan, kinetic, tol, solver_class(m))
+            growth = _wall_growth(runs[m][0], tol, channels)
             if growth == 0.0:
                 break
             plan = _grown(plan, growth)
 
     levels: list[Level] = []
-    for value in ls:
-        for k in range(plan.wanted[value]):
-            per = {m: runs[m][0][value][k] for m in methods}
-            n = k + value + 1
+    for ch in channels:
+        for k in range(plan.wanted[ch.key]):
+            per = {m: runs[m][0][ch.key][k] for m in methods}
+            n, label = _label(k, ch.l, ch.j, system.name)
             best_method = min(methods, key=lambda m: per[m]["error"])
             best = per[best_method]
             energy, error = best["energy"], best["error"]
             if len(methods) > 1:
                 spread = max(p["energy"] for p in per.values()) - min(p["energy"] for p in per.values())
                 error = max(max(p["error"] for p in per.values()), spread)
-            scale = abs(energy) if math.isinf(prof.v_infinity) else max(abs(energy), abs(energy - prof.v_infinity))
-            converged = all(p["converged"] for p in per.values()) and error <= tol * scale
-            exact = pot.exact_energy(n, value, mu)
+            converged = all(p["converged"] for p in per.values()) and error <= tol * ch.energy_scale(energy)
+            exact = None
+            if dimension == 3 and system.name == "atomic":
+                exact = ch.potential.exact_energy(k + ch.l + 1, ch.l, mu)
             levels.append(
                 Level(
                     n=n,
-                    l=value,
+                    l=ch.l,
                     nodes=k,
-                    label=level_label(n, value),
+                    label=label,
                     energy=energy,
                     error_estimate=error,
                     converged=bool(converged),
                     method=method,
                     order=best["order"],
-                    samples=runs[best_method][1][value][k],
+                    samples=runs[best_method][1][ch.key][k],
                     exact=None if exact is None else float(exact),
                     method_energies={m: per[m]["energy"] for m in methods} if len(methods) > 1 else {},
                     method_errors={m: per[m]["error"] for m in methods} if len(methods) > 1 else {},
                     sample_method=best_method,
+                    j=ch.j,
+                    degeneracy=_degeneracy(ch.l, ch.j, dimension),
                 )
             )
 
-    message_parts = []
-    for value in ls:
-        found = plan.wanted[value]
-        if found == 0:
-            message_parts.append(f"no bound level for l = {value}")
-        elif plan.bound_counts[value] is not None:
-            message_parts.append(f"only {found} bound level{'s' if found != 1 else ''} for l = {value} (asked {count})")
-    if any(plan.bound_counts[v] is not None for v in ls) and not prof.confining:
-        message_parts.append(
-            f"bound means below V(inf) = {prof.v_infinity:.6g} hartree; levels bound by less than "
-            f"~{math.pi**2 / (2 * mu * plan.span.r_max**2):.2g} hartree would need a larger box"
-        )
-    unconverged = [lev for lev in levels if not lev.converged]
-    if unconverged:
-        worst = ", ".join(f"{lev.label} ({lev.relative_error_estimate:.1e})" for lev in unconverged[:8])
-        message_parts.append(f"NOT CONVERGED to tol = {tol:.1e}: {worst}; their estimates are what was achieved")
-    message_parts.extend(plan.notes)
-    if not levels:
-        message = "no bound state: " + "; ".join(message_parts)
-    else:
-        message = "; ".join(message_parts) if message_parts else f"all {len(levels)} levels converged to tol = {tol:.1e}"
+    message = _message(channels, plan, levels, count, tol, kinetic, system)
     return SolveResult(
         levels=levels,
-        success=not unconverged,
+        success=all(lev.converged for lev in levels),
         message=message,
         potential=pot,
         mass=mu,
         tol=tol,
         method=method,
-        bound_counts={v: plan.bound_counts[v] for v in ls},
-        v_infinity=prof.v_infinity,
+        bound_counts={_key_text(ch.key): plan.bound_counts[ch.key] for ch in channels} if spin_orbit
+        else {ch.l: plan.bound_counts[ch.key] for ch in channels},
+        v_infinity=min(ch.profile.v_infinity for ch in channels),
+        units=system.name,
+        dimension=dimension,
     )
+
+
+def _key_text(key: Key) -> str:
+    l, j = key
+    return f"l={l}" if j is None else f"l={l},j={int(round(2 * j))}/2"
+
+
+def _message(channels, plan, levels, count, tol, kinetic, system) -> str:
+    parts = []
+    none = [_key_text(ch.key) for ch in channels if plan.wanted[ch.key] == 0]
+    fewer = [f"{_key_text(ch.key)}: {plan.wanted[ch.key]}" for ch in channels
+             if plan.wanted[ch.key] and plan.bound_counts[ch.key] is not None]
+    if none:
+        parts.append("no bound level for " + ", ".join(none))
+    if fewer:
+        parts.append(f"fewer bound levels than the {count} asked: " + "; ".join(fewer))
+    short = [ch for ch in channels if plan.bound_counts[ch.key] is not None and not ch.profile.confining]
+    if short:
+        v_inf = min(ch.profile.v_infinity for ch in short)
+        r_max = plan.span.r_max
+        parts.append(
+            f"bound means below V(inf) = {v_inf:.6g} {system.energy_unit}; levels bound by less than "
+            f"~{math.pi**2 / (2 * kinetic * r_max**2):.2g} {system.energy_unit} would need a larger box "
+            f"than its {r_max:.4g} {system.length_unit}"
+        )
+    unconverged = [lev for lev in levels if not lev.converged]
+    if unconverged:
+        worst = ", ".join(f"{lev.label} ({lev.relative_error_estimate:.1e})" for lev in unconverged[:8])
+        more = f" and {len(unconverged) - 8} more" if len(unconverged) > 8 else ""
+        parts.append(f"NOT CONVERGED to tol = {tol:.1e}: {worst}{more}; their estimates are what was achieved")
+    parts.extend(plan.notes)
+    if not levels:
+        return "no bound state: " + "; ".join(parts)
+    return "; ".join(parts) if parts else f"all {len(levels)} levels converged to tol = {tol:.1e}"

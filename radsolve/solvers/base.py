@@ -68,6 +68,9 @@ class RadialSolver:
         cutting the grid at r[inner] second order in r[inner], instead of
         first order for a hard wall, and is what makes lambda = 1/2 (two
         dimensions, l = 0) solvable at all.
+    centrifugal : float, optional
+        The factor c of the centrifugal term c / (2 mu r**2): l(l+1) by
+        default; L(L+1) with L = l + (d-3)/2 in d dimensions.
 
     Class attributes
     ----------------
@@ -99,6 +102,7 @@ class RadialSolver:
         mass: float,
         inner: int = 0,
         origin_exponent: float | None = None,
+        centrifugal: float | None = None,
     ):
         self.grid = grid
         self.l = l
@@ -106,7 +110,7 @@ class RadialSolver:
         self.inner = inner
         self.origin_exponent = float(l + 1 if origin_exponent is None else origin_exponent)
         self.ghost_ratio = float(np.exp(-(self.origin_exponent - 0.5) * grid.step))
-        self.b, self.q = grid.liouville_coefficients(potential_values, l, mass)
+        self.b, self.q = grid.liouville_coefficients(potential_values, l, mass, centrifugal)
 
     def count_below(self, energy: float) -> int:
         """Number of levels of this discrete problem with energy below ``energy`` (hartree)."""
