@@ -1,0 +1,210 @@
+"""Behaviour of the front door solve(): labels, counts, states, refusals.
+
+Sources:
+- Coulomb energies -mu Z**2/(2 n**2), oscillator energies (textbook formulas).
+- Oscillator plus inverse-square term V = w**2 r**2/2 + g/r**2: with
+  L(L+1) = l(l+1) + 2 mu g the levels are E = (2 n_r + L + 3/2) w/sqrt(mu)
+  (textbook formula, the radial equation keeps its form with l -> L).
+- Sturm oscillation theorem: the k-th level of a radial problem has k
+  interior nodes (textbook).
+- Critical screening of the Yukawa 1s level, D_c = 0.8399 bohr (Rogers,
+  Graboske & Harwood, Phys. Rev. A 1, 1577 (1970); from memory), used only to
+  choose screening lengths safely on either side.
+- 2D hydrogen E = -Z**2 / (2 (n - 1/2)**2) (textbook formula).
+"""
+
+import textwrap
+
+import numpy as np
+import pytest
+
+import radsolve
+from radsolve.errors import InputError, UnboundedBelowError
+
+
+def _sign_changes(u, r, level):
+    # ignore the rounding-level tails beyond the classically relevant region
+    big = np.abs(u) > 1e-8 * np.max(np.abs(u))
+    s = np.sign(u[big])
+    return int(np.count_nonzero(s[1:] != s[:-1]))
+
+
+@pytest.mark.parametrize("method", ["fd", "numerov"])
+def test_states_are_normalized_positive_at_origin_with_k_nodes(method):
+    result = radsolve.solve("coulomb", l=[0, 1, 2], count=4, method=method)
+    for lev in result.levels:
+        s = lev.samples[-1]
+        assert np.sum(s.weights * s.u**2) == pytest.approx(1.0, abs=1e-12)
+        first = np.nonzero(np.abs(s.u) > 1e-6 * np.max(np.abs(s.u)))[0][0]
+        assert s.u[first] > 0
+        assert _sign_changes(s.u, s.r, lev) == lev.nodes  # Sturm oscillation theorem
+        assert lev.n == lev.nodes + lev.l + 1
+
+
+def test_hydrogen_1s_wavefunction_against_closed_form():
+    # u_1s = 2 r exp(-r) for Z = 1 (textbook formula)
+    # The stored u is the finest grid's own (second-order in the step for fd):
+    # its error must be small and fall by ~4 per halving.
+    lev = radsolve.solve("coulomb", l=0, count=1).levels[0]
+    errors = []
+    for s in lev.samples[-2:]:
+        mask = (s.r > 1e-3) & (s.r < 20)
+        errors.append(np.max(np.abs(s.u[mask] - 2 * s.r[mask] * np.exp(-s.r[mask]))))
+    assert errors[-1] < 1e-5
+    assert 3.0 < errors[0] / errors[1] < 5.0
+
+
+def test_refinement_samples_are_nested_grids():
+    lev = radsolve.solve("coulomb", l=1, count=2).levels[0]
+    assert len(lev.samples) >= 3
+    for coarse, fine in zip(lev.samples, lev.samples[1:]):
+        assert fine.step == pytest.approx(coarse.step / 2)
+        assert np.allclose(fine.r[::2], coarse.r, rtol=1e-13, atol=0)
+
+
+def test_labels_beyond_f():
+    result = radsolve.solve("coulomb", l=[4, 5, 6, 7], count=1)
+    assert [lev.label for lev in result.levels] == ["5g", "6h", "7i", "8k"]
+
+
+def test_fewer_bound_than_asked_returns_the_bound_ones_and_says_so():
+    # Z = 1, D = 2 bohr: only the 1s level is bound for l = 0 (critical D of
+    # 2s is ~3.2 bohr; Rogers et al. 1970, from memory), none for l = 1
+    # (2p needs D > ~4.5 bohr, from memory).
+    result = radsolve.solve(radsolve.potential("yukawa", Z=1, screening_length=2.0), l=[0, 1], count=4)
+    assert [lev.label for lev in result.levels] == ["1s"]
+    assert result.bound_counts == {0: 1, 1: 0}
+    assert "no bound level for l=1" in result.message
+    assert "fewer bound levels than the 4 asked" in result.message
+    assert result.success
+
+
+def test_no_bound_state_is_an_empty_result_with_a_message():
+    pot = radsolve.potential("yukawa", Z=1, screening_length=0.5)  # below D_c = 0.84 bohr
+    result = radsolve.solve(pot, l=0, count=3)
+    assert result.levels == []
+    assert result.message.startswith("no bound state")
+
+
+def test_minimal_plugin_without_metadata_both_methods_agree(tmp_path):
+    (tmp_path / "gauss_well.py").write_text(textwrap.dedent('''
+        import numpy as np
+        NAME = "gauss_well"
+        PARAMETERS = {"depth": 2.0, "width": 1.5}   # defaults, atomic units
+        def V(r, depth, width):
+            return -depth * np.exp(-(r / width) ** 2)
+    '''))
+    pot = radsolve.potential("gauss_well", plugins=[str(tmp_path)])
+    result = radsolve.solve(pot, l=[0, 1, 2], count=6, method="both")
+    assert result.success and result.levels
+    assert all(lev.energy < 0 for lev in result.levels)
+    for lev in result.levels:
+        fd, nu = lev.method_energies["fd"], lev.method_energies["numerov"]
+        assert abs(fd - nu) <= lev.error_estimate
+        assert lev.relative_error_estimate <= 1e-10
+
+
+def test_inverse_square_term_changes_the_origin_exponent(tmp_path):
+    (tmp_path / "oscillator_with_core.py").write_text(textwrap.dedent('''
+        NAME = "oscillator_with_core"
+        PARAMETERS = {"omega": 1.0, "g": 0.3}
+        def V(r, omega, g):
+            return 0.5 * omega**2 * r**2 + g / r**2
+    '''))
+    omega, g = 1.0, 0.3
+    pot = radsolve.potential("oscillator_with_core", plugins=[str(tmp_path)], omega=omega, g=g)
+    for method in ("fd", "numerov"):
+        result = radsolve.solve(pot, l=[0, 1], count=3, method=method)
+        for lev in result.levels:
+            L = -0.5 + np.sqrt((lev.l + 0.5) ** 2 + 2 * g)  # L(L+1) = l(l+1) + 2 mu g
+            exact = (2 * lev.nodes + L + 1.5) * omega  # textbook formula
+            assert lev.energy == pytest.approx(exact, rel=1e-9), (method, lev.label)
+
+
+def test_subcritical_attractive_inverse_square_is_solved(tmp_path):
+    # V = w^2 r^2/2 - g/r^2 with 2 mu g < 1/4 for l = 0: still bounded below;
+    # same closed form with L(L+1) = l(l+1) - 2 mu g (textbook formula).
+    (tmp_path / "oscillator_with_pit.py").write_text(textwrap.dedent('''
+        NAME = "oscillator_with_pit"
+        PARAMETERS = {"g": 0.1}
+        def V(r, g):
+            return 0.5 * r**2 - g / r**2
+    '''))
+    g = 0.1
+    pot = radsolve.potential("oscillator_with_pit", plugins=[str(tmp_path)], g=g)
+    result = radsolve.solve(pot, l=0, count=2, tol=1e-8)
+    for lev in result.levels:
+        L = -0.5 + np.sqrt(0.25 - 2 * g)
+        assert lev.energy == pytest.approx(2 * lev.nodes + L + 1.5, rel=1e-7)
+
+
+def test_fall_to_centre_is_refused(tmp_path):
+    (tmp_path / "pit.py").write_text(textwrap.dedent('''
+        NAME = "pit"
+        PARAMETERS = {"g": 1.0}
+        def V(r, g):
+            return -g / r**2
+    '''))
+    pot = radsolve.potential("pit", plugins=[str(tmp_path)])
+    with pytest.raises(UnboundedBelowError, match="fall to the centre"):
+        radsolve.solve(pot, l=0)
+    # 2 mu g = 2 < (l + 1/2)**2 = 2.25 for l = 1: allowed (and nothing is bound)
+    assert radsolve.solve(pot, l=1).levels == []
+
+
+def test_more_singular_than_inverse_square_is_refused(tmp_path):
+    (tmp_path / "deep.py").write_text(textwrap.dedent('''
+        NAME = "deep"
+        PARAMETERS = {"g": 1.0}
+        def V(r, g):
+            return -g / r**3
+    '''))
+    pot = radsolve.potential("deep", plugins=[str(tmp_path)])
+    with pytest.raises(UnboundedBelowError, match="unbounded below"):
+        radsolve.solve(pot, l=3)
+
+
+def test_potential_tending_to_a_constant(tmp_path):
+    # V = c - Z/r: every level is the Coulomb one shifted by c (textbook)
+    (tmp_path / "lifted.py").write_text(textwrap.dedent('''
+        NAME = "lifted"
+        PARAMETERS = {"c": 0.25}
+        def V(r, c):
+            return c - 1.0 / r
+    '''))
+    pot = radsolve.potential("lifted", plugins=[str(tmp_path)])
+    result = radsolve.solve(pot, l=0, count=3)
+    assert result.v_infinity == pytest.approx(0.25)
+    for lev in result.levels:
+        assert lev.energy == pytest.approx(0.25 - 0.5 / lev.n**2, rel=1e-10)
+
+
+def test_two_dimensional_hydrogen():
+    result = radsolve.solve("coulomb", l=[0, 1, 2], count=3, dimension=2, method="both")
+    assert result.dimension == 2
+    for lev in result.levels:
+        exact = -1.0 / (2 * (lev.n - 0.5) ** 2)  # textbook formula
+        assert abs(lev.energy - exact) / abs(exact) <= 1e-10, lev.label
+        assert lev.exact is None  # the 3D exact hook does not apply in 2D
+        assert lev.degeneracy == (1 if lev.l == 0 else 2)
+
+
+@pytest.mark.parametrize(
+    "kwargs, match",
+    [
+        (dict(l=-1), "l must be >= 0"),
+        (dict(count=0), "count must be"),
+        (dict(tol=0.0), "tol must be between"),
+        (dict(tol=float("nan")), "tol must be between"),
+        (dict(method="shooting"), "unknown method"),
+        (dict(dimension=1), "dimension must be"),
+        (dict(mass=-1.0), "mass"),
+        (dict(mass="electron+unobtainium"), "unobtainium"),
+        (dict(spin_orbit=True), "no spin-orbit term"),
+        (dict(units="imperial"), "unknown unit system"),
+        (dict(units="nuclear"), "atomic units"),
+    ],
+)
+def test_bad_arguments_raise_input_errors_naming_the_input(kwargs, match):
+    with pytest.raises(InputError, match=match):
+        radsolve.solve("coulomb", **kwargs)
