@@ -29,7 +29,7 @@ import math
 import os
 import re
 import sys
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import Any, Callable, Iterable, Mapping
 
@@ -64,6 +64,14 @@ _UNIT_OF_KIND = {
     "length": " bohr",
     "energy": " hartree",
     "inverse_length": " /bohr",
+}
+
+#: The unit systems a family may declare with ``UNITS = ...`` and the units
+#: its length / energy / inverse-length parameters are then expressed in.
+FAMILY_UNIT_SYSTEMS = ("atomic", "nuclear")
+_UNITS_OF_KIND_IN = {
+    "atomic": _UNIT_OF_KIND,
+    "nuclear": {"dimensionless": "", "length": " fm", "energy": " MeV", "inverse_length": " /fm"},
 }
 
 
@@ -101,6 +109,11 @@ class Parameter:
         One line: what the parameter means.
     exclusive_minimum, exclusive_maximum : bool
         Whether the bound itself is excluded (``> 0`` rather than ``>= 0``).
+    units : str
+        The unit system of the family (``"atomic"`` or ``"nuclear"``): in a
+        nuclear family lengths are fm, energies MeV and inverse lengths
+        1/fm (defaults, bounds and plain numbers alike).  Set by the registry
+        from the family's ``UNITS``; a plug-in need not give it.
     """
 
     default: Any
@@ -111,6 +124,7 @@ class Parameter:
     description: str = ""
     exclusive_minimum: bool = False
     exclusive_maximum: bool = False
+    units: str = "atomic"
 
     def __post_init__(self) -> None:
         if self.choices is not None:
@@ -126,6 +140,12 @@ class Parameter:
             )
         if self.kind == "choice" and self.choices is None:
             raise PluginError("a Parameter of kind 'choice' needs choices=[...]")
+        if self.units not in FAMILY_UNIT_SYSTEMS:
+            raise PluginError(f"Parameter units {self.units!r} is not one of {', '.join(FAMILY_UNIT_SYSTEMS)}")
+
+    @property
+    def _unit_suffix(self) -> str:
+        return _UNITS_OF_KIND_IN[self.units].get(self.kind, "")
 
     @property
     def is_numeric(self) -> bool:
@@ -134,12 +154,12 @@ class Parameter:
 
     @property
     def unit(self) -> str:
-        """The atomic unit values are expressed in (``"bohr"``, ``"hartree"``, ...; ``""`` if none)."""
-        return _UNIT_OF_KIND.get(self.kind, "").strip()
+        """The unit values are expressed in (``"bohr"``, ``"hartree"``, ``"fm"``, ``"MeV"``, ...; ``""`` if none)."""
+        return self._unit_suffix.strip()
 
     def range_text(self) -> str:
         """The allowed range as text, e.g. ``"> 0 bohr"`` (empty when unrestricted)."""
-        unit = _UNIT_OF_KIND.get(self.kind, "")
+        unit = self._unit_suffix
         parts = []
         if self.minimum is not None:
             parts.append(f"{'>' if self.exclusive_minimum else '>='} {_fmt(self.minimum)}{unit}")
@@ -191,12 +211,12 @@ class Parameter:
                 f"{label} must be one of {', '.join(self.choices)}; got {value!r}{hint}"
             )
 
-        from .units import parse_quantity
+        from .units import parse_quantity_in
 
-        number = parse_quantity(value, self.kind, name=label)
+        number = parse_quantity_in(value, self.kind, self.units, name=label)
         given = str(value)
         if isinstance(value, str) and _fmt(number) != value.strip():
-            given = f"{value.strip()} = {_fmt(number)}{_UNIT_OF_KIND[self.kind]}"
+            given = f"{value.strip()} = {_fmt(number)}{self._unit_suffix}"
         if self.minimum is not None:
             low_bad = number <= self.minimum if self.exclusive_minimum else number < self.minimum
             if low_bad:
@@ -214,8 +234,8 @@ class Parameter:
         if isinstance(self.default, str):
             return self.default
         value = float(self.default)
-        text = f"{_fmt(value)}{_UNIT_OF_KIND[self.kind]}"
-        if self.kind == "length" and 0 < abs(value) < 1e-3:
+        text = f"{_fmt(value)}{self._unit_suffix}"
+        if self.kind == "length" and self.units == "atomic" and 0 < abs(value) < 1e-3:
             # Nuclear sizes read better in femtometres.
             from .units import length_unit_factor
 
@@ -271,6 +291,10 @@ class PotentialFamily:
         ``V_l(r, l, **params)``: the potential felt with orbital angular
         momentum l (semilocal families); ``spin_orbit(r, **params)``: the
         radial factor V_so(r) of the spin-orbit term V_so(r) <l.s>.
+
+    The family's unit system is the module's ``UNITS`` (``"atomic"`` when
+    absent, or ``"nuclear"``: V takes r in fm and returns MeV, and length /
+    energy parameters are fm / MeV); see :attr:`units`.
     """
 
     name: str
@@ -292,8 +316,13 @@ class PotentialFamily:
     file: str | None = field(default=None, repr=False)
 
     @property
+    def units(self) -> str:
+        """The family's unit system: ``"atomic"`` (default) or ``"nuclear"`` (its ``UNITS``)."""
+        return getattr(self.module, "UNITS", "atomic")
+
+    @property
     def defaults(self) -> dict[str, Any]:
-        """Default parameter values, parsed to atomic units."""
+        """Default parameter values, parsed to the family's units."""
         return {k: p.parse(p.default, k, self.name) for k, p in self.parameters.items()}
 
     def bind(self, **params: Any) -> "Potential":
@@ -368,6 +397,10 @@ def _family_from_object(obj: Any, source: str, origin: str, file: str | None = N
     raw_params = obj.PARAMETERS
     if not isinstance(raw_params, Mapping):
         raise PluginError(f"plug-in {source}: PARAMETERS must be a dict, got {type(raw_params).__name__}")
+    units = getattr(obj, "UNITS", "atomic")
+    if units not in FAMILY_UNIT_SYSTEMS:
+        raise PluginError(f"plug-in {source}: UNITS must be one of {', '.join(map(repr, FAMILY_UNIT_SYSTEMS))}, "
+                          f"got {units!r}")
     parameters: dict[str, Parameter] = {}
     for key, spec in raw_params.items():
         if not isinstance(key, str) or not _PARAM_RE.match(key):
@@ -379,6 +412,8 @@ def _family_from_object(obj: Any, source: str, origin: str, file: str | None = N
             )
         try:
             parameters[key] = as_parameter(spec, key, f"plug-in {source}")
+            if parameters[key].units != units:
+                parameters[key] = replace(parameters[key], units=units)
         except PluginError as exc:
             raise PluginError(f"plug-in {source}: PARAMETERS[{key!r}]: {exc}") from None
     V = obj.V
@@ -608,6 +643,59 @@ def _lookup(name: str, found: Mapping[str, PotentialFamily]) -> PotentialFamily:
     raise InputError(f"unknown potential {name!r}{hint}; known potentials: {', '.join(known)}")
 
 
+#: The ``origin`` of families built in a program by :func:`make_family`.
+PROGRAM_ORIGIN = "program"
+
+
+def make_family(name: str, V: Callable, parameters: Mapping[str, Any] | None = None, *,
+                units: str = "atomic", description: str = "", formula: str = "", doc: str = "",
+                source: str = "", rebuild: tuple | None = None, **hooks: Callable) -> PotentialFamily:
+    """A family built in a program rather than found in a module.
+
+    It is checked exactly like a plug-in module with the same ``NAME``,
+    ``PARAMETERS``, ``V``, ``UNITS`` and hooks (see DEVELOPERS.md), is not
+    registered anywhere (``discover`` does not see it) and has origin
+    ``"program"``.  Formula and tabulated potentials are built this way.
+
+    Parameters
+    ----------
+    name : str
+        The family's NAME.
+    V : callable
+        ``V(r, **params)``.
+    parameters : mapping, optional
+        Like a module's PARAMETERS.
+    units : {"atomic", "nuclear"}
+        Like a module's UNITS.
+    description, formula, doc : str
+        Like DESCRIPTION, FORMULA and the module docstring.
+    source : str
+        Where the family came from, for messages (e.g. a file path).
+    rebuild : (callable, args, kwargs), optional
+        How to build the family again, for pickling its potentials:
+        ``callable(*args, **kwargs)`` must return a Potential of an
+        equivalent family.  Without it, its potentials do not pickle.
+    **hooks : callable
+        Any of the optional hooks (``v_infinity``, ``small_r``, ...).
+
+    Raises
+    ------
+    PluginError
+        If the pieces break the protocol (as for a plug-in).
+    """
+    from types import SimpleNamespace
+
+    unknown = sorted(set(hooks) - set(HOOKS))
+    if unknown:
+        raise PluginError(f"make_family {name!r}: unknown hook(s) {', '.join(unknown)}; "
+                          f"allowed: {', '.join(HOOKS)}")
+    namespace = SimpleNamespace(NAME=name, PARAMETERS=dict(parameters or {}), V=V, UNITS=units,
+                                DESCRIPTION=description, FORMULA=formula, REBUILD=rebuild,
+                                **hooks)
+    namespace.__doc__ = doc
+    return _family_from_object(namespace, source or f"<{name}>", PROGRAM_ORIGIN)
+
+
 def get_family(name: str | PotentialFamily, plugins: Any = None) -> PotentialFamily:
     """The family called ``name`` (see :func:`potential` for the look-up rules)."""
     if isinstance(name, PotentialFamily):
@@ -649,6 +737,9 @@ def describe(family: str | PotentialFamily | "Potential", plugins: Any = None) -
     if fam.formula:
         lines.append(f"  {fam.formula}")
     lines.append(f"defined in: {fam.source} ({fam.origin})")
+    if fam.units != "atomic":
+        lines.append(f"units: {fam.units} (V(r) in MeV at r in fm; lengths in fm, energies in MeV, "
+                     "masses in MeV/c^2)")
     lines.append("")
     if fam.parameters:
         lines.append("parameters:")
@@ -678,6 +769,12 @@ def describe(family: str | PotentialFamily | "Potential", plugins: Any = None) -
 # --------------------------------------------------------------------------- #
 # Bound potentials
 # --------------------------------------------------------------------------- #
+
+def _rebuild_from_recipe(recipe: tuple, params: dict) -> "Potential":
+    """Unpickling helper for families made by :func:`make_family`: rebuild, then bind."""
+    func, args, kwargs = recipe
+    return func(*args, **kwargs).family.bind(**params)
+
 
 def _rebuild_potential(name: str, file: str | None, origin: str, params: dict) -> "Potential":
     """Unpickling helper: find the family again and bind ``params``."""
@@ -716,6 +813,9 @@ class Potential:
 
     def _where(self) -> str:
         return f"potential {self.name!r} ({self._family.source})"
+
+    def _length_unit(self) -> str:
+        return "fm" if self._family.units == "nuclear" else "bohr"
 
     def _hook_failed(self, hook: str, exc: BaseException) -> PluginError:
         return PluginError(f"{self._where()}: {hook} raised {_describe_exception(exc)}")
@@ -760,7 +860,7 @@ class Potential:
                 i = bad[0]
                 raise PluginError(
                     f"{self._where()}: {what} returned a complex value {values.flat[i]!r} at "
-                    f"r = {_fmt(r_arr.flat[i])} bohr; a potential must be real"
+                    f"r = {_fmt(r_arr.flat[i])} {self._length_unit()}; a potential must be real"
                 )
             values = values.real
         if values.dtype.kind not in "fiu":
@@ -774,7 +874,8 @@ class Potential:
         if not finite.all():
             i = np.flatnonzero(~finite)[0]
             raise PluginError(
-                f"{self._where()}: {what} returned {values.flat[i]} at r = {_fmt(r_arr.flat[i])} bohr; "
+                f"{self._where()}: {what} returned {values.flat[i]} at r = {_fmt(r_arr.flat[i])} "
+                f"{self._length_unit()}; "
                 f"{what} must be finite at every radius asked for (r > 0)"
             )
         if values.ndim == 0:
@@ -901,6 +1002,9 @@ class Potential:
         return hash((self._family.name, self._family.source, tuple(sorted(self._params.items()))))
 
     def __reduce__(self):
+        recipe = getattr(self._family.module, "REBUILD", None)
+        if self._family.origin == PROGRAM_ORIGIN and recipe is not None:
+            return (_rebuild_from_recipe, (recipe, self._params))
         return (_rebuild_potential, (self.name, self._family.file, self._family.origin, self._params))
 
 

@@ -213,15 +213,63 @@ def _finite_number(value: object, name: str) -> float:
     return number
 
 
-def _allowed_suffixes(kind: str) -> str:
+#: The base length and energy unit of each unit system (see :func:`unit_system`).
+_SYSTEM_BASE_UNITS = {"atomic": ("bohr", "hartree"), "nuclear": ("fm", "MeV")}
+
+
+def _allowed_suffixes(kind: str, system: str = "atomic") -> str:
+    length, energy = _SYSTEM_BASE_UNITS.get(system, _SYSTEM_BASE_UNITS["atomic"])
     if kind == "length":
-        return "a plain number in bohr or a number followed by one of " + ", ".join(LENGTH_UNITS)
+        return f"a plain number in {length} or a number followed by one of " + ", ".join(LENGTH_UNITS)
     if kind == "energy":
-        return "a plain number in hartree or a number followed by one of " + ", ".join(ENERGY_UNITS)
+        return f"a plain number in {energy} or a number followed by one of " + ", ".join(ENERGY_UNITS)
     if kind == "inverse_length":
-        return ("a plain number in 1/bohr or a number followed by "
+        return (f"a plain number in 1/{length} or a number followed by "
                 + ", ".join("/" + u for u in LENGTH_UNITS))
     return "a plain number (this quantity has no unit)"
+
+
+def parse_quantity_in(value: object, kind: str, system: str = "atomic", name: str = "value") -> float:
+    """Parse a number with an optional unit suffix into the units of ``system``.
+
+    Like :func:`parse_quantity`, but a plain number is taken to be in the
+    base unit of the unit system ``system`` (``"atomic"``: bohr, hartree,
+    1/bohr; ``"nuclear"``: fm, MeV, 1/fm) and a suffixed value is converted
+    to that unit: ``parse_quantity_in("0.5angstrom", "length", "nuclear")``
+    is 50000 (fm).
+
+    Raises
+    ------
+    InputError
+        As :func:`parse_quantity`, with messages naming the system's units;
+        also for an unknown ``system``.
+    """
+    if system not in _SYSTEM_BASE_UNITS:
+        raise InputError(f"unknown unit system {system!r}; allowed: {', '.join(_SYSTEM_BASE_UNITS)}")
+    if system == "atomic":
+        return parse_quantity(value, kind, name)
+    if not isinstance(value, str):
+        return _finite_number(value, name)
+    match = _QUANTITY_RE.match(_normalize(value))
+    if match is not None and not match.group(2):
+        number = float(match.group(1))
+        if not math.isfinite(number):
+            raise InputError(f"{name} must be a finite number, got {value!r}")
+        return number  # already in the system's own unit: no round trip through bohr
+    try:
+        atomic = parse_quantity(value, kind, name)
+    except InputError as exc:
+        # Re-word "a plain number in bohr ..." for this system.
+        message = str(exc).replace(_allowed_suffixes(kind), _allowed_suffixes(kind, system))
+        raise InputError(message) from None
+    length, energy = _SYSTEM_BASE_UNITS[system]
+    if kind == "length":
+        return atomic / _length_factors()[length]
+    if kind == "energy":
+        return atomic / _energy_factors()[energy]
+    if kind == "inverse_length":
+        return atomic * _length_factors()[length]
+    return atomic
 
 
 def parse_quantity(value: object, kind: str, name: str = "value") -> float:
@@ -421,18 +469,15 @@ class UnitSystem:
         return energy_unit_factor(self.energy_unit)
 
     def parse_mass(self, value: object) -> float:
-        """A reduced mass in ``mass_unit``: a number, or particles joined by '+'."""
+        """A reduced mass in ``mass_unit``: a number, or particles joined by '+'.
+
+        In nuclear units a term may also be a number with the suffix ``u``
+        (unified atomic mass units, ``"56u"``) or ``MeV`` (``"939MeV"``);
+        see :func:`parse_nuclear_mass`.
+        """
         if self.name == "atomic":
             return parse_mass(value)
-        from scipy import constants as const
-
-        electron_MeV = const.physical_constants["electron mass energy equivalent in MeV"][0]
-        if isinstance(value, str) and not _looks_numeric(value):
-            return parse_mass(value) * electron_MeV
-        number = _finite_number(value, "mass")
-        if number <= 0:
-            raise InputError(f"mass must be > 0 MeV/c^2 (got {value!r})")
-        return number
+        return parse_nuclear_mass(value)
 
     def kinetic_mass(self, mass: float) -> float:
         """The m of -1/(2 m) u'' in this system's units for reduced mass ``mass``."""
@@ -460,3 +505,69 @@ def unit_system(name: str | None) -> UnitSystem:
     if key == "nuclear":
         return UnitSystem("nuclear", "MeV", "fm", "MeV/c^2")
     raise InputError(f"unknown unit system {name!r}; allowed: {', '.join(UNIT_SYSTEMS)}")
+
+
+_NUCLEAR_MASS_TERM_RE = re.compile(rf"^({_NUMBER})\s*(u|MeV|MeV/c\^?2|GeV|GeV/c\^?2)?$")
+
+
+def parse_nuclear_mass(value: object) -> float:
+    """Parse a (reduced) mass into MeV/c^2.
+
+    Parameters
+    ----------
+    value : float or str
+        A positive number of MeV/c^2, or a string of one or more terms
+        joined by ``+`` meaning the reduced mass 1/(1/m1 + 1/m2 + ...).  A
+        term is a number of MeV/c^2 (``"939.5"``, ``"939.5MeV"``), of GeV/c^2
+        (``"1.5GeV"``), of unified atomic mass units (``"207u"``), or a
+        particle name (see :data:`PARTICLES`).  So ``"neutron+207u"`` is a
+        neutron bound to a core of 207 u.  The masses come from CODATA via
+        scipy.constants (the u from "atomic mass constant energy
+        equivalent in MeV").
+
+    Returns
+    -------
+    float
+        The mass in MeV/c^2.
+
+    Raises
+    ------
+    InputError
+        For zero, negative, NaN or infinite masses, unknown particle names
+        or units, and empty terms.
+    """
+    from scipy.constants import physical_constants as pc
+
+    if not isinstance(value, str):
+        mass = _finite_number(value, "mass")
+        if mass <= 0:
+            raise InputError(f"mass must be > 0 MeV/c^2 (got {value!r})")
+        return mass
+    text = _normalize(value)
+    terms = [t.strip() for t in text.split("+")]
+    if len(terms) > 1 and terms[0] == "" and _NUCLEAR_MASS_TERM_RE.match(text[1:].strip()):
+        terms = [text]  # "+3" is a signed number, not an empty term
+    where = f" in {value!r}" if len(terms) > 1 else ""
+    electron = pc["electron mass energy equivalent in MeV"][0]
+    per_unit = {"u": pc["atomic mass constant energy equivalent in MeV"][0], "GeV": 1e3}
+    masses = []
+    for term in terms:
+        if not term:
+            raise InputError(f"mass: empty term in {value!r}; write particle names or masses "
+                             "joined by '+', e.g. 'neutron+207u'")
+        match = _NUCLEAR_MASS_TERM_RE.match(term)
+        if match is not None:
+            unit = (match.group(2) or "MeV").split("/")[0]
+            m = float(match.group(1)) * per_unit.get(unit, 1.0)
+            if not (m > 0 and math.isfinite(m)):
+                raise InputError(f"mass must be a positive finite number, got {term!r}{where}")
+            masses.append(m)
+        elif term.lower() in ("nan", "inf", "+inf", "-inf", "infinity"):
+            raise InputError(f"mass must be a positive finite number, got {term!r}{where}")
+        elif re.match(_NUMBER, term):
+            raise InputError(f"mass: cannot read {term!r}{where}; a mass in nuclear units is a "
+                             "number of MeV/c^2, a number with u, MeV or GeV (e.g. 207u), "
+                             "or a particle name")
+        else:
+            masses.append(particle_mass(term) * electron)
+    return masses[0] if len(masses) == 1 else reduced_mass(*masses)
