@@ -95,6 +95,7 @@ class _BoxPlan:
     wanted: dict
     bound_counts: dict
     notes: tuple[str, ...]
+    search_radius: float = 0.0  # the box in which bound levels were counted
 
 
 def _validate(l, count, tol, method, dimension) -> tuple[list[int], int, float, list[str], int]:
@@ -257,7 +258,7 @@ def _plan_box(channels, count, mass, tol, cls) -> _BoxPlan:
         final_radius = _verify_box(channels, wanted, mass, tol, cls, inner_radius, r_min, final_radius, anchor)
     scale = final_radius / max(math.log(final_radius / r_min), 1.0)
     span = GridSpan.covering(r_min, final_radius, COARSE_STEP, scale, anchor)
-    return _BoxPlan(span, inner_radius, wanted, bound_counts, tuple(notes))
+    return _BoxPlan(span, inner_radius, wanted, bound_counts, tuple(notes), max(radius, final_radius))
 
 
 def _verify_box(channels, wanted, mass, tol, cls, inner_radius, r_min, radius, anchor) -> float:
@@ -302,7 +303,8 @@ def _grown(plan: _BoxPlan, growth: float) -> _BoxPlan:
     extra = float(mapping_x(radius, span.scale)) - span.x_hi
     steps = max(int(np.ceil(extra / span.coarse_step)), 1)
     new = GridSpan(x_lo=span.x_lo, x_hi=span.x_hi + steps * span.coarse_step, scale=span.scale, coarse_step=span.coarse_step)
-    return _BoxPlan(new, plan.inner_radius, plan.wanted, plan.bound_counts, plan.notes)
+    return _BoxPlan(new, plan.inner_radius, plan.wanted, plan.bound_counts, plan.notes,
+                    max(plan.search_radius, new.r_max))
 
 
 def potential_on_grid(pot, r: np.ndarray, breakpoints) -> np.ndarray:
@@ -643,7 +645,7 @@ def _message(channels, plan, levels, count, tol, kinetic, system) -> str:
     short = [ch for ch in channels if plan.bound_counts[ch.key] is not None and not ch.profile.confining]
     if short:
         v_inf = min(ch.profile.v_infinity for ch in short)
-        r_max = plan.span.r_max
+        r_max = plan.search_radius
         parts.append(
             f"bound means below V(inf) = {v_inf:.6g} {system.energy_unit}; levels bound by less than "
             f"~{math.pi**2 / (2 * kinetic * r_max**2):.2g} {system.energy_unit} would need a larger box "
