@@ -14,6 +14,7 @@ from __future__ import annotations
 
 import os
 import subprocess
+import tempfile
 import sys
 from pathlib import Path
 
@@ -21,6 +22,10 @@ import pytest
 from typer.testing import CliRunner
 
 from radsolve.cli import app
+
+# Subprocesses run outside the repository: from its root, `python -m radsolve`
+# would import the source tree, which lacks the installed radsolve.potentials.
+NEUTRAL_CWD = tempfile.mkdtemp(prefix="radsolve-cwd-")
 
 PLUGINS = Path(__file__).parent / "cli_plugins"
 runner = CliRunner()
@@ -173,7 +178,8 @@ def run_process(*args, env_extra=None):
     env.pop("RADSOLVE_TRACEBACK", None)
     env.update(env_extra or {})
     return subprocess.run([sys.executable, "-m", "radsolve", *map(str, args)],
-                          capture_output=True, text=True, env=env, timeout=120)
+                          capture_output=True, text=True, env=env, timeout=120,
+                          cwd=NEUTRAL_CWD)
 
 
 @pytest.mark.parametrize("args, words", [

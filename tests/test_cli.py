@@ -19,6 +19,7 @@ import csv
 import io
 import json
 import subprocess
+import tempfile
 import sys
 from pathlib import Path
 from types import SimpleNamespace
@@ -31,6 +32,10 @@ from typer.testing import CliRunner
 from radsolve.cli import app
 from radsolve.result import Level, SolveResult
 from radsolve import report
+
+# Subprocesses run outside the repository: from its root, `python -m radsolve`
+# would import the source tree, which lacks the installed radsolve.potentials.
+NEUTRAL_CWD = tempfile.mkdtemp(prefix="radsolve-cwd-")
 
 runner = CliRunner()
 
@@ -335,14 +340,14 @@ def test_potentials_name_shows_the_docstring():
 
 def test_python_dash_m_and_help():
     proc = subprocess.run([sys.executable, "-m", "radsolve", "--help"],
-                          capture_output=True, text=True, timeout=60)
+                          capture_output=True, text=True, timeout=60, cwd=NEUTRAL_CWD)
     assert proc.returncode == 0
     for command in ("levels", "check", "potentials"):
         assert command in proc.stdout
     assert "Exit status" in proc.stdout
     proc = subprocess.run([sys.executable, "-m", "radsolve", "levels", "coulomb", "--count", "1",
                            "--tol", "1e-8", "--format", "json"],
-                          capture_output=True, text=True, timeout=120)
+                          capture_output=True, text=True, timeout=120, cwd=NEUTRAL_CWD)
     assert proc.returncode == 0, proc.stderr
     (lev,) = json.loads(proc.stdout)["levels"]
     assert lev["energy"] == pytest.approx(exact_hydrogenic(1, 1, 1.0), rel=1e-8)  # sympy

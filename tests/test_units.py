@@ -276,8 +276,10 @@ def test_units_import_does_not_pull_in_scipy():
     # Keeps the command line start-up light (common practice: lazy heavy imports).
     import subprocess
     import sys
+    import tempfile
 
     code = "import sys, radsolve.units; print('scipy' in sys.modules)"
-    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True,
+                         cwd=tempfile.mkdtemp(prefix="radsolve-cwd-"))
     assert out.stdout.strip() == "False"
     assert math.isfinite(energy_unit_factor("eV"))
