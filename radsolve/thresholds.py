@@ -1,0 +1,711 @@
+"""Binding thresholds: the parameter value at which a level reaches the continuum.
+
+For a potential that tends to V(inf) faster than 1/r**2, a level is bound for
+some parameter values and not for others; :func:`threshold` finds the critical
+value p_c at which level ``nl`` reaches E = V(inf).
+
+Why not bisect on "is the level bound?"  Near threshold an s level's binding
+energy vanishes quadratically, |E - V(inf)| ~ (p - p_c)**2, and its state
+spreads over a length 1/kappa that grows without bound; a box large enough to
+hold it must grow like 1/|p - p_c|, and the bound/unbound verdict of a
+finite box is biased towards "unbound".  Levels with l >= 1 approach
+linearly, |E - V(inf)| ~ |p - p_c|, and their zero-energy states are
+normalizable (localized), but a box-based search is still only as good as
+the box.
+
+The method used here works at E = V(inf) directly (oscillation theory,
+Sturm's comparison theorem; the l-wave form of Levinson's theorem, textbook):
+the number of bound levels of angular momentum l equals the number of nodes
+of the regular zero-energy solution u0 on (0, inf).  Beyond the range of the
+potential u0 = A r**(l+1) + B r**(-l).  With u0 > 0 near the origin, the sign
+of A is (-1)**N for N nodes, and the level with k nodes becomes bound where N
+changes from k to k+1: where A(p) passes through zero (for l = 0 there the
+scattering length diverges; for l >= 1 a normalizable zero-energy state
+appears).  A(p) is a smooth function of p, so Brent's method finds its zero
+to rounding accuracy.  u0 is integrated with Numerov's method on the mapped
+grid of :mod:`radsolve.grids`; the node count on the coarse grid only
+brackets the root.
+
+How well p_c is known: p_c is computed on grids of halving step and
+Richardson-extrapolated (the estimate is the change of the extrapolated
+value, as for energies), and on boxes of doubling radius, starting where
+2 mu r**2 |V - V(inf)| has fallen below 1e-16; the estimate is the sum of the
+last grid and box changes.  A result that did not meet ``tol`` says so
+(``converged=False``).
+
+Potentials with a tail as long as 1/r**2 or longer (a Coulomb tail, as in
+coulomb, empty_core, flat_core, finite_nucleus) are refused: an attractive
+Coulomb tail binds infinitely many levels for every parameter value, so no
+level ever reaches the threshold.  Confining potentials are refused too.
+
+These are model calculations: a critical screening length of a model
+potential is not a measured ionization condition of a real plasma.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass, field
+from typing import Any, Sequence
+
+import numpy as np
+
+from .errors import InputError, RadsolveError
+from .result import SPECTROSCOPIC_LETTERS, level_label
+
+#: Step in x of the coarsest grid.
+COARSE_STEP = 0.04
+#: At most this many halvings of COARSE_STEP.
+MAX_HALVINGS = 7
+#: Never use more points than this on one grid.
+MAX_POINTS = 400_000
+#: The box starts at twice the radius beyond which 2 mu r**2 |V - V(inf)| < TAIL_LEVEL.
+TAIL_LEVEL = 1e-16
+#: At most this many doublings of the box.
+MAX_BOX_DOUBLINGS = 8
+#: Largest box, bohr.
+LARGEST_BOX = 1e10
+#: Radii where the tail is examined, bohr.
+_TAIL_RADII = np.logspace(-12, 9, 841)
+
+
+class NoThresholdError(RadsolveError):
+    """The potential has no binding threshold (Coulomb-like tail, or confining)."""
+
+
+# --------------------------------------------------------------------------- #
+# Labels
+# --------------------------------------------------------------------------- #
+
+_LABEL_RE = re.compile(r"^\s*(\d+)\s*(?:\[l=(\d+)\]|([a-zA-Z]))\s*$")
+
+
+def parse_label(label: str, what: str = "level") -> tuple[int, int]:
+    """``(n, l)`` of a spectroscopic label: ``"1s"``, ``"2p"``, ``"4f"``, ``"25[l=23]"``.
+
+    The letters are s p d f g h i k l m n o q r t u v w x y z (j skipped).
+
+    Raises
+    ------
+    InputError
+        Text that is not a label, or n <= l.
+    """
+    match = _LABEL_RE.match(label) if isinstance(label, str) else None
+    if match is None:
+        raise InputError(f"{what} {label!r} is not a level label; expected n and the letter of l, "
+                         "such as 1s, 2p, 3d (letters " + " ".join(SPECTROSCOPIC_LETTERS) + ")")
+    n = int(match.group(1))
+    if match.group(2) is not None:
+        l = int(match.group(2))
+    else:
+        letter = match.group(3).lower()
+        if letter not in SPECTROSCOPIC_LETTERS:
+            raise InputError(f"{what} {label!r}: {letter!r} is not an orbital letter; allowed: "
+                             + " ".join(SPECTROSCOPIC_LETTERS) + " (j is skipped)")
+        l = SPECTROSCOPIC_LETTERS.index(letter)
+    if n <= l:
+        raise InputError(f"{what} {label!r}: n must exceed l (n = {n}, l = {l}); e.g. 2p, 3d")
+    return n, l
+
+
+# --------------------------------------------------------------------------- #
+# Result
+# --------------------------------------------------------------------------- #
+
+@dataclass
+class ThresholdResult:
+    """The critical parameter value of one level.
+
+    Attributes
+    ----------
+    potential, parameter : str
+    parameter_unit : str
+        The atomic unit of the parameter (``"bohr"``; ``""`` if dimensionless).
+    label : str
+        The level, e.g. ``"2p"``; n, l, nodes as usual.
+    value : float
+        The critical parameter value p_c, atomic units.
+    error_estimate : float
+        Estimated absolute error of ``value`` (grid + box), same unit.
+    grid_error, box_error : float
+        The two parts of ``error_estimate``.
+    converged : bool
+        Whether ``error_estimate <= tol * |value|``.
+    bound_side : str
+        ``"above"`` if the level is bound for parameter values above p_c,
+        ``"below"`` otherwise (near p_c).
+    bracket : (float, float)
+        The interval searched.
+    box_radius : float
+        Outer radius of the last box, bohr.
+    slope : float or None
+        For l >= 1: dE/dp at p_c on the bound side (Hellmann-Feynman with the
+        normalizable zero-energy state), hartree per parameter unit, so that
+        E - V(inf) ~ slope * (p - p_c) there.  None for l = 0, whose energy
+        leaves the threshold quadratically.  (For l = 1 the next correction
+        goes as |p - p_c|**1.5, from the slowly converging norm of the state.)
+    slope_error : float or None
+        Estimated absolute error of ``slope``.
+    fixed : dict
+        The other parameters, atomic units.
+    mass, tol : float
+    """
+
+    potential: str
+    parameter: str
+    parameter_unit: str
+    label: str
+    n: int
+    l: int
+    nodes: int
+    value: float
+    error_estimate: float
+    grid_error: float
+    box_error: float
+    converged: bool
+    bound_side: str
+    bracket: tuple[float, float]
+    box_radius: float
+    slope: float | None
+    slope_error: float | None = None
+    fixed: dict[str, Any] = field(default_factory=dict)
+    mass: float = 1.0
+    tol: float = 1e-9
+
+    @property
+    def approach(self) -> str:
+        """How the energy reaches the threshold (textbook near-threshold behaviour)."""
+        if self.l == 0:
+            return ("quadratic: E - V(inf) ~ -(p - p_c)**2; the state spreads without bound "
+                    "as p -> p_c (scattering length diverges)")
+        return ("linear: E - V(inf) ~ slope * (p - p_c); the zero-energy state is normalizable "
+                "and stays localized")
+
+    def to_dict(self) -> dict[str, Any]:
+        """Plain data, as in the JSON output."""
+        return {
+            "potential": self.potential, "parameter": self.parameter,
+            "parameter_unit": self.parameter_unit or "dimensionless",
+            "label": self.label, "n": self.n, "l": self.l, "nodes": self.nodes,
+            "value": self.value, "error_estimate": self.error_estimate,
+            "grid_error": self.grid_error, "box_error": self.box_error,
+            "converged": bool(self.converged), "bound_side": self.bound_side,
+            "bracket": list(self.bracket), "box_radius": self.box_radius,
+            "slope": self.slope, "slope_error": self.slope_error, "approach": self.approach,
+            "fixed": dict(self.fixed), "mass": self.mass, "tol": self.tol,
+        }
+
+
+# --------------------------------------------------------------------------- #
+# The zero-energy solution
+# --------------------------------------------------------------------------- #
+
+@dataclass(frozen=True)
+class _Layout:
+    """Where the zero-energy grids start and end (bohr) and their mapping scale."""
+
+    r_min: float
+    r_max: float
+
+
+@dataclass
+class _Shot:
+    nodes: int
+    amplitude: float  # A relative to the starting amplitude (smooth in p)
+    r: np.ndarray
+    weights: np.ndarray
+    u: np.ndarray
+    growing: float  # a = A R2**(l+1) in the scale of u
+    decaying: float  # b = B R2**(-l) in the scale of u
+
+
+class _ZeroEnergy:
+    """The regular solution at E = V(inf) of a family with one parameter free."""
+
+    def __init__(self, base, parameter: str, l: int, mass: float, tol: float):
+        self.base, self.parameter, self.l, self.mass, self.tol = base, parameter, l, mass, tol
+        self._profiles: dict[float, Any] = {}
+
+    def potential(self, p: float):
+        return self.base.with_parameters(**{self.parameter: float(p)})
+
+    def profile(self, p: float):
+        from . import probe
+
+        p = float(p)
+        if p not in self._profiles:
+            pot = self.potential(p)
+            # The partial wave l of a family with an l-dependent (semilocal) potential.
+            if hasattr(pot, "channel"):
+                pot = pot.channel(self.l)
+            prof = probe.profile(pot, self.mass)
+            prof.check_bounded_below(self.l, self.mass)
+            self._profiles[p] = (pot, prof)
+        return self._profiles[p]
+
+    def where(self, p: float) -> str:
+        return f"potential {self.base.name!r} at {self.parameter} = {p:.10g}"
+
+    def check_tail(self, p: float) -> float:
+        """The radius (bohr) beyond which V - V(inf) is negligible; raises if there is none."""
+        pot, prof = self.profile(p)
+        if prof.confining:
+            raise NoThresholdError(f"{self.where(p)} is confining (V -> inf as r -> inf): every level "
+                                   "stays bound, so there is no binding threshold")
+        r = _TAIL_RADII
+        with np.errstate(all="ignore"):
+            w = pot(r) - prof.v_infinity
+        tau = 2.0 * self.mass * r**2 * np.abs(w)
+        far, farther = np.searchsorted(r, 1e6), np.searchsorted(r, 1e7)
+        if tau[farther] > 1e-6 and tau[farther] > 0.3 * tau[far]:
+            kind = "attractive" if w[farther] < 0 else "repulsive"
+            consequence = ("such a tail (a Coulomb tail, say) binds infinitely many levels for every "
+                           "parameter value, so no level reaches the threshold"
+                           if kind == "attractive" else
+                           "the zero-energy analysis needs V - V(inf) to fall off faster than 1/r**2")
+            raise NoThresholdError(
+                f"{self.where(p)}: V - V(inf) falls off like 1/r**2 or more slowly "
+                f"({kind}; 2 mu r**2 |V - V(inf)| = {tau[farther]:.3g} at r = 1e7 bohr): {consequence}")
+        strong = np.nonzero(tau >= TAIL_LEVEL)[0]
+        if strong.size == 0:
+            return float(prof.inner_length)
+        last = strong[-1]
+        if last + 1 >= r.size:
+            # A slowly decaying power law: start where it is small and let the
+            # box doublings say how well the value is known.
+            weak = np.nonzero(tau >= 1e-8)[0]
+            return float(r[min(weak[-1] + 1, r.size - 1)]) if weak.size else float(r[-1])
+        return float(r[last + 1])
+
+    def layout(self, ps: Sequence[float]) -> _Layout:
+        """One layout good for every parameter value in ``ps``."""
+        r_min, r_max = math.inf, 0.0
+        for p in ps:
+            tail = self.check_tail(p)
+            _, prof = self.profile(p)
+            r_min = min(r_min, prof.inner_cutoff(self.l, self.mass, self.tol))
+            r_max = max(r_max, 2.0 * tail, 8.0 * prof.inner_length,
+                        2.0 * max(prof.breakpoints, default=0.0))
+        return _Layout(r_min=r_min, r_max=min(r_max, LARGEST_BOX))
+
+    def shoot(self, p: float, layout: _Layout, refinement: int) -> _Shot:
+        from .grids import GridSpan
+        from .recurrence import three_term
+        from .spectrum import potential_on_grid
+
+        pot, prof = self.profile(p)
+        r_min, r_max = layout.r_min, layout.r_max
+        scale = max(r_max / max(math.log(r_max / r_min), 1.0), prof.inner_length)
+        anchor = next((b for b in prof.breakpoints if r_min < b < r_max), None)
+        span = GridSpan.covering(r_min, r_max, COARSE_STEP, scale, anchor)
+        grid = span.grid(refinement)
+        values = potential_on_grid(pot, grid.r, prof.breakpoints) - prof.v_infinity
+        _, q = grid.liouville_coefficients(values, self.l, self.mass)
+        h2 = grid.step**2
+        t = h2 * 2.0 * self.mass * q / 12.0
+        d = 2.0 + 12.0 * t / (1.0 - t)
+        last = grid.size - 1
+        # The power law u ~ r**lambda at the first point, as the solvers impose
+        # it (radsolve.solvers.base): w[0] = exp(-(lambda - 1/2) h) w[1]; then
+        # run to the last point.
+        ghost = math.exp(-(prof.origin_exponent(self.l, self.mass) - 0.5) * grid.step)
+        y = three_term(d[1:last], None, ghost * (1.0 - t[0]), 1.0 - t[1])  # y[1 .. last]
+        start = y[0]
+        w = y / (1.0 - t[1:])
+        u = np.sqrt(grid.jacobian[1:]) * w
+        r = grid.r[1:]
+        weights = grid.weights[1:]
+        j2 = r.size - 1
+        j1 = int(np.searchsorted(r, 0.5 * r[j2]))
+        rho = r[j1] / r[j2]
+        l = self.l
+        a = (u[j2] - rho**l * u[j1]) / (1.0 - rho ** (2 * l + 1))
+        b = u[j2] - a
+        signs = np.sign(u)
+        signs = signs[signs != 0]
+        nodes = int(np.count_nonzero(signs[1:] != signs[:-1]))
+        if a != 0.0 and np.sign(a) != np.sign(u[j2]):
+            nodes += 1  # the asymptotic form has one more zero beyond the box
+        return _Shot(nodes=nodes, amplitude=float(a / start), r=r, weights=weights, u=u,
+                     growing=float(a), decaying=float(b))
+
+    def points(self, layout: _Layout, refinement: int) -> int:
+        from .grids import mapping_x
+
+        scale = max(layout.r_max / max(math.log(layout.r_max / layout.r_min), 1.0), 1e-300)
+        span = float(mapping_x(layout.r_max, scale) - mapping_x(layout.r_min, scale))
+        return int(span / (COARSE_STEP / 2**refinement)) + 2
+
+    def count(self, p: float, refinement: int = 1) -> int:
+        """Bound levels of angular momentum l at parameter ``p`` (zero-energy node count)."""
+        return self.shoot(p, self.layout([p]), refinement).nodes
+
+
+# --------------------------------------------------------------------------- #
+# Brackets
+# --------------------------------------------------------------------------- #
+
+def _narrow(problem: _ZeroEnergy, k: int, lo: float, hi: float, n_lo: int, n_hi: int) -> tuple[float, float]:
+    """Shrink [lo, hi] until its ends have k and k + 1 nodes (either way round)."""
+    for _ in range(200):
+        if {n_lo, n_hi} == {k, k + 1}:
+            return lo, hi
+        mid = 0.5 * (lo + hi)
+        if lo > 0 and hi > 0 and hi / lo > 4.0:
+            mid = math.sqrt(lo * hi)
+        n_mid = problem.count(mid)
+        # Keep the half whose ends still straddle the k|k+1 boundary.
+        if (n_lo <= k) != (n_mid <= k):
+            hi, n_hi = mid, n_mid
+        else:
+            lo, n_lo = mid, n_mid
+        if abs(hi - lo) <= 1e-15 * max(abs(lo), abs(hi)):
+            break
+    raise InputError(f"could not isolate the threshold of the level with {k} nodes between "
+                     f"{lo:.10g} and {hi:.10g} (the bound-level count there jumps by more than one)")
+
+
+def _auto_bracket(problem: _ZeroEnergy, k: int, p0: float, spec) -> tuple[float, float, int, int]:
+    """Search outward from ``p0`` for neighbouring values whose counts straddle k|k+1."""
+    lower = spec.minimum if spec.minimum is not None else -math.inf
+    upper = spec.maximum if spec.maximum is not None else math.inf
+    positive = p0 > 0 and lower >= 0
+    ladder_up, ladder_down = [], []
+    for j in range(1, 41):
+        if positive:
+            ladder_up.append(p0 * 2.0 ** (j / 2))
+            ladder_down.append(p0 * 2.0 ** (-j / 2))
+        else:
+            step = max(abs(p0), 1.0) * 2.0 ** (j - 1) * 0.25
+            ladder_up.append(p0 + step)
+            ladder_down.append(p0 - step)
+
+    def allowed(p):
+        if p < lower or p > upper:
+            return False
+        if p == lower and spec.exclusive_minimum or p == upper and spec.exclusive_maximum:
+            return False
+        return True
+
+    n0 = problem.count(p0)
+    prev_up, prev_down = (p0, n0), (p0, n0)
+    alive_up, alive_down = True, True
+    for p_up, p_down in zip(ladder_up, ladder_down):
+        for side in ("up", "down"):
+            if side == "up" and alive_up:
+                p = p_up
+            elif side == "down" and alive_down:
+                p = p_down
+            else:
+                continue
+            if not allowed(p):
+                if side == "up":
+                    alive_up = False
+                else:
+                    alive_down = False
+                continue
+            try:
+                n = problem.count(p)
+            except NoThresholdError:
+                if side == "up":
+                    alive_up = False
+                else:
+                    alive_down = False
+                continue
+            q, nq = prev_up if side == "up" else prev_down
+            if (n <= k) != (nq <= k):
+                return (q, p, nq, n) if q < p else (p, q, n, nq)
+            if side == "up":
+                prev_up = (p, n)
+            else:
+                prev_down = (p, n)
+        if not (alive_up or alive_down):
+            break
+    raise InputError(
+        f"no threshold of the level with {k} nodes found near {problem.parameter} = {p0:.6g} "
+        f"(searched {prev_down[0]:.4g} ... {prev_up[0]:.4g}, where {problem.count(prev_down[0])} and "
+        f"{problem.count(prev_up[0])} levels of l = {problem.l} are bound); give a bracket")
+
+
+# --------------------------------------------------------------------------- #
+# The threshold
+# --------------------------------------------------------------------------- #
+
+def _resolve(potential, fixed, plugins, parameter):
+    from .registry import Potential, potential as make_potential
+
+    fixed = dict(fixed or {})
+    if not isinstance(parameter, str):
+        raise InputError(f"parameter must be a parameter name, got {parameter!r}")
+    if isinstance(potential, Potential):
+        base = potential.with_parameters(**fixed)
+    elif isinstance(potential, str):
+        base = make_potential(potential, plugins=plugins, **fixed)
+    else:
+        raise InputError(f"potential must be a family name or a radsolve Potential, got {type(potential).__name__}")
+    family = base.family
+    if parameter not in family.parameters:
+        import difflib
+
+        near = difflib.get_close_matches(parameter, list(family.parameters), n=1)
+        hint = f" (did you mean {near[0]!r}?)" if near else ""
+        raise InputError(f"potential {family.name!r} has no parameter {parameter!r}{hint}; its parameters: "
+                         + (", ".join(family.parameters) or "none"))
+    spec = family.parameters[parameter]
+    if not spec.is_numeric:
+        raise InputError(f"parameter {parameter!r} of {family.name} is a {spec.kind}, not a number; "
+                         "a threshold needs a numeric parameter")
+    return base, spec
+
+
+def _parse_bracket(bracket, spec, parameter, family_name) -> tuple[float, float] | None:
+    if bracket is None:
+        return None
+    if isinstance(bracket, str) or not hasattr(bracket, "__len__") or len(bracket) != 2:
+        raise InputError(f"bracket must be two values (a, b), got {bracket!r}")
+    a = spec.parse(bracket[0], parameter, family_name)
+    b = spec.parse(bracket[1], parameter, family_name)
+    if a == b:
+        raise InputError(f"bracket ({a:g}, {b:g}) is empty; give two different values")
+    return (min(a, b), max(a, b))
+
+
+def _richardson(series):
+    from .spectrum import _richardson as extrapolate
+
+    return extrapolate(series, (4, 6, 8, 10))
+
+
+def _critical_on(problem: _ZeroEnergy, layout: _Layout, refinement: int, lo: float, hi: float,
+                 outer: tuple[float, float]) -> tuple[float, float, float]:
+    """The zero of A(p) on one grid; widens [lo, hi] within ``outer`` if the grid moved it."""
+    from scipy.optimize import brentq
+
+    def amplitude(p):
+        return problem.shoot(p, layout, refinement).amplitude
+
+    f_lo, f_hi = amplitude(lo), amplitude(hi)
+    width = hi - lo
+    for _ in range(30):
+        if f_lo * f_hi < 0:
+            break
+        width *= 2.0
+        lo, hi = max(lo - width, outer[0]), min(hi + width, outer[1])
+        f_lo, f_hi = amplitude(lo), amplitude(hi)
+    else:
+        raise InputError(f"the threshold moved out of the bracket {outer[0]:.10g} ... {outer[1]:.10g} "
+                         "on a finer grid; give a wider bracket")
+    if f_lo == 0.0:
+        return lo, lo, hi
+    if f_hi == 0.0:
+        return hi, lo, hi
+    root = brentq(amplitude, lo, hi, xtol=1e-300, rtol=1e-15, maxiter=200)
+    return float(root), lo, hi
+
+
+def _on_box(problem: _ZeroEnergy, layout: _Layout, lo: float, hi: float, outer, tol: float):
+    """p_c extrapolated in the step on one box: (value, grid_error, refinements used)."""
+    series: list[float] = []
+    value, estimate = math.nan, math.inf
+    best = (math.nan, math.inf)
+    last_refinement = 0
+    for refinement in range(MAX_HALVINGS + 1):
+        if problem.points(layout, refinement) > MAX_POINTS:
+            break
+        root, lo, hi = _critical_on(problem, layout, refinement, lo, hi, outer)
+        # The next grid moves the root by less than this one did: start close,
+        # so that the search cannot reach the threshold of another level.
+        moved = abs(root - series[-1]) if series else 1e-3 * abs(root)
+        width = max(8.0 * moved, 1e-12 * abs(root))
+        lo, hi = max(root - width, outer[0]), min(root + width, outer[1])
+        series.append(root)
+        last_refinement = refinement
+        if len(series) >= 3:
+            value, estimate, _ = _richardson(series)
+            if estimate < best[1]:
+                best = (value, estimate)
+            if best[1] <= 0.3 * tol * abs(best[0]):
+                break
+    if len(series) < 3:
+        return series[-1], math.inf, last_refinement
+    return best[0], best[1], last_refinement
+
+
+def _slope(problem: _ZeroEnergy, layout: _Layout, p_c: float, refinement: int) -> tuple[float | None, float | None]:
+    """dE/dp at threshold for l >= 1, and its estimated error (None, None for l = 0).
+
+    Computed on the two finest grids and extrapolated assuming a second-order
+    error (the trapezoid rule across a jump of V; smooth V converge faster),
+    the change being the estimate.
+    """
+    if problem.l == 0:
+        return None, None
+    fine = _slope_on(problem, layout, p_c, max(refinement, 1))
+    coarse = _slope_on(problem, layout, p_c, max(refinement, 1) - 1)
+    best = fine + (fine - coarse) / 3.0
+    return best, abs(best - fine)
+
+
+def _slope_on(problem: _ZeroEnergy, layout: _Layout, p_c: float, refinement: int) -> float:
+    shot = problem.shoot(p_c, layout, refinement)
+    delta = 1e-5 * max(abs(p_c), 1e-30)
+    pot_hi, prof_hi = problem.profile(p_c + delta)
+    pot_lo, prof_lo = problem.profile(p_c - delta)
+    from .spectrum import potential_on_grid
+
+    with np.errstate(all="ignore"):
+        # potential_on_grid averages the one-sided limits at a jump, as the integration did.
+        dv = ((potential_on_grid(pot_hi, shot.r, prof_hi.breakpoints) - prof_hi.v_infinity)
+              - (potential_on_grid(pot_lo, shot.r, prof_lo.breakpoints) - prof_lo.v_infinity)) / (2.0 * delta)
+    # Trapezoid rule up to the last point (u does not vanish there), and beyond
+    # it u = b (R/r)**l, whose norm is b**2 R / (2l - 1).
+    weights = shot.weights.copy()
+    weights[-1] *= 0.5
+    tail = shot.decaying**2 * shot.r[-1] / (2 * problem.l - 1)
+    norm = float(np.sum(weights * shot.u**2)) + tail
+    return float(np.sum(weights * dv * shot.u**2) / norm)
+
+
+def threshold(potential, parameter: str, level: str = "1s", bracket=None, fixed=None, mass=1.0,
+              tol: float = 1e-9, plugins=None) -> ThresholdResult:
+    """The parameter value at which ``level`` reaches the continuum threshold E = V(inf).
+
+    Parameters
+    ----------
+    potential : str or Potential
+        A family name or a Potential (its parameters are the starting point).
+    parameter : str
+        The parameter varied, e.g. ``"screening_length"``.
+    level : str
+        Spectroscopic label, e.g. ``"1s"``, ``"2p"``.
+    bracket : (a, b), optional
+        Values of the parameter (atomic units, or strings with units) between
+        which the level changes from bound to unbound.  Without it the search
+        steps outward from the parameter's current value.
+    fixed : dict, optional
+        The other parameters; the rest take their defaults.  A value of
+        ``parameter`` itself is where the search starts when no bracket is given.
+    mass : float or str
+        Reduced mass, electron masses or particle names.
+    tol : float
+        Target relative error of the critical value (1e-13 ... 1e-2).
+    plugins : path or list of paths, optional
+
+    Returns
+    -------
+    ThresholdResult
+
+    Raises
+    ------
+    NoThresholdError
+        Confining potential, or a tail of 1/r**2 or longer range (e.g. Coulomb).
+    InputError
+        Unknown or non-numeric parameter, bad label, a bracket that does not
+        bracket the threshold (the message gives the bound counts at its ends).
+    """
+    from .units import parse_mass
+
+    base, spec = _resolve(potential, fixed, plugins, parameter)
+    n, l = parse_label(level, "level")
+    k = n - l - 1
+    mu = parse_mass(mass)
+    try:
+        tol = float(tol)
+    except (TypeError, ValueError):
+        raise InputError(f"tol must be a number between 1e-13 and 0.01, got {tol!r}") from None
+    if not 1e-13 <= tol <= 1e-2:
+        raise InputError(f"tol must be between 1e-13 and 0.01, got {tol!r}")
+    problem = _ZeroEnergy(base, parameter, l, mu, tol)
+    family = base.family
+    given = _parse_bracket(bracket, spec, parameter, family.name)
+    if given is None:
+        p0 = float(base.parameters[parameter])
+        problem.check_tail(p0)
+        lo, hi, n_lo, n_hi = _auto_bracket(problem, k, p0, spec)
+        outer = (lo, hi)
+    else:
+        lo, hi = given
+        for p in given:
+            problem.check_tail(p)
+        n_lo, n_hi = problem.count(lo), problem.count(hi)
+        if (n_lo <= k) == (n_hi <= k):
+            state = "bound" if n_lo > k else "not bound"
+            raise InputError(
+                f"bracket {lo:.10g}:{hi:.10g} does not bracket the threshold of {level}: {level} is "
+                f"{state} at both ends ({n_lo} and {n_hi} bound levels with l = {l} there; the "
+                f"threshold of {level} is where that count changes between {k} and {k + 1})")
+        outer = (lo, hi)
+    lo, hi = _narrow(problem, k, lo, hi, n_lo, n_hi)
+    bound_side = "above" if problem.count(hi) > k else "below"
+
+    layout = problem.layout([lo, hi])
+    previous, box_error, grid_error = None, math.inf, math.inf
+    value, refinement = math.nan, 0
+    for doubling in range(MAX_BOX_DOUBLINGS + 1):
+        value, grid_error, refinement = _on_box(problem, layout, lo, hi, outer, tol)
+        if previous is not None:
+            box_error = abs(value - previous)
+            if box_error <= 0.3 * tol * abs(value) or layout.r_max >= LARGEST_BOX:
+                break
+        previous = value
+        width = max(10.0 * grid_error, 1e-9 * abs(value)) if math.isfinite(grid_error) else hi - lo
+        lo, hi = max(value - width, outer[0]), min(value + width, outer[1])
+        layout = _Layout(layout.r_min, min(2.0 * layout.r_max, LARGEST_BOX))
+    error = grid_error + box_error
+    slope, slope_error = _slope(problem, layout, value, refinement)
+    scale = abs(value) if value != 0 else max(abs(outer[0]), abs(outer[1]))
+    return ThresholdResult(
+        potential=family.name, parameter=parameter, parameter_unit=spec.unit,
+        label=level_label(n, l), n=n, l=l, nodes=k, value=float(value),
+        error_estimate=float(error), grid_error=float(grid_error), box_error=float(box_error),
+        converged=bool(error <= tol * scale), bound_side=bound_side, bracket=outer,
+        box_radius=float(layout.r_max), slope=slope, slope_error=slope_error,
+        fixed={kk: v for kk, v in base.parameters.items() if kk != parameter}, mass=mu, tol=tol,
+    )
+
+
+def thresholds(potential, parameter: str, nmax: int = 2, bracket=None, fixed=None, mass=1.0,
+               tol: float = 1e-9, plugins=None, levels: Sequence[str] | None = None) -> list[ThresholdResult]:
+    """The critical values of every level with n <= ``nmax`` (every l < n), or of ``levels``.
+
+    Parameters are those of :func:`threshold`; ``bracket`` (if given) must
+    contain every threshold asked for.  Results are ordered by n, then l.
+    """
+    if levels is None:
+        if isinstance(nmax, bool) or not isinstance(nmax, (int, np.integer)) or not 1 <= nmax <= 30:
+            raise InputError(f"nmax must be a whole number from 1 to 30, got {nmax!r}")
+        labels = [level_label(n, l) for n in range(1, int(nmax) + 1) for l in range(n)]
+    else:
+        labels = [level_label(*parse_label(lab, "level")) for lab in levels]
+        if not labels:
+            raise InputError("levels: at least one level label is needed")
+    return [threshold(potential, parameter, level=lab, bracket=bracket, fixed=fixed, mass=mass,
+                      tol=tol, plugins=plugins) for lab in labels]
+
+
+def format_thresholds(results: Sequence[ThresholdResult]) -> str:
+    """A text table of threshold results (parameter values in atomic units)."""
+    from .report import format_columns
+
+    if not results:
+        return "no thresholds\n"
+    first = results[0]
+    unit = first.parameter_unit
+    fixed = ", ".join(f"{k} = {v:.10g}" if isinstance(v, float) else f"{k} = {v}"
+                      for k, v in first.fixed.items())
+    lines = [f"binding thresholds of {first.potential} in {first.parameter}"
+             + (f" ({unit})" if unit else "") + (f"; {fixed}" if fixed else "")
+             + f"; reduced mass {first.mass:.10g}", ""]
+    header = ["level", f"{first.parameter}_c", "est.err", "conv", "bound", "approach"]
+    rows = []
+    for res in results:
+        approach = "quadratic" if res.l == 0 else f"linear, dE/dp = {res.slope:.4g}"
+        rows.append([res.label, f"{res.value:.12g}", f"{res.error_estimate:.1e}",
+                     "yes" if res.converged else "NO", f"{res.bound_side} p_c", approach])
+    lines += format_columns(header, rows, {1, 2})
+    lines += ["", "E -> V(inf) as p -> p_c; l = 0 levels leave the threshold quadratically and spread "
+              "without bound there, l >= 1 levels linearly and stay localized. Model calculation."]
+    if any(not r.converged for r in results):
+        lines.append("WARNING: some values did not reach the tolerance; their estimates are what was achieved")
+    return "\n".join(lines) + "\n"
