@@ -206,6 +206,16 @@ def _breakpoints(channels) -> tuple[float, ...]:
     return tuple(sorted({b for ch in channels for b in ch.profile.breakpoints}))
 
 
+def _span(r_min: float, radius: float, step: float, anchor: float | None) -> GridSpan:
+    """Grids from r_min to radius, with the crossover scale s = R / ln(R / r_min).
+
+    That s balances the points spent on the logarithmic and the linear part
+    for a fixed accuracy of the states that fill the box.
+    """
+    scale = radius / max(math.log(radius / r_min), 1.0)
+    return GridSpan.covering(r_min, radius, step, scale, anchor)
+
+
 def _plan_box(channels, count, mass, tol, cls) -> _BoxPlan:
     """Choose the outer radius and the number of levels to compute per channel."""
     r_in = min(ch.profile.inner_length for ch in channels)
@@ -227,8 +237,7 @@ def _plan_box(channels, count, mass, tol, cls) -> _BoxPlan:
     short: list = []
     needed = 0.0
     for _ in range(80):
-        scale = radius / max(math.log(radius / r_min), 1.0)
-        span = GridSpan.covering(r_min, radius, PLANNING_STEP, scale, anchor)
+        span = _span(r_min, radius, PLANNING_STEP, anchor)
         grid = span.grid(0)
         needed = 0.0
         for ch in channels:
@@ -256,8 +265,7 @@ def _plan_box(channels, count, mass, tol, cls) -> _BoxPlan:
     final_radius = max(final_radius, 2.0 * biggest_feature, 4.0 * r_in)
     if not confining:
         final_radius = _verify_box(channels, wanted, mass, tol, cls, inner_radius, r_min, final_radius, anchor)
-    scale = final_radius / max(math.log(final_radius / r_min), 1.0)
-    span = GridSpan.covering(r_min, final_radius, COARSE_STEP, scale, anchor)
+    span = _span(r_min, final_radius, COARSE_STEP, anchor)
     return _BoxPlan(span, inner_radius, wanted, bound_counts, tuple(notes), max(radius, final_radius))
 
 
@@ -270,8 +278,7 @@ def _verify_box(channels, wanted, mass, tol, cls, inner_radius, r_min, radius, a
     """
     breakpoints = _breakpoints(channels)
     for _ in range(6):
-        scale = radius / max(math.log(radius / r_min), 1.0)
-        span = GridSpan.covering(r_min, radius, PLANNING_STEP, scale, anchor)
+        span = _span(r_min, radius, PLANNING_STEP, anchor)
         grid = span.grid(0)
         growth = 0.0
         for ch in channels:
