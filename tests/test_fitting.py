@@ -1,0 +1,165 @@
+"""Fits to target levels (radsolve.fitting): round trips, uncertainties, spurious states, targets files.
+
+The round-trip tests are SELF-CONSISTENCY tests (no outside value is
+involved): levels computed by radsolve for known parameters, given
+uncertainties, are fitted back, and the fit must return those parameters
+within its reported standard errors.  The statistical expectations used
+(a parameter estimate lies within a few standard errors of the truth; the
+covariance of a weighted linear least-squares fit is (J^T J)^-1) are common
+practice (e.g. Press et al., Numerical Recipes, 3rd ed. (2007), ch. 15).
+
+Outside references:
+
+* Unit factors: CODATA via scipy.constants (electron volt-hartree and
+  inverse meter-hartree relationships).
+* Yukawa 2s critical screening: D_c = 3.2236 bohr for Z = 1 (Rogers,
+  Graboske, Harwood, Phys. Rev. A 1, 1577 (1970), from memory), used to pick a
+  potential that binds 2s below a 2p target.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from scipy.constants import physical_constants
+
+from radsolve.errors import InputError
+from radsolve.fitting import fit, parse_free, read_targets
+from radsolve.registry import potential
+from radsolve.spectrum import solve
+
+TRUE = {"Z": 2.0, "screening_length": 3.0}  # a Debye-screened He+-like ion (demo values)
+SIGMA = 1e-4  # hartree
+
+
+@pytest.fixture(scope="module")
+def true_levels():
+    res = solve(potential("yukawa", **TRUE), l=[0, 1], count=2, tol=1e-11)
+    return {lev.label: lev.energy for lev in res.levels}  # 1s, 2s, 2p (3s, 3p unbound)
+
+
+def test_round_trip_self_consistency(true_levels):
+    # Self-consistency: noise-free targets from radsolve are fitted back to the truth.
+    targets = [(label, e, SIGMA) for label, e in true_levels.items()]
+    res = fit("yukawa", targets, free=["Z", "screening_length"], fixed={"Z": 1.5, "screening_length": 5.0},
+              tol=1e-11)
+    assert res.success
+    for key, value in TRUE.items():
+        assert abs(res.values[key] - value) < 1e-3 * res.standard_errors[key]
+    assert res.chi2 < 1e-6
+    assert res.dof == len(targets) - 2
+    assert not res.spurious
+
+
+def test_round_trip_with_noise_self_consistency(true_levels):
+    # Self-consistency with Gaussian noise of the stated size added to the targets:
+    # the truth must lie within 3 standard errors (fixed seed, so the test is deterministic).
+    rng = np.random.default_rng(20240611)
+    sigma = np.array([2e-3, 5e-4, 5e-4])
+    labels = list(true_levels)
+    targets = [(lab, true_levels[lab] + s * rng.standard_normal(), s) for lab, s in zip(labels, sigma)]
+    res = fit("yukawa", targets, free=["Z", "screening_length"], fixed={"Z": 1.5, "screening_length": 5.0})
+    for key, value in TRUE.items():
+        assert abs(res.values[key] - value) < 3.0 * res.standard_errors[key]
+    # The standard errors follow the target uncertainties linearly (common practice):
+    # halving every uncertainty halves them.
+    half = fit("yukawa", [(lab, e, s / 2) for lab, e, s in targets], free=["Z", "screening_length"],
+               fixed={"Z": 1.5, "screening_length": 5.0})
+    for key in TRUE:
+        assert half.standard_errors[key] == pytest.approx(res.standard_errors[key] / 2, rel=1e-3)
+        assert half.values[key] == pytest.approx(res.values[key], rel=1e-7)
+    # chi2 is the sum of the squared residuals; the scaled errors follow from it.
+    assert res.chi2 == pytest.approx(sum(r.residual**2 for r in res.residuals), rel=1e-9)
+    scale = np.sqrt(res.chi2 / res.dof)
+    for key in TRUE:
+        assert res.scaled_standard_errors[key] == pytest.approx(res.standard_errors[key] * scale, rel=1e-12)
+
+
+def test_correlation_matrix_is_a_correlation_matrix(true_levels):
+    targets = [(label, e, SIGMA) for label, e in true_levels.items()]
+    res = fit("yukawa", targets, free=["Z", "screening_length"], fixed={"Z": 1.8, "screening_length": 4.0})
+    c = res.correlation
+    assert np.allclose(c, c.T)
+    assert np.allclose(np.diag(c), 1.0)
+    assert np.all(np.abs(c) <= 1.0 + 1e-12)
+    # Raising Z deepens every level, as does lengthening D: the two compete (negative correlation).
+    assert c[0, 1] < 0
+
+
+def test_spurious_state_below_the_highest_target_is_reported(true_levels):
+    # Only 1s and 2p are targets; at D = 3 bohr, Z = 2 (D Z = 6 > 3.2236, Rogers et al. 1970)
+    # the fitted potential also binds 2s, below 2p: a possible spurious state.
+    targets = [("1s", true_levels["1s"], SIGMA), ("2p", true_levels["2p"], SIGMA)]
+    res = fit("yukawa", targets, free=["screening_length"], fixed={"Z": 2.0, "screening_length": 4.0})
+    assert [lab for lab, _ in res.spurious] == ["2s"]
+    assert res.spurious[0][1] == pytest.approx(true_levels["2s"], rel=1e-8)
+    assert any("spurious" in w and "2s" in w for w in res.warnings)
+
+
+def test_parameter_at_a_bound_is_flagged(true_levels):
+    targets = [(label, e, SIGMA) for label, e in true_levels.items()]
+    res = fit("yukawa", targets, free=["screening_length"], bounds={"screening_length": (3.5, 10.0)},
+              fixed={"Z": 2.0, "screening_length": 5.0})
+    assert res.values["screening_length"] == pytest.approx(3.5, rel=1e-6)
+    assert any("at a bound" in w for w in res.warnings)
+
+
+def test_targets_file_units_and_comments(tmp_path):
+    # CODATA via scipy.constants.
+    ev = physical_constants["electron volt-hartree relationship"][0]
+    per_cm = physical_constants["inverse meter-hartree relationship"][0] * 100.0
+    path = tmp_path / "t.csv"
+    path.write_text("# demo values\nLabel,Energy,Uncertainty,Unit,note\n"
+                    "1s,-13.6,0.1,eV,a\n2p,-27000,5,cm-1,b\n3d,-0.05,0.001,hartree,c\n")
+    targets = read_targets(path)
+    assert [t.label for t in targets] == ["1s", "2p", "3d"]
+    assert targets[0].energy == pytest.approx(-13.6 * ev, rel=1e-14)
+    assert targets[1].uncertainty == pytest.approx(5 * per_cm, rel=1e-14)
+    assert (targets[2].n, targets[2].l, targets[2].nodes) == (3, 2, 0)
+
+
+@pytest.mark.parametrize("text, message", [
+    ("label,energy,unit\n1s,-0.5,hartree\n", r"missing column\(s\) uncertainty"),
+    ("label,energy,uncertainty,unit\n1s,-0.5,0.01,furlong\n", r"line 2: .*unknown energy unit"),
+    ("label,energy,uncertainty,unit\n1s,-0.5,0.01,hartree\n2s,abc,0.01,hartree\n",
+     r"line 3: energy 'abc' is not a number"),
+    ("label,energy,uncertainty,unit\n1s,-0.5,0,hartree\n", r"line 2: uncertainty must be > 0"),
+    ("label,energy,uncertainty,unit\n1s,-0.5,,hartree\n", r"line 2: the uncertainty cell is empty"),
+    ("label,energy,uncertainty,unit\n2d,-0.5,0.1,hartree\n", r"line 2: label '2d'.*n must exceed l"),
+    ("label,energy,uncertainty,unit\n1s,-0.5,0.1,hartree\n1s,-0.4,0.1,hartree\n", "given twice"),
+    ("label,energy,uncertainty,unit\n", "no rows"),
+    ("", "empty"),
+])
+def test_bad_targets_files_name_the_line(tmp_path, text, message):
+    path = tmp_path / "bad.csv"
+    path.write_text(text)
+    with pytest.raises(InputError, match=message):
+        read_targets(path)
+
+
+def test_missing_targets_file(tmp_path):
+    with pytest.raises(InputError, match="does not exist"):
+        read_targets(tmp_path / "nope.csv")
+
+
+@pytest.mark.parametrize("kwargs, message", [
+    (dict(free=["depth"]), "no such parameter"),
+    (dict(free=[]), "at least one parameter"),
+    (dict(free=["Z", "Z"]), "named twice"),
+    (dict(free=["Z"], bounds={"screening_length": (1, 2)}), "not a free parameter"),
+    (dict(free=["Z"], bounds={"Z": (3, 2)}), "must be below"),
+    (dict(free=["Z"], bounds={"Z": (3, 4)}), "outside its bounds"),
+    (dict(free=["Z", "screening_length"], targets=[("1s", -0.3, 0.01)]), "cannot determine 2 free"),
+    (dict(free=["Z"], targets=[("1s", 0.3, 0.01)]), "not below the continuum threshold"),
+])
+def test_bad_fit_input(kwargs, message):
+    kwargs.setdefault("targets", [("1s", -0.3, 0.01), ("2p", -0.01, 0.01)])
+    with pytest.raises(InputError, match=message):
+        fit("yukawa", tol=1e-8, **kwargs)
+
+
+def test_parse_free():
+    assert parse_free("Z") == ("Z", None)
+    assert parse_free("screening_length:1angstrom:") == ("screening_length", ("1angstrom", None))
+    with pytest.raises(InputError, match="KEY:LO:HI"):
+        parse_free("Z:1")
