@@ -322,6 +322,253 @@ def potentials_command(
             typer.echo(text if text.endswith("\n") else text + "\n", nl=False)
 
 
+# ---------------------------------------------------------------- states and transitions
+
+
+def _solver_call(pot, func, *args, **kwargs):
+    """Run a solving API call, prefixing option names and the potential to its errors."""
+    from radsolve.errors import InputError, RadsolveError
+
+    try:
+        return func(*args, **kwargs)
+    except RadsolveError as exc:
+        message = str(exc)
+        if isinstance(exc, InputError):
+            first = message.split(" ", 1)[0].rstrip(":")
+            if first in ("l", "n", "nmax", "count", "tol", "mass"):
+                raise InputError("--" + message) from None
+            raise
+        if repr(pot.name) in message:
+            raise
+        raise type(exc)(f"potential {pot.name!r}: {exc}") from None
+
+
+def _folder_exists(path: Path, option: str) -> None:
+    from radsolve.errors import InputError
+
+    if not (path.parent if str(path.parent) else Path(".")).is_dir():
+        raise InputError(f"{option} {str(path)!r}: folder {str(path.parent)!r} does not exist")
+
+
+@app.command("wave")
+def wave_command(
+    name: Annotated[str, typer.Argument(
+        metavar="NAME", help="potential family, e.g. coulomb (list: radsolve potentials)")],
+    n: Annotated[int, typer.Option(
+        "--n", "-n", min=1, metavar="N", help="principal number n = nodes + l + 1")],
+    l: Annotated[int, typer.Option("--l", "-l", min=0, metavar="L", help="orbital angular momentum")],
+    param: Annotated[Optional[list[str]], typer.Option(
+        "-p", "--param", metavar="KEY=VALUE",
+        help="potential parameter, repeatable; atomic units unless a unit is attached")] = None,
+    mass: Annotated[str, typer.Option(
+        "--mass", "-m", metavar="M",
+        help="reduced mass: electron masses, or particles such as electron+proton")] = "1",
+    tol: Annotated[float, typer.Option(
+        "--tol", metavar="T", help="target relative error of the energy (1e-14 ... 0.1)")] = 1e-10,
+    method: Annotated[Method, typer.Option(
+        "--method", help="fd (finite differences), numerov (shooting) or both")] = Method.fd,
+    unit: Annotated[str, typer.Option(
+        "--unit", "-u", metavar="U", help=f"energy unit of the summary and plot: {ENERGY_UNITS_HELP}")
+    ] = "hartree",
+    at: Annotated[Optional[list[str]], typer.Option(
+        "--at", metavar="R",
+        help="radius to interpolate u and R to, repeatable; bohr unless a unit is attached "
+             "(e.g. --at 0.5angstrom) [default: the solver grid]")] = None,
+    moment: Annotated[Optional[list[float]], typer.Option(
+        "--moment", metavar="K", help="also <r^K>, repeatable (e.g. --moment=-3 --moment 4)")] = None,
+    inside: Annotated[Optional[list[str]], typer.Option(
+        "--inside", metavar="R", help="also the probability P(r < R), repeatable; bohr or a length")
+    ] = None,
+    fmt: Annotated[Optional[OutputFormat], typer.Option(
+        "--format", "-f",
+        help="stdout: table (a summary of the state) [default], or csv / json (the wavefunction)")
+    ] = None,
+    out: Annotated[Optional[Path], typer.Option(
+        "--out", "-o", metavar="FILE",
+        help="write the wavefunction to FILE.csv, FILE.json or FILE.npz (the summary stays on stdout)")
+    ] = None,
+    plot: Annotated[Optional[Path], typer.Option(
+        "--plot", metavar="FILE", help="draw u(r) over V(r) and the level energy: FILE.png, .svg or .pdf")
+    ] = None,
+    plugins: Annotated[Optional[list[Path]], typer.Option(
+        "--plugins", metavar="DIR", help=PLUGINS_HELP)] = None,
+) -> None:
+    """The wavefunction of level (N, L) of potential NAME, and what it implies.
+
+    The summary gives the energy, <r>, <r^2>, <1/r>, <1/r^2>, <V>, <T>, the
+    energy residual E - <T> - <V>, the most probable radius, the classical
+    turning points, the contact density |psi(0)|^2 and the virial ratio, each
+    with an error estimate from the grid refinement. u(r) and R(r) = u(r)/r
+    are normalized (integral of u^2 dr = 1) with u > 0 as r -> 0. Exit 3
+    when the energy or a quantity shown did not converge.
+    """
+    with _reported_errors():
+        from radsolve.errors import InputError
+
+        params = parse_assignments(param)
+        _check_tol(tol)
+        from radsolve.units import energy_unit_factor, parse_mass, parse_quantity
+
+        _with_option("--unit", energy_unit_factor, unit)
+        mu = _with_option("--mass", parse_mass, mass)
+        radii = [parse_quantity(v, "length", name="--at") for v in at or []]
+        if any(r < 0 for r in radii):
+            raise InputError("--at: radii must be >= 0 bohr")
+        limits = [parse_quantity(v, "length", name="--inside") for v in inside or []]
+        if any(not r > 0 for r in limits):
+            raise InputError("--inside: radii must be > 0 bohr")
+        if out is not None:
+            from radsolve.wavefunctions import export_format
+
+            _folder_exists(out, "--out")
+            file_format = _with_option("--out", export_format, out)
+            if fmt is not None and fmt is not OutputFormat.table and fmt.value != file_format:
+                raise InputError(f"--format {fmt.value} and --out {str(out)!r} disagree; the file's "
+                                 "extension sets its format (.csv, .json, .npz)")
+        if plot is not None:
+            from radsolve.plotting import check_plot_path
+
+            _with_option("--plot", check_plot_path, plot)
+
+        from radsolve.observables import state as make_state
+        from radsolve.registry import potential
+
+        pot = potential(name, plugins=_plugin_dirs(plugins), **params)
+        st = _solver_call(pot, make_state, pot, n, l, mass=mu, tol=tol, method=method.value)
+        props = st.properties()
+        extra = []
+        for k in moment or []:
+            extra.append((f"<r^{k:g}>", f"bohr^{k:g}", _with_option("--moment", st.moment, k)))
+        for radius in limits:
+            extra.append((f"P(r < {radius:g})", "", st.probability_inside(radius)))
+        from radsolve.observables import plain_properties
+
+        plain = plain_properties(props)
+        plain.update({name_: est.to_dict() for name_, _, est in extra})
+        wave = st.wavefunction(radii if radii else None)
+        wave.properties = plain
+
+        from radsolve.report import state_table
+
+        stdout_format = (fmt or OutputFormat.table).value
+        if out is not None:
+            wave.save(out)
+            _say(f"wrote the {st.label} wavefunction ({wave.r.size} radii, {file_format}) to {out}")
+        if stdout_format == "table" or out is not None:
+            typer.echo(state_table(st, props, unit, extra, wave if radii else None), nl=False)
+        elif stdout_format == "csv":
+            typer.echo(wave.to_csv(), nl=False)
+        else:
+            typer.echo(wave.to_json(), nl=False)
+        if plot is not None:
+            from radsolve.plotting import plot_wavefunction
+
+            plot_wavefunction(st, plot, unit)
+            _say(f"wrote the plot to {plot}")
+
+        shown = [("energy", props["energy"])] + [(k, v) for k, v in props.items()
+                                                 if hasattr(v, "converged") and k != "energy"]
+        shown += [(k, v) for k, _, v in extra]
+        virial = props.get("virial")
+        if virial is not None and virial.available:
+            shown.append(("virial ratio", virial.ratio))
+        bad = [k for k, v in shown if not v.converged]
+        if bad:
+            _say(f"warning: not converged: {', '.join(bad)} (their estimates are what was achieved)")
+            raise typer.Exit(EXIT_NOT_CONVERGED)
+
+
+@app.command("transitions")
+def transitions_command(
+    name: Annotated[str, typer.Argument(
+        metavar="NAME", help="potential family, e.g. coulomb (list: radsolve potentials)")],
+    nmax: Annotated[int, typer.Option(
+        "--nmax", min=1, metavar="N", help="every bound level with n <= N, for every l < N")],
+    param: Annotated[Optional[list[str]], typer.Option(
+        "-p", "--param", metavar="KEY=VALUE",
+        help="potential parameter, repeatable; atomic units unless a unit is attached")] = None,
+    mass: Annotated[str, typer.Option(
+        "--mass", "-m", metavar="M",
+        help="reduced mass: electron masses, or particles such as electron+proton")] = "1",
+    tol: Annotated[float, typer.Option(
+        "--tol", metavar="T", help="target relative error of each energy (1e-14 ... 0.1)")] = 1e-10,
+    method: Annotated[Method, typer.Option(
+        "--method", help="fd (finite differences), numerov (shooting) or both")] = Method.fd,
+    unit: Annotated[str, typer.Option(
+        "--unit", "-u", metavar="U", help=f"energy unit of the output: {ENERGY_UNITS_HELP}")
+    ] = "hartree",
+    fmt: Annotated[OutputFormat, typer.Option(
+        "--format", "-f", help="table for reading, json or csv for programs")
+    ] = OutputFormat.table,
+    out: Annotated[Optional[Path], typer.Option(
+        "--out", "-o", metavar="FILE", help="write the output to FILE instead of stdout")
+    ] = None,
+    plot: Annotated[Optional[Path], typer.Option(
+        "--plot", metavar="FILE", help="draw the level diagram with its E1 lines: FILE.png, .svg or .pdf")
+    ] = None,
+    dipole_charge: Annotated[float, typer.Option(
+        "--dipole-charge", metavar="Q",
+        help="factor of the dipole operator -e r (1 for a neutral two-body system)")] = 1.0,
+    plugins: Annotated[Optional[list[Path]], typer.Option(
+        "--plugins", metavar="DIR", help=PLUGINS_HELP)] = None,
+) -> None:
+    """Electric-dipole lines, lifetimes and branching ratios of the levels with n <= N.
+
+    For each line: transition energy, vacuum wavelength, absorption
+    oscillator strength and Einstein A (s^-1); for each level: lifetime
+    1/sum(A) over all lower levels and branching ratios, or 'metastable' when
+    no lower level is reachable by an E1 transition. Model calculation
+    (nonrelativistic, spinless, E1 only). Exit 3 when something did not
+    converge or a lifetime may miss a lower level.
+    """
+    with _reported_errors():
+        from radsolve.errors import InputError
+
+        params = parse_assignments(param)
+        _check_tol(tol)
+        from radsolve.units import energy_unit_factor, parse_mass
+
+        _with_option("--unit", energy_unit_factor, unit)
+        mu = _with_option("--mass", parse_mass, mass)
+        if not (dipole_charge > 0 and dipole_charge < float("inf")):
+            raise InputError(f"--dipole-charge {dipole_charge}: must be a positive number")
+        if out is not None:
+            _folder_exists(out, "--out")
+        if plot is not None:
+            from radsolve.plotting import check_plot_path
+
+            _with_option("--plot", check_plot_path, plot)
+
+        from radsolve.registry import potential
+        from radsolve.transitions import transitions
+
+        pot = potential(name, plugins=_plugin_dirs(plugins), **params)
+        tr = _solver_call(pot, transitions, pot, nmax, mass=mu, tol=tol, method=method.value,
+                          dipole_charge=dipole_charge)
+        from radsolve.report import render_transitions
+
+        text = render_transitions(tr, unit, fmt.value)
+        if out is None:
+            typer.echo(text, nl=False)
+        else:
+            try:
+                out.write_text(text, encoding="utf-8")
+            except OSError as exc:
+                raise InputError(f"--out {str(out)!r}: cannot write: {exc.strerror}") from None
+            _say(f"wrote {len(tr.lines)} lines and {len(tr.states)} levels ({fmt.value}) to {out}")
+        if plot is not None:
+            from radsolve.plotting import plot_level_diagram
+
+            plot_level_diagram(tr, plot, unit)
+            _say(f"wrote the level diagram to {plot}")
+        if not tr.success:
+            if out is not None or fmt is not OutputFormat.table:
+                _say(tr.message)
+            _say("warning: not everything converged or is complete (see the message); "
+                 "the numbers are what was achieved")
+            raise typer.Exit(EXIT_NOT_CONVERGED)
+
+
 def _version_callback(value: bool) -> None:
     if value:
         from importlib.metadata import PackageNotFoundError, version

@@ -276,3 +276,202 @@ def families_list(families: dict[str, Any]) -> str:
         if getattr(fam, "origin", "built-in") != "built-in":
             lines += _wrap(f"    from {fam.source} ({fam.origin})", indent="    ")
     return "\n".join(lines) + "\n"
+
+
+# ---------------------------------------------------------------- states (radsolve wave)
+
+
+def _estimate_cells(est, factor: float = 1.0) -> list[str]:
+    """Value (12 digits), estimate, and 'NO' when not converged."""
+    return [_energy_text(est.value / factor), _small_text(est.error / factor),
+            "yes" if est.converged else "NO"]
+
+
+def state_table(state, props: dict[str, Any], unit: str = "hartree",
+                extra: list[tuple[str, str, Any]] | None = None, wave=None) -> str:
+    """Text summary of one state: energy, sizes, energies, diagnostics.
+
+    Parameters
+    ----------
+    state : radsolve.observables.State
+    props : dict
+        :meth:`State.properties`.
+    unit : str
+        Energy unit of energies.
+    extra : list of (name, unit, Estimate)
+        More rows (asked-for moments, probabilities inside radii).
+    wave : Wavefunction, optional
+        Values at given radii, shown as a second table.
+    """
+    factor = _unit_factor(unit)
+    pot = state.potential
+    params = ", ".join(f"{k} = {_value_text(v)}" for k, v in pot.parameters.items())
+    lines = _wrap(f"level {state.label} of potential {pot.name}" + (f": {params}" if params else "")
+                  + "  (atomic units)")
+    lines += _wrap(f"reduced mass {state.mass:.10g} electron masses | energies in {unit} | "
+                   f"lengths in bohr | method {state.level.method} | tol {state.tol:.1e}")
+    lines.append("")
+    rows: list[list[str]] = []
+
+    def add(name: str, quantity_unit: str, est, energy: bool = False) -> None:
+        rows.append([name, quantity_unit] + _estimate_cells(est, factor if energy else 1.0))
+
+    add("energy E", unit, props["energy"], True)
+    for key, name, qunit in (("r", "<r>", "bohr"), ("r2", "<r^2>", "bohr^2"),
+                             ("inv_r", "<1/r>", "bohr^-1"), ("inv_r2", "<1/r^2>", "bohr^-2")):
+        if key in props:
+            add(name, qunit, props[key])
+    for key, name in (("potential_energy", "<V>"), ("kinetic_energy", "<T>"),
+                      ("energy_residual", "E - <T> - <V>")):
+        if key in props:
+            add(name, unit, props[key], True)
+    add("most probable r", "bohr", props["most_probable_radius"])
+    for i, tp in enumerate(props.get("turning_points", [])):
+        count = len(props["turning_points"])
+        which = ("inner " if i == 0 else "outer ") if count == 2 else ""
+        add(f"{which}turning point" + (f" {i + 1}" if count > 2 else ""), "bohr", tp)
+    if "contact_density" in props:
+        add("|psi(0)|^2", "bohr^-3", props["contact_density"])
+    for name, qunit, est in extra or []:
+        add(name, qunit, est)
+    virial = props.get("virial")
+    if virial is not None and virial.available:
+        label = (f"virial 2<T>/(k<V>), k={virial.exponent:g}" if virial.kind == "power law"
+                 else "virial 2<T>/<r dV/dr>")
+        add(label, "", virial.ratio)
+    lines += format_columns(["quantity", "unit", "value", "est.err", "conv"], rows, {2, 3})
+    if virial is not None and not virial.available:
+        lines.append("")
+        lines += _wrap(f"virial check not available: {virial.reason}")
+    lines.append("")
+    lines += _wrap("u(r) > 0 as r -> 0; integral of u^2 dr = 1; psi = R(r) Y_lm with R = u/r. "
+                   "The virial ratio is 1 and E - <T> - <V> is 0 for an exact eigenstate.")
+    if wave is not None and not wave.on_grid:
+        lines.append("")
+        table = [[_energy_text(r), _energy_text(u), _small_text(du), _energy_text(R), _small_text(dR)]
+                 for r, u, du, R, dR in zip(wave.r, wave.u, wave.u_error, wave.R, wave.R_error)]
+        lines += format_columns(["r/bohr", "u/bohr^-1/2", "est.err", "R/bohr^-3/2", "est.err"],
+                                table, {0, 1, 2, 3, 4})
+    unconverged = [r[0] for r in rows if r[-1] == "NO"]
+    if unconverged:
+        lines.append("")
+        lines += _wrap("WARNING: not converged: " + ", ".join(unconverged))
+    return "\n".join(lines) + "\n"
+
+
+# ---------------------------------------------------------------- radsolve transitions
+
+
+def _sci(x: float | None, digits: int = 4) -> str:
+    if x is None:
+        return ""
+    if not math.isfinite(x):
+        return str(x)
+    return f"{x:.{digits}e}"
+
+
+def transitions_table(tr, unit: str = "hartree") -> str:
+    """Text tables of a :class:`radsolve.transitions.TransitionResult`: lines, then states."""
+    factor = _unit_factor(unit)
+    res = tr.result
+    pot = res.potential
+    params = ", ".join(f"{k} = {_value_text(v)}" for k, v in pot.parameters.items())
+    lines = _wrap(f"E1 transitions of potential {pot.name}" + (f": {params}" if params else "")
+                  + f", levels with n <= {tr.nmax}  (atomic units)")
+    lines += _wrap(f"reduced mass {res.mass:.10g} electron masses | energies in {unit} | "
+                   f"vacuum wavelengths | method {res.method} | tol {res.tol:.1e}"
+                   + (f" | dipole charge {tr.dipole_charge:g}" if tr.dipole_charge != 1.0 else ""))
+    lines.append("")
+    if tr.lines:
+        rows = [[x.upper, x.lower, _energy_text(x.energy / factor), f"{x.wavelength_nm:.6f}",
+                 _sci(x.oscillator_strength), _sci(x.einstein_A), f"{x.branching_ratio:.4f}"]
+                for x in tr.lines]
+        lines += format_columns(["upper", "lower", f"dE/{unit}", "vac.wl/nm", "f(abs)", "A/s^-1",
+                                 "branch"], rows, {2, 3, 4, 5, 6})
+    else:
+        lines.append("no E1 line among these levels")
+    lines.append("")
+    rows = []
+    for s in tr.states:
+        if s.lifetime_s is not None:
+            top = sorted(s.branching.items(), key=lambda kv: -kv[1])[:2]
+            status = "to " + ", ".join(f"{k} {100 * v:.3g}%" for k, v in top)
+            if len(s.branching) > 2:
+                status += ", ..."
+        else:
+            status = s.status
+        if not s.complete:
+            status += " (INCOMPLETE)"
+        rows.append([s.label, _energy_text(s.energy / factor),
+                     _sci(s.lifetime_s) if s.lifetime_s is not None else "-", status])
+    lines += format_columns(["level", f"energy/{unit}", "lifetime/s", "decay"], rows, {1, 2})
+    lines.append("")
+    lines += _wrap("f(abs): absorption oscillator strength lower -> upper (electron-mass "
+                   "convention); A: spontaneous emission rate; branch: A / sum of A of the upper "
+                   "level. Levels degenerate within their error estimates are not connected.")
+    lines += _wrap("Note: " + MODEL_NOTE_TEXT)
+    if tr.message:
+        lines.append("")
+        lines += _wrap(tr.message)
+    return "\n".join(lines) + "\n"
+
+
+MODEL_NOTE_TEXT = ("model calculation (nonrelativistic, spinless, E1 only); for rates used in "
+                   "diagnostics or safety work, use evaluated data compilations.")
+
+
+def transitions_json(tr, unit: str = "hartree") -> str:
+    """The JSON document of :meth:`TransitionResult.to_dict` (non-finite numbers as null)."""
+    return json.dumps(_plain(tr.to_dict(unit)), indent=2, allow_nan=False) + "\n"
+
+
+TRANSITION_CSV_FIELDS = ("record", "upper", "lower", "label", "energy", "energy_error",
+                         "wavelength_nm", "oscillator_strength", "einstein_A", "branching_ratio",
+                         "lifetime_s", "metastable", "ground", "unit")
+
+
+def transitions_csv(tr, unit: str = "hartree") -> str:
+    """CSV: one row per line (record 'line'), then one per level (record 'state').
+
+    Line rows fill upper, lower, energy (the transition energy), wavelength_nm
+    (vacuum), oscillator_strength, einstein_A (s^-1) and branching_ratio;
+    state rows fill label, energy (the level), lifetime_s (empty when
+    metastable), metastable (no E1 decay) and ground (the lowest level).
+    The unit column names the energy unit.
+    """
+    factor = _unit_factor(unit)
+    buf = io.StringIO()
+    writer = csv.writer(buf, lineterminator="\n")
+    writer.writerow(TRANSITION_CSV_FIELDS)
+
+    def cell(v):
+        v = _plain(v)
+        return "" if v is None else (repr(v) if isinstance(v, float) else v)
+
+    for x in tr.lines:
+        row = dict(record="line", upper=x.upper, lower=x.lower, energy=x.energy / factor,
+                   energy_error=x.energy_error / factor, wavelength_nm=x.wavelength_nm,
+                   oscillator_strength=x.oscillator_strength, einstein_A=x.einstein_A,
+                   branching_ratio=x.branching_ratio, unit=unit)
+        writer.writerow([cell(row.get(f)) for f in TRANSITION_CSV_FIELDS])
+    for s in tr.states:
+        row = dict(record="state", label=s.label, energy=s.energy / factor,
+                   energy_error=s.energy_error / factor, lifetime_s=s.lifetime_s,
+                   metastable=str(s.metastable).lower(), ground=str(s.ground).lower(), unit=unit)
+        writer.writerow([cell(row.get(f)) for f in TRANSITION_CSV_FIELDS])
+    return buf.getvalue()
+
+
+TRANSITION_RENDERERS = {"table": transitions_table, "json": transitions_json, "csv": transitions_csv}
+
+
+def render_transitions(tr, unit: str = "hartree", fmt: str = "table") -> str:
+    """``tr`` in format ``fmt`` (``"table"``, ``"json"`` or ``"csv"``)."""
+    from .errors import InputError
+
+    try:
+        renderer = TRANSITION_RENDERERS[fmt]
+    except KeyError:
+        raise InputError(f"unknown output format {fmt!r}; allowed: "
+                         + ", ".join(TRANSITION_RENDERERS)) from None
+    return renderer(tr, unit)
