@@ -220,14 +220,18 @@ class State:
     def __init__(self, level, potential, mass: float, tol: float = 1e-10, result=None):
         from . import probe
 
+        check_atomic_3d(result, "expectation values")
         self.level = level
         self.potential = potential
         self.mass = float(mass)
         self.tol = float(tol)
         self.result = result
-        self.profile = probe.profile(potential, self.mass)
+        #: The potential this level feels: V, or the family's V_l (and spin-orbit term).
+        self.channel = channel_potential(potential, level)
+        self.profile = probe.profile(self.channel, self.mass)
         self.origin_exponent = float(self.profile.origin_exponent(level.l, self.mass))
-        self.grids: list[SampleGrid] = prepared_samples(level, self.origin_exponent)
+        self.grids: list[SampleGrid] = prepared_samples(level, self.origin_exponent,
+                                                        correction_power(self.profile))
         self.method = level.sample_method or (level.method if level.method != "both" else "fd")
         self.orders = _error_orders(self.method)
         self._values_cache: dict[int, np.ndarray] = {}
@@ -276,7 +280,7 @@ class State:
             from .spectrum import potential_on_grid
 
             self._values_cache[index] = potential_on_grid(
-                self.potential, self.grids[index].r, self.profile.breakpoints)
+                self.channel, self.grids[index].r, self.profile.breakpoints)
         return self._values_cache[index]
 
     def _target(self, value: float, scale: float) -> float:
@@ -469,7 +473,7 @@ class State:
 
         def excess(radius):
             radius = np.atleast_1d(np.asarray(radius, dtype=float))
-            return self.potential(radius) + l * (l + 1) / (2.0 * mu * radius**2) - energy
+            return self.channel(radius) + l * (l + 1) / (2.0 * mu * radius**2) - energy
 
         f = excess(r)
         points = []
@@ -569,7 +573,7 @@ class State:
         """r dV/dr = dV/d(ln r), sixth-order central difference in ln r."""
         total = np.zeros_like(r)
         for m, w in _D7.items():
-            total += w * self.potential(r * math.exp(m * delta))
+            total += w * self.channel(r * math.exp(m * delta))
         return total / delta
 
     def virial(self) -> VirialCheck:
@@ -606,7 +610,7 @@ class State:
             return VirialCheck(True, "power law", k, ratio)
         return VirialCheck(True, "general", None, ratio)
 
-    def hellmann_feynman(self, parameter: str, relative_step: float = 0.02) -> HellmannFeynmanCheck:
+    def hellmann_feynman(self, parameter: str, relative_step: float = 0.01) -> HellmannFeynmanCheck:
         """Check dE/dp = ⟨∂V/∂p⟩ (Hellmann–Feynman theorem) for a numeric parameter p.
 
         dE/dp comes from six more solves at p + m*step (m = ±1, ±2, ±3), with
@@ -648,13 +652,15 @@ class State:
                 raise InputError(f"parameter {parameter!r} = {p0:g} is at the edge of its allowed "
                                  f"range ({spec.range_text()}); it cannot be varied both ways")
         lev = self.level
+        j = getattr(lev, "j", None)
+        extra = {"spin_orbit": True} if j is not None else {}
         energies: dict[int, tuple[float, float]] = {}
         all_converged = True
         for m in _D7:
             shifted = self.potential.with_parameters(**{parameter: p0 + m * step})
             res = solve(shifted, l=lev.l, count=lev.nodes + 1, mass=self.mass, tol=self.tol,
-                        method=lev.method)
-            match = [x for x in res.levels if x.nodes == lev.nodes]
+                        method=lev.method, **extra)
+            match = [x for x in res.levels if x.nodes == lev.nodes and getattr(x, "j", None) == j]
             if not match:
                 raise RadsolveError(f"level {lev.label} is not bound at {parameter} = "
                                     f"{p0 + m * step:.10g}; the Hellmann-Feynman check needs it "
@@ -668,7 +674,8 @@ class State:
         per = f"hartree/{unit}" if unit else "hartree"
         derivative = Estimate(float(d7), float(abs(d7 - d5) + propagated), per, None, all_converged)
 
-        shifted_pots = {m: self.potential.with_parameters(**{parameter: p0 + m * step}) for m in _D7}
+        shifted_pots = {m: channel_potential(self.potential.with_parameters(**{parameter: p0 + m * step}), lev)
+                        for m in _D7}
 
         def dv_dp(g, index):
             from .spectrum import potential_on_grid
@@ -713,9 +720,42 @@ class State:
     def wavefunction(self, r=None):
         """u(r), R(r) on the finest solver grid or at radii ``r`` (bohr); see
         :func:`radsolve.wavefunctions.build_wavefunction`."""
+        origin = None
+        if abs(self.origin_exponent - 1) < 1e-12 and not self.profile.breakpoints:
+            density = self.contact_density("sum_rule")
+            value = math.sqrt(4.0 * math.pi * density.value)
+            origin = (value, 2.0 * math.pi * density.error / value if value else math.inf)
         return build_wavefunction(
-            self.level, self.grids, self.orders, r, mass=self.mass, potential=self.potential.name,
-            parameters=self.potential.parameters)
+            self.level, self.grids, self.orders, r, origin, mass=self.mass,
+            potential=self.potential.name, parameters=self.potential.parameters)
+
+
+def correction_power(profile) -> float:
+    """q in u = C r**lambda (1 + O(r**q)) near the origin: p + 2 for V ~ c r**p, capped to [0.25, 1]."""
+    c, p = profile.small_r_coefficient, profile.small_r_power
+    if c == 0.0:
+        return 1.0
+    return min(max(p + 2.0, 0.25), 1.0)
+
+
+def channel_potential(potential, level):
+    """The potential felt by ``level``: its (l, j) channel when the family has
+    l-dependent parts or the level has a j, else ``potential`` itself."""
+    j = getattr(level, "j", None)
+    if hasattr(potential, "channel") and (j is not None or getattr(potential, "l_dependent", False)):
+        return potential.channel(level.l, j)
+    return potential
+
+
+def check_atomic_3d(result, what: str) -> None:
+    """Refuse results in other unit systems or dimensions (not implemented here)."""
+    if result is None:
+        return
+    units = getattr(result, "units", "atomic")
+    dimension = getattr(result, "dimension", 3)
+    if units != "atomic" or dimension != 3:
+        raise InputError(f"{what} are implemented for atomic units in three dimensions; this "
+                         f"result is in {units} units with dimension {dimension}")
 
 
 def plain_properties(props: dict[str, Any]) -> dict[str, Any]:

@@ -44,7 +44,7 @@ from typing import Any
 import numpy as np
 
 from .errors import InputError
-from .observables import Estimate
+from .observables import Estimate, channel_potential, check_atomic_3d
 from .wavefunctions import SampleGrid, prepared_samples
 
 #: Largest nmax accepted: every level's wavefunction on every grid is kept in
@@ -382,13 +382,22 @@ def transitions_from(result, nmax: int | None = None, dipole_charge: float = 1.0
     if not (isinstance(dipole_charge, (int, float)) and not isinstance(dipole_charge, bool)
             and math.isfinite(dipole_charge) and dipole_charge > 0):
         raise InputError(f"dipole_charge must be a positive number, got {dipole_charge!r}")
+    check_atomic_3d(result, "radiative transitions")
     levels = list(result.levels)
     if not levels:
-        raise InputError(f"no bound level: {result.message}")
+        raise InputError(f"potential {result.potential.name!r} has no bound level to connect "
+                         f"({result.message})")
+    if any(getattr(lev, "j", None) is not None for lev in levels):
+        raise InputError("E1 transitions between spin-orbit (l, j) levels are not implemented; "
+                         "solve without spin_orbit")
     if nmax is None:
         nmax = max(lev.n for lev in levels)
-    prof = probe.profile(result.potential, result.mass)
-    grids = {id(lev): prepared_samples(lev, prof.origin_exponent(lev.l, result.mass)) for lev in levels}
+    profiles: dict[int, Any] = {}
+    for lev in levels:
+        if lev.l not in profiles:
+            profiles[lev.l] = probe.profile(channel_potential(result.potential, lev), result.mass)
+    grids = {id(lev): prepared_samples(lev, profiles[lev.l].origin_exponent(lev.l, result.mass))
+             for lev in levels}
     by_l: dict[int, list] = {}
     for lev in levels:
         by_l.setdefault(lev.l, []).append(lev)
@@ -497,7 +506,8 @@ def transitions_from(result, nmax: int | None = None, dipole_charge: float = 1.0
     if not result.success:
         notes.append(result.message)
     message = "; ".join(notes) if notes else (
-        f"{len(lines)} E1 lines among {len(states)} levels, all converged")
+        f"{len(lines)} E1 line{'s' if len(lines) != 1 else ''} among {len(states)} "
+        f"level{'s' if len(states) != 1 else ''}, all converged")
     return TransitionResult(lines=lines, states=states, result=result, nmax=int(nmax),
                             dipole_charge=float(dipole_charge), success=bool(all_ok and not unconverged),
                             message=message)

@@ -163,8 +163,11 @@ class SampleGrid:
     coefficient : float
         C, bohr**(-1/2 - lambda).
     power_law_spread : float
-        Relative change of C between r[j] and the radius where |u| reaches
-        100 times that fraction: how far u is from the pure power law at r[j].
+        Estimated relative deviation of u from the pure power law at r[j]
+        (from the change of C between r[j] and the radius where |u| reaches
+        100 times that fraction, see :func:`prepare`).
+    correction_power : float
+        q: that deviation grows like r**q.
     """
 
     sample: Any
@@ -175,6 +178,7 @@ class SampleGrid:
     lam: float
     coefficient: float
     power_law_spread: float
+    correction_power: float = 1.0
 
     @property
     def r(self) -> np.ndarray:
@@ -241,8 +245,14 @@ def _mapping_scale(sample) -> float:
     return float(r[-1] * jac[-1] / gap)
 
 
-def prepare(sample, lam: float) -> SampleGrid:
-    """A :class:`SampleGrid` for one GridSample and origin exponent ``lam``."""
+def prepare(sample, lam: float, correction_power: float = 1.0) -> SampleGrid:
+    """A :class:`SampleGrid` for one GridSample and origin exponent ``lam``.
+
+    ``correction_power`` q: the relative correction to u ~ C r**lambda grows
+    like r**q (q = 1 for a Coulomb-like V ~ r**-1, p + 2 for V ~ r**p); the
+    change of C measured between r_j and r_j2 is scaled by (r_j/r_j2)**q to
+    give the deviation at r_j itself.
+    """
     r = sample.r
     scale = _mapping_scale(sample)
     x = np.log(r) + (r / scale if math.isfinite(scale) else 0.0)
@@ -263,17 +273,20 @@ def prepare(sample, lam: float) -> SampleGrid:
     coefficient = float(u[j] / r[j] ** lam)
     check = float(u[j2] / r[j2] ** lam)
     spread = abs(coefficient / check - 1.0) if check != 0 else 1.0
+    if j2 > j:
+        spread *= (r[j] / r[j2]) ** min(max(correction_power, 0.25), 1.0)
     if j > 0:
         u[:j] = coefficient * r[:j] ** lam
     return SampleGrid(sample=sample, x=x, scale=scale, u=u, j=j, lam=float(lam),
-                      coefficient=coefficient, power_law_spread=float(min(spread, 1.0)))
+                      coefficient=coefficient, power_law_spread=float(min(spread, 1.0)),
+                      correction_power=float(min(max(correction_power, 0.25), 1.0)))
 
 
-def prepared_samples(level, lam: float) -> list[SampleGrid]:
+def prepared_samples(level, lam: float, correction_power: float = 1.0) -> list[SampleGrid]:
     """Every sample of ``level`` prepared (coarsest first)."""
     if not level.samples:
         raise InputError(f"level {level.label} carries no wavefunction samples")
-    return [prepare(s, lam) for s in level.samples]
+    return [prepare(s, lam, correction_power) for s in level.samples]
 
 
 # ---------------------------------------------------------------- extrapolation of arrays
@@ -503,7 +516,8 @@ def _radii(r) -> np.ndarray:
     return radii
 
 
-def build_wavefunction(level, grids: list[SampleGrid], orders: tuple[int, ...], r=None, **meta) -> Wavefunction:
+def build_wavefunction(level, grids: list[SampleGrid], orders: tuple[int, ...], r=None,
+                       origin_R: tuple[float, float] | None = None, **meta) -> Wavefunction:
     """The :class:`Wavefunction` of ``level`` from its prepared samples.
 
     Parameters
@@ -515,12 +529,29 @@ def build_wavefunction(level, grids: list[SampleGrid], orders: tuple[int, ...], 
         Error orders of the method that made the samples.
     r : array_like, optional
         Radii (bohr, >= 0) to interpolate to; default the finest solver grid.
+    origin_R : (float, float), optional
+        R(0) and its error from a better source (the contact-density sum
+        rule), used at r = 0 for an s state.
     **meta
         ``mass``, ``potential``, ``parameters``, ``properties`` for the record.
     """
     fine = grids[-1]
     u_grid, err_grid = _extrapolated_u(grids, orders)
     lam = fine.lam
+    # the origin power law of the extrapolated u, and its uncertainty
+    r_j = fine.r[fine.j] ** lam
+    coefficient = float(u_grid[fine.j] / r_j)
+    coefficient_error = float(err_grid[fine.j] / r_j) + abs(coefficient) * fine.power_law_spread
+    if origin_R is not None and abs(lam - 1.0) < 1e-12:
+        coefficient, coefficient_error = origin_R  # u ~ R(0) r for an s state
+    # below r_j the samples carry the power law: its own uncertainty applies there
+    u_grid = u_grid.copy()
+    u_grid[: fine.j] = coefficient * fine.r[: fine.j] ** lam
+    err_grid = err_grid.copy()
+    # (the pure power law neglects the relative correction, at most the spread at r_j)
+    inner = fine.r[: fine.j]
+    err_grid[: fine.j] = (coefficient_error + abs(coefficient) * fine.power_law_spread
+                          * (inner / fine.r[fine.j]) ** fine.correction_power) * inner**lam
     if r is None:
         radii = fine.r.copy()
         u, err = u_grid, err_grid
@@ -528,8 +559,9 @@ def build_wavefunction(level, grids: list[SampleGrid], orders: tuple[int, ...], 
     else:
         radii = _radii(r)
         extrap = SampleGrid(sample=fine.sample, x=fine.x, scale=fine.scale, u=u_grid, j=fine.j,
-                            lam=lam, coefficient=fine.coefficient,
-                            power_law_spread=fine.power_law_spread)
+                            lam=lam, coefficient=coefficient,
+                            power_law_spread=fine.power_law_spread,
+                            correction_power=fine.correction_power)
         u = extrap.values_at(radii)
         inside = (radii >= fine.r[0]) & (radii <= fine.r[-1])
         err = np.zeros_like(radii)
@@ -540,7 +572,8 @@ def build_wavefunction(level, grids: list[SampleGrid], orders: tuple[int, ...], 
             lower = _local_lower(u_grid, xi)
             err[inside] = err_grid[nearest] + np.abs(u[inside] - lower)
         below = (radii > 0) & (radii < fine.r[0])
-        err[below] = np.abs(u[below]) * fine.power_law_spread
+        err[below] = (coefficient_error + abs(coefficient) * fine.power_law_spread
+                      * (radii[below] / fine.r[fine.j]) ** fine.correction_power) * radii[below] ** lam
         weights = None
     R = np.zeros_like(u)
     R_err = np.zeros_like(u)
@@ -549,8 +582,11 @@ def build_wavefunction(level, grids: list[SampleGrid], orders: tuple[int, ...], 
     R_err[positive] = err[positive] / radii[positive]
     at_zero = radii == 0
     if at_zero.any() and abs(lam - 1.0) < 1e-12:
-        R[at_zero] = fine.coefficient  # u ~ C r: R(0) = C
-        R_err[at_zero] = fine.coefficient * fine.power_law_spread
+        if origin_R is not None:
+            R[at_zero], R_err[at_zero] = origin_R
+        else:
+            R[at_zero] = coefficient  # u ~ C r: R(0) = C
+            R_err[at_zero] = coefficient_error
     elif at_zero.any() and lam < 1.0:
         R[at_zero] = np.inf
     return Wavefunction(
