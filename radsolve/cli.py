@@ -322,6 +322,306 @@ def potentials_command(
             typer.echo(text if text.endswith("\n") else text + "\n", nl=False)
 
 
+# ---------------------------------------------------------------- sweeps, thresholds, fits
+
+
+class ReportFormat(str, Enum):
+    table = "table"
+    json = "json"
+
+
+@app.command("sweep")
+def sweep_command(
+    name: Annotated[str, typer.Argument(
+        metavar="NAME", help="potential family, e.g. yukawa (list: radsolve potentials)")],
+    vary: Annotated[list[str], typer.Option(
+        "--vary", "-v", metavar="KEY=START:STOP:NUM",
+        help="parameter to sweep: NUM values from START to STOP (units allowed, e.g. "
+             "screening_length=1angstrom:2nm:50), or KEY=V1,V2,...; repeat for a grid")],
+    log: Annotated[bool, typer.Option(
+        "--log", help="space START:STOP:NUM ranges geometrically")] = False,
+    param: Annotated[Optional[list[str]], typer.Option(
+        "-p", "--param", metavar="KEY=VALUE",
+        help="fixed potential parameter, repeatable (atomic units unless a unit is attached)")] = None,
+    l: Annotated[Optional[list[int]], typer.Option(
+        "--l", "-l", min=0, metavar="L",
+        help="orbital angular momentum, repeatable [default: 0]")] = None,
+    lmax: Annotated[Optional[int], typer.Option(
+        "--lmax", min=0, metavar="L", help="every l from 0 to L (not with --l)")] = None,
+    count: Annotated[int, typer.Option(
+        "--count", "-k", min=1, metavar="K",
+        help="the K lowest levels for each l; each has a row at every point, bound or not")] = 5,
+    mass: Annotated[str, typer.Option(
+        "--mass", "-m", metavar="M",
+        help="reduced mass: electron masses, or particles such as electron+proton")] = "1",
+    tol: Annotated[float, typer.Option(
+        "--tol", metavar="T",
+        help="target relative error of each energy (the solver accepts 1e-14 ... 0.1)")] = 1e-10,
+    method: Annotated[Method, typer.Option(
+        "--method", help="fd (finite differences), numerov (shooting) or both")] = Method.fd,
+    unit: Annotated[str, typer.Option(
+        "--unit", "-u", metavar="U", help=f"energy unit of the output: {ENERGY_UNITS_HELP}")
+    ] = "hartree",
+    out: Annotated[Optional[Path], typer.Option(
+        "--out", "-o", metavar="FILE",
+        help="write the rows to FILE.csv or FILE.json as they finish [default: CSV on stdout]")
+    ] = None,
+    plot: Annotated[Optional[Path], typer.Option(
+        "--plot", metavar="FILE.png", help="draw each level's energy against the swept parameter")
+    ] = None,
+    workers: Annotated[Optional[int], typer.Option(
+        "--workers", "-w", min=1, metavar="N",
+        help="local worker processes [default: every core]; 1 runs serially")] = None,
+    cluster: Annotated[Optional[str], typer.Option(
+        "--cluster", metavar="ADDRESS",
+        help="run on Dask: tcp://host:port of a running scheduler, or 'local' for a local "
+             "Dask cluster (needs radsolve[cluster])")] = None,
+    plugins: Annotated[Optional[list[Path]], typer.Option(
+        "--plugins", metavar="DIR", help=PLUGINS_HELP)] = None,
+) -> None:
+    """The K lowest levels of NAME for each l at every point of a parameter grid.
+
+    One row per (point, level): point index, the swept parameters (atomic
+    units), l, n, nodes, label, energy, error_estimate, converged, bound and
+    V(inf). A level that is not bound at a point keeps its row (bound false,
+    energy empty). Rows are written as points finish; Ctrl-C stops and keeps
+    the rows finished (exit 130). Exit 3 when some bound level did not
+    converge to --tol.
+    """
+    with _reported_errors():
+        import time
+
+        from radsolve.errors import InputError
+        from radsolve.registry import get_family
+        from radsolve.sweeps import SweepInterrupted, parse_vary, sweep
+        from radsolve.units import energy_unit_factor, parse_mass
+
+        params = parse_assignments(param)
+        ls = _l_values(l, lmax)
+        _check_tol(tol)
+        _with_option("--unit", energy_unit_factor, unit)
+        mu = _with_option("--mass", parse_mass, mass)
+        family = get_family(name, plugins=_plugin_dirs(plugins))
+        axes: dict = {}
+        for item in vary:
+            key, values = parse_vary(item, family, log)
+            if key in axes:
+                raise InputError(f"--vary: parameter {key!r} is given twice")
+            if key in params:
+                raise InputError(f"parameter {key!r} is given both with --vary and with -p; "
+                                 "a swept parameter takes its values from --vary only")
+            axes[key] = values
+        if out is not None and out.suffix.lower() not in (".csv", ".json"):
+            raise InputError(f"--out {str(out)!r}: the file name must end in .csv or .json")
+        if plot is not None:
+            _check_png(plot, "--plot")
+        started = time.monotonic()
+        try:
+            result = sweep(family.name, vary=axes, fixed=params, l=ls if len(ls) > 1 else ls[0],
+                           count=count, mass=mu, tol=tol, method=method.value,
+                           plugins=_plugin_dirs(plugins), workers=workers, cluster=cluster,
+                           out=out if out is not None else sys.stdout, unit=unit)
+        except SweepInterrupted as stop:
+            partial = stop.partial
+            where = f"in {out}" if out is not None else "on stdout"
+            raise _fail(f"interrupted: {partial.points_done} of {partial.points_total} points "
+                        f"finished; their rows are {where}", 130) from None
+        elapsed = time.monotonic() - started
+        if out is not None:
+            _say(f"wrote {len(result)} rows ({result.points_total} points x "
+                 f"{len(result.ls) * result.count} levels) to {out} in {elapsed:.1f} s")
+        if plot is not None:
+            from radsolve.sweep_plotting import plot_sweep
+
+            plot_sweep(result, plot, unit=unit)
+            _say(f"plot written to {plot}")
+        if result.unconverged:
+            _say(f"warning: {result.unconverged} bound level(s) did not converge to tol {tol:g} "
+                 "(converged = False in their rows)")
+            raise typer.Exit(EXIT_NOT_CONVERGED)
+
+
+def _check_png(path: Path, option: str) -> None:
+    from radsolve.errors import InputError
+
+    if path.suffix.lower() != ".png":
+        raise InputError(f"{option} {str(path)!r}: the file name must end in .png")
+    if not (path.parent if str(path.parent) else Path(".")).is_dir():
+        raise InputError(f"{option} {str(path)!r}: folder {str(path.parent)!r} does not exist")
+
+
+def _write_output(text: str, out: Optional[Path], what: str) -> None:
+    from radsolve.errors import InputError
+
+    if out is None:
+        typer.echo(text, nl=False)
+        return
+    if not (out.parent if str(out.parent) else Path(".")).is_dir():
+        raise InputError(f"--out {str(out)!r}: folder {str(out.parent)!r} does not exist")
+    try:
+        out.write_text(text, encoding="utf-8")
+    except OSError as exc:
+        raise InputError(f"--out {str(out)!r}: cannot write: {exc.strerror}") from None
+    _say(f"wrote {what} to {out}")
+
+
+@app.command("threshold")
+def threshold_command(
+    name: Annotated[str, typer.Argument(
+        metavar="NAME", help="potential family with a short-range tail, e.g. yukawa")],
+    vary: Annotated[str, typer.Option(
+        "--vary", "-v", metavar="KEY", help="the parameter whose critical value is wanted")],
+    level: Annotated[Optional[list[str]], typer.Option(
+        "--level", metavar="LABEL", help="level such as 1s or 2p; repeatable [default: 1s]")] = None,
+    nmax: Annotated[Optional[int], typer.Option(
+        "--nmax", min=1, max=30, metavar="N",
+        help="every level with n <= N (all l < n), instead of --level")] = None,
+    bracket: Annotated[Optional[str], typer.Option(
+        "--bracket", metavar="A:B",
+        help="values of KEY between which the level stops being bound (units allowed) "
+             "[default: searched outward from -p KEY=VALUE or the default]")] = None,
+    param: Annotated[Optional[list[str]], typer.Option(
+        "-p", "--param", metavar="KEY=VALUE", help="other potential parameters, repeatable")] = None,
+    mass: Annotated[str, typer.Option(
+        "--mass", "-m", metavar="M",
+        help="reduced mass: electron masses, or particles such as electron+proton")] = "1",
+    tol: Annotated[float, typer.Option(
+        "--tol", metavar="T", help="target relative error of the critical value")] = 1e-9,
+    fmt: Annotated[ReportFormat, typer.Option(
+        "--format", "-f", help="table for reading, json for programs")] = ReportFormat.table,
+    out: Annotated[Optional[Path], typer.Option(
+        "--out", "-o", metavar="FILE", help="write the output to FILE instead of stdout")] = None,
+    plugins: Annotated[Optional[list[Path]], typer.Option(
+        "--plugins", metavar="DIR", help=PLUGINS_HELP)] = None,
+) -> None:
+    """The value of parameter KEY at which a level of NAME reaches the continuum (E -> V(inf)).
+
+    Found from the zero-energy solution (its node count is the number of
+    bound levels), refined on finer grids and larger boxes; each value comes
+    with an error estimate. Potentials with a Coulomb (or longer) tail have
+    no threshold and are refused. Exit 3 when a value did not reach --tol.
+    """
+    with _reported_errors():
+        import json
+
+        from radsolve.errors import InputError
+        from radsolve.thresholds import format_thresholds, thresholds
+        from radsolve.units import parse_mass
+
+        params = parse_assignments(param)
+        if level and nmax is not None:
+            raise InputError("--level and --nmax: give one or the other")
+        mu = _with_option("--mass", parse_mass, mass)
+        if not 1e-13 <= tol <= 1e-2:  # NaN fails too
+            raise InputError(f"--tol {tol}: must be between 1e-13 and 0.01, e.g. 1e-9")
+        pair = None
+        if bracket is not None:
+            parts = [p.strip() for p in bracket.split(":")]
+            if len(parts) != 2 or not all(parts):
+                raise InputError(f"--bracket {bracket!r}: expected A:B, two values of {vary}, "
+                                 "e.g. --bracket 0.5:2")
+            pair = tuple(parts)
+        results = thresholds(name, vary, nmax=nmax or 1, bracket=pair, fixed=params, mass=mu,
+                             tol=tol, plugins=_plugin_dirs(plugins),
+                             levels=None if nmax is not None else (level or ["1s"]))
+        if fmt is ReportFormat.json:
+            text = json.dumps([r.to_dict() for r in results], indent=2, allow_nan=False) + "\n"
+        else:
+            text = format_thresholds(results)
+        _write_output(text, out, f"{len(results)} threshold(s)")
+        if any(not r.converged for r in results):
+            _say(f"warning: not converged to tol {tol:g}: "
+                 + ", ".join(r.label for r in results if not r.converged))
+            raise typer.Exit(EXIT_NOT_CONVERGED)
+
+
+@app.command("fit")
+def fit_command(
+    name: Annotated[str, typer.Argument(metavar="NAME", help="potential family to fit")],
+    targets: Annotated[Path, typer.Option(
+        "--targets", "-t", metavar="FILE.csv",
+        help="target levels: CSV with columns label, energy, uncertainty, unit")],
+    free: Annotated[list[str], typer.Option(
+        "--free", metavar="KEY[:LO:HI]",
+        help="parameter to fit, with optional bounds (units allowed; LO or HI may be empty); "
+             "its start value is -p KEY=VALUE or the default; repeatable")],
+    param: Annotated[Optional[list[str]], typer.Option(
+        "-p", "--param", metavar="KEY=VALUE",
+        help="fixed parameters, and start values of free ones; repeatable")] = None,
+    mass: Annotated[str, typer.Option(
+        "--mass", "-m", metavar="M",
+        help="reduced mass: electron masses, or particles such as electron+proton")] = "1",
+    tol: Annotated[float, typer.Option(
+        "--tol", metavar="T", help="relative accuracy of each computed energy")] = 1e-10,
+    method: Annotated[Method, typer.Option(
+        "--method", help="fd (finite differences), numerov (shooting) or both")] = Method.fd,
+    unit: Annotated[str, typer.Option(
+        "--unit", "-u", metavar="U", help=f"energy unit of the report: {ENERGY_UNITS_HELP}")
+    ] = "hartree",
+    fmt: Annotated[ReportFormat, typer.Option(
+        "--format", "-f", help="table for reading, json for programs")] = ReportFormat.table,
+    out: Annotated[Optional[Path], typer.Option(
+        "--out", "-o", metavar="FILE", help="write the report to FILE instead of stdout")] = None,
+    plot: Annotated[Optional[Path], typer.Option(
+        "--plot", metavar="FILE.png", help="draw computed against target levels, with residuals")
+    ] = None,
+    max_evaluations: Annotated[int, typer.Option(
+        "--max-evaluations", min=1, metavar="N", help="most spectra the optimizer may solve")] = 400,
+    plugins: Annotated[Optional[list[Path]], typer.Option(
+        "--plugins", metavar="DIR", help=PLUGINS_HELP)] = None,
+) -> None:
+    """Fit the --free parameters of NAME so that its levels match the --targets levels.
+
+    Weighted least squares on (computed - target)/uncertainty. Reports the
+    best values with standard errors from the Jacobian (uncertainties taken
+    as absolute; also scaled by sqrt(chi2/dof)), the correlation matrix,
+    chi2/dof, the residual of each level, and warns about levels bound below
+    the highest target that are not targets (possible spurious states).
+    Exit 3 when the fit did not succeed.
+    """
+    with _reported_errors():
+        import json
+
+        from radsolve.errors import InputError
+        from radsolve.fitting import fit, format_fit, parse_free, read_targets
+        from radsolve.units import energy_unit_factor, parse_mass
+
+        params = parse_assignments(param)
+        _check_tol(tol)
+        _with_option("--unit", energy_unit_factor, unit)
+        mu = _with_option("--mass", parse_mass, mass)
+        if plot is not None:
+            _check_png(plot, "--plot")
+        names, bounds = [], {}
+        for item in free:
+            key, pair = parse_free(item)
+            if key in names:
+                raise InputError(f"--free: parameter {key!r} is given twice")
+            names.append(key)
+            if pair is not None:
+                bounds[key] = pair
+        target_list = read_targets(targets)
+        result = fit(name, target_list, free=names, bounds=bounds, fixed=params, mass=mu, tol=tol,
+                     method=method.value, plugins=_plugin_dirs(plugins),
+                     max_evaluations=max_evaluations)
+        if fmt is ReportFormat.json:
+            text = json.dumps(result.to_dict(unit), indent=2, allow_nan=False) + "\n"
+        else:
+            text = format_fit(result, unit)
+        _write_output(text, out, "the fit report")
+        if plot is not None:
+            from radsolve.sweep_plotting import plot_fit
+
+            plot_fit(result, plot, unit=unit)
+            _say(f"plot written to {plot}")
+        if result.warnings and (out is not None or fmt is ReportFormat.json):
+            for warning in result.warnings:
+                _say(f"warning: {warning}")
+        if not result.success:
+            _say("warning: the fit did not succeed (see the warnings)")
+            raise typer.Exit(EXIT_NOT_CONVERGED)
+
+
 # ---------------------------------------------------------------- states and transitions
 
 
