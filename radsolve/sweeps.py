@@ -647,7 +647,7 @@ class _Progress:
         width = 24
         filled = int(width * done / max(self.total, 1))
         left = (self.total - done) / rate if rate > 0 else math.inf
-        eta = f"{left:.0f} s left" if math.isfinite(left) else "..."
+        eta = ("done" if done >= self.total else f"{max(left, 1.0):.0f} s left") if math.isfinite(left) else "..."
         self.stream.write(f"\r{self.what} [{'#' * filled}{'.' * (width - filled)}] "
                           f"{done}/{self.total} points, {rate:.3g}/s, {eta}   ")
         self.stream.flush()
@@ -736,8 +736,11 @@ def _dask_client(cluster, workers: int | None):
 
     if address == "local":
         n = workers if workers is not None else usable_cores()
+        # No dashboard, and the scheduler's small HTTP server on a free loopback
+        # port, so that a second cluster on this machine does not clash.
         local = distributed.LocalCluster(n_workers=n, threads_per_worker=1, processes=True,
                                          host="127.0.0.1", dashboard_address=None,
+                                         scheduler_kwargs={"dashboard_address": "127.0.0.1:0"},
                                          silence_logs=logging.ERROR)
         return distributed.Client(local), True, local
     if "://" not in address:
@@ -895,6 +898,7 @@ def _sweep_points(base, axes, l, count, mu, tol, method, workers, dask, out, uni
     keys = tuple(axes)
     family = base.family
     factor = _energy_factor(unit)
+    bar = _Progress(int(np.prod([len(axes[k]) for k in keys])), f"sweep {family.name}", progress)
     # The first point, solved here, checks l, count, tol and method with solve's
     # own messages before any worker starts.
     first_values = tuple(float(axes[k][0]) for k in keys)
@@ -923,7 +927,6 @@ def _sweep_points(base, axes, l, count, mu, tol, method, workers, dask, out, uni
     sink, stream = _open_sink(out, result.columns, unit)
     if sink is not None:
         sink.start(result)
-    bar = _Progress(total, f"sweep {family.name}", progress)
     waiting: dict[int, tuple] = {}
     state = {"next": 0}
 
