@@ -5,7 +5,12 @@ The public API (imported on first use, so that the command line starts fast):
 - :func:`potential` — a potential family bound to parameter values;
 - :func:`solve` — the bound levels, with error estimates (``method="fd" | "numerov" | "both"``);
 - :func:`check` — the convergence reporter against exact hydrogen-like levels;
-- :func:`families` — the potential families found (built-in and plug-ins).
+- :func:`families` — the potential families found (built-in and plug-ins);
+- :func:`sweep` — the levels over a grid of parameter values (serial, worker
+  processes or a Dask cluster);
+- :func:`threshold`, :func:`thresholds` — the parameter value at which a level
+  reaches the continuum, with an error estimate;
+- :func:`fit` — parameters fitted to target levels, with standard errors.
 
 All quantities are in atomic units (hartree, bohr, electron masses) unless a
 function says otherwise.
@@ -25,6 +30,10 @@ _EXPORTS = {
     "SolveResult": ("radsolve.result", "SolveResult"),
     "Level": ("radsolve.result", "Level"),
     "RadsolveError": ("radsolve.errors", "RadsolveError"),
+    "sweep": ("radsolve.sweeps", "sweep"),
+    "threshold": ("radsolve.thresholds", "threshold"),
+    "thresholds": ("radsolve.thresholds", "thresholds"),
+    "fit": ("radsolve.fitting", "fit"),
 }
 
 __all__ = sorted(_EXPORTS)
