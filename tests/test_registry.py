@@ -24,7 +24,8 @@ from radsolve.registry import (
 
 FIXTURES = Path(__file__).parent / "plugins_fixture"
 BOHR_M = physical_constants["Bohr radius"][0]
-BUILT_INS = {"coulomb", "yukawa", "finite_nucleus", "empty_core", "flat_core", "harmonic", "linear"}
+BUILT_INS = {"coulomb", "yukawa", "finite_nucleus", "empty_core", "flat_core", "harmonic", "linear",
+             "woods_saxon", "cornell", "rytova_keldysh", "alkali_model"}
 
 
 @pytest.fixture(autouse=True)
