@@ -57,6 +57,11 @@ class Method(str, Enum):
     both = "both"
 
 
+class UnitsChoice(str, Enum):
+    atomic = "atomic"
+    nuclear = "nuclear"
+
+
 class OutputFormat(str, Enum):
     table = "table"
     json = "json"
@@ -188,17 +193,50 @@ def levels_command(
         "--lmax", min=0, metavar="L", help="every l from 0 to L (not with --l)")] = None,
     count: Annotated[int, typer.Option(
         "--count", "-k", min=1, metavar="K", help="the K lowest levels for each l")] = 5,
-    mass: Annotated[str, typer.Option(
+    mass: Annotated[Optional[str], typer.Option(
         "--mass", "-m", metavar="M",
-        help="reduced mass: electron masses, or particles such as electron+proton")] = "1",
+        help="reduced mass: electron masses, or particles such as electron+proton; in nuclear "
+             "units MeV/c^2, u (207u) or particles (neutron, neutron+207u) [default: 1 in "
+             "atomic units; needed in nuclear units]")] = None,
     tol: Annotated[float, typer.Option(
         "--tol", metavar="T",
         help="target relative error of each energy (the solver accepts 1e-14 ... 0.1)")] = 1e-10,
     method: Annotated[Method, typer.Option(
         "--method", help="fd (finite differences), numerov (shooting) or both")] = Method.fd,
-    unit: Annotated[str, typer.Option(
-        "--unit", "-u", metavar="U", help=f"energy unit of the output: {ENERGY_UNITS_HELP}")
-    ] = "hartree",
+    unit: Annotated[Optional[str], typer.Option(
+        "--unit", "-u", metavar="U", help=f"energy unit of the output: {ENERGY_UNITS_HELP} "
+                                          "[default: hartree, or MeV in nuclear units]")
+    ] = None,
+    units: Annotated[Optional[UnitsChoice], typer.Option(
+        "--units", help="unit system: atomic (hartree, bohr, electron masses) or nuclear "
+                        "(MeV, fm, MeV/c^2) [default: the potential's own]")] = None,
+    spin_orbit: Annotated[bool, typer.Option(
+        "--spin-orbit", help="split each l > 0 into j = l -+ 1/2 with the potential's "
+                             "spin-orbit term")] = False,
+    dimension: Annotated[int, typer.Option(
+        "--dimension", "-d", metavar="D",
+        help="space dimension D >= 2 (centrifugal term with l -> l + (D-3)/2)")] = 3,
+    expr: Annotated[Optional[str], typer.Option(
+        "--expr", metavar="EXPR",
+        help="with NAME 'formula': V(r) as an expression in r and parameters, e.g. "
+             "'-Z*exp(-r/D)/r' with -p Z=1 -p D=10")] = None,
+    table_file: Annotated[Optional[Path], typer.Option(
+        "--file", metavar="FILE",
+        help="with NAME 'table': text/CSV file of r, V lines, interpolated by a cubic spline")
+    ] = None,
+    r_unit: Annotated[Optional[str], typer.Option(
+        "--r-unit", metavar="U", help="length unit of the table's r [default: bohr or fm]")] = None,
+    v_unit: Annotated[Optional[str], typer.Option(
+        "--v-unit", metavar="U", help="energy unit of the table's V [default: hartree or MeV]")
+    ] = None,
+    beyond: Annotated[str, typer.Option(
+        "--beyond", metavar="RULE",
+        help="V beyond the table's last r: constant, zero or coulomb:Z (-Z/r)")] = "constant",
+    inside: Annotated[str, typer.Option(
+        "--inside", metavar="RULE",
+        help="V inside the table's first r: constant or coulomb:Z")] = "constant",
+    spline: Annotated[int, typer.Option(
+        "--spline", metavar="K", help="degree of the table's spline: 3 or 5")] = 3,
     fmt: Annotated[OutputFormat, typer.Option(
         "--format", "-f", help="table for reading, json or csv for programs")
     ] = OutputFormat.table,
@@ -221,29 +259,44 @@ def levels_command(
         params = parse_assignments(param)
         ls = _l_values(l, lmax)
         _check_tol(tol)
-        from radsolve.units import energy_unit_factor, parse_mass
+        if dimension < 2:
+            raise InputError(f"--dimension {dimension}: the radial problem needs a dimension D >= 2")
+        from radsolve.units import energy_unit_factor, unit_system
 
-        _with_option("--unit", energy_unit_factor, unit)
-        mu = _with_option("--mass", parse_mass, mass)
+        if unit is not None:
+            _with_option("--unit", energy_unit_factor, unit)
         if out is not None and not (out.parent if str(out.parent) else Path(".")).is_dir():
             raise InputError(f"--out {str(out)!r}: folder {str(out.parent)!r} does not exist")
 
-        from radsolve.registry import potential
-
-        pot = potential(name, plugins=_plugin_dirs(plugins), **params)
+        pot = _levels_potential(name, params, plugins, units, expr, table_file, r_unit, v_unit,
+                                beyond, inside, spline)
+        if units is not None and units.value != pot.family.units:
+            raise InputError(f"--units {units.value}: potential {pot.name!r} is written in "
+                             f"{pot.family.units} units; allowed for it: {pot.family.units}")
+        system = unit_system(pot.family.units)
+        if mass is None and system.name != "atomic":
+            raise InputError(f"--mass is needed in {system.name} units ({system.mass_unit}, u or "
+                             "particles), e.g. --mass neutron or --mass 939.57")
+        mu = _with_option("--mass", system.parse_mass, "1" if mass is None else mass)
 
         from radsolve.report import render
         from radsolve.spectrum import solve
 
         try:
             result = solve(pot, l=ls if len(ls) > 1 else ls[0], count=count, mass=mu,
-                           tol=tol, method=method.value)
+                           tol=tol, method=method.value, spin_orbit=spin_orbit,
+                           dimension=dimension, units=None if units is None else units.value)
         except RadsolveError as exc:
             message = str(exc)
             if isinstance(exc, InputError):
                 # About an option: "tol must be ..." -> "--tol must be ..."
-                if message.split(" ", 1)[0].rstrip(":") in ("l", "count", "tol", "mass"):
+                first = message.split(" ", 1)[0].rstrip(":")
+                if first in ("l", "count", "tol", "mass", "dimension"):
                     raise InputError("--" + message) from None
+                if first == "spin_orbit":
+                    raise InputError("--spin-orbit" + message[len("spin_orbit"):]) from None
+                if "unit system" in message:
+                    raise InputError(f"--units: {message}") from None
                 raise
             if repr(pot.name) in message:
                 raise
@@ -269,6 +322,46 @@ def levels_command(
             _say(f"warning: {len(unconverged)} level(s) did not converge to tol {tol:g}: "
                  + ", ".join(unconverged))
             raise typer.Exit(EXIT_NOT_CONVERGED)
+
+
+def _levels_potential(name, params, plugins, units, expr, table_file, r_unit, v_unit,
+                      beyond, inside, spline):
+    """The potential of ``radsolve levels``: a family, a formula (--expr) or a table (--file)."""
+    from radsolve.errors import InputError
+
+    system = None if units is None else units.value
+    kind = name.strip().lower()
+    table_options = {"--r-unit": r_unit, "--v-unit": v_unit}
+    if kind == "formula":
+        if expr is None:
+            raise InputError("NAME 'formula' needs --expr, e.g. --expr '-Z*exp(-r/D)/r' -p Z=1 -p D=10")
+        if table_file is not None:
+            raise InputError("--file belongs to NAME 'table', not 'formula'")
+        from radsolve.formula import formula_potential
+
+        return formula_potential(expr, units=system or "atomic", **params)
+    if expr is not None:
+        raise InputError(f"--expr is for NAME 'formula' (got NAME {name!r}); "
+                         "e.g. radsolve levels formula --expr '-Z/r' -p Z=1")
+    if kind == "table":
+        if table_file is None:
+            raise InputError("NAME 'table' needs --file FILE (lines of r, V)")
+        if params:
+            raise InputError(f"a table has no parameters; drop -p {', '.join(params)}")
+        from radsolve.tabulated import tabulated_potential
+
+        return tabulated_potential(table_file, r_unit=r_unit, v_unit=v_unit, units=system or "atomic",
+                                   beyond=beyond, inside=inside, spline_degree=spline)
+    given = [opt for opt, value in table_options.items() if value is not None]
+    given += ["--file"] if table_file is not None else []
+    given += [f"--{opt}" for opt, value, default in (("beyond", beyond, "constant"),
+                                                     ("inside", inside, "constant"),
+                                                     ("spline", spline, 3)) if value != default]
+    if given:
+        raise InputError(f"{', '.join(given)}: only for NAME 'table' (got NAME {name!r})")
+    from radsolve.registry import potential
+
+    return potential(name, plugins=_plugin_dirs(plugins), **params)
 
 
 @app.command("check")

@@ -23,6 +23,8 @@ TABLE_WIDTH = 80
 
 #: Fields of one level in JSON and CSV, in order.
 LEVEL_FIELDS = ("n", "l", "nodes", "label", "energy", "error_estimate", "converged")
+#: Extra fields when levels are split by spin-orbit coupling.
+J_FIELDS = ("j", "degeneracy")
 #: Extra fields when the exact energy is known (pure Coulomb and the like).
 EXACT_FIELDS = ("exact", "deviation")
 
@@ -73,15 +75,34 @@ def _value_text(x: Any) -> str:
         return str(x)
 
 
-def _unit_factor(unit: str) -> float:
-    from .units import energy_unit_factor
+def _unit_factor(unit: str, result: Any = None) -> float:
+    """Stored energy units per ``unit``: hartree per unit, or MeV per unit for a nuclear result."""
+    from .units import energy_unit_factor, unit_system
 
-    return energy_unit_factor(unit)
+    factor = energy_unit_factor(unit)
+    system = getattr(result, "units", "atomic")
+    return factor if system == "atomic" else factor / unit_system(system).energy_factor()
+
+
+def _system_of(result):
+    from .units import unit_system
+
+    return unit_system(getattr(result, "units", "atomic"))
+
+
+def _output_unit(result, unit: str | None) -> str:
+    """``unit``, or the result's own energy unit (hartree or MeV) when None."""
+    return _system_of(result).energy_unit if unit is None else unit
+
+
+def _j_text(j: float | None) -> str:
+    """j as a fraction: 0.5 -> "1/2"."""
+    return "" if j is None else f"{int(round(2 * j))}/2"
 
 
 def _level_rows(result, unit: str) -> tuple[list[dict[str, Any]], bool]:
     """Plain per-level dicts in ``unit`` and whether exact values are present."""
-    factor = _unit_factor(unit)
+    factor = _unit_factor(unit, result)
     rows = [lev.to_dict(factor) for lev in result.levels]
     has_exact = any(lev.exact is not None for lev in result.levels)
     return rows, has_exact
@@ -116,27 +137,33 @@ def _wrap(text: str, indent: str = "  ") -> list[str]:
 # ---------------------------------------------------------------- levels
 
 
-def levels_table(result, unit: str = "hartree") -> str:
+def levels_table(result, unit: str | None = None) -> str:
     """Text table of the levels of ``result`` with energies in ``unit``.
 
     Parameters
     ----------
     result : SolveResult
         What :func:`radsolve.solve` returned (energies in hartree).
-    unit : str
-        Energy unit of the table (see :func:`radsolve.units.energy_unit_factor`).
+    unit : str, optional
+        Energy unit of the table (see :func:`radsolve.units.energy_unit_factor`);
+        by default the result's own (hartree, or MeV in nuclear units).
 
     Returns
     -------
     str
-        Header lines (potential, its parameters in atomic units, reduced mass,
-        unit, method, tolerance), one row per level (label, n, l, nodes,
-        energy, estimated absolute error, whether it converged, and when the
-        exact energy is known the exact value and the deviation from it),
-        and the solver's message.  At most 80 columns for ordinary labels.
+        Header lines (potential, its parameters in the result's unit system,
+        reduced mass, unit, method, tolerance, the dimension when it is not
+        3), one row per level (label, n, l, j and the degeneracy 2j+1 when
+        spin-orbit split, nodes, energy, estimated absolute error, whether it
+        converged, and when the exact energy is known the exact value and the
+        deviation from it), and the solver's message.  At most 80 columns for
+        ordinary labels.
     """
+    unit = _output_unit(result, unit)
+    system = _system_of(result)
     rows, has_exact = _level_rows(result, unit)
-    factor = _unit_factor(unit)
+    has_j = any(getattr(lev, "j", None) is not None for lev in result.levels)
+    factor = _unit_factor(unit, result)
     pot = result.potential
     specs = getattr(getattr(pot, "family", None), "parameters", {})
     params = []
@@ -144,9 +171,13 @@ def levels_table(result, unit: str = "hartree") -> str:
         p_unit = getattr(specs.get(key), "unit", "") if isinstance(value, (int, float)) else ""
         params.append(f"{key} = {_value_text(value)}" + (f" {p_unit}" if p_unit else ""))
     lines = _wrap(f"potential {pot.name}" + (": " + ", ".join(params) if params else "")
-                  + "  (atomic units)")
-    settings = (f"reduced mass {result.mass:.10g} electron masses | energies in {unit} | "
+                  + f"  ({system.name} units)")
+    if getattr(getattr(pot, "family", None), "origin", "") == "program":
+        lines += _wrap(pot.family.description)  # a formula or a table: say which
+    settings = (f"reduced mass {result.mass:.10g} {system.mass_unit} | energies in {unit} | "
                 f"method {result.method} | tol {result.tol:.1e}")
+    if getattr(result, "dimension", 3) != 3:
+        settings += f" | dimension {result.dimension}"
     v_inf = getattr(result, "v_infinity", 0.0)
     if v_inf is not None and math.isfinite(v_inf) and v_inf != 0.0:
         settings += f" | V(r->inf) = {_energy_text(v_inf / factor)} {unit}"
@@ -158,14 +189,19 @@ def levels_table(result, unit: str = "hartree") -> str:
     else:
         header = ["level", "n", "l", "nodes", f"energy/{unit}", "est.err", "conv"]
         right = {1, 2, 3, 4, 5}
+        if has_j:
+            header[3:3] = ["j", "2j+1"]
+            right = {1, 2, 3, 4, 5, 6, 7}
         if has_exact:
             header += ["exact", "deviation"]
-            right |= {7, 8}
+            right |= {len(header) - 2, len(header) - 1}
         table = []
-        for d in rows:
+        for lev, d in zip(result.levels, rows):
             cells = [d["label"], str(d["n"]), str(d["l"]), str(d["nodes"]),
                      _energy_text(d["energy"]), _small_text(d["error_estimate"]),
                      "yes" if d["converged"] else "NO"]
+            if has_j:
+                cells[3:3] = [_j_text(getattr(lev, "j", None)), str(getattr(lev, "degeneracy", ""))]
             if has_exact:
                 cells += [_energy_text(d.get("exact")), _small_text(d.get("deviation"), True)]
             table.append(cells)
@@ -181,7 +217,7 @@ def levels_table(result, unit: str = "hartree") -> str:
     return "\n".join(lines) + "\n"
 
 
-def levels_json(result, unit: str = "hartree") -> str:
+def levels_json(result, unit: str | None = None) -> str:
     """One JSON document describing ``result``, energies in ``unit``.
 
     Keys: ``potential``, ``parameters`` (atomic units), ``mass`` (electron
@@ -191,11 +227,11 @@ def levels_json(result, unit: str = "hartree") -> str:
     keys of :meth:`SolveResult.to_dict` (``method``, ``tol``, ``success``,
     ``message``).  Non-finite numbers become ``null``.
     """
-    doc = _plain(result.to_dict(unit))
+    doc = _plain(result.to_dict(_output_unit(result, unit)))
     return json.dumps(doc, indent=2, allow_nan=False) + "\n"
 
 
-def levels_csv(result, unit: str = "hartree") -> str:
+def levels_csv(result, unit: str | None = None) -> str:
     """CSV text: a header row, then one row per level, energies in ``unit``.
 
     Columns are those of a level in :func:`levels_json` (``exact`` and
@@ -204,8 +240,11 @@ def levels_csv(result, unit: str = "hartree") -> str:
     Floats are written with every digit (``repr``); non-finite ones as an
     empty cell.
     """
+    unit = _output_unit(result, unit)
     rows, has_exact = _level_rows(result, unit)
-    fields = list(LEVEL_FIELDS) + (list(EXACT_FIELDS) if has_exact else []) + ["unit"]
+    has_j = any(getattr(lev, "j", None) is not None for lev in result.levels)
+    fields = (list(LEVEL_FIELDS) + (list(J_FIELDS) if has_j else [])
+              + (list(EXACT_FIELDS) if has_exact else []) + ["unit"])
     buf = io.StringIO()
     writer = csv.writer(buf, lineterminator="\n")
     writer.writerow(fields)
@@ -222,8 +261,8 @@ def levels_csv(result, unit: str = "hartree") -> str:
 RENDERERS = {"table": levels_table, "json": levels_json, "csv": levels_csv}
 
 
-def render(result, unit: str = "hartree", fmt: str = "table") -> str:
-    """``result`` in format ``fmt`` (``"table"``, ``"json"`` or ``"csv"``)."""
+def render(result, unit: str | None = None, fmt: str = "table") -> str:
+    """``result`` in format ``fmt`` (``"table"``, ``"json"`` or ``"csv"``); ``unit`` None: the result's own."""
     from .errors import InputError
 
     try:
