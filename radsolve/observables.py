@@ -47,6 +47,8 @@ OBSERVABLE_TOL_FACTOR = 100.0
 # -3..3 (0 omitted) and of the fourth-order one on -2..2 (common practice).
 _D7 = {-3: -1 / 60, -2: 9 / 60, -1: -45 / 60, 1: 45 / 60, 2: -9 / 60, 3: 1 / 60}
 _D5 = {-2: 1 / 12, -1: -8 / 12, 1: 8 / 12, 2: -1 / 12}
+# One-sided sixth-order first-derivative weights on offsets 0..6 (common practice).
+_ONE_SIDED = (-49 / 20, 6.0, -15 / 2, 20 / 3, -15 / 4, 6 / 5, -1 / 6)
 
 
 @dataclass(frozen=True)
@@ -308,18 +310,20 @@ class State:
         return float(np.sum(np.abs(terms[near_wall])))
 
     def _integral(self, integrand: Callable[[SampleGrid, int], np.ndarray], beta: float | None,
-                  unit: str) -> Estimate:
+                  unit: str, point_terms: Callable[[SampleGrid], float] | None = None) -> Estimate:
         """Integral of ``integrand(grid, index)`` (values at the points, to be weighted) dr.
 
         ``beta``: the integrand times dr/dx grows like e**(beta x) as r -> 0
         (the origin power law); the sum is continued below the grid on it.
+        ``point_terms(grid)``: delta-function contributions added on each grid.
         """
         totals, scale = [], 0.0
         origin_uncertainty = box = 0.0
         for index, g in enumerate(self.grids):
             terms = g.weights * integrand(g, index)
             tail = g.geometric_tail(float(terms[0]), beta) if beta is not None else 0.0
-            totals.append(float(np.sum(terms) + tail))
+            extra = point_terms(g) if point_terms is not None else 0.0
+            totals.append(float(np.sum(terms) + tail + extra))
             if index == len(self.grids) - 1:
                 scale = float(np.sum(np.abs(terms)) + abs(tail))
                 origin = abs(float(np.sum(terms[: g.j])) + tail)
@@ -492,21 +496,23 @@ class State:
         Parameters
         ----------
         method : {"auto", "sum_rule", "fit"}
-            ``"sum_rule"``: for an s state R(0)² = 2μ⟨dV/dr⟩ (textbook
-            relation, from the radial equation), an integral that converges
-            like the other expectation values; it needs a smooth V.
+            ``"sum_rule"`` (and ``"auto"``): for an s state R(0)² = 2μ⟨dV/dr⟩
+            (textbook relation, from the radial equation), an integral that
+            converges like the other expectation values; a jump ΔV of V at a
+            breakpoint b adds ΔV u(b)².
             ``"fit"``: the r -> 0 limit of u/r from polynomial fits (degrees
-            4 and 5, their difference added to the estimate) to u/r where it
-            differs from its innermost reliable value by less than 5 %;
-            limited to about 1e-8 relative by the solver's pointwise error
-            near the origin.  ``"auto"``: the sum rule unless V has
-            breakpoints.
+            4 and 5) to u/r where it differs from its innermost reliable
+            value by less than 5 % and 1 % (and below the first breakpoint);
+            twice the spread of the four fits is added to the estimate.  Limited to
+            about 1e-8 relative by the solver's pointwise error near the
+            origin, and poor for potentials with structure at small r: a
+            cross-check, not the default.
 
         Raises
         ------
         InputError
-            When the density diverges (u ~ r**lambda with lambda < 1), for an
-            unknown method, or the sum rule for a potential with breakpoints.
+            When the density diverges (u ~ r**lambda with lambda < 1), or for
+            an unknown method.
         """
         if method not in ("auto", "sum_rule", "fit"):
             raise InputError(f"unknown contact-density method {method!r}; allowed: auto, sum_rule, fit")
@@ -516,31 +522,36 @@ class State:
                 raise InputError(f"the contact density diverges for the {self.label} level: "
                                  f"u ~ r^{lam:g} at the origin, so |psi(0)|^2 is infinite")
             return Estimate(0.0, 0.0, "bohr^-3", None, True)
-        if method == "sum_rule" or (method == "auto" and not self.profile.breakpoints):
-            if self.profile.breakpoints:
-                raise InputError("the contact-density sum rule needs a smooth V; this potential "
-                                 "has breakpoints: use method='fit'")
+        if method in ("sum_rule", "auto"):
             c, p = self.profile.small_r_coefficient, self.profile.small_r_power
             k = min(p - 1.0, 0.0) if (c != 0.0 and p != 0.0) else 0.0
             slope = self._integral(lambda g, i: g.u**2 * self._r_dv_dr_grid(i) / g.r,
-                                   self._moment_beta(k), "hartree/bohr")
+                                   self._moment_beta(k), "hartree/bohr",
+                                   lambda g: self._jump_terms(g, 0.0))
             factor = self.mass / (2.0 * math.pi)
             converged = slope.converged
             return Estimate(factor * slope.value, factor * slope.error, "bohr^-3", slope.order, converged)
         values, fit_spread = [], 0.0
         P = np.polynomial.Polynomial
         for g in self.grids:
-            R = g.u / g.r
+            R_all = g.u / g.r
             j = g.j
-            stop = j + int(np.argmax(np.abs(R[j:] / R[j] - 1.0) > 0.05))
-            r, R = g.r[j:stop], R[j:stop]
-            if r.size < 12:
+            fits = []
+            for change in (0.05, 0.01):
+                stop = j + int(np.argmax(np.abs(R_all[j:] / R_all[j] - 1.0) > change))
+                if self.profile.breakpoints:  # u/r is smooth only inside the first one
+                    stop = min(stop, int(np.searchsorted(g.r, self.profile.breakpoints[0] * (1 - 1e-12))))
+                r, R = g.r[j:stop], R_all[j:stop]
+                if r.size < 12:
+                    continue
+                # weights r: the solver's absolute noise in u is a relative noise ~1/r in u/r
+                fits += [float(P.fit(r, R, deg, w=r / r[-1])(0.0)) for deg in (4, 5)]
+            if not fits:
                 raise InputError(f"too few grid points near the origin to extrapolate R(0) "
-                                 f"for the {self.label} level")
-            # weights r: the solver's absolute noise in u is a relative noise ~1/r in u/r
-            r0 = [float(P.fit(r, R, deg, w=r / r[-1])(0.0)) for deg in (4, 5)]
-            values.append(r0[1])
-            fit_spread = abs(r0[1] - r0[0])
+                                 f"for the {self.label} level; use method='sum_rule'")
+            values.append(fits[1] if len(fits) > 1 else fits[0])
+            # the spread over fit degrees and windows (doubled) gauges the fit's own error
+            fit_spread = 2.0 * (max(fits) - min(fits))
         r0 = self._extrapolate(values, "bohr^-3/2", abs(values[-1]), fit_spread)
         density = r0.value**2 / (4.0 * math.pi)
         error = 2.0 * abs(r0.value) * r0.error / (4.0 * math.pi)
@@ -570,26 +581,63 @@ class State:
         return self._values_cache[key]
 
     def _r_dv_dr(self, r: np.ndarray, delta: float = 2e-3) -> np.ndarray:
-        """r dV/dr = dV/d(ln r), sixth-order central difference in ln r."""
+        """r dV/dr = dV/d(ln r), sixth-order central difference in ln r.
+
+        Within 3.5 delta of a breakpoint the difference is one-sided (sixth
+        order, from the side the point lies on; the mean of both at the
+        breakpoint itself), so that a kink or a jump of V does not leak into
+        it; a jump's delta function is added separately (:meth:`_jump_terms`).
+        """
         total = np.zeros_like(r)
         for m, w in _D7.items():
             total += w * self.channel(r * math.exp(m * delta))
-        return total / delta
+        total /= delta
+        for b in self.profile.breakpoints:
+            distance = np.log(r / b)
+            near = np.abs(distance) < 3.5 * delta
+            if not near.any():
+                continue
+            rn, dn = r[near], distance[near]
+            # base points nudged off b, so that V(b) on the correct side is used
+            up, down = rn * (1 + 1e-12), rn * (1 - 1e-12)
+            forward = sum(c * self.channel(up * math.exp(k * delta)) for k, c in enumerate(_ONE_SIDED))
+            backward = -sum(c * self.channel(down * math.exp(-k * delta)) for k, c in enumerate(_ONE_SIDED))
+            on = np.abs(dn) <= 1e-12
+            side = np.where(dn > 0, forward, backward)
+            side = np.where(on, 0.5 * (forward + backward), side)
+            total[near] = side / delta
+        return total
+
+    def _jumps(self) -> list[tuple[float, float]]:
+        """(b, V(b+) - V(b-)) for each breakpoint where V itself jumps."""
+        if "jumps" not in self.__dict__:
+            found = []
+            for b in self.profile.breakpoints:
+                left, right = self.channel(np.array([b * (1 - 1e-12), b * (1 + 1e-12)]))
+                if abs(right - left) > 1e-9 * max(abs(left), abs(right), 1e-300):
+                    found.append((float(b), float(right - left)))
+            self.__dict__["jumps"] = found
+        return self.__dict__["jumps"]
+
+    def _jump_terms(self, g: SampleGrid, power: float) -> float:
+        """Sum over jumps of ΔV b**power u(b)**2: the delta-function part of ⟨r**power dV/dr⟩."""
+        total = 0.0
+        for b, jump in self._jumps():
+            if g.r[0] < b < g.r[-1]:
+                total += jump * b**power * float(g.values_at(np.array([b]))[0]) ** 2
+        return total
 
     def virial(self) -> VirialCheck:
-        """Virial ratio 2⟨T⟩/(k⟨V⟩) for V = c r**k, or 2⟨T⟩/⟨r dV/dr⟩ for any smooth V.
+        """Virial ratio 2⟨T⟩/(k⟨V⟩) for V = c r**k, or 2⟨T⟩/⟨r dV/dr⟩ for any V.
 
-        The general form (textbook virial theorem for a bound state) needs V
-        to be smooth: it is not available for a potential with breakpoints.
+        The general form is the textbook virial theorem for a bound state; at
+        a jump ΔV of V at radius b, r dV/dr has the delta-function part
+        b ΔV δ(r - b), which adds b ΔV u(b)².
         """
         k = self._power_law()
         beta_t = 2.0 * self.origin_exponent - 1.0
         if beta_t <= 0:
             return VirialCheck(False, reason="<T> diverges (u ~ r^1/2 at the origin)")
-        if k is None and self.profile.breakpoints:
-            return VirialCheck(False, reason="V is not smooth (breakpoints at "
-                               + ", ".join(f"{b:.6g}" for b in self.profile.breakpoints)
-                               + " bohr), so <r dV/dr> has delta-function parts")
         beta_v = self._moment_beta(self._v_power())
         ratios, scale = [], 1.0
         for index, g in enumerate(self.grids):
@@ -600,6 +648,8 @@ class State:
             else:
                 v_terms = g.weights * g.u**2 * self._r_dv_dr_grid(index)
             v = np.sum(v_terms) + g.geometric_tail(float(v_terms[0]), beta_v)
+            if k is None:
+                v += self._jump_terms(g, 1.0)
             if v == 0:
                 return VirialCheck(False, reason="<r dV/dr> vanishes")
             ratios.append(float(2.0 * t / v))
@@ -721,7 +771,7 @@ class State:
         """u(r), R(r) on the finest solver grid or at radii ``r`` (bohr); see
         :func:`radsolve.wavefunctions.build_wavefunction`."""
         origin = None
-        if abs(self.origin_exponent - 1) < 1e-12 and not self.profile.breakpoints:
+        if abs(self.origin_exponent - 1) < 1e-12:
             density = self.contact_density("sum_rule")
             value = math.sqrt(4.0 * math.pi * density.value)
             origin = (value, 2.0 * math.pi * density.error / value if value else math.inf)

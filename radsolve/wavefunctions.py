@@ -161,13 +161,16 @@ class SampleGrid:
     lam : float
         Origin exponent lambda of u ~ C r**lambda.
     coefficient : float
-        C, bohr**(-1/2 - lambda).
+        C in u = C r**lambda (1 + a r**q) near the origin, bohr**(-1/2 - lambda).
     power_law_spread : float
-        Estimated relative deviation of u from the pure power law at r[j]
-        (from the change of C between r[j] and the radius where |u| reaches
-        100 times that fraction, see :func:`prepare`).
+        Estimated relative error of that two-term law at r[j] (the square of
+        its correction term there, doubled), where it is largest.
     correction_power : float
-        q: that deviation grows like r**q.
+        q (1 for a Coulomb-like V ~ 1/r, p + 2 for V ~ r**p, within [0.25, 1]).
+    correction : float
+        a, bohr**-q, from matching the law to u at r[j] and at the radius
+        ``r[j2]`` where |u| reaches 100 times the fraction of r[j].
+    j2 : int
     """
 
     sample: Any
@@ -179,6 +182,13 @@ class SampleGrid:
     coefficient: float
     power_law_spread: float
     correction_power: float = 1.0
+    correction: float = 0.0
+    j2: int = 0
+
+    def origin_law(self, radius) -> np.ndarray:
+        """C r**lambda (1 + a r**q) at radii near (or below) r[j]."""
+        radius = np.asarray(radius, dtype=float)
+        return self.coefficient * radius**self.lam * (1.0 + self.correction * radius**self.correction_power)
 
     @property
     def r(self) -> np.ndarray:
@@ -230,7 +240,7 @@ class SampleGrid:
         below = (radius > 0) & (radius < self.r[0])
         if inside.any():
             out[inside] = _local(self.u, self.index_of(radius[inside]))
-        out[below] = self.coefficient * radius[below] ** self.lam
+        out[below] = self.origin_law(radius[below])
         return out
 
 
@@ -249,9 +259,8 @@ def prepare(sample, lam: float, correction_power: float = 1.0) -> SampleGrid:
     """A :class:`SampleGrid` for one GridSample and origin exponent ``lam``.
 
     ``correction_power`` q: the relative correction to u ~ C r**lambda grows
-    like r**q (q = 1 for a Coulomb-like V ~ r**-1, p + 2 for V ~ r**p); the
-    change of C measured between r_j and r_j2 is scaled by (r_j/r_j2)**q to
-    give the deviation at r_j itself.
+    like r**q (q = 1 for a Coulomb-like V ~ r**-1, p + 2 for V ~ r**p); below
+    r[j] u is replaced by C r**lambda (1 + a r**q) (see :func:`origin_fit`).
     """
     r = sample.r
     scale = _mapping_scale(sample)
@@ -269,17 +278,38 @@ def prepare(sample, lam: float, correction_power: float = 1.0) -> SampleGrid:
         u = -u
     above = np.abs(u) >= ORIGIN_FRACTION * peak
     j = int(np.argmax(above))
-    j2 = int(np.argmax(np.abs(u) >= 100.0 * ORIGIN_FRACTION * peak))
-    coefficient = float(u[j] / r[j] ** lam)
-    check = float(u[j2] / r[j2] ** lam)
-    spread = abs(coefficient / check - 1.0) if check != 0 else 1.0
-    if j2 > j:
-        spread *= (r[j] / r[j2]) ** min(max(correction_power, 0.25), 1.0)
+    j2 = max(int(np.argmax(np.abs(u) >= 100.0 * ORIGIN_FRACTION * peak)), j)
+    q = float(min(max(correction_power, 0.25), 1.0))
+    coefficient, correction, spread = origin_fit(r, u, j, j2, lam, q)
+    grid = SampleGrid(sample=sample, x=x, scale=scale, u=u, j=j, lam=float(lam),
+                      coefficient=coefficient, power_law_spread=spread, correction_power=q,
+                      correction=correction, j2=j2)
     if j > 0:
-        u[:j] = coefficient * r[:j] ** lam
-    return SampleGrid(sample=sample, x=x, scale=scale, u=u, j=j, lam=float(lam),
-                      coefficient=coefficient, power_law_spread=float(min(spread, 1.0)),
-                      correction_power=float(min(max(correction_power, 0.25), 1.0)))
+        u[:j] = grid.origin_law(r[:j])
+    return grid
+
+
+def origin_fit(r, u, j: int, j2: int, lam: float, q: float, coefficient: float | None = None):
+    """(C, a, spread) of u = C r**lam (1 + a r**q) matched at r[j] and r[j2].
+
+    With ``coefficient`` given (C known, e.g. R(0) from a sum rule), a comes
+    from r[j] alone.  ``spread``: 2 (a r[j]**q)**2, the size of the neglected
+    next term relative to u at r[j].
+    """
+    c1 = float(u[j] / r[j] ** lam)
+    if coefficient is not None:
+        a = (c1 / coefficient - 1.0) / r[j] ** q if coefficient else 0.0
+        C = float(coefficient)
+    elif j2 > j and c1 != 0.0:
+        c2 = float(u[j2] / r[j2] ** lam)
+        rho = c2 / c1
+        denominator = r[j2] ** q - rho * r[j] ** q
+        a = (rho - 1.0) / denominator if denominator else 0.0
+        C = c1 / (1.0 + a * r[j] ** q)
+    else:
+        a, C = 0.0, c1
+    term = abs(a) * r[j] ** q
+    return float(C), float(a), float(min(2.0 * term * term + 1e-300, 1.0))
 
 
 def prepared_samples(level, lam: float, correction_power: float = 1.0) -> list[SampleGrid]:
@@ -538,30 +568,34 @@ def build_wavefunction(level, grids: list[SampleGrid], orders: tuple[int, ...], 
     fine = grids[-1]
     u_grid, err_grid = _extrapolated_u(grids, orders)
     lam = fine.lam
-    # the origin power law of the extrapolated u, and its uncertainty
-    r_j = fine.r[fine.j] ** lam
-    coefficient = float(u_grid[fine.j] / r_j)
-    coefficient_error = float(err_grid[fine.j] / r_j) + abs(coefficient) * fine.power_law_spread
-    if origin_R is not None and abs(lam - 1.0) < 1e-12:
-        coefficient, coefficient_error = origin_R  # u ~ R(0) r for an s state
-    # below r_j the samples carry the power law: its own uncertainty applies there
-    u_grid = u_grid.copy()
-    u_grid[: fine.j] = coefficient * fine.r[: fine.j] ** lam
-    err_grid = err_grid.copy()
-    # (the pure power law neglects the relative correction, at most the spread at r_j)
+    # the origin law of the extrapolated u, and its uncertainty
+    given = origin_R[0] if (origin_R is not None and abs(lam - 1.0) < 1e-12) else None
+    coefficient, correction, spread = origin_fit(fine.r, u_grid, fine.j, fine.j2, lam,
+                                                 fine.correction_power, given)
+    if given is not None:
+        coefficient_error = origin_R[1]
+    else:
+        coefficient_error = float(err_grid[fine.j] / fine.r[fine.j] ** lam)
+    extrap = SampleGrid(sample=fine.sample, x=fine.x, scale=fine.scale, u=u_grid.copy(), j=fine.j,
+                        lam=lam, coefficient=coefficient, power_law_spread=spread,
+                        correction_power=fine.correction_power, correction=correction, j2=fine.j2)
     inner = fine.r[: fine.j]
-    err_grid[: fine.j] = (coefficient_error + abs(coefficient) * fine.power_law_spread
-                          * (inner / fine.r[fine.j]) ** fine.correction_power) * inner**lam
+    u_grid = extrap.u
+    u_grid[: fine.j] = extrap.origin_law(inner)
+
+    def origin_error(radius):
+        # the coefficient's error, and the neglected next term (growing like r**2q)
+        rel = spread * (radius / fine.r[fine.j]) ** (2.0 * fine.correction_power)
+        return (coefficient_error + abs(coefficient) * rel) * radius**lam
+
+    err_grid = err_grid.copy()
+    err_grid[: fine.j] = origin_error(inner)
     if r is None:
         radii = fine.r.copy()
         u, err = u_grid, err_grid
         weights = fine.weights.copy()
     else:
         radii = _radii(r)
-        extrap = SampleGrid(sample=fine.sample, x=fine.x, scale=fine.scale, u=u_grid, j=fine.j,
-                            lam=lam, coefficient=coefficient,
-                            power_law_spread=fine.power_law_spread,
-                            correction_power=fine.correction_power)
         u = extrap.values_at(radii)
         inside = (radii >= fine.r[0]) & (radii <= fine.r[-1])
         err = np.zeros_like(radii)
@@ -572,8 +606,7 @@ def build_wavefunction(level, grids: list[SampleGrid], orders: tuple[int, ...], 
             lower = _local_lower(u_grid, xi)
             err[inside] = err_grid[nearest] + np.abs(u[inside] - lower)
         below = (radii > 0) & (radii < fine.r[0])
-        err[below] = (coefficient_error + abs(coefficient) * fine.power_law_spread
-                      * (radii[below] / fine.r[fine.j]) ** fine.correction_power) * radii[below] ** lam
+        err[below] = origin_error(radii[below])
         weights = None
     R = np.zeros_like(u)
     R_err = np.zeros_like(u)
