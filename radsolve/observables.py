@@ -775,8 +775,13 @@ class State:
             density = self.contact_density("sum_rule")
             value = math.sqrt(4.0 * math.pi * density.value)
             origin = (value, 2.0 * math.pi * density.error / value if value else math.inf)
+        g = self.grids[-1]
+        values = self._values(len(self.grids) - 1)
+        l, mu = self.l, self.mass
+        v_eff = values[-2] + l * (l + 1) / (2.0 * mu * g.r[-2] ** 2)
+        kappa = math.sqrt(max(2.0 * mu * (v_eff - self.level.energy), 0.0))
         return build_wavefunction(
-            self.level, self.grids, self.orders, r, origin, mass=self.mass,
+            self.level, self.grids, self.orders, r, origin, kappa or None, mass=self.mass,
             potential=self.potential.name, parameters=self.potential.parameters)
 
 

@@ -547,7 +547,8 @@ def _radii(r) -> np.ndarray:
 
 
 def build_wavefunction(level, grids: list[SampleGrid], orders: tuple[int, ...], r=None,
-                       origin_R: tuple[float, float] | None = None, **meta) -> Wavefunction:
+                       origin_R: tuple[float, float] | None = None, wall_kappa: float | None = None,
+                       **meta) -> Wavefunction:
     """The :class:`Wavefunction` of ``level`` from its prepared samples.
 
     Parameters
@@ -562,6 +563,11 @@ def build_wavefunction(level, grids: list[SampleGrid], orders: tuple[int, ...], 
     origin_R : (float, float), optional
         R(0) and its error from a better source (the contact-density sum
         rule), used at r = 0 for an s state.
+    wall_kappa : float, optional
+        Decay constant sqrt(2 mu (V_eff - E)) at the outer wall, 1/bohr.  The
+        wall forces u(r_max) = 0 where the free state has about
+        u(r_max - 1/kappa)/e; that difference, decaying inwards like
+        exp(-kappa (r_max - r)), is added to the estimates.
     **meta
         ``mass``, ``potential``, ``parameters``, ``properties`` for the record.
     """
@@ -590,6 +596,11 @@ def build_wavefunction(level, grids: list[SampleGrid], orders: tuple[int, ...], 
 
     err_grid = err_grid.copy()
     err_grid[: fine.j] = origin_error(inner)
+    if wall_kappa is not None and wall_kappa > 0:
+        r_max = fine.r[-1]
+        inside_wall = max(r_max - 1.0 / wall_kappa, fine.r[0])
+        amplitude = abs(float(_local(u_grid, fine.index_of(np.array([inside_wall])))[0])) / math.e
+        err_grid += amplitude * np.exp(-wall_kappa * (r_max - fine.r))
     if r is None:
         radii = fine.r.copy()
         u, err = u_grid, err_grid

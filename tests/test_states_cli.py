@@ -1,0 +1,132 @@
+"""The `radsolve wave` and `radsolve transitions` commands.
+
+Physics references, beside each check:
+- hydrogen <r> = (3n^2 - l(l+1))/2 for unit mass (textbook formula);
+- A(2p -> 1s) = 6.2649e8 s^-1 with the electron-proton reduced mass (NIST
+  Atomic Spectra Database; Wiese & Fuhr, J. Phys. Chem. Ref. Data 38 (2009)).
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import subprocess
+import sys
+import tempfile
+
+import numpy as np
+import pytest
+from typer.testing import CliRunner
+
+from radsolve.cli import app
+
+runner = CliRunner()
+NEUTRAL_CWD = tempfile.mkdtemp(prefix="radsolve-cwd-")
+
+
+def run(*args: str):
+    return runner.invoke(app, [str(a) for a in args])
+
+
+def _row(text: str, name: str) -> list[str]:
+    for line in text.splitlines():
+        if line.startswith(name + " "):
+            return line.split()
+    raise AssertionError(f"no row {name!r} in\n{text}")
+
+
+def test_wave_summary_table():
+    result = run("wave", "coulomb", "--n", "3", "--l", "1", "--moment=-2.5", "--inside", "9")
+    assert result.exit_code == 0, result.stderr
+    value = float(_row(result.stdout, "<r>")[2])
+    assert value == pytest.approx((27 - 2) / 2, rel=1e-9)  # textbook formula
+    for words in ("<r^-2.5>", "P(r < 9)", "virial", "turning point", "u(r) > 0 as r -> 0"):
+        assert words in result.stdout
+    assert max(len(line) for line in result.stdout.splitlines()) <= 80
+
+
+def test_wave_values_at_radii_in_units():
+    result = run("wave", "coulomb", "--n", "1", "--l", "0", "--at", "0", "--at", "0.5angstrom",
+                 "--format", "csv")
+    assert result.exit_code == 0, result.stderr
+    rows = list(csv.reader(io.StringIO(result.stdout)))
+    assert rows[0][0] == "r/bohr" and len(rows) == 3
+    assert float(rows[1][3]) == pytest.approx(2.0, rel=1e-9)  # R_1s(0) = 2, textbook formula
+
+
+def test_wave_files_and_plot(tmp_path):
+    out, plot = tmp_path / "w.npz", tmp_path / "w.svg"
+    result = run("wave", "harmonic", "--n", "2", "--l", "1", "--out", out, "--plot", plot, "--unit", "eV")
+    assert result.exit_code == 0, result.stderr
+    data = np.load(out)
+    assert np.sum(data["weights"] * data["u"] ** 2) == pytest.approx(1.0, abs=1e-10)
+    assert "<svg" in plot.read_text()[:500]
+    assert "energy E" in result.stdout  # the summary still goes to stdout
+    js = run("wave", "coulomb", "--n", "2", "--l", "0", "--format", "json")
+    doc = json.loads(js.stdout)
+    assert doc["properties"]["r"]["value"] == pytest.approx(6.0, rel=1e-9)  # textbook formula
+
+
+def test_transitions_json_and_csv(tmp_path):
+    result = run("transitions", "coulomb", "--nmax", "2", "--mass", "electron+proton",
+                 "--format", "json", "--unit", "eV")
+    assert result.exit_code == 0, result.stderr
+    doc = json.loads(result.stdout)
+    (line,) = doc["lines"]
+    assert (line["upper"], line["lower"]) == ("2p", "1s")
+    assert line["einstein_A"] == pytest.approx(6.2649e8, rel=1e-3)  # NIST ASD (Wiese & Fuhr 2009)
+    states = {s["label"]: s for s in doc["states"]}
+    assert states["2s"]["lifetime_s"] is None and states["2s"]["metastable"] is True
+    assert states["2p"]["branching"] == {"1s": 1.0}
+    assert "vacuum" in doc["conventions"]["wavelengths"]
+    out = tmp_path / "t.csv"
+    result = run("transitions", "coulomb", "--nmax", "3", "--format", "csv", "--out", out)
+    assert result.exit_code == 0, result.stderr
+    rows = list(csv.DictReader(io.StringIO(out.read_text())))
+    lines = [r for r in rows if r["record"] == "line"]
+    assert len(lines) == 5  # 2p-1s, 3s-2p, 3p-1s, 3p-2s, 3d-2p (E1 rule, textbook)
+    assert {r["label"] for r in rows if r["record"] == "state" and r["metastable"] == "true"} == {"1s", "2s"}
+
+
+def test_transitions_table_and_plot(tmp_path):
+    plot = tmp_path / "levels.png"
+    result = run("transitions", "coulomb", "--nmax", "3", "--plot", plot)
+    assert result.exit_code == 0, result.stderr
+    assert "vacuum" in result.stdout and "metastable (no E1 decay)" in result.stdout
+    assert "model calculation" in result.stdout
+    assert plot.read_bytes()[:4] == b"\x89PNG"
+    assert max(len(line) for line in result.stdout.splitlines()) <= 80
+
+
+@pytest.mark.parametrize("args, words", [
+    (["wave", "coulomb", "--n", "1", "--l", "1"], ["n must be at least l + 1"]),
+    (["wave", "yukawa", "-p", "screening_length=1", "--n", "2", "--l", "0"], ["2s", "not bound"]),
+    (["wave", "coulomb", "--n", "1", "--l", "0", "--moment=-3"], ["--moment", "diverges", "k > -3"]),
+    (["wave", "coulomb", "--n", "1", "--l", "0", "--plot", "/no/such/folder/w.png"],
+     ["--plot", "does not exist"]),
+    (["wave", "coulomb", "--n", "1", "--l", "0", "--plot", "w.bmp"], ["--plot", ".png"]),
+    (["wave", "coulomb", "--n", "1", "--l", "0", "--out", "w.txt"], ["--out", ".csv, .json, .npz"]),
+    (["wave", "coulomb", "--n", "1", "--l", "0", "--out", "w.csv", "--format", "json"], ["disagree"]),
+    (["wave", "coulomb", "--n", "1", "--l", "0", "--at=-2"], ["--at", ">= 0"]),
+    (["wave", "coulomb", "--n", "1", "--l", "0", "--format", "xml"], ["--format"]),
+    (["transitions", "coulomb", "--nmax", "40"], ["--nmax", "1 to 25"]),
+    (["transitions", "coulomb", "--nmax", "2", "--format", "yaml"], ["--format"]),
+    (["transitions", "coulomb", "--nmax", "2", "--unit", "furlong"], ["--unit", "allowed"]),
+    (["transitions", "coulomb", "--nmax", "2", "--plot", "/no/such/folder/d.png"], ["does not exist"]),
+    (["transitions", "yukawa", "-p", "screening_length=0.5", "--nmax", "2"], ["no bound level"]),
+])
+def test_bad_input(args, words):
+    result = run(*args)
+    assert result.exit_code == 2, (result.stdout, result.stderr)
+    for word in words:
+        assert word in result.stderr, (word, result.stderr)
+    assert "Traceback" not in result.stderr + result.stdout
+
+
+def test_real_process_has_no_traceback():
+    proc = subprocess.run([sys.executable, "-m", "radsolve", "wave", "coulomb", "--n", "2", "--l", "0",
+                           "--moment=-4"], capture_output=True, text=True, timeout=120, cwd=NEUTRAL_CWD)
+    assert proc.returncode == 2
+    assert "diverges" in proc.stderr and "Traceback" not in proc.stderr
+    assert len(proc.stderr.strip().splitlines()) == 1
