@@ -10,7 +10,14 @@ The public API (imported on first use, so that the command line starts fast):
   processes or a Dask cluster);
 - :func:`threshold`, :func:`thresholds` — the parameter value at which a level
   reaches the continuum, with an error estimate;
-- :func:`fit` — parameters fitted to target levels, with standard errors.
+- :func:`fit` — parameters fitted to target levels, with standard errors;
+- :func:`state` — one level as a :class:`State`: ⟨r^k⟩, ⟨V⟩, ⟨T⟩, P(r < R),
+  turning points, contact density, virial and Hellmann–Feynman checks, each
+  with an error estimate (:func:`expectation` for any observable);
+- :func:`wavefunction` — u(r) and R(r) on the grid or at given radii, with
+  CSV / JSON / ``.npz`` export;
+- :func:`transitions` — E1 lines, oscillator strengths, Einstein A
+  coefficients, lifetimes and branching ratios of the levels with n <= nmax.
 
 All quantities are in atomic units (hartree, bohr, electron masses) unless a
 function says otherwise.
@@ -34,6 +41,16 @@ _EXPORTS = {
     "threshold": ("radsolve.thresholds", "threshold"),
     "thresholds": ("radsolve.thresholds", "thresholds"),
     "fit": ("radsolve.fitting", "fit"),
+    "state": ("radsolve.observables", "state"),
+    "State": ("radsolve.observables", "State"),
+    "Estimate": ("radsolve.observables", "Estimate"),
+    "expectation": ("radsolve.observables", "expectation"),
+    "wavefunction": ("radsolve.wavefunctions", "wavefunction"),
+    "Wavefunction": ("radsolve.wavefunctions", "Wavefunction"),
+    "transitions": ("radsolve.radiative", "transitions"),
+    "transitions_from": ("radsolve.radiative", "transitions_from"),
+    "radial_dipole": ("radsolve.radiative", "radial_dipole"),
+    "TransitionResult": ("radsolve.radiative", "TransitionResult"),
 }
 
 __all__ = sorted(_EXPORTS)

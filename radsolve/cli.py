@@ -933,7 +933,7 @@ def transitions_command(
             _with_option("--plot", check_plot_path, plot)
 
         from radsolve.registry import potential
-        from radsolve.transitions import transitions
+        from radsolve.radiative import transitions
 
         pot = potential(name, plugins=_plugin_dirs(plugins), **params)
         tr = _solver_call(pot, transitions, pot, nmax, mass=mu, tol=tol, method=method.value,

@@ -192,7 +192,7 @@ def plot_level_diagram(transitions, path, unit: str = "hartree", scale: str = "a
 
     Parameters
     ----------
-    transitions : radsolve.transitions.TransitionResult
+    transitions : radsolve.radiative.TransitionResult
     path : str or Path
         ``.png``, ``.svg`` or ``.pdf``.
     unit : str

@@ -410,7 +410,7 @@ def _sci(x: float | None, digits: int = 4) -> str:
 
 
 def transitions_table(tr, unit: str = "hartree") -> str:
-    """Text tables of a :class:`radsolve.transitions.TransitionResult`: lines, then states."""
+    """Text tables of a :class:`radsolve.radiative.TransitionResult`: lines, then states."""
     factor = _unit_factor(unit)
     res = tr.result
     pot = res.potential

@@ -1,4 +1,4 @@
-"""Electric-dipole transitions (radsolve.transitions).
+"""Electric-dipole transitions (radsolve.radiative, radsolve.transitions).
 
 Sources of the reference values, beside each check:
 
@@ -31,7 +31,7 @@ from sympy.physics.hydrogen import R_nl
 import radsolve
 from radsolve.errors import InputError
 from radsolve.observables import State, state
-from radsolve.transitions import radial_dipole, transitions, transitions_from
+from radsolve.radiative import radial_dipole, transitions, transitions_from
 
 NMAX = 5
 

@@ -128,7 +128,7 @@ def test_bad_radii(bad):
 
 def test_plots_are_written(tmp_path):
     from radsolve.plotting import plot_level_diagram, plot_wavefunction
-    from radsolve.transitions import transitions
+    from radsolve.radiative import transitions
 
     png = plot_wavefunction(state("coulomb", 3, 1), tmp_path / "w.png", unit="eV")
     assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"

@@ -1,5 +1,8 @@
 """Electric-dipole (E1) radiative transitions between computed bound levels.
 
+(The module is called ``radiative`` so that ``radsolve.transitions`` stays
+the function: a submodule of that name would replace it on import.)
+
 For two levels (n l) and (n' l') with l' = l ± 1 the radial matrix element
 is d = ∫ u_nl(r) r u_n'l'(r) dr (bohr), computed on every grid the two levels
 share and Richardson-extrapolated like the energies.  With l> = max(l, l'),
