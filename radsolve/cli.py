@@ -728,7 +728,7 @@ def _solver_call(pot, func, *args, **kwargs):
         message = str(exc)
         if isinstance(exc, InputError):
             first = message.split(" ", 1)[0].rstrip(":")
-            if first in ("l", "n", "nmax", "count", "tol", "mass"):
+            if first in ("l", "n", "nmax", "count", "tol", "mass", "occupied"):
                 raise InputError("--" + message) from None
             raise
         if repr(pot.name) in message:
@@ -902,6 +902,10 @@ def transitions_command(
     dipole_charge: Annotated[float, typer.Option(
         "--dipole-charge", metavar="Q",
         help="factor of the dipole operator -e r (1 for a neutral two-body system)")] = 1.0,
+    occupied: Annotated[Optional[str], typer.Option(
+        "--occupied", metavar="LABELS",
+        help="levels filled by core electrons, comma-separated, left out: no line ends on "
+             "them (e.g. 1s,2s,2p for the sodium core of alkali_model)")] = None,
     plugins: Annotated[Optional[list[Path]], typer.Option(
         "--plugins", metavar="DIR", help=PLUGINS_HELP)] = None,
 ) -> None:
@@ -937,7 +941,7 @@ def transitions_command(
 
         pot = potential(name, plugins=_plugin_dirs(plugins), **params)
         tr = _solver_call(pot, transitions, pot, nmax, mass=mu, tol=tol, method=method.value,
-                          dipole_charge=dipole_charge)
+                          dipole_charge=dipole_charge, occupied=occupied or ())
         from radsolve.report import render_transitions
 
         text = render_transitions(tr, unit, fmt.value)

@@ -47,7 +47,7 @@ from typing import Any
 import numpy as np
 
 from .errors import InputError
-from .observables import Estimate, channel_potential, check_atomic_3d
+from .observables import Estimate, channel_potential, check_atomic_3d, correction_power
 from .wavefunctions import SampleGrid, prepared_samples
 
 #: Largest nmax accepted: every level's wavefunction on every grid is kept in
@@ -201,6 +201,8 @@ class TransitionResult:
         The solve the levels came from (one call, shared grids).
     nmax : int
     dipole_charge : float
+    occupied : list of str
+        Levels treated as filled (left out).
     success : bool
         Every level and every radial integral converged, and every lifetime
         is complete.
@@ -214,6 +216,7 @@ class TransitionResult:
     dipole_charge: float
     success: bool
     message: str
+    occupied: list[str] = field(default_factory=list)
 
     # ------------------------------------------------------------ arrays
 
@@ -278,6 +281,7 @@ class TransitionResult:
             "method": res.method,
             "tol": res.tol,
             "dipole_charge": self.dipole_charge,
+            "occupied": list(self.occupied),
             "success": bool(self.success),
             "message": self.message,
             "conventions": dict(CONVENTIONS),
@@ -366,7 +370,21 @@ def _degenerate(a, b) -> bool:
     return abs(a.energy - b.energy) <= threshold
 
 
-def transitions_from(result, nmax: int | None = None, dipole_charge: float = 1.0) -> TransitionResult:
+def _occupied_labels(occupied) -> list[str]:
+    if occupied is None:
+        return []
+    if isinstance(occupied, str):
+        occupied = [part for part in occupied.replace(" ", ",").split(",") if part]
+    labels = []
+    for item in occupied:
+        if not isinstance(item, str) or not item.strip():
+            raise InputError(f"occupied must be level labels such as '1s', got {item!r}")
+        labels.append(item.strip())
+    return labels
+
+
+def transitions_from(result, nmax: int | None = None, dipole_charge: float = 1.0,
+                     occupied=()) -> TransitionResult:
     """E1 lines and lifetimes among the levels of one :class:`radsolve.SolveResult`.
 
     Parameters
@@ -379,6 +397,10 @@ def transitions_from(result, nmax: int | None = None, dipole_charge: float = 1.0
         to); default: every level of ``result``.
     dipole_charge : float
         Factor multiplying the dipole operator -e r (see the module docstring).
+    occupied : sequence of str or str
+        Labels of levels filled by other electrons (the core of a model
+        potential that binds core-like states, e.g. ``"1s,2s,2p"`` for
+        sodium): no line ends on them and they are not reported.
     """
     from . import probe
 
@@ -395,13 +417,23 @@ def transitions_from(result, nmax: int | None = None, dipole_charge: float = 1.0
                          "solve without spin_orbit")
     if nmax is None:
         nmax = max(lev.n for lev in levels)
+    filled = _occupied_labels(occupied)
+    known = {lev.label for lev in levels}
+    unknown = [x for x in filled if x not in known]
+    if unknown:
+        raise InputError(f"occupied: no computed level {unknown[0]!r}; computed levels: "
+                         + ", ".join(lev.label for lev in levels))
+    levels = [lev for lev in levels if lev.label not in filled]
+    if not levels:
+        raise InputError("occupied: every computed level is marked occupied")
     profiles: dict[int, Any] = {}
     for lev in levels:
         if lev.l not in profiles:
             profiles[lev.l] = probe.profile(channel_potential(result.potential, lev), result.mass)
-    grids = {id(lev): prepared_samples(lev, profiles[lev.l].origin_exponent(lev.l, result.mass))
+    grids = {id(lev): prepared_samples(lev, profiles[lev.l].origin_exponent(lev.l, result.mass),
+                                       correction_power(profiles[lev.l]))
              for lev in levels}
-    by_l: dict[int, list] = {}
+    by_l: dict[int, list] = {l: [] for l in result.bound_counts}
     for lev in levels:
         by_l.setdefault(lev.l, []).append(lev)
 
@@ -448,6 +480,10 @@ def transitions_from(result, nmax: int | None = None, dipole_charge: float = 1.0
                     complete = False
                 continue
             more_may_exist = asked.get(c, None) is None
+            if not by_l[c]:
+                if more_may_exist:  # every computed level of the channel is occupied
+                    complete = False
+                continue
             highest = max(by_l[c], key=lambda x: x.energy)
             if more_may_exist and highest.energy < lev.energy and not _degenerate(highest, lev):
                 complete = False
@@ -486,7 +522,7 @@ def transitions_from(result, nmax: int | None = None, dipole_charge: float = 1.0
             for x in sorted(own, key=lambda y: -y.einstein_A):
                 branching[x.lower] = x.branching_ratio
         metastable = not own
-        is_ground = lev.energy == ground_energy and lev.l == 0
+        is_ground = lev.energy == ground_energy
         if not complete:
             all_ok = False
             notes.append(f"{lev.label}: a lower level with l = {lev.l - 1} or {lev.l + 1} may be "
@@ -500,6 +536,8 @@ def transitions_from(result, nmax: int | None = None, dipole_charge: float = 1.0
             branching=branching, degenerate_with=[x.label for x in degenerate], complete=complete,
         ))
         lines.extend(own)
+    if filled:
+        notes.append("treated as occupied (no line ends on them): " + ", ".join(filled))
     extra = [lev.label for lev in chosen if lev.n > nmax]
     if extra:
         notes.append("included as lower levels of n <= nmax: " + ", ".join(extra))
@@ -513,11 +551,11 @@ def transitions_from(result, nmax: int | None = None, dipole_charge: float = 1.0
         f"level{'s' if len(states) != 1 else ''}, all converged")
     return TransitionResult(lines=lines, states=states, result=result, nmax=int(nmax),
                             dipole_charge=float(dipole_charge), success=bool(all_ok and not unconverged),
-                            message=message)
+                            message=message, occupied=filled)
 
 
 def transitions(potential, nmax: int, mass=1.0, tol: float = 1e-10, method: str = "fd",
-                plugins=None, dipole_charge: float = 1.0) -> TransitionResult:
+                plugins=None, dipole_charge: float = 1.0, occupied=()) -> TransitionResult:
     """Every E1 line, lifetime and branching ratio among the bound levels with n <= nmax.
 
     One :func:`radsolve.solve` call computes l = 0 ... nmax-1 with nmax
@@ -539,6 +577,8 @@ def transitions(potential, nmax: int, mass=1.0, tol: float = 1e-10, method: str 
         As for :func:`radsolve.solve`.
     dipole_charge : float
         Factor multiplying the dipole operator -e r.
+    occupied : sequence of str or str
+        Levels filled by core electrons, left out (see :func:`transitions_from`).
 
     Returns
     -------
@@ -551,7 +591,7 @@ def transitions(potential, nmax: int, mass=1.0, tol: float = 1e-10, method: str 
     for _ in range(3):
         result = solve(potential, l=list(range(nmax)), count=count, mass=mass, tol=tol,
                        method=method, plugins=plugins)
-        found = transitions_from(result, nmax, dipole_charge)
+        found = transitions_from(result, nmax, dipole_charge, occupied)
         if all(s.complete for s in found.states) or count >= 4 * nmax:
             return found
         count *= 2

@@ -130,3 +130,14 @@ def test_real_process_has_no_traceback():
     assert proc.returncode == 2
     assert "diverges" in proc.stderr and "Traceback" not in proc.stderr
     assert len(proc.stderr.strip().splitlines()) == 1
+
+
+def test_transitions_with_occupied_levels():
+    result = run("transitions", "alkali_model", "-p", "element=Na", "--nmax", "3",
+                 "--occupied", "1s,2s,2p", "--format", "json")
+    assert result.exit_code == 0, result.stderr
+    doc = json.loads(result.stdout)
+    assert doc["occupied"] == ["1s", "2s", "2p"]
+    assert all(line["lower"] not in ("1s", "2s", "2p") for line in doc["lines"])
+    bad = run("transitions", "alkali_model", "--nmax", "3", "--occupied", "9q")
+    assert bad.exit_code == 2 and "--occupied" in bad.stderr and "9q" in bad.stderr

@@ -207,3 +207,22 @@ def test_transitions_from_an_existing_result(hydrogen_result):
     assert {s.label for s in tr.states} == {"1s", "2s", "2p", "3s", "3p", "3d"}
     with pytest.raises(InputError):
         transitions_from(radsolve.solve(radsolve.potential("yukawa", screening_length=0.5)))
+
+
+def test_sodium_resonance_line_with_an_occupied_core():
+    # The alkali model potential (Marinescu, Sadeghpour & Dalgarno, Phys. Rev.
+    # A 49, 982 (1994)) binds core-like 1s, 2s, 2p levels; with them occupied,
+    # 3p decays only to 3s.  Measured tau(3p) = 16.23 ns (Volz & Schmoranzer,
+    # Phys. Scr. T65, 48 (1996); from memory) and the D-line centre near
+    # 589.3 nm (NIST ASD; from memory): a spinless model potential should land
+    # within a few per cent and a few tenths of a nm.
+    pot = radsolve.potential("alkali_model", element="Na")
+    tr = transitions(pot, 3, occupied="1s,2s,2p")
+    assert {s.label for s in tr.states} == {"3s", "3p", "3d"}
+    assert tr.state("3s").ground
+    assert tr.state("3p").branching == {"3s": 1.0}
+    assert tr.state("3p").lifetime_s == pytest.approx(16.23e-9, rel=0.05)
+    assert tr.line("3p", "3s").wavelength_nm == pytest.approx(589.3, abs=0.5)
+    assert tr.occupied == ["1s", "2s", "2p"] and "occupied" in tr.message
+    with pytest.raises(InputError, match="no computed level '2x'"):
+        transitions(pot, 3, occupied=["1s", "2x"])
