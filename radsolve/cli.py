@@ -772,6 +772,10 @@ def wave_command(
     inside: Annotated[Optional[list[str]], typer.Option(
         "--inside", metavar="R", help="also the probability P(r < R), repeatable; bohr or a length")
     ] = None,
+    hellmann_feynman: Annotated[Optional[list[str]], typer.Option(
+        "--hellmann-feynman", metavar="P",
+        help="also check dE/dP = <dV/dP> for potential parameter P, repeatable (six more solves)")
+    ] = None,
     fmt: Annotated[Optional[OutputFormat], typer.Option(
         "--format", "-f",
         help="stdout: table (a summary of the state) [default], or csv / json (the wavefunction)")
@@ -834,6 +838,10 @@ def wave_command(
             extra.append((f"<r^{k:g}>", f"bohr^{k:g}", _with_option("--moment", st.moment, k)))
         for radius in limits:
             extra.append((f"P(r < {radius:g})", "", st.probability_inside(radius)))
+        for parameter in hellmann_feynman or []:
+            check = _with_option("--hellmann-feynman", st.hellmann_feynman, parameter)
+            extra.append((f"dE/d{parameter} (re-solved)", check.derivative.unit, check.derivative))
+            extra.append((f"<dV/d{parameter}>", check.expectation.unit, check.expectation))
         from radsolve.observables import plain_properties
 
         plain = plain_properties(props)

@@ -141,3 +141,13 @@ def test_transitions_with_occupied_levels():
     assert all(line["lower"] not in ("1s", "2s", "2p") for line in doc["lines"])
     bad = run("transitions", "alkali_model", "--nmax", "3", "--occupied", "9q")
     assert bad.exit_code == 2 and "--occupied" in bad.stderr and "9q" in bad.stderr
+
+
+def test_wave_hellmann_feynman_rows():
+    # dE/dZ = -mu Z/n^2 for -Z/r (textbook formula): -1/4 for n = 2, Z = 1
+    result = run("wave", "coulomb", "--n", "2", "--l", "1", "--hellmann-feynman", "Z", "--tol", "1e-11")
+    assert result.exit_code in (0, 3), result.stderr
+    assert float(_row(result.stdout, "<dV/dZ>")[2]) == pytest.approx(-0.25, rel=1e-9)
+    assert float(_row(result.stdout, "dE/dZ")[3]) == pytest.approx(-0.25, rel=1e-7)
+    bad = run("wave", "coulomb", "--n", "1", "--l", "0", "--hellmann-feynman", "depth")
+    assert bad.exit_code == 2 and "--hellmann-feynman" in bad.stderr and "depth" in bad.stderr
