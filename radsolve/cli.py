@@ -444,17 +444,29 @@ def sweep_command(
     count: Annotated[int, typer.Option(
         "--count", "-k", min=1, metavar="K",
         help="the K lowest levels for each l; each has a row at every point, bound or not")] = 5,
-    mass: Annotated[str, typer.Option(
+    mass: Annotated[Optional[str], typer.Option(
         "--mass", "-m", metavar="M",
-        help="reduced mass: electron masses, or particles such as electron+proton")] = "1",
+        help="reduced mass: electron masses, or particles such as electron+proton; in nuclear "
+             "units MeV/c^2, u or particles [default: 1 in atomic units; needed in nuclear units]")
+    ] = None,
     tol: Annotated[float, typer.Option(
         "--tol", metavar="T",
         help="target relative error of each energy (the solver accepts 1e-14 ... 0.1)")] = 1e-10,
     method: Annotated[Method, typer.Option(
         "--method", help="fd (finite differences), numerov (shooting) or both")] = Method.fd,
-    unit: Annotated[str, typer.Option(
-        "--unit", "-u", metavar="U", help=f"energy unit of the output: {ENERGY_UNITS_HELP}")
-    ] = "hartree",
+    unit: Annotated[Optional[str], typer.Option(
+        "--unit", "-u", metavar="U", help=f"energy unit of the output: {ENERGY_UNITS_HELP} "
+                                          "[default: hartree, or MeV in nuclear units]")
+    ] = None,
+    units: Annotated[Optional[UnitsChoice], typer.Option(
+        "--units", help="unit system: atomic (hartree, bohr, electron masses) or nuclear "
+                        "(MeV, fm, MeV/c^2) [default: the potential's own]")] = None,
+    dimension: Annotated[int, typer.Option(
+        "--dimension", "-d", metavar="D", min=2, max=10,
+        help="space dimension D >= 2 (centrifugal term with l -> l + (D-3)/2)")] = 3,
+    spin_orbit: Annotated[bool, typer.Option(
+        "--spin-orbit", help="split each l > 0 into j = l -+ 1/2 with the potential's "
+                             "spin-orbit term")] = False,
     out: Annotated[Optional[Path], typer.Option(
         "--out", "-o", metavar="FILE",
         help="write the rows to FILE.csv or FILE.json as they finish [default: CSV on stdout]")
@@ -487,14 +499,15 @@ def sweep_command(
         from radsolve.errors import InputError
         from radsolve.registry import get_family
         from radsolve.sweeps import SweepInterrupted, parse_vary, sweep
-        from radsolve.units import energy_unit_factor, parse_mass
+        from radsolve.units import energy_unit_factor
 
         params = parse_assignments(param)
         ls = _l_values(l, lmax)
         _check_tol(tol)
-        _with_option("--unit", energy_unit_factor, unit)
-        mu = _with_option("--mass", parse_mass, mass)
+        if unit is not None:
+            _with_option("--unit", energy_unit_factor, unit)
         family = get_family(name, plugins=_plugin_dirs(plugins))
+        mu = _family_mass(family, units, mass)
         axes: dict = {}
         for item in vary:
             key, values = parse_vary(item, family, log)
@@ -513,16 +526,24 @@ def sweep_command(
             result = sweep(family.name, vary=axes, fixed=params, l=ls if len(ls) > 1 else ls[0],
                            count=count, mass=mu, tol=tol, method=method.value,
                            plugins=_plugin_dirs(plugins), workers=workers, cluster=cluster,
-                           out=out if out is not None else sys.stdout, unit=unit)
+                           out=out if out is not None else sys.stdout, unit=unit,
+                           spin_orbit=spin_orbit, dimension=dimension,
+                           units=None if units is None else units.value)
         except SweepInterrupted as stop:
             partial = stop.partial
             where = f"in {out}" if out is not None else "on stdout"
             raise _fail(f"interrupted: {partial.points_done} of {partial.points_total} points "
                         f"finished; their rows are {where}", 130) from None
+        except BrokenPipeError:
+            # The rows were piped into e.g. `head`, which closed early: stop quietly,
+            # with status 1 because the output was cut short (as main() does).
+            devnull = os.open(os.devnull, os.O_WRONLY)
+            os.dup2(devnull, sys.stdout.fileno())
+            raise typer.Exit(1) from None
         elapsed = time.monotonic() - started
         if out is not None:
             _say(f"wrote {len(result)} rows ({result.points_total} points x "
-                 f"{len(result.ls) * result.count} levels) to {out} in {elapsed:.1f} s")
+                 f"{len(result.channels) * result.count} levels) to {out} in {elapsed:.1f} s")
         if plot is not None:
             from radsolve.sweep_plotting import plot_sweep
 
@@ -532,6 +553,21 @@ def sweep_command(
             _say(f"warning: {result.unconverged} bound level(s) did not converge to tol {tol:g} "
                  "(converged = False in their rows)")
             raise typer.Exit(EXIT_NOT_CONVERGED)
+
+
+def _family_mass(family, units, mass: Optional[str]) -> float:
+    """--mass read in the unit system of ``family`` (which --units must match)."""
+    from radsolve.errors import InputError
+    from radsolve.units import unit_system
+
+    if units is not None and units.value != family.units:
+        raise InputError(f"--units {units.value}: potential {family.name!r} is written in "
+                         f"{family.units} units; allowed for it: {family.units}")
+    system = unit_system(family.units)
+    if mass is None and system.name != "atomic":
+        raise InputError(f"--mass is needed in {system.name} units ({system.mass_unit}, u or "
+                         "particles), e.g. --mass neutron or --mass 939.57")
+    return _with_option("--mass", system.parse_mass, "1" if mass is None else mass)
 
 
 def _check_png(path: Path, option: str) -> None:
@@ -568,18 +604,32 @@ def threshold_command(
         "--level", metavar="LABEL", help="level such as 1s or 2p; repeatable [default: 1s]")] = None,
     nmax: Annotated[Optional[int], typer.Option(
         "--nmax", min=1, max=30, metavar="N",
-        help="every level with n <= N (all l < n), instead of --level")] = None,
+        help="every level with n <= N (all l < n; nuclear labels also need --lmax), "
+             "instead of --level")] = None,
+    lmax: Annotated[Optional[int], typer.Option(
+        "--lmax", min=0, metavar="L", help="with --nmax: only l <= L")] = None,
     bracket: Annotated[Optional[str], typer.Option(
         "--bracket", metavar="A:B",
         help="values of KEY between which the level stops being bound (units allowed) "
              "[default: searched outward from -p KEY=VALUE or the default]")] = None,
     param: Annotated[Optional[list[str]], typer.Option(
         "-p", "--param", metavar="KEY=VALUE", help="other potential parameters, repeatable")] = None,
-    mass: Annotated[str, typer.Option(
+    mass: Annotated[Optional[str], typer.Option(
         "--mass", "-m", metavar="M",
-        help="reduced mass: electron masses, or particles such as electron+proton")] = "1",
+        help="reduced mass: electron masses, or particles such as electron+proton; in nuclear "
+             "units MeV/c^2, u or particles [default: 1 in atomic units; needed in nuclear units]")
+    ] = None,
     tol: Annotated[float, typer.Option(
         "--tol", metavar="T", help="target relative error of the critical value")] = 1e-9,
+    units: Annotated[Optional[UnitsChoice], typer.Option(
+        "--units", help="unit system: atomic (hartree, bohr, electron masses) or nuclear "
+                        "(MeV, fm, MeV/c^2) [default: the potential's own]")] = None,
+    dimension: Annotated[int, typer.Option(
+        "--dimension", "-d", metavar="D", min=2, max=10,
+        help="space dimension D >= 2 (centrifugal term with l -> l + (D-3)/2)")] = 3,
+    spin_orbit: Annotated[bool, typer.Option(
+        "--spin-orbit", help="with --nmax: both j = l -+ 1/2 of each l > 0 (with --level, "
+                             "give j in the label, e.g. 1p3/2)")] = False,
     fmt: Annotated[ReportFormat, typer.Option(
         "--format", "-f", help="table for reading, json for programs")] = ReportFormat.table,
     out: Annotated[Optional[Path], typer.Option(
@@ -598,13 +648,16 @@ def threshold_command(
         import json
 
         from radsolve.errors import InputError
+        from radsolve.registry import get_family
         from radsolve.thresholds import format_thresholds, thresholds
-        from radsolve.units import parse_mass
 
         params = parse_assignments(param)
         if level and nmax is not None:
             raise InputError("--level and --nmax: give one or the other")
-        mu = _with_option("--mass", parse_mass, mass)
+        if lmax is not None and nmax is None:
+            raise InputError("--lmax goes with --nmax")
+        family = get_family(name, plugins=_plugin_dirs(plugins))
+        mu = _family_mass(family, units, mass)
         if not 1e-13 <= tol <= 1e-2:  # NaN fails too
             raise InputError(f"--tol {tol}: must be between 1e-13 and 0.01, e.g. 1e-9")
         pair = None
@@ -614,9 +667,10 @@ def threshold_command(
                 raise InputError(f"--bracket {bracket!r}: expected A:B, two values of {vary}, "
                                  "e.g. --bracket 0.5:2")
             pair = tuple(parts)
-        results = thresholds(name, vary, nmax=nmax or 1, bracket=pair, fixed=params, mass=mu,
+        results = thresholds(family.name, vary, nmax=nmax or 1, bracket=pair, fixed=params, mass=mu,
                              tol=tol, plugins=_plugin_dirs(plugins),
-                             levels=None if nmax is not None else (level or ["1s"]))
+                             levels=None if nmax is not None else (level or ["1s"]),
+                             lmax=lmax, spin_orbit=spin_orbit, dimension=dimension)
         if fmt is ReportFormat.json:
             text = json.dumps([r.to_dict() for r in results], indent=2, allow_nan=False) + "\n"
         else:
@@ -641,16 +695,25 @@ def fit_command(
     param: Annotated[Optional[list[str]], typer.Option(
         "-p", "--param", metavar="KEY=VALUE",
         help="fixed parameters, and start values of free ones; repeatable")] = None,
-    mass: Annotated[str, typer.Option(
+    mass: Annotated[Optional[str], typer.Option(
         "--mass", "-m", metavar="M",
-        help="reduced mass: electron masses, or particles such as electron+proton")] = "1",
+        help="reduced mass: electron masses, or particles such as electron+proton; in nuclear "
+             "units MeV/c^2, u or particles [default: 1 in atomic units; needed in nuclear units]")
+    ] = None,
     tol: Annotated[float, typer.Option(
         "--tol", metavar="T", help="relative accuracy of each computed energy")] = 1e-10,
     method: Annotated[Method, typer.Option(
         "--method", help="fd (finite differences), numerov (shooting) or both")] = Method.fd,
-    unit: Annotated[str, typer.Option(
-        "--unit", "-u", metavar="U", help=f"energy unit of the report: {ENERGY_UNITS_HELP}")
-    ] = "hartree",
+    unit: Annotated[Optional[str], typer.Option(
+        "--unit", "-u", metavar="U", help=f"energy unit of the report: {ENERGY_UNITS_HELP} "
+                                          "[default: hartree, or MeV in nuclear units]")
+    ] = None,
+    units: Annotated[Optional[UnitsChoice], typer.Option(
+        "--units", help="unit system: atomic (hartree, bohr, electron masses) or nuclear "
+                        "(MeV, fm, MeV/c^2) [default: the potential's own]")] = None,
+    dimension: Annotated[int, typer.Option(
+        "--dimension", "-d", metavar="D", min=2, max=10,
+        help="space dimension D >= 2 (centrifugal term with l -> l + (D-3)/2)")] = 3,
     fmt: Annotated[ReportFormat, typer.Option(
         "--format", "-f", help="table for reading, json for programs")] = ReportFormat.table,
     out: Annotated[Optional[Path], typer.Option(
@@ -665,7 +728,8 @@ def fit_command(
 ) -> None:
     """Fit the --free parameters of NAME so that its levels match the --targets levels.
 
-    Weighted least squares on (computed - target)/uncertainty. Reports the
+    Targets with j (1p3/2) fit spin-orbit split levels. Weighted least
+    squares on (computed - target)/uncertainty. Reports the
     best values with standard errors from the Jacobian (uncertainties taken
     as absolute; also scaled by sqrt(chi2/dof)), the correlation matrix,
     chi2/dof, the residual of each level, and warns about levels bound below
@@ -677,12 +741,15 @@ def fit_command(
 
         from radsolve.errors import InputError
         from radsolve.fitting import fit, format_fit, parse_free, read_targets
-        from radsolve.units import energy_unit_factor, parse_mass
+        from radsolve.registry import get_family
+        from radsolve.units import energy_unit_factor
 
         params = parse_assignments(param)
         _check_tol(tol)
-        _with_option("--unit", energy_unit_factor, unit)
-        mu = _with_option("--mass", parse_mass, mass)
+        if unit is not None:
+            _with_option("--unit", energy_unit_factor, unit)
+        family = get_family(name, plugins=_plugin_dirs(plugins))
+        mu = _family_mass(family, units, mass)
         if plot is not None:
             _check_png(plot, "--plot")
         names, bounds = [], {}
@@ -693,10 +760,10 @@ def fit_command(
             names.append(key)
             if pair is not None:
                 bounds[key] = pair
-        target_list = read_targets(targets)
-        result = fit(name, target_list, free=names, bounds=bounds, fixed=params, mass=mu, tol=tol,
+        target_list = read_targets(targets, family.units)
+        result = fit(family.name, target_list, free=names, bounds=bounds, fixed=params, mass=mu, tol=tol,
                      method=method.value, plugins=_plugin_dirs(plugins),
-                     max_evaluations=max_evaluations)
+                     max_evaluations=max_evaluations, dimension=dimension)
         if fmt is ReportFormat.json:
             text = json.dumps(result.to_dict(unit), indent=2, allow_nan=False) + "\n"
         else:

@@ -53,8 +53,7 @@ from typing import Any, Mapping, Sequence
 import numpy as np
 
 from .errors import InputError, RadsolveError
-from .result import level_label
-from .thresholds import parse_label
+from .thresholds import parse_level
 
 #: Columns a targets file must have.
 TARGET_COLUMNS = ("label", "energy", "uncertainty", "unit")
@@ -66,28 +65,42 @@ TARGET_COLUMNS = ("label", "energy", "uncertainty", "unit")
 
 @dataclass(frozen=True)
 class Target:
-    """One target level; energies in hartree.
+    """One target level; energies in hartree whatever the unit system.
 
     Attributes
     ----------
     label : str
-        Canonical label (``"2p"``); n, l as usual, nodes = n - l - 1.
+        Canonical label (``"2p"``, ``"1p3/2"``).
+    n, l, nodes : int
+        As read with the labelling convention of ``units`` (atomic:
+        n = nodes + l + 1; nuclear: n = nodes + 1).
     energy, uncertainty : float
         Hartree; uncertainty > 0 (one standard deviation).
     source : str
         Where it came from (``"targets.csv line 4"``), for messages.
+    j : float or None
+        Total angular momentum when the label gives it.
+    units : str
+        The labelling convention used (``"atomic"`` or ``"nuclear"``).
     """
 
     label: str
     n: int
     l: int
+    nodes: int
     energy: float
     uncertainty: float
     source: str = ""
+    j: float | None = None
+    units: str = "atomic"
 
-    @property
-    def nodes(self) -> int:
-        return self.n - self.l - 1
+    def relabelled(self, units: str) -> "Target":
+        """The same target read with the labelling convention of ``units``."""
+        if units == self.units:
+            return self
+        key = parse_level(self.label, units, f"{self.source or 'target'}: label")
+        return Target(key.label, key.n, key.l, key.nodes, self.energy, self.uncertainty,
+                      self.source, key.j, units)
 
 
 def _number(text: str, column: str, where: str) -> float:
@@ -100,12 +113,12 @@ def _number(text: str, column: str, where: str) -> float:
     return value
 
 
-def _make_target(label, energy, uncertainty, unit, where: str) -> Target:
+def _make_target(label, energy, uncertainty, unit, where: str, units: str = "atomic") -> Target:
     from .units import energy_unit_factor
 
     if not isinstance(label, str) or not label.strip():
         raise InputError(f"{where}: the label is empty; give a level label such as 1s or 2p")
-    n, l = parse_label(label.strip(), f"{where}: label")
+    key = parse_level(label.strip(), units, f"{where}: label")
     energy = _number(energy, "energy", where) if isinstance(energy, str) else energy
     uncertainty = _number(uncertainty, "uncertainty", where) if isinstance(uncertainty, str) else uncertainty
     for column, value in (("energy", energy), ("uncertainty", uncertainty)):
@@ -118,11 +131,15 @@ def _make_target(label, energy, uncertainty, unit, where: str) -> Target:
         raise InputError(f"{where}: {exc}") from None
     if not float(uncertainty) > 0:
         raise InputError(f"{where}: uncertainty must be > 0 (one standard deviation), got {uncertainty!r}")
-    return Target(level_label(n, l), n, l, float(energy) * factor, float(uncertainty) * factor, where)
+    return Target(key.label, key.n, key.l, key.nodes, float(energy) * factor, float(uncertainty) * factor,
+                  where, key.j, units)
 
 
-def read_targets(path: str | os.PathLike) -> list[Target]:
+def read_targets(path: str | os.PathLike, units: str = "atomic") -> list[Target]:
     """Read a targets CSV file (see the module docstring for its layout).
+
+    ``units`` is the labelling convention (``"nuclear"``: n = nodes + 1);
+    energies may be in any energy unit and are stored in hartree.
 
     Raises
     ------
@@ -161,7 +178,7 @@ def read_targets(path: str | os.PathLike) -> list[Target]:
             if not values[c]:
                 raise InputError(f"{where}: the {c} cell is empty")
         targets.append(_make_target(values["label"], values["energy"], values["uncertainty"],
-                                    values["unit"], where))
+                                    values["unit"], where, units))
     if not targets:
         raise InputError(f"targets file {name!r} has a header but no rows")
     _check_unique(targets)
@@ -177,30 +194,30 @@ def _check_unique(targets: Sequence[Target]) -> None:
         seen[t.label] = t
 
 
-def as_targets(targets) -> list[Target]:
+def as_targets(targets, units: str = "atomic") -> list[Target]:
     """Targets from a CSV path, or a list of Target / dicts / (label, energy, uncertainty[, unit]).
 
     Dicts need the keys label, energy, uncertainty and optionally unit
     (default hartree); tuples are (label, energy, uncertainty) in hartree or
-    (label, energy, uncertainty, unit).
+    (label, energy, uncertainty, unit).  ``units`` is the labelling convention.
     """
     if isinstance(targets, (str, os.PathLike)):
-        return read_targets(targets)
+        return read_targets(targets, units)
     if not isinstance(targets, Sequence) or isinstance(targets, (bytes,)):
         raise InputError("targets must be a CSV file path or a list of (label, energy, uncertainty[, unit])")
     out: list[Target] = []
     for i, item in enumerate(targets):
         where = f"targets[{i}]"
         if isinstance(item, Target):
-            out.append(item)
+            out.append(item.relabelled(units))
         elif isinstance(item, Mapping):
             missing = [c for c in ("label", "energy", "uncertainty") if c not in item]
             if missing:
                 raise InputError(f"{where}: missing key(s) {', '.join(missing)}")
             out.append(_make_target(item["label"], item["energy"], item["uncertainty"],
-                                    item.get("unit", "hartree"), where))
+                                    item.get("unit", "hartree"), where, units))
         elif isinstance(item, (tuple, list)) and len(item) in (3, 4):
-            out.append(_make_target(*item[:3], item[3] if len(item) == 4 else "hartree", where))
+            out.append(_make_target(*item[:3], item[3] if len(item) == 4 else "hartree", where, units))
         else:
             raise InputError(f"{where}: expected (label, energy, uncertainty[, unit]) or a dict, got {item!r}")
     if not out:
@@ -262,6 +279,11 @@ class FitResult:
     evaluations : int
         Solves made (each a full spectrum).
     mass, tol : float
+        Reduced mass (in the unit system's mass unit) and tolerance.
+    parameter_units : dict of str to str
+    units, energy_unit : str
+        The unit system of the potential and its energy unit (the default
+        unit of reports; the energies above are in hartree).
     """
 
     potential: str
@@ -285,16 +307,19 @@ class FitResult:
     mass: float
     tol: float
     parameter_units: dict[str, str] = field(default_factory=dict)
+    units: str = "atomic"
+    energy_unit: str = "hartree"
 
     @property
     def chi2_per_dof(self) -> float:
         """chi^2 / dof; NaN when dof = 0."""
         return self.chi2 / self.dof if self.dof > 0 else math.nan
 
-    def to_dict(self, unit: str = "hartree") -> dict[str, Any]:
-        """Plain data, energies in ``unit`` (the JSON output)."""
+    def to_dict(self, unit: str | None = None) -> dict[str, Any]:
+        """Plain data, energies in ``unit`` (default ``energy_unit``; the JSON output)."""
         from .units import energy_unit_factor
 
+        unit = unit or self.energy_unit
         f = energy_unit_factor(unit)
 
         def num(x):
@@ -322,7 +347,7 @@ class FitResult:
             "spurious": [{"label": lab, "energy": e / f} for lab, e in self.spurious],
             "warnings": list(self.warnings),
             "success": bool(self.success), "message": self.message,
-            "evaluations": self.evaluations, "mass": self.mass, "tol": self.tol,
+            "evaluations": self.evaluations, "mass": self.mass, "tol": self.tol, "units": self.units,
             "parameters": dict(self.parameters),
         }
 
@@ -400,11 +425,15 @@ def parse_free(text: str) -> tuple[str, tuple[str | None, str | None] | None]:
 
 
 class _Model:
-    """Residuals of the targets for given free-parameter values, with a cache."""
+    """Residuals of the targets for given free-parameter values, with a cache.
 
-    def __init__(self, base, free, targets, mass, tol, method):
+    ``options`` go to :func:`radsolve.solve` (mass, tol, method, spin_orbit,
+    dimension, units); ``to_hartree`` converts the unit system's energies.
+    """
+
+    def __init__(self, base, free, targets, options, to_hartree: float):
         self.base, self.free, self.targets = base, free, targets
-        self.mass, self.tol, self.method = mass, tol, method
+        self.options, self.to_hartree = options, to_hartree
         self.ls = sorted({t.l for t in targets})
         self.count = max(t.nodes for t in targets) + 1
         self.cache: dict[tuple, tuple] = {}
@@ -417,13 +446,12 @@ class _Model:
         if key not in self.cache:
             pot = self.base.with_parameters(**dict(zip(self.free, key)))
             try:
-                result = solve(pot, l=self.ls, count=self.count, mass=self.mass, tol=self.tol,
-                               method=self.method)
+                result = solve(pot, l=self.ls, count=self.count, **self.options)
             except RadsolveError as exc:
                 point = ", ".join(f"{k} = {v:.10g}" for k, v in zip(self.free, key))
                 raise type(exc)(f"fit at {point}: {exc}") from None
             self.evaluations += 1
-            found = {(lev.l, lev.nodes): lev for lev in result.levels}
+            found = {(lev.l, getattr(lev, "j", None), lev.nodes): lev for lev in result.levels}
             self.cache[key] = (result, found)
         return self.cache[key]
 
@@ -431,9 +459,9 @@ class _Model:
         result, found = self.solve(x)
         out = np.empty(len(self.targets))
         for i, t in enumerate(self.targets):
-            lev = found.get((t.l, t.nodes))
+            lev = found.get((t.l, t.j, t.nodes))
             # An unbound target sits at the threshold: continuous as it unbinds.
-            energy = lev.energy if lev is not None else result.v_infinity
+            energy = (lev.energy if lev is not None else result.v_infinity) * self.to_hartree
             if not math.isfinite(energy):
                 energy = t.energy + 1e6 * t.uncertainty  # confining: every level exists; not reached
             out[i] = (energy - t.energy) / t.uncertainty
@@ -459,33 +487,47 @@ def _covariance(jac: np.ndarray) -> tuple[np.ndarray, list[int]]:
     return cov, weak
 
 
-def _spurious(pot, targets: Sequence[Target], mass, tol, method) -> tuple[list[tuple[str, float]], list[str]]:
-    """Levels below the highest target that are not targets; and notes."""
+def _spurious(pot, targets: Sequence[Target], options, to_hartree: float) -> tuple[list[tuple[str, float]], list[str]]:
+    """Levels below the highest target that are not targets (energies in hartree); and notes.
+
+    Without spin-orbit the lowest level of each l rises with l (the
+    centrifugal term grows; variational principle, textbook), so the search
+    stops at the first l above the targets' with no level below the highest
+    target.  With spin-orbit, which can pull j = l + 1/2 levels down, it stops
+    only after three such l in a row.
+    """
     from .spectrum import solve
 
     top = max(t.energy for t in targets)
-    wanted = {(t.l, t.nodes) for t in targets}
+    wanted = {(t.l, t.j, t.nodes) for t in targets}
     lmax_target = max(t.l for t in targets)
+    patience = 3 if options.get("spin_orbit") else 1
     extra: list[tuple[str, float]] = []
     notes: list[str] = []
+    empty_run = 0
+    opts = dict(options, tol=max(options["tol"], 1e-8))
     for l in range(0, 61):
         count = max([t.nodes + 1 for t in targets if t.l == l] + [0]) + 3
         while True:
-            result = solve(pot, l=l, count=count, mass=mass, tol=max(tol, 1e-8), method=method)
-            below = [lev for lev in result.levels if lev.energy < top]
-            if len(below) < len(result.levels) or result.bound_counts.get(l) is not None or count >= 400:
+            result = solve(pot, l=l, count=count, **opts)
+            below = [lev for lev in result.levels if lev.energy * to_hartree < top]
+            full = all(v is None for v in result.bound_counts.values())
+            if len(below) < len(result.levels) or not full or count >= 400:
                 break
             count *= 2
-        if count >= 400 and len(below) == len(result.levels):
+        if count >= 400 and below and len(below) == len(result.levels):
             notes.append(f"the search for levels below the highest target stopped at {count} levels of l = {l}")
-        extra += [(lev.label, lev.energy) for lev in below if (lev.l, lev.nodes) not in wanted]
-        if not below and l >= lmax_target:
-            break  # the lowest level rises with l: no higher l can have one below
+        extra += [(lev.label, lev.energy * to_hartree) for lev in below
+                  if (lev.l, getattr(lev, "j", None), lev.nodes) not in wanted]
+        empty_run = 0 if below else empty_run + 1
+        if l >= lmax_target and empty_run >= patience:
+            break
     return extra, notes
 
 
 def fit(potential, targets, free, bounds=None, fixed=None, mass=1.0, tol: float = 1e-10,
-        method: str = "fd", plugins=None, max_evaluations: int = 400) -> FitResult:
+        method: str = "fd", plugins=None, max_evaluations: int = 400, dimension: int = 3,
+        units: str | None = None) -> FitResult:
     """Fit free parameters of a potential family to target levels.
 
     Parameters
@@ -495,6 +537,9 @@ def fit(potential, targets, free, bounds=None, fixed=None, mass=1.0, tol: float 
     targets : path or list
         A targets CSV file (columns label, energy, uncertainty, unit) or a
         list of :class:`Target`, dicts or (label, energy, uncertainty[, unit]).
+        Labels with j (``1p3/2``) fit the spin-orbit split levels of a family
+        with a spin-orbit term (then every target needs its j); nuclear
+        families label n = nodes + 1.
     free : sequence of str, or dict of str to (low, high)
         The parameters to fit.
     bounds : dict of str to (low, high), optional
@@ -503,7 +548,7 @@ def fit(potential, targets, free, bounds=None, fixed=None, mass=1.0, tol: float 
     fixed : dict, optional
         Values of the other parameters, and the starting values of free ones;
         the rest take their defaults.
-    mass, tol, method, plugins :
+    mass, tol, method, plugins, dimension, units :
         As for :func:`radsolve.solve` (``tol`` is the relative accuracy
         asked of each computed energy).
     max_evaluations : int
@@ -522,7 +567,7 @@ def fit(potential, targets, free, bounds=None, fixed=None, mass=1.0, tol: float 
     from scipy.optimize import least_squares
 
     from .registry import Potential, potential as make_potential
-    from .units import parse_mass
+    from .units import unit_system
 
     fixed = dict(fixed or {})
     if isinstance(potential, Potential):
@@ -533,11 +578,17 @@ def fit(potential, targets, free, bounds=None, fixed=None, mass=1.0, tol: float 
         raise InputError(f"potential must be a family name or a radsolve Potential, got {type(potential).__name__}")
     family = base.family
     free, limits = _free_and_bounds(family, free, bounds)
-    target_list = as_targets(targets)
+    declared = getattr(family, "units", "atomic")
+    system = unit_system(declared if units is None else units)
+    mass = system.parse_mass(mass)
+    target_list = as_targets(targets, system.name)
+    with_j = {t.j is not None for t in target_list}
+    if len(with_j) > 1:
+        raise InputError("targets: give j for every target (as in 1p3/2) or for none")
+    spin_orbit = with_j == {True}
     if len(target_list) < len(free):
         raise InputError(f"{len(target_list)} target level(s) cannot determine {len(free)} free parameters; "
                          "give at least as many targets as free parameters")
-    mu = parse_mass(mass)
     if isinstance(max_evaluations, bool) or not isinstance(max_evaluations, int) or max_evaluations < 1:
         raise InputError(f"max_evaluations must be a whole number >= 1, got {max_evaluations!r}")
     x0 = np.array([float(base.parameters[k]) for k in free])
@@ -552,9 +603,13 @@ def fit(potential, targets, free, bounds=None, fixed=None, mass=1.0, tol: float 
         x0 = np.clip(x0, np.where(np.isfinite(lo), lo + 1e-10 * np.maximum(np.abs(lo), 1.0), lo),
                      np.where(np.isfinite(hi), hi - 1e-10 * np.maximum(np.abs(hi), 1.0), hi))
 
-    model = _Model(base, free, target_list, mu, tol, method)
+    options = dict(mass=mass, tol=tol, method=method, spin_orbit=spin_orbit, dimension=dimension,
+                   units=units)
+    to_hartree = system.energy_factor()
+    model = _Model(base, free, target_list, options, to_hartree)
     start_result, start_found = model.solve(x0)
-    v_inf = start_result.v_infinity
+    mu = float(start_result.mass)
+    v_inf = start_result.v_infinity * to_hartree
     for t in target_list:
         if math.isfinite(v_inf) and t.energy >= v_inf:
             raise InputError(f"target {t.label} ({t.source or 'given'}) has energy {t.energy:.10g} hartree, "
@@ -584,16 +639,16 @@ def fit(potential, targets, free, bounds=None, fixed=None, mass=1.0, tol: float 
     warnings: list[str] = []
     residuals: list[FitResidual] = []
     for t in target_list:
-        lev = found.get((t.l, t.nodes))
+        lev = found.get((t.l, t.j, t.nodes))
         residuals.append(FitResidual(t.label, t.energy, t.uncertainty,
-                                     lev.energy if lev else math.nan,
-                                     lev.error_estimate if lev else math.nan, lev is not None))
+                                     lev.energy * to_hartree if lev else math.nan,
+                                     lev.error_estimate * to_hartree if lev else math.nan, lev is not None))
         if lev is None:
             warnings.append(f"target {t.label} is not bound by the fitted potential")
         elif not lev.converged:
             warnings.append(f"{t.label} did not converge to tol = {tol:g}")
-        elif lev.error_estimate > 0.1 * t.uncertainty:
-            warnings.append(f"the computed {t.label} is uncertain by {lev.error_estimate:.2g} hartree, "
+        elif lev.error_estimate * to_hartree > 0.1 * t.uncertainty:
+            warnings.append(f"the computed {t.label} is uncertain by {lev.error_estimate * to_hartree:.2g} hartree, "
                             f"more than a tenth of its target uncertainty; use a smaller tol")
     for j in weak:
         warnings.append(f"{free[j]} is not determined by these targets (singular Jacobian): "
@@ -609,7 +664,7 @@ def fit(potential, targets, free, bounds=None, fixed=None, mass=1.0, tol: float 
         warnings.append("as many targets as free parameters: chi^2/dof is undefined and the fit "
                         "cannot be judged by it")
     pot = base.with_parameters(**dict(zip(free, (float(v) for v in best))))
-    spurious, notes = _spurious(pot, target_list, mu, tol, method)
+    spurious, notes = _spurious(pot, target_list, options, to_hartree)
     if spurious:
         highest = max(target_list, key=lambda t: t.energy).label
         warnings.append(f"possible spurious states: the fitted potential binds "
@@ -627,20 +682,23 @@ def fit(potential, targets, free, bounds=None, fixed=None, mass=1.0, tol: float 
         covariance=cov, correlation=corr, chi2=chi2, dof=dof,
         residuals=residuals, spurious=spurious, warnings=warnings,
         success=bool(solution.success) and all(r.bound for r in residuals)
-        and all(found[(t.l, t.nodes)].converged for t in target_list if (t.l, t.nodes) in found),
+        and all(found[(t.l, t.j, t.nodes)].converged for t in target_list if (t.l, t.j, t.nodes) in found),
         message=str(solution.message), evaluations=model.evaluations, mass=mu, tol=tol,
         parameter_units={k: family.parameters[k].unit for k in free},
+        units=system.name, energy_unit=system.energy_unit,
     )
 
 
-def format_fit(result: FitResult, unit: str = "hartree") -> str:
+def format_fit(result: FitResult, unit: str | None = None) -> str:
     """A text report of a fit: parameters, correlation, residuals, warnings."""
     from .report import format_columns
     from .units import energy_unit_factor
 
+    unit = unit or result.energy_unit
     f = energy_unit_factor(unit)
+    mass_unit = "MeV/c^2" if result.units == "nuclear" else "electron masses"
     lines = [f"fit of {result.potential} to {len(result.residuals)} target levels "
-             f"(reduced mass {result.mass:.10g}; {result.evaluations} spectra solved)", ""]
+             f"(reduced mass {result.mass:.10g} {mass_unit}; {result.evaluations} spectra solved)", ""]
     header = ["parameter", "value", "std.err", "scaled", "unit", "start"]
     rows = []
     for k in result.free:

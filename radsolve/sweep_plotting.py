@@ -56,7 +56,7 @@ def _colors(n: int):
     return [cmap(i % cmap.N) for i in range(n)]
 
 
-def plot_sweep(result, path, unit: str = "hartree", thresholds: Mapping[str, Any] | None = None,
+def plot_sweep(result, path, unit: str | None = None, thresholds: Mapping[str, Any] | None = None,
                title: str | None = None) -> None:
     """Draw a :class:`radsolve.sweeps.SweepResult` to the PNG file ``path``.
 
@@ -65,8 +65,8 @@ def plot_sweep(result, path, unit: str = "hartree", thresholds: Mapping[str, Any
     result : SweepResult
     path : path
         The PNG file.
-    unit : str
-        Energy unit of the axis.
+    unit : str, optional
+        Energy unit of the axis (default: the sweep's own).
     thresholds : dict of label to ThresholdResult or float, optional
         Exact critical values to mark (one-parameter sweeps).
     title : str, optional
@@ -76,9 +76,8 @@ def plot_sweep(result, path, unit: str = "hartree", thresholds: Mapping[str, Any
     InputError
         A sweep of more than two parameters, or nothing computed.
     """
-    from .units import energy_unit_factor
-
-    factor = energy_unit_factor(unit)
+    unit = unit or result.energy_unit
+    factor = result.unit_factor(unit)
     if result.points_done == 0:
         raise InputError("nothing to plot: no sweep point was computed")
     if len(result.parameters) == 1:
@@ -190,10 +189,14 @@ def _plot_maps(result, path, unit, factor, title) -> None:
     _save(fig, path)
 
 
-def plot_fit(result, path, unit: str = "hartree", title: str | None = None) -> None:
-    """Draw a :class:`radsolve.fitting.FitResult`: levels and residuals, to the PNG ``path``."""
+def plot_fit(result, path, unit: str | None = None, title: str | None = None) -> None:
+    """Draw a :class:`radsolve.fitting.FitResult`: levels and residuals, to the PNG ``path``.
+
+    ``unit`` is the energy unit of the axis (default: the potential's own).
+    """
     from .units import energy_unit_factor
 
+    unit = unit or result.energy_unit
     factor = energy_unit_factor(unit)
     res = result.residuals
     fig, axes = _figure(7.5, 6.0, 2, 1, gridspec_kw={"height_ratios": [3.0, 1.6]})

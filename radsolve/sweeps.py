@@ -32,9 +32,10 @@ starts.  Rows are written to ``out`` as the points finish; on Ctrl-C the
 sweep stops, finishes the file with the rows already done and raises
 :class:`SweepInterrupted`, which carries the partial result.
 
-Everything is in atomic units: parameter values in the units of their kind
-(bohr, hartree, 1/bohr), energies in hartree; ``unit`` converts energies in
-the exported files only.
+Everything is in the family's unit system: atomic (parameters in bohr,
+hartree, 1/bohr; energies in hartree) or, for a nuclear family, fm and MeV;
+``unit`` converts energies in the exported files only.  With
+``spin_orbit=True`` a level is (l, j, nodes) and the rows carry j.
 """
 
 from __future__ import annotations
@@ -54,10 +55,10 @@ from typing import Any, Callable, Iterable, Iterator, Mapping, Sequence
 import numpy as np
 
 from .errors import InputError, RadsolveError
-from .result import level_label
 
-#: Columns of a sweep row after the parameter columns, in order.
-LEVEL_COLUMNS = ("l", "n", "nodes", "label", "energy", "error_estimate", "converged", "bound",
+#: Columns of a sweep row after the parameter columns, in order (``j`` only
+#: with spin-orbit splitting).
+LEVEL_COLUMNS = ("l", "j", "n", "nodes", "label", "energy", "error_estimate", "converged", "bound",
                  "v_infinity")
 
 #: Seconds to wait for a Dask scheduler to answer.
@@ -129,7 +130,7 @@ def parse_vary(text: str, family, log: bool = False) -> tuple[str, np.ndarray]:
     Returns
     -------
     (key, values)
-        The parameter name and its values in atomic units.
+        The parameter name and its values in the family's units.
 
     Raises
     ------
@@ -192,10 +193,14 @@ class _Settings:
     base: Any  # Potential
     keys: tuple[str, ...]
     ls: tuple[int, ...]
+    channels: tuple[tuple[int, float | None], ...]
     count: int
     mass: float
     tol: float
     method: str
+    spin_orbit: bool
+    dimension: int
+    units: str
 
 
 def _describe_point(keys, values) -> str:
@@ -210,21 +215,37 @@ def _solve_point(settings: _Settings, values: tuple) -> tuple:
     try:
         pot = settings.base.with_parameters(**dict(zip(settings.keys, values)))
         result = solve(pot, l=list(settings.ls), count=settings.count, mass=settings.mass,
-                       tol=settings.tol, method=settings.method)
+                       tol=settings.tol, method=settings.method, spin_orbit=settings.spin_orbit,
+                       dimension=settings.dimension, units=settings.units)
     except RadsolveError as exc:
         raise type(exc)(f"sweep point {_describe_point(settings.keys, values)}: {exc}") from None
-    return _block(result, settings.ls, settings.count)
+    return _block(result, settings.channels, settings.count)
 
 
-def _block(result, ls: Sequence[int], count: int) -> tuple:
-    shape = (len(ls), count)
+def _channel_keys(ls: Sequence[int], spin_orbit: bool) -> tuple[tuple[int, float | None], ...]:
+    """The partial waves (l, j) solved, in the order of their rows (j = None without spin-orbit)."""
+    keys: list[tuple[int, float | None]] = []
+    for l in ls:
+        js = ([0.5] if l == 0 else [l - 0.5, l + 0.5]) if spin_orbit else [None]
+        keys += [(l, j) for j in js]
+    return tuple(keys)
+
+
+def _label(nodes: int, l: int, j: float | None, units: str) -> tuple[int, str]:
+    from .spectrum import _label as solver_label  # the labels solve() gives
+
+    return solver_label(nodes, l, j, units)
+
+
+def _block(result, channels: Sequence[tuple[int, float | None]], count: int) -> tuple:
+    shape = (len(channels), count)
     energy = np.full(shape, np.nan)
     error = np.full(shape, np.nan)
     converged = np.zeros(shape, dtype=bool)
     bound = np.zeros(shape, dtype=bool)
-    row_of = {l: i for i, l in enumerate(ls)}
+    row_of = {key: i for i, key in enumerate(channels)}
     for lev in result.levels:
-        i, k = row_of[lev.l], lev.nodes
+        i, k = row_of[(lev.l, getattr(lev, "j", None))], lev.nodes
         energy[i, k] = lev.energy
         error[i, k] = lev.error_estimate
         converged[i, k] = lev.converged
@@ -256,20 +277,23 @@ class LevelTrack:
     label : str
         Spectroscopic label, e.g. ``"2p"``.
     n, l, nodes : int
+    j : float or None
+        Total angular momentum (with spin-orbit splitting), else None.
     points : ndarray of int
         Indices of the points (in sweep order) that finished.
     values : dict of str to ndarray
-        The varied parameters at those points, atomic units.
+        The varied parameters at those points, in the family's units.
     energy, error_estimate : ndarray
-        Hartree; NaN where the level is not bound.
+        In the sweep's ``energy_unit``; NaN where the level is not bound.
     converged, bound : ndarray of bool
     v_infinity : ndarray
-        The continuum threshold V(inf) at each point, hartree.
+        The continuum threshold V(inf) at each point, same unit.
     """
 
     label: str
     n: int
     l: int
+    j: float | None
     nodes: int
     points: np.ndarray
     values: dict[str, np.ndarray]
@@ -286,8 +310,8 @@ class SweepResult:
 
     Points are the Cartesian product of the ``axes`` in the order the
     parameters were given, the last varying fastest; point ``i`` has grid
-    index ``np.unravel_index(i, shape)``.  Per point, levels are ordered by l
-    (as in ``ls``) and then by node count.
+    index ``np.unravel_index(i, shape)``.  Per point, levels are ordered by
+    partial wave (``channels``: l, then j) and then by node count.
 
     Attributes
     ----------
@@ -296,21 +320,26 @@ class SweepResult:
     parameters : tuple of str
         The varied parameters.
     axes : dict of str to ndarray
-        The values of each varied parameter, atomic units.
+        The values of each varied parameter, in the family's units.
     fixed : dict
-        Every other parameter of the family, atomic units.
+        Every other parameter of the family, in the family's units.
     parameter_units : dict of str to str
-        The atomic unit of each parameter (``"bohr"``, ``""`` when dimensionless).
+        The unit of each parameter (``"bohr"``, ``"fm"``, ``""`` when dimensionless).
     ls : tuple of int
+    channels : tuple of (l, j)
+        The partial waves; j is None without spin-orbit splitting.
     count : int
-        Levels per l asked at every point.
-    mass, tol, method :
-        As passed to :func:`radsolve.solve` (mass in electron masses).
-    energy, error_estimate : ndarray, shape (points, len(ls), count)
-        Hartree; NaN where not bound or not computed.
+        Levels per partial wave asked at every point.
+    mass, tol, method, spin_orbit, dimension :
+        As passed to :func:`radsolve.solve` (mass in the unit system's mass unit).
+    units, energy_unit : str
+        The unit system (``"atomic"``, ``"nuclear"``) and its energy unit
+        (``"hartree"``, ``"MeV"``), in which the arrays below are.
+    energy, error_estimate : ndarray, shape (points, len(channels), count)
+        NaN where not bound or not computed.
     converged, bound : ndarray of bool, same shape
     v_infinity : ndarray, shape (points,)
-        V(inf) at each point, hartree (``inf`` for a confining potential).
+        V(inf) at each point (``inf`` for a confining potential).
     done : ndarray of bool, shape (points,)
         Which points were computed (all of them unless interrupted).
     """
@@ -321,10 +350,15 @@ class SweepResult:
     fixed: dict[str, Any]
     parameter_units: dict[str, str]
     ls: tuple[int, ...]
+    channels: tuple[tuple[int, float | None], ...]
     count: int
     mass: float
     tol: float
     method: str
+    spin_orbit: bool
+    dimension: int
+    units: str
+    energy_unit: str
     energy: np.ndarray
     error_estimate: np.ndarray
     converged: np.ndarray
@@ -375,54 +409,61 @@ class SweepResult:
 
     # -- levels --------------------------------------------------------------
 
-    def level_keys(self) -> list[tuple[int, int]]:
-        """``(l, nodes)`` of every level row per point, in row order."""
-        return [(l, k) for l in self.ls for k in range(self.count)]
+    def level_keys(self) -> list[tuple[int, float | None, int]]:
+        """``(l, j, nodes)`` of every level row per point, in row order."""
+        return [(l, j, k) for l, j in self.channels for k in range(self.count)]
 
     def labels(self) -> list[str]:
-        """Labels of the level rows per point, in row order."""
-        return [level_label(k + l + 1, l) for l, k in self.level_keys()]
+        """Labels of the level rows per point, in row order (as :func:`radsolve.solve` gives them)."""
+        return [_label(k, l, j, self.units)[1] for l, j, k in self.level_keys()]
+
+    def _find(self, label: str) -> tuple[int, int]:
+        labels = self.labels()
+        if label not in labels:
+            raise KeyError(f"level {label!r} is not in this sweep; its levels: {', '.join(labels)}")
+        l, j, k = self.level_keys()[labels.index(label)]
+        return self.channels.index((l, j)), k
 
     def level(self, label: str) -> LevelTrack:
         """The level ``label`` (e.g. ``"2p"``) across the finished points."""
-        for i, l in enumerate(self.ls):
-            for k in range(self.count):
-                if level_label(k + l + 1, l) == label:
-                    pts = np.flatnonzero(self.done)
-                    table = self.point_table()
-                    return LevelTrack(
-                        label=label, n=k + l + 1, l=l, nodes=k, points=pts,
-                        values={p: table[p][pts] for p in self.parameters},
-                        energy=self.energy[pts, i, k], error_estimate=self.error_estimate[pts, i, k],
-                        converged=self.converged[pts, i, k], bound=self.bound[pts, i, k],
-                        v_infinity=self.v_infinity[pts],
-                    )
-        raise KeyError(f"level {label!r} is not in this sweep; its levels: {', '.join(self.labels())}")
+        i, k = self._find(label)
+        l, j = self.channels[i]
+        pts = np.flatnonzero(self.done)
+        table = self.point_table()
+        return LevelTrack(
+            label=label, n=_label(k, l, j, self.units)[0], l=l, j=j, nodes=k, points=pts,
+            values={p: table[p][pts] for p in self.parameters},
+            energy=self.energy[pts, i, k], error_estimate=self.error_estimate[pts, i, k],
+            converged=self.converged[pts, i, k], bound=self.bound[pts, i, k],
+            v_infinity=self.v_infinity[pts],
+        )
 
     def grid(self, label: str, what: str = "energy") -> np.ndarray:
         """``energy`` (or ``error_estimate``, ``bound``, ``converged``) of ``label`` on the grid.
 
         An array of shape :attr:`shape`; NaN (or False) at points not computed.
         """
-        keys = self.level_keys()
-        idx = self.labels().index(label) if label in self.labels() else None
-        if idx is None:
-            raise KeyError(f"level {label!r} is not in this sweep; its levels: {', '.join(self.labels())}")
-        l, k = keys[idx]
+        i, k = self._find(label)
         array = {"energy": self.energy, "error_estimate": self.error_estimate,
                  "bound": self.bound, "converged": self.converged}[what]
-        return array[:, self.ls.index(l), k].reshape(self.shape)
+        return array[:, i, k].reshape(self.shape)
 
     # -- rows and export -----------------------------------------------------
 
     @property
     def columns(self) -> tuple[str, ...]:
         """Column names of a row: ``point``, the varied parameters, then the level columns."""
-        return ("point", *self.parameters, *LEVEL_COLUMNS)
+        level = LEVEL_COLUMNS if self.spin_orbit else tuple(c for c in LEVEL_COLUMNS if c != "j")
+        return ("point", *self.parameters, *level)
 
-    def rows(self, unit: str = "hartree") -> Iterator[dict[str, Any]]:
-        """One dict per (finished point, level), energies in ``unit``; NaN where unbound."""
-        factor = _energy_factor(unit)
+    def unit_factor(self, unit: str | None) -> float:
+        """Energies in ``energy_unit`` divided by this give energies in ``unit``."""
+        return _unit_factor(self.energy_unit, unit)
+
+    def rows(self, unit: str | None = None) -> Iterator[dict[str, Any]]:
+        """One dict per (finished point, level), energies in ``unit`` (default
+        ``energy_unit``); NaN where unbound."""
+        factor = self.unit_factor(unit)
         for index in np.flatnonzero(self.done):
             yield from _point_rows(self, int(index), self.point_values(int(index)),
                                    (self.energy[index], self.error_estimate[index],
@@ -430,15 +471,17 @@ class SweepResult:
                                     self.v_infinity[index]), factor)
 
     def __len__(self) -> int:
-        return self.points_done * len(self.ls) * self.count
+        return self.points_done * len(self.channels) * self.count
 
-    def to_csv(self, path: str | os.PathLike | None = None, unit: str = "hartree") -> str:
+    def to_csv(self, path: str | os.PathLike | None = None, unit: str | None = None) -> str:
         """CSV text (and, given ``path``, that file): a header row, then one row per level.
 
-        Columns: :attr:`columns` and a final ``unit`` column (the energy unit).
-        Parameters are in atomic units; floats carry every digit; an unbound
-        level's energy and error estimate are empty cells.
+        Columns: :attr:`columns` and a final ``unit`` column (the energy unit,
+        by default ``energy_unit``).  Parameters are in the family's units;
+        floats carry every digit; an unbound level's energy and error estimate
+        are empty cells.
         """
+        unit = unit or self.energy_unit
         buf = io.StringIO()
         sink = _CsvSink(buf, self.columns, unit)
         sink.start(self)
@@ -450,7 +493,7 @@ class SweepResult:
             _write_text(path, text)
         return text
 
-    def metadata(self, unit: str = "hartree") -> dict[str, Any]:
+    def metadata(self, unit: str | None = None) -> dict[str, Any]:
         """The settings of the sweep as plain data (the head of the JSON document)."""
         return {
             "potential": self.potential,
@@ -459,21 +502,25 @@ class SweepResult:
             "fixed": {k: v for k, v in self.fixed.items()},
             "parameter_units": {k: u or "dimensionless" for k, u in self.parameter_units.items()},
             "l": list(self.ls),
+            "spin_orbit": self.spin_orbit,
+            "dimension": self.dimension,
             "count": self.count,
             "mass": self.mass,
             "tol": self.tol,
             "method": self.method,
-            "unit": unit,
+            "units": self.units,
+            "unit": unit or self.energy_unit,
             "points_total": self.points_total,
         }
 
-    def to_json(self, path: str | os.PathLike | None = None, unit: str = "hartree") -> str:
+    def to_json(self, path: str | os.PathLike | None = None, unit: str | None = None) -> str:
         """JSON text (and, given ``path``, that file).
 
         One object: the settings of :meth:`metadata`, ``rows`` (one object per
         level with the keys of :attr:`columns`; an unbound level's energy is
         ``null``), then ``points_done`` and ``complete``.
         """
+        unit = unit or self.energy_unit
         buf = io.StringIO()
         sink = _JsonSink(buf, self.columns, unit)
         sink.start(self)
@@ -485,7 +532,7 @@ class SweepResult:
             _write_text(path, text)
         return text
 
-    def to_pandas(self, unit: str = "hartree"):
+    def to_pandas(self, unit: str | None = None):
         """A pandas DataFrame with one row per level (needs the optional dependency pandas)."""
         try:
             import pandas as pd
@@ -501,21 +548,25 @@ class SweepResult:
         return frame
 
 
-def _energy_factor(unit: str) -> float:
+def _unit_factor(energy_unit: str, unit: str | None) -> float:
+    """Energies in ``energy_unit`` divided by this are in ``unit``."""
     from .units import energy_unit_factor
 
-    return energy_unit_factor(unit)
+    if unit is None or unit == energy_unit:
+        return 1.0
+    return energy_unit_factor(unit) / energy_unit_factor(energy_unit)
 
 
 def _point_rows(meta: SweepResult, index: int, values: tuple, block: tuple, factor: float) -> list[dict]:
     energy, error, converged, bound, v_inf = block
     rows = []
-    for i, l in enumerate(meta.ls):
+    for i, (l, j) in enumerate(meta.channels):
         for k in range(meta.count):
             row = {"point": index}
             row.update(zip(meta.parameters, values))
+            n, label = _label(k, l, j, meta.units)
             row.update(
-                l=l, n=k + l + 1, nodes=k, label=level_label(k + l + 1, l),
+                l=l, j=j, n=n, nodes=k, label=label,
                 energy=float(energy[i, k]) / factor if bound[i, k] else math.nan,
                 error_estimate=float(error[i, k]) / factor if bound[i, k] else math.nan,
                 converged=bool(converged[i, k]), bound=bool(bound[i, k]),
@@ -820,8 +871,9 @@ def _axes(base, vary) -> dict[str, np.ndarray]:
 
 def sweep(potential, vary: Mapping[str, Sequence], fixed: Mapping[str, Any] | None = None, l=0,
           count: int = 5, mass=1.0, tol: float = 1e-10, method: str = "fd", plugins=None,
-          workers: int | None = None, cluster=None, out=None, unit: str = "hartree",
-          progress: bool | None = None) -> SweepResult:
+          workers: int | None = None, cluster=None, out=None, unit: str | None = None,
+          progress: bool | None = None, spin_orbit: bool = False, dimension: int = 3,
+          units: str | None = None) -> SweepResult:
     """Solve a potential family at every point of a grid of parameter values.
 
     Parameters
@@ -830,18 +882,20 @@ def sweep(potential, vary: Mapping[str, Sequence], fixed: Mapping[str, Any] | No
         A family name (``"yukawa"``) or a Potential whose parameters are the
         starting point.
     vary : dict of str to sequence
-        Parameter name -> values (numbers in atomic units, or strings with
-        units such as ``"2angstrom"``).  Two or more parameters make the full
-        grid (Cartesian product; the last parameter varies fastest).
+        Parameter name -> values (numbers in the family's units -- atomic,
+        or MeV and fm for a nuclear family -- or strings with units such as
+        ``"2angstrom"``).  Two or more parameters make the full grid
+        (Cartesian product; the last parameter varies fastest).
     fixed : dict, optional
         Other parameters; the rest take their defaults.
     l : int or sequence of int
         Orbital angular momenta.
     count : int
-        Levels per l at every point; each has a row at every point, bound or not.
-    mass, tol, method, plugins :
-        As for :func:`radsolve.solve` (mass in electron masses or particle
-        names; tol the relative error asked of each energy).
+        Levels per l (per (l, j) with spin-orbit) at every point; each has a
+        row at every point, bound or not.
+    mass, tol, method, plugins, spin_orbit, dimension, units :
+        As for :func:`radsolve.solve` (mass in the unit system's mass unit or
+        particle names; tol the relative error asked of each energy).
     workers : int, optional
         Local worker processes; ``None`` = every usable core, 1 = serial in
         this process.  With ``cluster="local"``: the number of Dask workers.
@@ -851,15 +905,16 @@ def sweep(potential, vary: Mapping[str, Sequence], fixed: Mapping[str, Any] | No
     out : path or text stream, optional
         Write the rows there as the points finish: ``.csv`` or ``.json`` by
         the file name; a stream gets CSV.
-    unit : str
-        Energy unit of ``out`` (the result itself is in hartree).
+    unit : str, optional
+        Energy unit of ``out``; default the unit system's (hartree, or MeV
+        for a nuclear family), in which the result itself is.
     progress : bool, optional
         Progress bar on stderr; default: only when stderr is a terminal.
 
     Returns
     -------
     SweepResult
-        Energies in hartree.
+        Energies in the unit system's energy unit (``result.energy_unit``).
 
     Raises
     ------
@@ -869,20 +924,26 @@ def sweep(potential, vary: Mapping[str, Sequence], fixed: Mapping[str, Any] | No
     SweepInterrupted
         On Ctrl-C; ``.partial`` holds the points finished, which are also in ``out``.
     """
-    from .units import parse_mass
+    from .units import energy_unit_factor
 
     base = _resolve(potential, fixed, plugins)
     axes = _axes(base, vary)
     if workers is not None and (isinstance(workers, bool) or not isinstance(workers, (int, np.integer))
                                 or workers < 1):
         raise InputError(f"workers must be a whole number >= 1 (or None for every core), got {workers!r}")
-    mu = parse_mass(mass)
-    _energy_factor(unit)  # checks the unit before anything is solved
+    if unit is not None:
+        energy_unit_factor(unit)  # checks the unit before anything is solved
+    from .units import unit_system
+
+    declared = getattr(base.family, "units", "atomic")
+    mass = unit_system(declared if units is None else units).parse_mass(mass)
+    options = dict(mass=mass, tol=tol, method=method, spin_orbit=bool(spin_orbit), dimension=dimension,
+                   units=units)
 
     # Connect first, so that an unreachable scheduler is reported at once.
     dask = _dask_client(cluster, workers) if cluster is not None else None
     try:
-        return _sweep_points(base, axes, l, count, mu, tol, method, workers, dask, out, unit, progress)
+        return _sweep_points(base, axes, l, count, options, workers, dask, out, unit, progress)
     finally:
         if dask is not None:
             client, close_client, local_cluster = dask
@@ -892,38 +953,46 @@ def sweep(potential, vary: Mapping[str, Sequence], fixed: Mapping[str, Any] | No
                 local_cluster.close()
 
 
-def _sweep_points(base, axes, l, count, mu, tol, method, workers, dask, out, unit, progress) -> SweepResult:
+def _sweep_points(base, axes, l, count, options, workers, dask, out, unit, progress) -> SweepResult:
     from .spectrum import solve
 
     keys = tuple(axes)
     family = base.family
-    factor = _energy_factor(unit)
     bar = _Progress(int(np.prod([len(axes[k]) for k in keys])), f"sweep {family.name}", progress)
-    # The first point, solved here, checks l, count, tol and method with solve's
-    # own messages before any worker starts.
+    # The first point, solved here, checks l, count, mass, tol, method and the
+    # unit system with solve's own messages before any worker starts.
     first_values = tuple(float(axes[k][0]) for k in keys)
     try:
-        first = solve(base.with_parameters(**dict(zip(keys, first_values))), l=l, count=count,
-                      mass=mu, tol=tol, method=method)
+        first = solve(base.with_parameters(**dict(zip(keys, first_values))), l=l, count=count, **options)
     except RadsolveError as exc:
         raise type(exc)(f"sweep point {_describe_point(keys, first_values)}: {exc}") from None
-    ls = sorted(first.bound_counts)
-    settings = _Settings(base=base, keys=keys, ls=tuple(ls), count=int(count), mass=mu,
-                         tol=float(first.tol), method=method)
+    from .units import unit_system
+
+    ls = _solved_ls(l)
+    channels = _channel_keys(ls, options["spin_orbit"])
+    system = unit_system(first.units)
+    settings = _Settings(base=base, keys=keys, ls=tuple(ls), channels=channels, count=int(count),
+                         mass=float(first.mass), tol=float(first.tol), method=options["method"],
+                         spin_orbit=options["spin_orbit"], dimension=int(first.dimension),
+                         units=system.name)
     shape = tuple(len(axes[k]) for k in keys)
     total = int(np.prod(shape))
-    nl = len(ls)
+    nl = len(channels)
     result = SweepResult(
         potential=family.name, parameters=keys, axes=axes,
         fixed={k: v for k, v in base.parameters.items() if k not in keys},
         parameter_units={k: family.parameters[k].unit for k in family.parameters},
-        ls=tuple(ls), count=int(count), mass=mu, tol=settings.tol, method=method,
+        ls=tuple(ls), channels=channels, count=int(count), mass=settings.mass, tol=settings.tol,
+        method=settings.method, spin_orbit=settings.spin_orbit, dimension=settings.dimension,
+        units=system.name, energy_unit=system.energy_unit,
         energy=np.full((total, nl, count), np.nan), error_estimate=np.full((total, nl, count), np.nan),
         converged=np.zeros((total, nl, count), dtype=bool), bound=np.zeros((total, nl, count), dtype=bool),
         v_infinity=np.full(total, np.nan), done=np.zeros(total, dtype=bool),
         log_spaced={k: _looks_geometric(axes[k]) for k in keys},
     )
 
+    unit = unit or system.energy_unit
+    factor = result.unit_factor(unit)
     sink, stream = _open_sink(out, result.columns, unit)
     if sink is not None:
         sink.start(result)
@@ -959,7 +1028,7 @@ def _sweep_points(base, axes, l, count, mu, tol, method, workers, dask, out, uni
 
     try:
         try:
-            collect([(0, _block(first, ls, int(count)))])
+            collect([(0, _block(first, channels, int(count)))])
             rest = range(1, total)
             if dask is not None:
                 client = dask[0]
@@ -985,6 +1054,13 @@ def _sweep_points(base, axes, l, count, mu, tol, method, workers, dask, out, uni
         if stream is not None:
             stream.close()
     return result
+
+
+def _solved_ls(l) -> list[int]:
+    """The l values solve() accepted (it validated and sorted them)."""
+    if isinstance(l, (int, np.integer)):
+        return [int(l)]
+    return sorted({int(v) for v in l})
 
 
 def _looks_geometric(values: np.ndarray) -> bool:

@@ -78,23 +78,37 @@ class NoThresholdError(RadsolveError):
 # Labels
 # --------------------------------------------------------------------------- #
 
-_LABEL_RE = re.compile(r"^\s*(\d+)\s*(?:\[l=(\d+)\]|([a-zA-Z]))\s*$")
+_LABEL_RE = re.compile(r"^\s*(\d+)\s*(?:\[l=(\d+)\]|([a-zA-Z]))\s*(?:(\d+)\s*/\s*2)?\s*$")
 
 
-def parse_label(label: str, what: str = "level") -> tuple[int, int]:
-    """``(n, l)`` of a spectroscopic label: ``"1s"``, ``"2p"``, ``"4f"``, ``"25[l=23]"``.
+@dataclass(frozen=True)
+class LevelKey:
+    """A level named by its label: n, l, j (None without spin-orbit) and its node count."""
 
-    The letters are s p d f g h i k l m n o q r t u v w x y z (j skipped).
+    n: int
+    l: int
+    j: float | None
+    nodes: int
+    label: str
+
+
+def parse_level(label: str, units: str = "atomic", what: str = "level") -> LevelKey:
+    """Read a level label: ``"1s"``, ``"2p"``, ``"25[l=23]"``, with j: ``"1p3/2"``.
+
+    The letters are s p d f g h i k l m n o q r t u v w x y z (j skipped).  In
+    atomic units n = nodes + l + 1 (``2p`` has no node); in nuclear units, as
+    is usual there, n = nodes + 1 (``1p3/2`` has no node).
 
     Raises
     ------
     InputError
-        Text that is not a label, or n <= l.
+        Text that is not a label, n too small for l, or j not l +- 1/2.
     """
     match = _LABEL_RE.match(label) if isinstance(label, str) else None
     if match is None:
         raise InputError(f"{what} {label!r} is not a level label; expected n and the letter of l, "
-                         "such as 1s, 2p, 3d (letters " + " ".join(SPECTROSCOPIC_LETTERS) + ")")
+                         "such as 1s, 2p, 3d, optionally with j as in 1p3/2 (letters "
+                         + " ".join(SPECTROSCOPIC_LETTERS) + ")")
     n = int(match.group(1))
     if match.group(2) is not None:
         l = int(match.group(2))
@@ -104,9 +118,30 @@ def parse_label(label: str, what: str = "level") -> tuple[int, int]:
             raise InputError(f"{what} {label!r}: {letter!r} is not an orbital letter; allowed: "
                              + " ".join(SPECTROSCOPIC_LETTERS) + " (j is skipped)")
         l = SPECTROSCOPIC_LETTERS.index(letter)
-    if n <= l:
-        raise InputError(f"{what} {label!r}: n must exceed l (n = {n}, l = {l}); e.g. 2p, 3d")
-    return n, l
+    j = None
+    if match.group(4) is not None:
+        twice = int(match.group(4))
+        allowed = (1,) if l == 0 else (2 * l - 1, 2 * l + 1)
+        if twice not in allowed:
+            raise InputError(f"{what} {label!r}: j = {twice}/2 is not allowed for l = {l}; allowed: "
+                             + ", ".join(f"{a}/2" for a in allowed))
+        j = twice / 2.0
+    if units == "nuclear":
+        if n < 1:
+            raise InputError(f"{what} {label!r}: n counts from 1 (n = nodes + 1 in nuclear labels)")
+        nodes = n - 1
+    else:
+        if n <= l:
+            raise InputError(f"{what} {label!r}: n must exceed l (n = {n}, l = {l}); e.g. 2p, 3d")
+        nodes = n - l - 1
+    canonical = level_label(n, l) + ("" if j is None else f"{int(round(2 * j))}/2")
+    return LevelKey(n=n, l=l, j=j, nodes=nodes, label=canonical)
+
+
+def parse_label(label: str, what: str = "level") -> tuple[int, int]:
+    """``(n, l)`` of an atomic label such as ``"2p"`` (see :func:`parse_level`)."""
+    key = parse_level(label, "atomic", what)
+    return key.n, key.l
 
 
 # --------------------------------------------------------------------------- #
@@ -140,16 +175,24 @@ class ThresholdResult:
     box_radius : float
         Outer radius of the last box, bohr.
     slope : float or None
-        For l >= 1: dE/dp at p_c on the bound side (Hellmann-Feynman with the
-        normalizable zero-energy state), hartree per parameter unit, so that
-        E - V(inf) ~ slope * (p - p_c) there.  None for l = 0, whose energy
-        leaves the threshold quadratically.  (For l = 1 the next correction
-        goes as |p - p_c|**1.5, from the slowly converging norm of the state.)
+        When the zero-energy state is normalizable (L = l + (d-3)/2 > 1/2;
+        l >= 1 in three dimensions): dE/dp at p_c on the bound side
+        (Hellmann-Feynman with that state), in ``energy_unit`` per parameter
+        unit, so that E - V(inf) ~ slope * (p - p_c) there.  None otherwise
+        (s levels leave the threshold quadratically).  For l = 1 the next
+        correction goes as |p - p_c|**1.5, from the slowly converging norm.
     slope_error : float or None
         Estimated absolute error of ``slope``.
     fixed : dict
-        The other parameters, atomic units.
+        The other parameters, in the family's units.
     mass, tol : float
+        Reduced mass (the unit system's mass unit) and the tolerance asked.
+    j : float or None
+        Total angular momentum of a spin-orbit level.
+    units, energy_unit : str
+        The unit system (``"atomic"``, ``"nuclear"``) and its energy unit (of ``slope``).
+    dimension : int
+        Space dimension.
     """
 
     potential: str
@@ -172,13 +215,25 @@ class ThresholdResult:
     fixed: dict[str, Any] = field(default_factory=dict)
     mass: float = 1.0
     tol: float = 1e-9
+    j: float | None = None
+    units: str = "atomic"
+    energy_unit: str = "hartree"
+    dimension: int = 3
 
     @property
     def approach(self) -> str:
-        """How the energy reaches the threshold (textbook near-threshold behaviour)."""
-        if self.l == 0:
+        """How the energy reaches the threshold (textbook near-threshold behaviour).
+
+        With L = l + (d - 3)/2: L = 0 (s levels in three dimensions) quadratic,
+        L = 1/2 linear up to a logarithm, L >= 1 linear.
+        """
+        L = self.l + (self.dimension - 3) / 2.0
+        if L < 0.25:
             return ("quadratic: E - V(inf) ~ -(p - p_c)**2; the state spreads without bound "
                     "as p -> p_c (scattering length diverges)")
+        if L < 0.75:
+            return ("linear up to a logarithm: E - V(inf) ~ (p - p_c)/ln|p - p_c|; the zero-energy "
+                    "state is not normalizable (its norm grows like ln r)")
         return ("linear: E - V(inf) ~ slope * (p - p_c); the zero-energy state is normalizable "
                 "and stays localized")
 
@@ -187,13 +242,14 @@ class ThresholdResult:
         return {
             "potential": self.potential, "parameter": self.parameter,
             "parameter_unit": self.parameter_unit or "dimensionless",
-            "label": self.label, "n": self.n, "l": self.l, "nodes": self.nodes,
+            "label": self.label, "n": self.n, "l": self.l, "j": self.j, "nodes": self.nodes,
             "value": self.value, "error_estimate": self.error_estimate,
             "grid_error": self.grid_error, "box_error": self.box_error,
             "converged": bool(self.converged), "bound_side": self.bound_side,
             "bracket": list(self.bracket), "box_radius": self.box_radius,
             "slope": self.slope, "slope_error": self.slope_error, "approach": self.approach,
             "fixed": dict(self.fixed), "mass": self.mass, "tol": self.tol,
+            "units": self.units, "energy_unit": self.energy_unit, "dimension": self.dimension,
         }
 
 
@@ -223,8 +279,12 @@ class _Shot:
 class _ZeroEnergy:
     """The regular solution at E = V(inf) of a family with one parameter free."""
 
-    def __init__(self, base, parameter: str, l: int, mass: float, tol: float):
+    def __init__(self, base, parameter: str, l: int, mass: float, tol: float, j: float | None = None,
+                 dimension: int = 3):
+        # mass is the kinetic mass m of -u''/(2m) in the family's units.
         self.base, self.parameter, self.l, self.mass, self.tol = base, parameter, l, mass, tol
+        self.j = j
+        self.effective = l + (dimension - 3) / 2.0  # L in L(L+1)/(2 m r**2)
         self._profiles: dict[float, Any] = {}
 
     def potential(self, p: float):
@@ -238,9 +298,9 @@ class _ZeroEnergy:
             pot = self.potential(p)
             # The partial wave l of a family with an l-dependent (semilocal) potential.
             if hasattr(pot, "channel"):
-                pot = pot.channel(self.l)
+                pot = pot.channel(self.l, self.j)
             prof = probe.profile(pot, self.mass)
-            prof.check_bounded_below(self.l, self.mass)
+            prof.check_bounded_below(self.effective, self.mass)
             self._profiles[p] = (pot, prof)
         return self._profiles[p]
 
@@ -284,7 +344,7 @@ class _ZeroEnergy:
         for p in ps:
             tail = self.check_tail(p)
             _, prof = self.profile(p)
-            r_min = min(r_min, prof.inner_cutoff(self.l, self.mass, self.tol))
+            r_min = min(r_min, prof.inner_cutoff(self.effective, self.mass, self.tol))
             r_max = max(r_max, 2.0 * tail, 8.0 * prof.inner_length,
                         2.0 * max(prof.breakpoints, default=0.0))
         return _Layout(r_min=r_min, r_max=min(r_max, LARGEST_BOX))
@@ -301,7 +361,8 @@ class _ZeroEnergy:
         span = GridSpan.covering(r_min, r_max, COARSE_STEP, scale, anchor)
         grid = span.grid(refinement)
         values = potential_on_grid(pot, grid.r, prof.breakpoints) - prof.v_infinity
-        _, q = grid.liouville_coefficients(values, self.l, self.mass)
+        L = self.effective
+        _, q = grid.liouville_coefficients(values, self.l, self.mass, centrifugal=L * (L + 1.0))
         h2 = grid.step**2
         t = h2 * 2.0 * self.mass * q / 12.0
         d = 2.0 + 12.0 * t / (1.0 - t)
@@ -309,7 +370,7 @@ class _ZeroEnergy:
         # The power law u ~ r**lambda at the first point, as the solvers impose
         # it (radsolve.solvers.base): w[0] = exp(-(lambda - 1/2) h) w[1]; then
         # run to the last point.
-        ghost = math.exp(-(prof.origin_exponent(self.l, self.mass) - 0.5) * grid.step)
+        ghost = math.exp(-(prof.origin_exponent(L, self.mass) - 0.5) * grid.step)
         y = three_term(d[1:last], None, ghost * (1.0 - t[0]), 1.0 - t[1])  # y[1 .. last]
         start = y[0]
         w = y / (1.0 - t[1:])
@@ -319,8 +380,8 @@ class _ZeroEnergy:
         j2 = r.size - 1
         j1 = int(np.searchsorted(r, 0.5 * r[j2]))
         rho = r[j1] / r[j2]
-        l = self.l
-        a = (u[j2] - rho**l * u[j1]) / (1.0 - rho ** (2 * l + 1))
+        # Beyond the range u = a (r/R2)**(L+1) + b (r/R2)**(-L).
+        a = (u[j2] - rho**L * u[j1]) / (1.0 - rho ** (2 * L + 1))
         b = u[j2] - a
         signs = np.sign(u)
         signs = signs[signs != 0]
@@ -425,7 +486,7 @@ def _auto_bracket(problem: _ZeroEnergy, k: int, p0: float, spec) -> tuple[float,
     raise InputError(
         f"no threshold of the level with {k} nodes found near {problem.parameter} = {p0:.6g} "
         f"(searched {prev_down[0]:.4g} ... {prev_up[0]:.4g}, where {problem.count(prev_down[0])} and "
-        f"{problem.count(prev_up[0])} levels of l = {problem.l} are bound); give a bracket")
+        f"{problem.count(prev_up[0])} levels of that partial wave are bound); give a bracket")
 
 
 # --------------------------------------------------------------------------- #
@@ -539,8 +600,8 @@ def _slope(problem: _ZeroEnergy, layout: _Layout, p_c: float, refinement: int) -
     error (the trapezoid rule across a jump of V; smooth V converge faster),
     the change being the estimate.
     """
-    if problem.l == 0:
-        return None, None
+    if 2.0 * problem.effective - 1.0 <= 0.0:
+        return None, None  # the zero-energy state is not normalizable: E leaves the threshold faster than linearly
     fine = _slope_on(problem, layout, p_c, max(refinement, 1))
     coarse = _slope_on(problem, layout, p_c, max(refinement, 1) - 1)
     best = fine + (fine - coarse) / 3.0
@@ -562,13 +623,13 @@ def _slope_on(problem: _ZeroEnergy, layout: _Layout, p_c: float, refinement: int
     # it u = b (R/r)**l, whose norm is b**2 R / (2l - 1).
     weights = shot.weights.copy()
     weights[-1] *= 0.5
-    tail = shot.decaying**2 * shot.r[-1] / (2 * problem.l - 1)
+    tail = shot.decaying**2 * shot.r[-1] / (2.0 * problem.effective - 1.0)
     norm = float(np.sum(weights * shot.u**2)) + tail
     return float(np.sum(weights * dv * shot.u**2) / norm)
 
 
 def threshold(potential, parameter: str, level: str = "1s", bracket=None, fixed=None, mass=1.0,
-              tol: float = 1e-9, plugins=None) -> ThresholdResult:
+              tol: float = 1e-9, plugins=None, units: str | None = None, dimension: int = 3) -> ThresholdResult:
     """The parameter value at which ``level`` reaches the continuum threshold E = V(inf).
 
     Parameters
@@ -578,19 +639,26 @@ def threshold(potential, parameter: str, level: str = "1s", bracket=None, fixed=
     parameter : str
         The parameter varied, e.g. ``"screening_length"``.
     level : str
-        Spectroscopic label, e.g. ``"1s"``, ``"2p"``.
+        Spectroscopic label, e.g. ``"1s"``, ``"2p"``; with j for a family with a
+        spin-orbit term, e.g. ``"1p3/2"`` (nuclear labels count n = nodes + 1).
     bracket : (a, b), optional
-        Values of the parameter (atomic units, or strings with units) between
+        Values of the parameter (the family's units, or strings with units) between
         which the level changes from bound to unbound.  Without it the search
         steps outward from the parameter's current value.
     fixed : dict, optional
         The other parameters; the rest take their defaults.  A value of
         ``parameter`` itself is where the search starts when no bracket is given.
     mass : float or str
-        Reduced mass, electron masses or particle names.
+        Reduced mass in the unit system's mass unit (electron masses, or
+        MeV/c**2 for a nuclear family), or particle names.
     tol : float
         Target relative error of the critical value (1e-13 ... 1e-2).
     plugins : path or list of paths, optional
+    units : {"atomic", "nuclear"}, optional
+        The unit system; by default the one the family is written in.
+    dimension : int
+        Space dimension (centrifugal term with L = l + (d-3)/2); L > -1/2 is
+        needed (in two dimensions an s level is bound by any net attraction).
 
     Returns
     -------
@@ -604,20 +672,34 @@ def threshold(potential, parameter: str, level: str = "1s", bracket=None, fixed=
         Unknown or non-numeric parameter, bad label, a bracket that does not
         bracket the threshold (the message gives the bound counts at its ends).
     """
-    from .units import parse_mass
+    from .units import unit_system
 
     base, spec = _resolve(potential, fixed, plugins, parameter)
-    n, l = parse_label(level, "level")
-    k = n - l - 1
-    mu = parse_mass(mass)
+    family = base.family
+    declared = getattr(family, "units", "atomic")
+    system = unit_system(declared if units is None else units)
+    if system.name != declared:
+        raise InputError(f"potential {family.name!r} is written in {declared} units; unit system "
+                         f"{system.name!r} is not supported for it (allowed: {declared})")
+    key = parse_level(level, system.name, "level")
+    n, l, j, k = key.n, key.l, key.j, key.nodes
+    if isinstance(dimension, bool) or not isinstance(dimension, (int, np.integer)) or not 2 <= dimension <= 10:
+        raise InputError(f"dimension must be a whole number from 2 to 10, got {dimension!r}")
+    if l + (dimension - 3) / 2.0 <= -0.5:
+        raise NoThresholdError(f"in {dimension} dimensions an s level (L = -1/2) is bound by any net "
+                               "attraction, however weak: there is no threshold to find")
+    if j is not None and not getattr(base, "has_spin_orbit", False):
+        raise InputError(f"level {level!r} names j, but potential {family.name!r} has no spin-orbit "
+                         "term; give the label without j (e.g. 1p)")
+    mu = system.parse_mass(mass)
     try:
         tol = float(tol)
     except (TypeError, ValueError):
         raise InputError(f"tol must be a number between 1e-13 and 0.01, got {tol!r}") from None
     if not 1e-13 <= tol <= 1e-2:
         raise InputError(f"tol must be between 1e-13 and 0.01, got {tol!r}")
-    problem = _ZeroEnergy(base, parameter, l, mu, tol)
-    family = base.family
+    problem = _ZeroEnergy(base, parameter, l, system.kinetic_mass(mu), tol, j=j, dimension=int(dimension))
+    wave = f"l = {l}" + ("" if j is None else f", j = {int(round(2 * j))}/2")
     given = _parse_bracket(bracket, spec, parameter, family.name)
     if given is None:
         p0 = float(base.parameters[parameter])
@@ -633,7 +715,7 @@ def threshold(potential, parameter: str, level: str = "1s", bracket=None, fixed=
             state = "bound" if n_lo > k else "not bound"
             raise InputError(
                 f"bracket {lo:.10g}:{hi:.10g} does not bracket the threshold of {level}: {level} is "
-                f"{state} at both ends ({n_lo} and {n_hi} bound levels with l = {l} there; the "
+                f"{state} at both ends ({n_lo} and {n_hi} bound levels with {wave} there; the "
                 f"threshold of {level} is where that count changes between {k} and {k + 1})")
         outer = (lo, hi)
     lo, hi = _narrow(problem, k, lo, hi, n_lo, n_hi)
@@ -657,31 +739,53 @@ def threshold(potential, parameter: str, level: str = "1s", bracket=None, fixed=
     scale = abs(value) if value != 0 else max(abs(outer[0]), abs(outer[1]))
     return ThresholdResult(
         potential=family.name, parameter=parameter, parameter_unit=spec.unit,
-        label=level_label(n, l), n=n, l=l, nodes=k, value=float(value),
+        label=key.label, n=n, l=l, nodes=k, value=float(value),
         error_estimate=float(error), grid_error=float(grid_error), box_error=float(box_error),
         converged=bool(error <= tol * scale), bound_side=bound_side, bracket=outer,
         box_radius=float(layout.r_max), slope=slope, slope_error=slope_error,
         fixed={kk: v for kk, v in base.parameters.items() if kk != parameter}, mass=mu, tol=tol,
+        j=j, units=system.name, energy_unit=system.energy_unit, dimension=int(dimension),
     )
 
 
 def thresholds(potential, parameter: str, nmax: int = 2, bracket=None, fixed=None, mass=1.0,
-               tol: float = 1e-9, plugins=None, levels: Sequence[str] | None = None) -> list[ThresholdResult]:
-    """The critical values of every level with n <= ``nmax`` (every l < n), or of ``levels``.
+               tol: float = 1e-9, plugins=None, levels: Sequence[str] | None = None,
+               lmax: int | None = None, spin_orbit: bool = False, units: str | None = None,
+               dimension: int = 3) -> list[ThresholdResult]:
+    """The critical values of every level with n <= ``nmax``, or of ``levels``.
 
-    Parameters are those of :func:`threshold`; ``bracket`` (if given) must
-    contain every threshold asked for.  Results are ordered by n, then l.
+    Atomic labels: every l < n (and l <= ``lmax`` if given).  Nuclear labels
+    (n = nodes + 1) need ``lmax``.  With ``spin_orbit`` each l > 0 gives both
+    j = l -+ 1/2.  The other parameters are those of :func:`threshold`;
+    ``bracket`` (if given) must contain every threshold asked for.  Results
+    are ordered by n, then l, then j.
     """
+    from .registry import Potential, get_family
+
+    family = potential.family if isinstance(potential, Potential) else get_family(potential, plugins)
+    system = units or getattr(family, "units", "atomic")
     if levels is None:
         if isinstance(nmax, bool) or not isinstance(nmax, (int, np.integer)) or not 1 <= nmax <= 30:
             raise InputError(f"nmax must be a whole number from 1 to 30, got {nmax!r}")
-        labels = [level_label(n, l) for n in range(1, int(nmax) + 1) for l in range(n)]
+        if lmax is not None and (isinstance(lmax, bool) or not isinstance(lmax, (int, np.integer)) or lmax < 0):
+            raise InputError(f"lmax must be a whole number >= 0, got {lmax!r}")
+        if system == "nuclear" and lmax is None:
+            raise InputError("nuclear labels count n = nodes + 1 for every l: give lmax as well as nmax")
+        labels = []
+        for n in range(1, int(nmax) + 1):
+            if system == "nuclear":
+                top = int(lmax)
+            else:
+                top = n - 1 if lmax is None else min(int(lmax), n - 1)
+            for l in range(top + 1):
+                js = ([1] if l == 0 else [2 * l - 1, 2 * l + 1]) if spin_orbit else [None]
+                labels += [level_label(n, l) + ("" if t is None else f"{t}/2") for t in js]
     else:
-        labels = [level_label(*parse_label(lab, "level")) for lab in levels]
+        labels = [parse_level(lab, system, "level").label for lab in levels]
         if not labels:
             raise InputError("levels: at least one level label is needed")
     return [threshold(potential, parameter, level=lab, bracket=bracket, fixed=fixed, mass=mass,
-                      tol=tol, plugins=plugins) for lab in labels]
+                      tol=tol, plugins=plugins, units=units, dimension=dimension) for lab in labels]
 
 
 def format_thresholds(results: Sequence[ThresholdResult]) -> str:
@@ -694,18 +798,22 @@ def format_thresholds(results: Sequence[ThresholdResult]) -> str:
     unit = first.parameter_unit
     fixed = ", ".join(f"{k} = {v:.10g}" if isinstance(v, float) else f"{k} = {v}"
                       for k, v in first.fixed.items())
+    mass_unit = "MeV/c^2" if first.units == "nuclear" else "electron masses"
     lines = [f"binding thresholds of {first.potential} in {first.parameter}"
              + (f" ({unit})" if unit else "") + (f"; {fixed}" if fixed else "")
-             + f"; reduced mass {first.mass:.10g}", ""]
+             + f"; reduced mass {first.mass:.10g} {mass_unit}", ""]
     header = ["level", f"{first.parameter}_c", "est.err", "conv", "bound", "approach"]
     rows = []
     for res in results:
-        approach = "quadratic" if res.l == 0 else f"linear, dE/dp = {res.slope:.4g}"
+        approach = res.approach.split(":")[0]
+        if res.slope is not None:
+            approach += f", dE/dp = {res.slope:.4g} {res.energy_unit}/{unit or 'unit'}"
         rows.append([res.label, f"{res.value:.12g}", f"{res.error_estimate:.1e}",
                      "yes" if res.converged else "NO", f"{res.bound_side} p_c", approach])
     lines += format_columns(header, rows, {1, 2})
-    lines += ["", "E -> V(inf) as p -> p_c; l = 0 levels leave the threshold quadratically and spread "
-              "without bound there, l >= 1 levels linearly and stay localized. Model calculation."]
+    lines += ["", "E -> V(inf) as p -> p_c. In three dimensions s levels leave the threshold "
+              "quadratically and spread without bound there; l >= 1 levels leave it linearly and "
+              "stay localized. Model calculation."]
     if any(not r.converged for r in results):
         lines.append("WARNING: some values did not reach the tolerance; their estimates are what was achieved")
     return "\n".join(lines) + "\n"

@@ -163,3 +163,37 @@ def test_parse_free():
     assert parse_free("screening_length:1angstrom:") == ("screening_length", ("1angstrom", None))
     with pytest.raises(InputError, match="KEY:LO:HI"):
         parse_free("Z:1")
+
+
+SPIN_ORBIT_OSCILLATOR = '''
+import numpy as np
+NAME = "fit_oscillator_with_constant_ls"
+PARAMETERS = {"omega": 1.0, "ls": 0.1}
+def V(r, omega, ls):
+    return 0.5 * omega**2 * r**2
+def spin_orbit(r, omega, ls):
+    return np.full_like(r, ls)
+def small_r(omega, ls):
+    return (0.0, 0.0)
+'''
+
+
+def test_fit_spin_orbit_levels_to_exact_oscillator_values(tmp_path):
+    # Textbook: E = omega (2 nodes + l + 3/2) + c <l.s>, <l.s> = l/2 (j = l + 1/2),
+    # -(l + 1)/2 (j = l - 1/2); targets from that formula for omega = 0.8, c = 0.03.
+    (tmp_path / "fit_oscillator_with_constant_ls.py").write_text(SPIN_ORBIT_OSCILLATOR)
+    omega, c = 0.8, 0.03
+
+    def exact(nodes, l, j):
+        return omega * (2 * nodes + l + 1.5) + c * (l / 2 if j > l else -(l + 1) / 2)
+
+    targets = [("1s1/2", exact(0, 0, 0.5), 1e-4), ("2p1/2", exact(0, 1, 0.5), 1e-4),
+               ("2p3/2", exact(0, 1, 1.5), 1e-4), ("3d5/2", exact(0, 2, 2.5), 1e-4)]
+    res = fit("fit_oscillator_with_constant_ls", targets, free=["omega", "ls"], plugins=[str(tmp_path)])
+    assert res.values["omega"] == pytest.approx(omega, abs=1e-3 * res.standard_errors["omega"])
+    assert res.values["ls"] == pytest.approx(c, abs=1e-3 * res.standard_errors["ls"])
+    # Confining: every level exists; 2s1/2 lies at 3.5 omega = 2.8, below 3d5/2 (2.86): spurious.
+    assert [lab for lab, _ in res.spurious] == ["2s1/2", "3d3/2"]
+    with pytest.raises(InputError, match="give j for every target"):
+        fit("fit_oscillator_with_constant_ls", targets[:2] + [("2p", 2.0, 1e-3)], free=["omega"],
+            plugins=[str(tmp_path)])

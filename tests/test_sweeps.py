@@ -237,3 +237,75 @@ def test_bad_input_is_named(kwargs, message):
 def test_bad_ranges(args, message):
     with pytest.raises(InputError, match=message):
         parameter_values(*args)
+
+
+SPIN_ORBIT_OSCILLATOR = '''
+import numpy as np
+NAME = "oscillator_with_constant_ls"
+PARAMETERS = {"omega": 1.0, "ls": 0.1}
+def V(r, omega, ls):
+    return 0.5 * omega**2 * r**2
+def spin_orbit(r, omega, ls):
+    return np.full_like(r, ls)
+def small_r(omega, ls):
+    return (0.0, 0.0)
+'''
+
+NUCLEAR_WELL = '''
+import numpy as np
+NAME = "nuclear_box_well"
+UNITS = "nuclear"
+PARAMETERS = {"depth": 40.0, "radius": 4.0}
+def V(r, depth, radius):
+    return np.where(r < radius, -depth, 0.0)
+def v_infinity(depth, radius):
+    return 0.0
+def small_r(depth, radius):
+    return (-depth, 0.0)
+def breakpoints(depth, radius):
+    return [radius]
+'''
+
+
+def test_spin_orbit_sweep_has_j_rows(tmp_path):
+    # Textbook: a constant spin-orbit term c shifts each level by c <l.s>, with
+    # <l.s> = l/2 for j = l + 1/2 and -(l+1)/2 for j = l - 1/2, on top of the
+    # oscillator levels omega (2 nodes + l + 3/2) (mass 1).
+    (tmp_path / "oscillator_with_constant_ls.py").write_text(SPIN_ORBIT_OSCILLATOR)
+    res = sweep("oscillator_with_constant_ls", vary={"ls": [0.0, 0.05, 0.2]}, l=[0, 1], count=2,
+                spin_orbit=True, plugins=[str(tmp_path)], tol=1e-10, workers=1)
+    assert res.channels == ((0, 0.5), (1, 0.5), (1, 1.5))
+    assert "j" in res.columns
+    assert res.labels() == ["1s1/2", "2s1/2", "2p1/2", "3p1/2", "2p3/2", "3p3/2"]
+    for label in res.labels():
+        track = res.level(label)
+        ls_factor = track.l / 2 if track.j > track.l else -(track.l + 1) / 2
+        exact = (2 * track.nodes + track.l + 1.5) + track.values["ls"] * ls_factor
+        assert np.all(np.abs(track.energy - exact) <= track.error_estimate + 1e-12)
+    row = next(r for r in res.rows() if r["label"] == "2p3/2")
+    assert row["j"] == 1.5
+
+
+def test_nuclear_sweep_in_mev(tmp_path):
+    # Textbook square well, l = 0: k cot(k R) = -kappa, with k = sqrt(2 mu (V0 + E))/(hbar c),
+    # kappa = sqrt(-2 mu E)/(hbar c); hbar c and the neutron mass from scipy.constants (CODATA).
+    from scipy import constants as const
+    from scipy.optimize import brentq
+
+    (tmp_path / "nuclear_box_well.py").write_text(NUCLEAR_WELL)
+    res = sweep("nuclear_box_well", vary={"depth": [20.0, 40.0]}, l=0, count=1, mass="neutron",
+                plugins=[str(tmp_path)], tol=1e-10, workers=1)
+    assert res.units == "nuclear" and res.energy_unit == "MeV"
+    hbar_c = const.hbar * const.c / (const.mega * const.e * const.femto)
+    mu = const.physical_constants["neutron mass energy equivalent in MeV"][0]
+    track = res.level("1s")
+    for v0, energy, err in zip(track.values["depth"], track.energy, track.error_estimate):
+        big_k2 = 2 * mu * v0 / hbar_c**2
+
+        def matching(k):  # the ground state has pi/2 < k R < pi
+            return k / math.tan(k * 4.0) + math.sqrt(big_k2 - k * k)
+
+        k = brentq(matching, math.pi / 8.0 * (1 + 1e-12), min(math.pi / 4.0, math.sqrt(big_k2)) * (1 - 1e-12))
+        exact = (hbar_c * k) ** 2 / (2 * mu) - v0
+        assert abs(energy - exact) <= err + 1e-10 * abs(exact)
+    assert res.to_csv().splitlines()[1].endswith(",MeV")

@@ -21,6 +21,10 @@ Outside references used here, each named again beside its test:
   exact zero-energy state with scipy.integrate.quad.
 * Scaling (textbook): for V = -Z exp(-r/D)/r and reduced mass mu, r -> r/(mu Z)
   maps the problem onto mu = Z = 1, so D_c(mu, Z) = D_c(1, 1) / (mu Z).
+* Nuclear units: the same square-well condition with K = sqrt(2 mu c**2 V0)/(hbar c),
+  hbar c and the neutron mass from scipy.constants (CODATA).
+* d dimensions (textbook): with L = l + (d-3)/2 the zero-energy state of a square
+  well appears where J_{L-1/2}(K R) = 0; for d = 2, l = 1 that is J_0(K R) = 0.
 """
 
 from __future__ import annotations
@@ -225,3 +229,56 @@ def test_thresholds_up_to_nmax_are_ordered_and_distinct():
     # Published order (Rogers et al. 1970, from memory): D_c(1s) < D_c(2s) < D_c(2p).
     values = [r.value for r in results]
     assert values == sorted(values)
+
+
+NUCLEAR_SQUARE_WELL = '''
+import numpy as np
+NAME = "nuclear_square_well_fixture"
+UNITS = "nuclear"
+PARAMETERS = {"depth": 10.0, "radius": 3.0}
+def V(r, depth, radius):
+    return np.where(r < radius, -depth, 0.0)
+def v_infinity(depth, radius):
+    return 0.0
+def small_r(depth, radius):
+    return (-depth, 0.0)
+def breakpoints(depth, radius):
+    return [radius]
+'''
+
+
+def test_nuclear_units_square_well(tmp_path):
+    # Textbook condition K R = pi/2 with K = sqrt(2 mu c^2 V0)/(hbar c); CODATA via scipy.constants.
+    from scipy import constants as const
+
+    (tmp_path / "nuclear_square_well_fixture.py").write_text(NUCLEAR_SQUARE_WELL)
+    res = threshold("nuclear_square_well_fixture", "depth", level="1s", mass="neutron",
+                    plugins=[str(tmp_path)])
+    hbar_c = const.hbar * const.c / (const.mega * const.e * const.femto)  # MeV fm
+    mu = const.physical_constants["neutron mass energy equivalent in MeV"][0]
+    exact = (math.pi / 2) ** 2 * hbar_c**2 / (2.0 * mu * 3.0**2)
+    assert res.units == "nuclear" and res.energy_unit == "MeV"
+    assert abs(res.value - exact) <= max(5 * res.error_estimate, 1e-10 * exact)
+    # Nuclear labels count n = nodes + 1: the second p level is 2p, with one node.
+    two_p = threshold("nuclear_square_well_fixture", "depth", level="2p", mass="neutron",
+                      plugins=[str(tmp_path)], bracket=(50.0, 400.0))
+    assert two_p.nodes == 1
+    x = brentq(lambda t: spherical_jn(0, t), 5.0, 7.0)  # second zero of j_0: 2 pi
+    assert two_p.value == pytest.approx(x**2 * hbar_c**2 / (2.0 * mu * 9.0), rel=1e-9)
+
+
+def test_two_dimensions(plugin_dir):
+    # Textbook: in d = 2 the l = 1 zero-energy state of a square well appears at J_0(K R) = 0.
+    res = threshold("square_well_fixture", "depth", level="2p", plugins=[plugin_dir], dimension=2,
+                    bracket=(1.0, 5.0))
+    assert res.value == pytest.approx(jn_zeros(0, 1)[0] ** 2 / 2.0, rel=1e-9)
+    assert res.approach.startswith("linear up to a logarithm")
+    with pytest.raises(NoThresholdError, match="any net"):
+        threshold("square_well_fixture", "depth", level="1s", plugins=[plugin_dir], dimension=2)
+
+
+def test_spin_orbit_labels_need_a_spin_orbit_term():
+    with pytest.raises(InputError, match="no spin-orbit term"):
+        threshold("yukawa", "screening_length", level="2p3/2")
+    with pytest.raises(InputError, match="j = 5/2 is not allowed for l = 1"):
+        threshold("yukawa", "screening_length", level="2p5/2")
