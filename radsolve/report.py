@@ -300,12 +300,14 @@ def families_list(families: dict[str, Any]) -> str:
     """
     if not families:
         return "no potential families found\n"
-    lines = [f"{len(families)} potential families (defaults in atomic units); "
+    lines = [f"{len(families)} potential families (defaults in atomic units unless marked); "
              "'radsolve potentials NAME' shows one in full", ""]
     for name in sorted(families):
         fam = families[name]
         desc = family_description(fam)
-        lines += _wrap(f"{name}" + (f" -- {desc}" if desc else ""), indent="    ")
+        system = getattr(fam, "units", "atomic")
+        mark = f" [{system} units]" if system != "atomic" else ""
+        lines += _wrap(f"{name}{mark}" + (f" -- {desc}" if desc else ""), indent="    ")
         params = dict(fam.parameters)
         for key, spec in params.items():
             desc = f"  -- {spec.description}" if spec.description else ""
