@@ -13,7 +13,8 @@ Sources of the reference values:
   mass evaluation, from memory), compared loosely, since a mean field only
   approximates them;
 * hydrogen-like levels and Airy zeros for the Cornell limits: textbook
-  formulas, zeros from scipy.special.ai_zeros (reference library);
+  formulas, zeros from scipy.special.ai_zeros (reference library); the
+  psi(2S) - J/psi mass difference (Particle Data Group, from memory);
 * the 3D harmonic oscillator E = hbar omega (2 n_r + l + 3/2): textbook
   formula;
 * masses, hbar c, alpha, e and epsilon_0: CODATA via scipy.constants.
@@ -185,6 +186,15 @@ def test_cornell_linear_limit():
     scale = (sigma**2 * HBARC**2 / (2 * mu)) ** (1 / 3)
     zeros = ai_zeros(5)[0]
     assert [lev.energy for lev in res.levels] == pytest.approx(list(-zeros * scale), rel=1e-9)
+
+
+def test_cornell_charmonium_defaults_give_the_psi_prime_splitting():
+    # Sources: M(psi(2S)) - M(J/psi) = 3686.1 - 3096.9 = 589.2 MeV (Particle Data Group,
+    # from memory); the defaults are the Eichten et al. (1980) fit with m_c = 1.84 GeV
+    # (from memory), which was made to reproduce it.  Spin-dependent forces are absent
+    # from the model, so only this S-wave splitting is compared, to 1 %.
+    res = radsolve.solve("cornell", l=0, count=2, mass=1840.0 / 2, tol=1e-10)
+    assert res.levels[1].energy - res.levels[0].energy == pytest.approx(589.2, rel=1e-2)
 
 
 def test_cornell_refuses_no_potential():
