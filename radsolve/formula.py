@@ -348,7 +348,7 @@ def formula_family(expr: str, units: str = "atomic", **values: Any):
         description=f"V(r) = {formula.expr}",
         formula=f"V(r) = {formula.expr}   (r in {length}, V in {energy})",
         doc="A potential given as a formula; it has no exact levels.",
-        source=f"formula {formula.expr!r}",
+        source=f"formula {formula.expr!r} ({units} units)",
         rebuild=(formula_potential, (formula.expr,), {"units": units, **{
             k: float(defaults[k].default) for k in formula.parameters}}),
     )
