@@ -562,8 +562,9 @@ def transitions(potential, nmax: int, mass=1.0, tol: float = 1e-10, method: str 
     levels each, so that all levels share their grids; levels with n > nmax
     are kept only as lower levels of those asked for.  If a lower level could
     lie beyond that set (possible only for l-1 partners of potentials whose
-    spectrum depends strongly on l), the count is doubled once more, and a
-    state whose lifetime still may miss a channel is marked incomplete.
+    spectrum depends strongly on l), the solve is repeated with two more
+    levels per l (twice at most), and a state whose lifetime still may miss
+    a channel is marked incomplete.
 
     Parameters
     ----------
@@ -588,11 +589,12 @@ def transitions(potential, nmax: int, mass=1.0, tol: float = 1e-10, method: str 
 
     nmax = _check_nmax(nmax)
     count = nmax
-    for _ in range(3):
+    for attempt in range(3):
         result = solve(potential, l=list(range(nmax)), count=count, mass=mass, tol=tol,
                        method=method, plugins=plugins)
         found = transitions_from(result, nmax, dipole_charge, occupied)
-        if all(s.complete for s in found.states) or count >= 4 * nmax:
+        if all(s.complete for s in found.states) or attempt == 2:
             return found
-        count *= 2
+        # the next levels of the l-1 channels are what a lifetime may miss
+        count += 2
     return found

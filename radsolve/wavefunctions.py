@@ -267,8 +267,11 @@ def prepare(sample, lam: float, correction_power: float = 1.0) -> SampleGrid:
     x = np.log(r) + (r / scale if math.isfinite(scale) else 0.0)
     steps = np.diff(x)
     if steps.size and np.max(np.abs(steps - sample.step)) > 1e-7 * max(sample.step, 1e-300) + 1e-9:
-        raise RuntimeError("radsolve.wavefunctions: the sample's grid is not uniform in "
-                           "x = ln r + r/s; the grid mapping has changed")
+        bad = int(np.argmax(np.abs(steps - sample.step) > 1e-7 * sample.step + 1e-9))
+        raise RuntimeError(
+            "radsolve.wavefunctions: the solver's grid is not uniform in x = ln r + r/s beyond "
+            f"r = {r[bad]:.6g} bohr (box {r[-1]:.6g} bohr, s = {scale:.6g} bohr); observables "
+            "cannot be computed on it")
     u = np.array(sample.u, dtype=float)
     peak = float(np.max(np.abs(u)))
     if peak == 0.0:
