@@ -55,8 +55,12 @@ MAX_REFINEMENTS = 7
 MAX_POINTS = 400_000
 #: Initial box, in units of the inner length of the potential.
 _INITIAL_BOX = 30.0
-#: Largest box, in units of the inner length, for potentials of infinite range.
+#: Largest box, in units of the inner length, searched for levels asked of a
+#: potential of infinite range.
 _LARGEST_BOX = 1e10
+#: No box is larger than this multiple of the inner boundary radius (the
+#: number of grid points grows with the logarithm of the ratio).
+_LARGEST_RATIO = 1e40
 #: A short-range potential is followed out to this multiple of its range.
 _RANGE_MARGIN = 20.0
 
@@ -96,6 +100,8 @@ class _BoxPlan:
     bound_counts: dict
     notes: tuple[str, ...]
     search_radius: float = 0.0  # the box in which bound levels were counted
+    largest_radius: float = math.inf  # no box beyond this radius
+    anchor: float | None = None
 
 
 def _validate(l, count, tol, method, dimension) -> tuple[list[int], int, float, list[str], int]:
@@ -230,6 +236,7 @@ def _plan_box(channels, count, mass, tol, cls) -> _BoxPlan:
         limit = max(_RANGE_MARGIN * max(ranges), radius)
     else:
         limit = _LARGEST_BOX * r_in
+    largest = _LARGEST_RATIO * r_min
     confining = all(ch.profile.confining for ch in channels)
     nepers = 0.5 * math.log(1.0 / (1e-3 * tol)) + 3.0
     notes: list[str] = []
@@ -249,7 +256,7 @@ def _plan_box(channels, count, mass, tol, cls) -> _BoxPlan:
                 needed = max(needed, probing.decay_radius(ch.potential, ch.effective_l, mass, float(energies[-1]), r_min, nepers))
         short = [ch.key for ch in channels if found[ch.key] < count]
         if needed > radius:
-            radius = min(1.3 * needed, max(limit, 1.3 * needed))
+            radius = min(1.3 * needed, largest)
             continue
         if short and not confining and radius < limit:
             radius = min(4.0 * radius, limit)
@@ -263,13 +270,18 @@ def _plan_box(channels, count, mass, tol, cls) -> _BoxPlan:
     bound_counts = {ch.key: (found[ch.key] if found[ch.key] < count else None) for ch in channels}
     final_radius = needed if needed > 0 else radius
     final_radius = max(final_radius, 2.0 * biggest_feature, 4.0 * r_in)
+    final_radius = min(final_radius, largest)
     if not confining:
-        final_radius = _verify_box(channels, wanted, mass, tol, cls, inner_radius, r_min, final_radius, anchor)
+        final_radius = _verify_box(channels, wanted, mass, tol, cls, inner_radius, r_min, final_radius, anchor, largest)
     span = _span(r_min, final_radius, COARSE_STEP, anchor)
-    return _BoxPlan(span, inner_radius, wanted, bound_counts, tuple(notes), max(radius, final_radius))
+    if final_radius >= largest:
+        notes.append(f"the box reached its largest radius, {largest:.3g}; the most weakly bound levels "
+                     "may be limited by it (see their estimates)")
+    return _BoxPlan(span, inner_radius, wanted, bound_counts, tuple(notes), max(radius, final_radius),
+                    largest, anchor)
 
 
-def _verify_box(channels, wanted, mass, tol, cls, inner_radius, r_min, radius, anchor) -> float:
+def _verify_box(channels, wanted, mass, tol, cls, inner_radius, r_min, radius, anchor, largest) -> float:
     """Grow the outer radius until the wall shifts no wanted level by more than 1e-3 tol.
 
     The WKB decay estimate ignores the amplitude's prefactor, which is large
@@ -293,25 +305,26 @@ def _verify_box(channels, wanted, mass, tol, cls, inner_radius, r_min, radius, a
                 if shift > target:
                     kappa = _decay_rate(grid, values, ch.centrifugal, mass, energy)
                     growth = max(growth, (math.log(shift / target) + 1.0) / (2.0 * kappa))
-        if growth == 0.0:
+        if growth == 0.0 or radius >= largest:
             return radius
-        radius += min(growth, 4.0 * radius)
+        radius = min(radius + min(growth, 4.0 * radius), largest)
     return radius
 
 
-def _grown(plan: _BoxPlan, growth: float) -> _BoxPlan:
-    """The same plan with the outer wall moved out by ``growth`` (at most 4x).
+def _grown(plan: _BoxPlan, growth: float) -> _BoxPlan | None:
+    """The same plan with the outer wall moved out by ``growth`` (at most 4x), or None.
 
-    The mapping and the inner end stay as they were (so an anchored
-    breakpoint stays a grid point); only whole coarse steps are added.
+    None when the box is already as large as allowed.  The whole grid family
+    is rebuilt (new crossover scale, breakpoint re-anchored): the refinement
+    starts again from the coarsest grid anyway.
     """
     span = plan.span
-    radius = span.r_max + min(growth, 4.0 * span.r_max)
-    extra = float(mapping_x(radius, span.scale)) - span.x_hi
-    steps = max(int(np.ceil(extra / span.coarse_step)), 1)
-    new = GridSpan(x_lo=span.x_lo, x_hi=span.x_hi + steps * span.coarse_step, scale=span.scale, coarse_step=span.coarse_step)
+    if span.r_max >= plan.largest_radius * (1 - 1e-12):
+        return None
+    radius = min(span.r_max + min(growth, 4.0 * span.r_max), plan.largest_radius)
+    new = _span(span.r_min, radius, span.coarse_step, plan.anchor)
     return _BoxPlan(new, plan.inner_radius, plan.wanted, plan.bound_counts, plan.notes,
-                    max(plan.search_radius, new.r_max))
+                    max(plan.search_radius, new.r_max), plan.largest_radius, plan.anchor)
 
 
 def potential_on_grid(pot, r: np.ndarray, breakpoints) -> np.ndarray:
@@ -428,7 +441,7 @@ def _inner_boundary_error(grid, u_row, inner, mass, exponent, values, energy) ->
     return float(hard_wall * min(correction, 1.0))
 
 
-def _run_method(channels, plan: _BoxPlan, mass, tol, cls: type[RadialSolver]):
+def _run_method(channels, plan: _BoxPlan, mass, tol, cls: type[RadialSolver], may_grow: bool = True):
     """Solve on nested grids until every level meets tol, or rounding noise wins.
 
     Returns ``(best, samples)``: for each channel key a list of per-level
@@ -471,7 +484,7 @@ def _run_method(channels, plan: _BoxPlan, mass, tol, cls: type[RadialSolver]):
                 met = len(series) >= 3 and levels[k]["error"] <= tol * ch.energy_scale(levels[k]["energy"])
                 levels[k]["converged"] = met
                 all_met &= met
-        if refinement == 1 and _wall_growth(best, tol, channels) > 0.0:
+        if may_grow and refinement == 1 and _wall_growth(best, tol, channels) > 0.0:
             break  # the wall is too close: the caller grows the box before refining further
         if refinement >= 2 and all_met:
             break
@@ -575,17 +588,40 @@ def solve(
     plan = _plan_box(channels, count, kinetic, tol, solver_class(methods[0]))
     runs = {}
     for m in methods:
-        for _attempt in range(4):
-            runs[m] = _run_method(channels, plan, kinetic, tol, solver_class(m))
+        attempts = 4
+        for attempt in range(attempts):
+            may_grow = attempt < attempts - 1 and _grown(plan, 1.0) is not None
+            runs[m] = _run_method(channels, plan, kinetic, tol, solver_class(m), may_grow)
             growth = _wall_growth(runs[m][0], tol, channels)
-            if growth == 0.0:
+            grown = _grown(plan, growth) if growth > 0.0 and may_grow else None
+            if grown is None:
                 break
-            plan = _grown(plan, growth)
+            plan = grown
 
     levels: list[Level] = []
+    kept = dict(plan.wanted)
+    bound_counts = dict(plan.bound_counts)
+    threshold_notes: list[str] = []
     for ch in channels:
         for k in range(plan.wanted[ch.key]):
             per = {m: runs[m][0][ch.key][k] for m in methods}
+            if not ch.profile.confining and any(p["energy"] + p["error"] >= ch.profile.v_infinity for p in per.values()):
+                # Bound on a finite grid, but not distinguishable from the
+                # threshold once extrapolated: not counted as bound.
+                worst = max(per.values(), key=lambda p: p["energy"])
+                if worst["energy"] >= ch.profile.v_infinity:
+                    threshold_notes.append(
+                        f"the next level for {_key_text(ch.key)} comes out at or above the threshold "
+                        f"once extrapolated (a state of the box, not a bound level): not counted"
+                    )
+                else:
+                    threshold_notes.append(
+                        f"the next level for {_key_text(ch.key)} lies within its error estimate "
+                        f"({worst['error']:.2g} {system.energy_unit}) of the threshold: not counted as bound"
+                    )
+                kept[ch.key] = k
+                bound_counts[ch.key] = k
+                break
             n, label = _label(k, ch.l, ch.j, system.name)
             best_method = min(methods, key=lambda m: per[m]["error"])
             best = per[best_method]
@@ -618,7 +654,7 @@ def solve(
                 )
             )
 
-    message = _message(channels, plan, levels, count, tol, kinetic, system)
+    message = _message(channels, plan, kept, bound_counts, levels, count, tol, kinetic, system, threshold_notes)
     return SolveResult(
         levels=levels,
         success=all(lev.converged for lev in levels),
@@ -627,8 +663,8 @@ def solve(
         mass=mu,
         tol=tol,
         method=method,
-        bound_counts={_key_text(ch.key): plan.bound_counts[ch.key] for ch in channels} if spin_orbit
-        else {ch.l: plan.bound_counts[ch.key] for ch in channels},
+        bound_counts={_key_text(ch.key): bound_counts[ch.key] for ch in channels} if spin_orbit
+        else {ch.l: bound_counts[ch.key] for ch in channels},
         v_infinity=min(ch.profile.v_infinity for ch in channels),
         units=system.name,
         dimension=dimension,
@@ -640,16 +676,17 @@ def _key_text(key: Key) -> str:
     return f"l={l}" if j is None else f"l={l},j={int(round(2 * j))}/2"
 
 
-def _message(channels, plan, levels, count, tol, kinetic, system) -> str:
+def _message(channels, plan, kept, bound_counts, levels, count, tol, kinetic, system, threshold_notes) -> str:
     parts = []
-    none = [_key_text(ch.key) for ch in channels if plan.wanted[ch.key] == 0]
-    fewer = [f"{_key_text(ch.key)}: {plan.wanted[ch.key]}" for ch in channels
-             if plan.wanted[ch.key] and plan.bound_counts[ch.key] is not None]
+    none = [_key_text(ch.key) for ch in channels if kept[ch.key] == 0]
+    fewer = [f"{_key_text(ch.key)}: {kept[ch.key]}" for ch in channels
+             if kept[ch.key] and bound_counts[ch.key] is not None]
     if none:
         parts.append("no bound level for " + ", ".join(none))
     if fewer:
         parts.append(f"fewer bound levels than the {count} asked: " + "; ".join(fewer))
-    short = [ch for ch in channels if plan.bound_counts[ch.key] is not None and not ch.profile.confining]
+    parts.extend(threshold_notes)
+    short = [ch for ch in channels if bound_counts[ch.key] is not None and not ch.profile.confining]
     if short:
         v_inf = min(ch.profile.v_infinity for ch in short)
         r_max = plan.search_radius

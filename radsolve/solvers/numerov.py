@@ -81,6 +81,10 @@ class NumerovShooting(RadialSolver):
         if m is None:
             m, s = self._match_and_start(f)
         t = self._h2 * f / 12.0
+        # Where h**2 F/12 nears 1 the grid cannot follow the decay (deep in a
+        # forbidden region, several e-folds per step); any d > 2 there gives a
+        # monotone, node-free decay, which is all that region contributes.
+        t = np.minimum(t, 0.9)
         d = 2.0 + 12.0 * t / (1.0 - t)
         a = self.inner
         # outward from the power law at the origin: w[a] = ghost_ratio * w[a+1]
@@ -155,7 +159,10 @@ class NumerovShooting(RadialSolver):
         m, s, *_ = self._shoot(mid)
         f_lo, f_hi = self._mismatch(lo, m, s), self._mismatch(hi, m, s)
         if f_lo * f_hi < 0:
-            return brentq(self._mismatch, lo, hi, args=(m, s), xtol=1e-300, rtol=1e-15, maxiter=200)
+            try:
+                return brentq(self._mismatch, lo, hi, args=(m, s), xtol=1e-300, rtol=1e-15, maxiter=200)
+            except ValueError:
+                pass  # a non-finite mismatch inside the bracket: use the node count
         # Fall back to bisection on the node count alone.
         while hi - lo > 4e-16 * max(abs(lo), abs(hi)):
             mid = 0.5 * (lo + hi)
