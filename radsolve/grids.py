@@ -96,16 +96,18 @@ def radius_from_x(x, scale: float) -> np.ndarray:
     and large x (where e^x overflows) are both exact to rounding.
     """
     x = np.asarray(x, dtype=float)
-    # Starting guess: the log regime below x(s), the linear regime above.
-    r = np.where(x < np.log(scale) + 1.0, np.exp(np.minimum(x, 700.0)), scale * (x - np.log(scale)))
-    r = np.maximum(r, np.exp(np.minimum(x, 700.0)) * 1e-3)
-    t = np.log(r)
-    for _ in range(60):
-        # f(t) = t + e^t/s - x;  f'(t) = 1 + e^t/s  (monotone, convex: Newton converges)
-        et = np.exp(t)
-        delta = (t + et / scale - x) / (1.0 + et / scale)
+    log_s = np.log(scale)
+    # The root t = ln r of f(t) = t + e^t/s - x lies below both x (the log
+    # regime) and ln(s (x - ln s)) (the linear regime); starting from the
+    # smaller, f is convex and increasing, so Newton steps approach the root
+    # without overflowing e^t.
+    linear_guess = log_s + np.log(np.maximum(x - log_s, 1e-300))
+    t = np.minimum(x, np.where(x - log_s > 0, np.maximum(linear_guess, log_s), x))
+    for _ in range(100):
+        et = np.exp(t - log_s)  # e^t / s
+        delta = (t + et - x) / (1.0 + et)
         t = t - delta
-        if np.max(np.abs(delta)) < 1e-15:
+        if np.max(np.abs(delta)) < 1e-15 * max(1.0, float(np.max(np.abs(t)))):
             break
     return np.exp(t)
 
