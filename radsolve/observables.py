@@ -2,7 +2,7 @@
 
 Every quantity is computed on each grid of the level's refinement sequence
 (``Level.samples``) and Richardson-extrapolated across them, exactly as the
-energies are (:func:`radsolve.spectrum._richardson`), so each value carries
+energies are (:func:`radsolve.spectrum.richardson`), so each value carries
 an error estimate: the larger of the last two changes of the extrapolated
 value, plus the estimated effect of the origin power law and of the outer
 wall where they matter.
@@ -291,10 +291,10 @@ class State:
     def _extrapolate(self, values: list[float], unit: str, scale: float, extra: float = 0.0,
                      orders: tuple[int, ...] | None = None) -> Estimate:
         """Richardson across the samples; ``scale`` sets the rounding floor, ``extra`` is added."""
-        from .spectrum import _richardson
+        from .spectrum import richardson
 
         rounding = _rounding(self.method, self.grids[-1].r.size)
-        value, estimate, observed = _richardson(list(values), orders or self.orders, rounding)
+        value, estimate, observed = richardson(list(values), orders or self.orders, rounding)
         estimate = max(estimate, rounding * scale) + extra
         converged = math.isfinite(estimate) and estimate <= self._target(value, 0.0)
         return Estimate(float(value), float(estimate), unit, observed, bool(converged))

@@ -320,7 +320,7 @@ def common_samples(a: list[SampleGrid], b: list[SampleGrid]) -> int:
 
 
 def _dipole(level_a, grids_a: list[SampleGrid], level_b, grids_b: list[SampleGrid], tol: float) -> Estimate:
-    from .spectrum import _richardson
+    from .spectrum import richardson
 
     k = common_samples(grids_a, grids_b)
     if k == 0:
@@ -334,7 +334,7 @@ def _dipole(level_a, grids_a: list[SampleGrid], level_b, grids_b: list[SampleGri
     ma = level_a.sample_method or "fd"
     mb = level_b.sample_method or "fd"
     rounding = max(_rounding(ma, grids_a[k - 1].r.size), _rounding(mb, grids_b[k - 1].r.size))
-    value, estimate, observed = _richardson(values, _orders(ma, mb), rounding)
+    value, estimate, observed = richardson(values, _orders(ma, mb), rounding)
     estimate = max(estimate, rounding * scale)
     converged = math.isfinite(estimate) and estimate <= 100.0 * tol * max(abs(value), 1e-3 * scale)
     return Estimate(float(value), float(estimate), "bohr", observed, bool(converged))

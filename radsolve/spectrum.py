@@ -343,7 +343,7 @@ def potential_on_grid(pot, r: np.ndarray, breakpoints) -> np.ndarray:
     return values
 
 
-def _richardson(energies: list[float], orders: tuple[int, ...], relative_rounding: float = 1e-14):
+def richardson(energies: list[float], orders: tuple[int, ...], relative_rounding: float = 1e-14):
     """Extrapolate energies on grids of steps h, h/2, h/4, ... to h = 0.
 
     ``orders`` are the powers of h expected in the error.  When the observed
@@ -470,7 +470,7 @@ def _run_method(channels, plan: _BoxPlan, mass, tol, cls: type[RadialSolver], ma
             levels = best[ch.key]
             for k in range(want):
                 series = [step[k][0] for step in history[ch.key]]
-                value, estimate, observed = _richardson(series, cls.error_orders, cls.relative_rounding(grid.size))
+                value, estimate, observed = richardson(series, cls.error_orders, cls.relative_rounding(grid.size))
                 wall = _box_error(grid, u[k], values, ch.centrifugal, mass, value)
                 estimate += wall
                 estimate += _inner_boundary_error(grid, u[k], inner, mass, ch.exponent, values, value)
@@ -704,3 +704,7 @@ def _message(channels, plan, kept, bound_counts, levels, count, tol, kinetic, sy
     if not levels:
         return "no bound state: " + "; ".join(parts)
     return "; ".join(parts) if parts else f"all {len(levels)} levels converged to tol = {tol:.1e}"
+
+
+# Former private name, still imported by radsolve.thresholds.
+_richardson = richardson
