@@ -65,6 +65,10 @@ LEVEL_COLUMNS = ("l", "j", "n", "nodes", "label", "energy", "error_estimate", "c
 CLUSTER_TIMEOUT = 10.0
 
 
+class SweepPointFailed(RuntimeError):
+    """The solver failed unexpectedly at one point (a bug, not bad input); the message names the point."""
+
+
 class SweepInterrupted(KeyboardInterrupt):
     """Ctrl-C during a sweep; ``partial`` is the :class:`SweepResult` of the points finished.
 
@@ -219,6 +223,11 @@ def _solve_point(settings: _Settings, values: tuple) -> tuple:
                        dimension=settings.dimension, units=settings.units)
     except RadsolveError as exc:
         raise type(exc)(f"sweep point {_describe_point(settings.keys, values)}: {exc}") from None
+    except (KeyboardInterrupt, MemoryError):
+        raise
+    except Exception as exc:  # a solver bug: say where, so that it can be reproduced
+        raise SweepPointFailed(f"sweep point {_describe_point(settings.keys, values)}: the solver "
+                               f"failed with {type(exc).__name__}: {exc}") from exc
     return _block(result, settings.channels, settings.count)
 
 

@@ -533,9 +533,9 @@ def _parse_bracket(bracket, spec, parameter, family_name) -> tuple[float, float]
 
 
 def _richardson(series):
-    from .spectrum import _richardson as extrapolate
+    from .spectrum import richardson  # Numerov's error series in h**4, h**6, ...
 
-    return extrapolate(series, (4, 6, 8, 10))
+    return richardson(series, (4, 6, 8, 10))
 
 
 def _critical_on(problem: _ZeroEnergy, layout: _Layout, refinement: int, lo: float, hi: float,
