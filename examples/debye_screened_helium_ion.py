@@ -28,7 +28,7 @@ not predictions of when a real ion in a real plasma loses its bound states.
 
 import numpy as np
 
-from radsolve import sweep, thresholds
+from radsolve import critical_values, sweep
 from radsolve.sweep_plotting import plot_sweep
 
 
@@ -39,7 +39,7 @@ def main() -> None:
     print(f"{len(result)} rows written to debye_he_plus.csv "
           f"({result.unconverged} bound levels not converged)")
 
-    critical = thresholds("yukawa", "screening_length", nmax=3, fixed={"Z": 2.0},
+    critical = critical_values("yukawa", "screening_length", nmax=3, fixed={"Z": 2.0},
                           mass="electron+alpha", bracket=(0.1, 30.0))
     for res in critical:
         print(f"  {res.label}: bound for D > {res.value:.9f} +- {res.error_estimate:.1e} bohr")

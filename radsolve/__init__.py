@@ -8,8 +8,8 @@ The public API (imported on first use, so that the command line starts fast):
 - :func:`families` — the potential families found (built-in and plug-ins);
 - :func:`sweep` — the levels over a grid of parameter values (serial, worker
   processes or a Dask cluster);
-- :func:`threshold`, :func:`thresholds` — the parameter value at which a level
-  reaches the continuum, with an error estimate;
+- :func:`threshold`, :func:`critical_values` — the parameter value at which a
+  level (or every level up to some n) reaches the continuum, with an error estimate;
 - :func:`fit` — parameters fitted to target levels, with standard errors;
 - :func:`state` — one level as a :class:`State`: ⟨r^k⟩, ⟨V⟩, ⟨T⟩, P(r < R),
   turning points, contact density, virial and Hellmann–Feynman checks, each
@@ -42,7 +42,7 @@ _EXPORTS = {
     "make_family": ("radsolve.registry", "make_family"),
     "sweep": ("radsolve.sweeps", "sweep"),
     "threshold": ("radsolve.thresholds", "threshold"),
-    "thresholds": ("radsolve.thresholds", "thresholds"),
+    "critical_values": ("radsolve.thresholds", "critical_values"),
     "fit": ("radsolve.fitting", "fit"),
     "state": ("radsolve.observables", "state"),
     "State": ("radsolve.observables", "State"),

@@ -649,7 +649,7 @@ def threshold_command(
 
         from radsolve.errors import InputError
         from radsolve.registry import get_family
-        from radsolve.thresholds import format_thresholds, thresholds
+        from radsolve.thresholds import critical_values, format_thresholds
 
         params = parse_assignments(param)
         if level and nmax is not None:
@@ -667,7 +667,7 @@ def threshold_command(
                 raise InputError(f"--bracket {bracket!r}: expected A:B, two values of {vary}, "
                                  "e.g. --bracket 0.5:2")
             pair = tuple(parts)
-        results = thresholds(family.name, vary, nmax=nmax or 1, bracket=pair, fixed=params, mass=mu,
+        results = critical_values(family.name, vary, nmax=nmax or 1, bracket=pair, fixed=params, mass=mu,
                              tol=tol, plugins=_plugin_dirs(plugins),
                              levels=None if nmax is not None else (level or ["1s"]),
                              lmax=lmax, spin_orbit=spin_orbit, dimension=dimension)

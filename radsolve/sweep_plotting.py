@@ -97,13 +97,15 @@ def _default_title(result) -> str:
 
 
 def _plot_line(result, path, unit, factor, thresholds, title) -> None:
+    from matplotlib.lines import Line2D
+
     key = result.parameters[0]
     p_unit = result.parameter_units.get(key, "")
     labels = result.labels()
     colors = _colors(len(labels))
-    fig, axes = _figure(8.0, 6.2, 2, 1, sharex=True,
-                        gridspec_kw={"height_ratios": [4.0, 0.35 + 0.18 * len(labels)]})
-    ax, strip = axes[0, 0], axes[1, 0]
+    fig, axes = _figure(10.0, 8.6, 3, 1, sharex=True,
+                        gridspec_kw={"height_ratios": [3.0, 2.2, 0.35 + 0.18 * len(labels)]})
+    ax, bax, strip = axes[0, 0], axes[1, 0], axes[2, 0]
     x_all = result.axes[key]
     v_inf = result.v_infinity[result.done] / factor
     finite_vinf = np.isfinite(v_inf)
@@ -111,6 +113,7 @@ def _plot_line(result, path, unit, factor, thresholds, title) -> None:
         ax.plot(x_all[result.done][finite_vinf], v_inf[finite_vinf], ls="--", color="black", lw=1.0,
                 label="continuum threshold V(\u221e)")
     crossing_drawn = False
+    any_binding = False
     for j, label in enumerate(labels):
         track = result.level(label)
         x = track.values[key]
@@ -118,41 +121,67 @@ def _plot_line(result, path, unit, factor, thresholds, title) -> None:
         x, e, bound, conv = x[order], track.energy[order] / factor, track.bound[order], track.converged[order]
         vi = track.v_infinity[order] / factor
         ax.plot(x, np.where(bound, e, np.nan), color=colors[j], lw=1.6, label=label)
+        binding = np.where(bound & np.isfinite(vi), vi - e, np.nan)
+        if np.any(binding > 0):
+            bax.plot(x, np.where(binding > 0, binding, np.nan), color=colors[j], lw=1.4)
+            any_binding = True
         bad = bound & ~conv
         if bad.any():
             ax.plot(x[bad], e[bad], ls="none", marker="o", mfc="none", color=colors[j], ms=6)
         # Where the level leaves (or enters) the spectrum between two sweep points.
-        change = np.nonzero(bound[1:] != bound[:-1])[0]
-        for i in change:
+        for i in np.nonzero(bound[1:] != bound[:-1])[0]:
             xm = math.sqrt(x[i] * x[i + 1]) if result.log_spaced.get(key) else 0.5 * (x[i] + x[i + 1])
             if math.isfinite(vi[i]):
-                ax.plot([x[i], x[i + 1]], [vi[i], vi[i + 1]], color=colors[j], lw=4, alpha=0.45,
-                        solid_capstyle="butt", label=None if crossing_drawn else
-                        "threshold lies in this interval")
+                ax.plot([x[i], x[i + 1]], [vi[i], vi[i + 1]], color="0.45", lw=5, alpha=0.6,
+                        solid_capstyle="butt")
                 crossing_drawn = True
             strip.axvline(xm, color=colors[j], lw=0.8, ls=":")
         row = len(labels) - 1 - j
         strip.plot(x, np.where(bound, row, np.nan), color=colors[j], lw=5, solid_capstyle="butt")
         strip.plot(x, np.where(bound, np.nan, row), color="0.75", lw=1.2, ls=(0, (2, 2)))
+    marked = []
     for label, value in thresholds.items():
         p_c = getattr(value, "value", value)
-        ax.axvline(p_c, color="0.3", lw=0.9, ls="-.")
-        ax.annotate(f"{label}: {key}$_c$ = {p_c:.6g}", (p_c, 1.0), xycoords=("data", "axes fraction"),
-                    rotation=90, va="top", ha="right", fontsize=8, color="0.25")
+        err = getattr(value, "error_estimate", None)
+        color = colors[labels.index(label)] if label in labels else "0.3"
+        for axis in (ax, bax):
+            axis.axvline(p_c, color=color, lw=0.9, ls="-.")
+        ax.annotate(label, (p_c, 1.0), xycoords=("data", "axes fraction"), xytext=(2, -2),
+                    textcoords="offset points", va="top", ha="left", fontsize=8, color=color)
+        marked.append(f"{label}: {p_c:.8g}" + (f" \u00b1 {err:.1g}" if err else ""))
     if result.log_spaced.get(key):
         ax.set_xscale("log")
     ax.set_ylabel(f"energy ({unit})")
     ax.set_title(title or _default_title(result), fontsize=10)
     ax.grid(alpha=0.3)
-    ax.legend(fontsize=8, ncol=2 if len(labels) > 6 else 1, loc="best")
+    handles, names = ax.get_legend_handles_labels()
+    if crossing_drawn:
+        handles.append(Line2D([], [], color="0.45", lw=5, alpha=0.6))
+        names.append("leaves the spectrum in this interval")
+    if marked:
+        handles.append(Line2D([], [], color="0.3", lw=0.9, ls="-."))
+        names.append("critical value (threshold)")
+    ax.legend(handles, names, fontsize=8, loc="upper left", bbox_to_anchor=(1.01, 1.0),
+              borderaxespad=0.0)
+    if marked:
+        ax.text(0.01, 0.02, f"critical {key}" + (f" ({p_unit})" if p_unit else "") + ":\n"
+                + "\n".join(marked), transform=ax.transAxes, fontsize=7, va="bottom", ha="left",
+                bbox=dict(boxstyle="round", facecolor="white", edgecolor="0.8", alpha=0.9))
+    bax.set_yscale("log")
+    bax.set_ylabel(f"V(\u221e) \u2212 E ({unit})", fontsize=9)
+    bax.grid(alpha=0.3, which="both")
+    bax.set_title("binding energy, log scale: s levels leave the threshold quadratically, "
+                  "l \u2265 1 levels linearly", fontsize=8, loc="left")
+    if not any_binding:
+        bax.set_visible(False)
     strip.set_yticks(range(len(labels)), labels[::-1], fontsize=7)
     strip.set_ylim(-0.7, len(labels) - 0.3)
     strip.set_xlabel(_axis_label(key, p_unit))
     strip.set_title("bound (solid) and not bound (dashed) at each sweep point", fontsize=8, loc="left")
     strip.tick_params(axis="y", length=0)
     if not result.complete:
-        ax.text(0.01, 0.01, f"INCOMPLETE: {result.points_done} of {result.points_total} points",
-                transform=ax.transAxes, color="red", fontsize=9)
+        ax.text(0.5, 0.5, f"INCOMPLETE: {result.points_done} of {result.points_total} points",
+                transform=ax.transAxes, color="red", fontsize=10, ha="center")
     _save(fig, path)
 
 

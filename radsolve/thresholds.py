@@ -748,7 +748,7 @@ def threshold(potential, parameter: str, level: str = "1s", bracket=None, fixed=
     )
 
 
-def thresholds(potential, parameter: str, nmax: int = 2, bracket=None, fixed=None, mass=1.0,
+def critical_values(potential, parameter: str, nmax: int = 2, bracket=None, fixed=None, mass=1.0,
                tol: float = 1e-9, plugins=None, levels: Sequence[str] | None = None,
                lmax: int | None = None, spin_orbit: bool = False, units: str | None = None,
                dimension: int = 3) -> list[ThresholdResult]:

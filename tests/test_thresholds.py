@@ -40,7 +40,7 @@ from scipy.special import jn_zeros, spherical_jn
 from radsolve.errors import InputError
 from radsolve.spectrum import solve
 from radsolve.registry import potential
-from radsolve.thresholds import NoThresholdError, parse_label, threshold, thresholds
+from radsolve.thresholds import NoThresholdError, critical_values, parse_label, threshold
 
 EXP_WELL = '''
 import numpy as np
@@ -122,7 +122,7 @@ def test_yukawa_2p_agrees_with_table_and_with_bisection_on_solve():
 def test_exponential_well_s_thresholds_are_zeros_of_J0(plugin_dir):
     # Textbook: 2 a sqrt(2 mu V0) = j_{0,k} at the threshold of the k-th s level.
     zeros = jn_zeros(0, 3)
-    results = thresholds("exp_well_fixture", "depth", levels=["1s", "2s", "3s"], bracket=(0.1, 20.0),
+    results = critical_values("exp_well_fixture", "depth", levels=["1s", "2s", "3s"], bracket=(0.1, 20.0),
                          plugins=[plugin_dir], tol=1e-10)
     for k, res in enumerate(results):
         exact = zeros[k] ** 2 / 8.0  # mu = 1, a = 1
@@ -223,8 +223,8 @@ def test_labels_parse_to_n_and_l():
     assert parse_label("25[l=23]") == (25, 23)
 
 
-def test_thresholds_up_to_nmax_are_ordered_and_distinct():
-    results = thresholds("yukawa", "screening_length", nmax=2, bracket=(0.5, 6.0))
+def test_critical_values_up_to_nmax_are_ordered_and_distinct():
+    results = critical_values("yukawa", "screening_length", nmax=2, bracket=(0.5, 6.0))
     assert [r.label for r in results] == ["1s", "2s", "2p"]
     # Published order (Rogers et al. 1970, from memory): D_c(1s) < D_c(2s) < D_c(2p).
     values = [r.value for r in results]
