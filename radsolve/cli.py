@@ -547,7 +547,17 @@ def sweep_command(
         if plot is not None:
             from radsolve.sweep_plotting import plot_sweep
 
-            plot_sweep(result, plot, unit=unit)
+            marks = {}
+            if len(result.parameters) == 1 and result.complete:
+                from radsolve.thresholds import sweep_crossings
+
+                # The sweep brackets each level's threshold: refine it and mark it exactly.
+                marks = sweep_crossings(result)
+                key = result.parameters[0]
+                for label, res in marks.items():
+                    _say(f"{label} reaches the continuum at {key} = {res.value:.10g} "
+                         f"+- {res.error_estimate:.1g} {res.parameter_unit}".rstrip())
+            plot_sweep(result, plot, unit=unit, thresholds=marks)
             _say(f"plot written to {plot}")
         if result.unconverged:
             _say(f"warning: {result.unconverged} bound level(s) did not converge to tol {tol:g} "

@@ -135,7 +135,9 @@ def _plot_line(result, path, unit, factor, thresholds, title) -> None:
                 ax.plot([x[i], x[i + 1]], [vi[i], vi[i + 1]], color="0.45", lw=5, alpha=0.6,
                         solid_capstyle="butt")
                 crossing_drawn = True
-            strip.axvline(xm, color=colors[j], lw=0.8, ls=":")
+            exact = thresholds.get(label)
+            strip.axvline(getattr(exact, "value", exact) if exact is not None else xm,
+                          color=colors[j], lw=0.8, ls=":")
         row = len(labels) - 1 - j
         strip.plot(x, np.where(bound, row, np.nan), color=colors[j], lw=5, solid_capstyle="butt")
         strip.plot(x, np.where(bound, np.nan, row), color="0.75", lw=1.2, ls=(0, (2, 2)))

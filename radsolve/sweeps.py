@@ -375,6 +375,7 @@ class SweepResult:
     v_infinity: np.ndarray
     done: np.ndarray
     log_spaced: dict[str, bool] = field(default_factory=dict)
+    base: Any = field(default=None, repr=False)  # the Potential swept (with the fixed values)
 
     # -- shape and points ----------------------------------------------------
 
@@ -997,7 +998,7 @@ def _sweep_points(base, axes, l, count, options, workers, dask, out, unit, progr
         energy=np.full((total, nl, count), np.nan), error_estimate=np.full((total, nl, count), np.nan),
         converged=np.zeros((total, nl, count), dtype=bool), bound=np.zeros((total, nl, count), dtype=bool),
         v_infinity=np.full(total, np.nan), done=np.zeros(total, dtype=bool),
-        log_spaced={k: _looks_geometric(axes[k]) for k in keys},
+        log_spaced={k: _looks_geometric(axes[k]) for k in keys}, base=base,
     )
 
     unit = unit or system.energy_unit

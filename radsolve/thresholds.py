@@ -788,6 +788,40 @@ def critical_values(potential, parameter: str, nmax: int = 2, bracket=None, fixe
                       tol=tol, plugins=plugins, units=units, dimension=dimension) for lab in labels]
 
 
+def sweep_crossings(result, tol: float = 1e-9) -> dict[str, ThresholdResult]:
+    """Critical values of the levels that leave (or join) the spectrum within a one-parameter sweep.
+
+    For each level of ``result`` (a :class:`radsolve.sweeps.SweepResult` with one
+    varied parameter) whose ``bound`` flag changes between two neighbouring
+    points, the two points are the bracket of :func:`threshold`.  Only the
+    first such change of each level is used.  Potentials without a threshold
+    (Coulomb tails) give an empty dict.
+    """
+    if len(result.parameters) != 1:
+        raise InputError("sweep_crossings needs a sweep of one parameter")
+    key = result.parameters[0]
+    found: dict[str, ThresholdResult] = {}
+    potential = result.base if result.base is not None else result.potential
+    for label in result.labels():
+        track = result.level(label)
+        x = track.values[key]
+        order = np.argsort(x)
+        x, bound = x[order], track.bound[order]
+        change = np.nonzero(bound[1:] != bound[:-1])[0]
+        if change.size == 0:
+            continue
+        i = int(change[0])
+        try:
+            found[label] = threshold(potential, key, level=label, bracket=(float(x[i]), float(x[i + 1])),
+                                     mass=result.mass, tol=tol, units=result.units,
+                                     dimension=result.dimension)
+        except NoThresholdError:
+            return {}
+        except InputError:
+            continue  # the sweep's verdict and the zero-energy count differ here (box-limited level)
+    return found
+
+
 def format_thresholds(results: Sequence[ThresholdResult]) -> str:
     """A text table of threshold results (parameter values in atomic units)."""
     from .report import format_columns

@@ -40,7 +40,8 @@ from scipy.special import jn_zeros, spherical_jn
 from radsolve.errors import InputError
 from radsolve.spectrum import solve
 from radsolve.registry import potential
-from radsolve.thresholds import NoThresholdError, critical_values, parse_label, threshold
+from radsolve.sweeps import sweep
+from radsolve.thresholds import NoThresholdError, critical_values, parse_label, sweep_crossings, threshold
 
 EXP_WELL = '''
 import numpy as np
@@ -282,3 +283,15 @@ def test_spin_orbit_labels_need_a_spin_orbit_term():
         threshold("yukawa", "screening_length", level="2p3/2")
     with pytest.raises(InputError, match="j = 5/2 is not allowed for l = 1"):
         threshold("yukawa", "screening_length", level="2p5/2")
+
+
+def test_sweep_crossings_refine_the_sweep_brackets():
+    # Edwards et al. (2017): 1/D_c(1s) = 1.19061; Rogers et al. (1970), from memory: D_c(2p) = 4.5410.
+    res = sweep("yukawa", vary={"screening_length": [0.6, 1.0, 3.0, 5.0]}, l=[0, 1], count=1, tol=1e-7,
+                workers=1)
+    found = sweep_crossings(res)
+    assert set(found) == {"1s", "2p"}
+    assert abs(1.0 / found["1s"].value / 1.19061 - 1.0) < 1e-5
+    assert abs(found["2p"].value - 4.5410) < 2e-3
+    coulomb = sweep("coulomb", vary={"Z": [0.5, 1.0]}, count=1, tol=1e-7, workers=1)
+    assert sweep_crossings(coulomb) == {}
