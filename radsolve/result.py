@@ -26,6 +26,20 @@ def level_label(n: int, l: int) -> str:
     return f"{n}{orbital_letter(l)}"
 
 
+def level_designation(nodes: int, l: int, j: float | None = None, units: str = "atomic") -> tuple[int, str]:
+    """(n, label) of the level with ``nodes`` nodes.
+
+    Atomic physics: n = nodes + l + 1 (``"2p"``, ``"2p3/2"``).  Nuclear
+    physics (``units="nuclear"``): the shell-model n = nodes + 1
+    (``"1p3/2"``, ``"2s1/2"``).
+    """
+    n = nodes + 1 if units == "nuclear" else nodes + l + 1
+    label = level_label(n, l)
+    if j is not None:
+        label += f"{int(round(2 * j))}/2"
+    return n, label
+
+
 @dataclass(frozen=True)
 class GridSample:
     """One wavefunction on one grid of the refinement sequence.

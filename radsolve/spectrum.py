@@ -42,7 +42,7 @@ import numpy as np
 from . import probe as probing
 from .errors import InputError
 from .grids import GridSpan, mapping_x
-from .result import GridSample, Level, SolveResult, level_label
+from .result import GridSample, Level, SolveResult, level_designation
 from .solvers.base import METHODS, RadialSolver, solver_class
 
 #: Step in x of the coarsest grid of the refinement sequence.
@@ -511,15 +511,6 @@ def _degeneracy(l: int, j: float | None, dimension: int) -> int:
     return math.comb(l + dimension - 1, dimension - 1) - (math.comb(l + dimension - 3, dimension - 1) if l >= 2 else 0)
 
 
-def _label(nodes: int, l: int, j: float | None, units: str) -> tuple[int, str]:
-    """(n, label): atomic n = nodes + l + 1 ('2p3/2'); nuclear n = nodes + 1 ('1p3/2')."""
-    n = nodes + 1 if units == "nuclear" else nodes + l + 1
-    label = level_label(n, l)
-    if j is not None:
-        label += f"{int(round(2 * j))}/2"
-    return n, label
-
-
 def solve(
     potential,
     l=0,
@@ -622,7 +613,7 @@ def solve(
                 kept[ch.key] = k
                 bound_counts[ch.key] = k
                 break
-            n, label = _label(k, ch.l, ch.j, system.name)
+            n, label = level_designation(k, ch.l, ch.j, system.name)
             best_method = min(methods, key=lambda m: per[m]["error"])
             best = per[best_method]
             energy, error = best["energy"], best["error"]
@@ -704,7 +695,3 @@ def _message(channels, plan, kept, bound_counts, levels, count, tol, kinetic, sy
     if not levels:
         return "no bound state: " + "; ".join(parts)
     return "; ".join(parts) if parts else f"all {len(levels)} levels converged to tol = {tol:.1e}"
-
-
-# Former private name, still imported by radsolve.thresholds.
-_richardson = richardson

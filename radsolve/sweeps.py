@@ -55,6 +55,7 @@ from typing import Any, Callable, Iterable, Iterator, Mapping, Sequence
 import numpy as np
 
 from .errors import InputError, RadsolveError
+from .result import level_designation
 
 #: Columns of a sweep row after the parameter columns, in order (``j`` only
 #: with spin-orbit splitting).
@@ -240,12 +241,6 @@ def _channel_keys(ls: Sequence[int], spin_orbit: bool) -> tuple[tuple[int, float
     return tuple(keys)
 
 
-def _label(nodes: int, l: int, j: float | None, units: str) -> tuple[int, str]:
-    from .spectrum import _label as solver_label  # the labels solve() gives
-
-    return solver_label(nodes, l, j, units)
-
-
 def _block(result, channels: Sequence[tuple[int, float | None]], count: int) -> tuple:
     shape = (len(channels), count)
     energy = np.full(shape, np.nan)
@@ -425,7 +420,7 @@ class SweepResult:
 
     def labels(self) -> list[str]:
         """Labels of the level rows per point, in row order (as :func:`radsolve.solve` gives them)."""
-        return [_label(k, l, j, self.units)[1] for l, j, k in self.level_keys()]
+        return [level_designation(k, l, j, self.units)[1] for l, j, k in self.level_keys()]
 
     def _find(self, label: str) -> tuple[int, int]:
         labels = self.labels()
@@ -441,7 +436,7 @@ class SweepResult:
         pts = np.flatnonzero(self.done)
         table = self.point_table()
         return LevelTrack(
-            label=label, n=_label(k, l, j, self.units)[0], l=l, j=j, nodes=k, points=pts,
+            label=label, n=level_designation(k, l, j, self.units)[0], l=l, j=j, nodes=k, points=pts,
             values={p: table[p][pts] for p in self.parameters},
             energy=self.energy[pts, i, k], error_estimate=self.error_estimate[pts, i, k],
             converged=self.converged[pts, i, k], bound=self.bound[pts, i, k],
@@ -574,7 +569,7 @@ def _point_rows(meta: SweepResult, index: int, values: tuple, block: tuple, fact
         for k in range(meta.count):
             row = {"point": index}
             row.update(zip(meta.parameters, values))
-            n, label = _label(k, l, j, meta.units)
+            n, label = level_designation(k, l, j, meta.units)
             row.update(
                 l=l, j=j, n=n, nodes=k, label=label,
                 energy=float(energy[i, k]) / factor if bound[i, k] else math.nan,
