@@ -174,6 +174,17 @@ def _l_values(l: list[int] | None, lmax: int | None) -> list[int]:
 PLUGINS_HELP = ("folder of potential plug-ins (*.py); repeatable; folders in the "
                 "RADSOLVE_PLUGINS environment variable are searched too")
 
+# Options shared by several commands.
+PluginsOption = Annotated[Optional[list[Path]], typer.Option("--plugins", metavar="DIR", help=PLUGINS_HELP)]
+MethodOption = Annotated[Method, typer.Option(
+    "--method", help="fd (finite differences), numerov (shooting) or both")]
+UnitsOption = Annotated[Optional[UnitsChoice], typer.Option(
+    "--units", help="unit system: atomic (hartree, bohr, electron masses) or nuclear "
+                    "(MeV, fm, MeV/c^2) [default: the potential's own]")]
+DimensionOption = Annotated[int, typer.Option(
+    "--dimension", "-d", metavar="D", min=2, max=10,
+    help="space dimension D >= 2 (centrifugal term with l -> l + (D-3)/2)")]
+
 
 # ---------------------------------------------------------------- commands
 
@@ -201,15 +212,12 @@ def levels_command(
     tol: Annotated[float, typer.Option(
         "--tol", metavar="T",
         help="target relative error of each energy (the solver accepts 1e-14 ... 0.1)")] = 1e-10,
-    method: Annotated[Method, typer.Option(
-        "--method", help="fd (finite differences), numerov (shooting) or both")] = Method.fd,
+    method: MethodOption = Method.fd,
     unit: Annotated[Optional[str], typer.Option(
         "--unit", "-u", metavar="U", help=f"energy unit of the output: {ENERGY_UNITS_HELP} "
                                           "[default: hartree, or MeV in nuclear units]")
     ] = None,
-    units: Annotated[Optional[UnitsChoice], typer.Option(
-        "--units", help="unit system: atomic (hartree, bohr, electron masses) or nuclear "
-                        "(MeV, fm, MeV/c^2) [default: the potential's own]")] = None,
+    units: UnitsOption = None,
     spin_orbit: Annotated[bool, typer.Option(
         "--spin-orbit", help="split each l > 0 into j = l -+ 1/2 with the potential's "
                              "spin-orbit term")] = False,
@@ -243,8 +251,7 @@ def levels_command(
     out: Annotated[Optional[Path], typer.Option(
         "--out", "-o", metavar="FILE", help="write the output to FILE instead of stdout")
     ] = None,
-    plugins: Annotated[Optional[list[Path]], typer.Option(
-        "--plugins", metavar="DIR", help=PLUGINS_HELP)] = None,
+    plugins: PluginsOption = None,
 ) -> None:
     """The K lowest bound levels of potential NAME for each l.
 
@@ -398,8 +405,7 @@ def check_command(
 def potentials_command(
     name: Annotated[Optional[str], typer.Argument(
         metavar="NAME", help="show this family in full")] = None,
-    plugins: Annotated[Optional[list[Path]], typer.Option(
-        "--plugins", metavar="DIR", help=PLUGINS_HELP)] = None,
+    plugins: PluginsOption = None,
 ) -> None:
     """List the potential families (built-in and plug-ins), or describe one."""
     with _reported_errors():
@@ -452,18 +458,13 @@ def sweep_command(
     tol: Annotated[float, typer.Option(
         "--tol", metavar="T",
         help="target relative error of each energy (the solver accepts 1e-14 ... 0.1)")] = 1e-10,
-    method: Annotated[Method, typer.Option(
-        "--method", help="fd (finite differences), numerov (shooting) or both")] = Method.fd,
+    method: MethodOption = Method.fd,
     unit: Annotated[Optional[str], typer.Option(
         "--unit", "-u", metavar="U", help=f"energy unit of the output: {ENERGY_UNITS_HELP} "
                                           "[default: hartree, or MeV in nuclear units]")
     ] = None,
-    units: Annotated[Optional[UnitsChoice], typer.Option(
-        "--units", help="unit system: atomic (hartree, bohr, electron masses) or nuclear "
-                        "(MeV, fm, MeV/c^2) [default: the potential's own]")] = None,
-    dimension: Annotated[int, typer.Option(
-        "--dimension", "-d", metavar="D", min=2, max=10,
-        help="space dimension D >= 2 (centrifugal term with l -> l + (D-3)/2)")] = 3,
+    units: UnitsOption = None,
+    dimension: DimensionOption = 3,
     spin_orbit: Annotated[bool, typer.Option(
         "--spin-orbit", help="split each l > 0 into j = l -+ 1/2 with the potential's "
                              "spin-orbit term")] = False,
@@ -481,8 +482,7 @@ def sweep_command(
         "--cluster", metavar="ADDRESS",
         help="run on Dask: tcp://host:port of a running scheduler, or 'local' for a local "
              "Dask cluster (needs radsolve[cluster])")] = None,
-    plugins: Annotated[Optional[list[Path]], typer.Option(
-        "--plugins", metavar="DIR", help=PLUGINS_HELP)] = None,
+    plugins: PluginsOption = None,
 ) -> None:
     """The K lowest levels of NAME for each l at every point of a parameter grid.
 
@@ -631,12 +631,8 @@ def threshold_command(
     ] = None,
     tol: Annotated[float, typer.Option(
         "--tol", metavar="T", help="target relative error of the critical value")] = 1e-9,
-    units: Annotated[Optional[UnitsChoice], typer.Option(
-        "--units", help="unit system: atomic (hartree, bohr, electron masses) or nuclear "
-                        "(MeV, fm, MeV/c^2) [default: the potential's own]")] = None,
-    dimension: Annotated[int, typer.Option(
-        "--dimension", "-d", metavar="D", min=2, max=10,
-        help="space dimension D >= 2 (centrifugal term with l -> l + (D-3)/2)")] = 3,
+    units: UnitsOption = None,
+    dimension: DimensionOption = 3,
     spin_orbit: Annotated[bool, typer.Option(
         "--spin-orbit", help="with --nmax: both j = l -+ 1/2 of each l > 0 (with --level, "
                              "give j in the label, e.g. 1p3/2)")] = False,
@@ -644,8 +640,7 @@ def threshold_command(
         "--format", "-f", help="table for reading, json for programs")] = ReportFormat.table,
     out: Annotated[Optional[Path], typer.Option(
         "--out", "-o", metavar="FILE", help="write the output to FILE instead of stdout")] = None,
-    plugins: Annotated[Optional[list[Path]], typer.Option(
-        "--plugins", metavar="DIR", help=PLUGINS_HELP)] = None,
+    plugins: PluginsOption = None,
 ) -> None:
     """The value of parameter KEY at which a level of NAME reaches the continuum (E -> V(inf)).
 
@@ -712,18 +707,13 @@ def fit_command(
     ] = None,
     tol: Annotated[float, typer.Option(
         "--tol", metavar="T", help="relative accuracy of each computed energy")] = 1e-10,
-    method: Annotated[Method, typer.Option(
-        "--method", help="fd (finite differences), numerov (shooting) or both")] = Method.fd,
+    method: MethodOption = Method.fd,
     unit: Annotated[Optional[str], typer.Option(
         "--unit", "-u", metavar="U", help=f"energy unit of the report: {ENERGY_UNITS_HELP} "
                                           "[default: hartree, or MeV in nuclear units]")
     ] = None,
-    units: Annotated[Optional[UnitsChoice], typer.Option(
-        "--units", help="unit system: atomic (hartree, bohr, electron masses) or nuclear "
-                        "(MeV, fm, MeV/c^2) [default: the potential's own]")] = None,
-    dimension: Annotated[int, typer.Option(
-        "--dimension", "-d", metavar="D", min=2, max=10,
-        help="space dimension D >= 2 (centrifugal term with l -> l + (D-3)/2)")] = 3,
+    units: UnitsOption = None,
+    dimension: DimensionOption = 3,
     fmt: Annotated[ReportFormat, typer.Option(
         "--format", "-f", help="table for reading, json for programs")] = ReportFormat.table,
     out: Annotated[Optional[Path], typer.Option(
@@ -733,8 +723,7 @@ def fit_command(
     ] = None,
     max_evaluations: Annotated[int, typer.Option(
         "--max-evaluations", min=1, metavar="N", help="most spectra the optimizer may solve")] = 400,
-    plugins: Annotated[Optional[list[Path]], typer.Option(
-        "--plugins", metavar="DIR", help=PLUGINS_HELP)] = None,
+    plugins: PluginsOption = None,
 ) -> None:
     """Fit the --free parameters of NAME so that its levels match the --targets levels.
 
@@ -835,8 +824,7 @@ def wave_command(
         help="reduced mass: electron masses, or particles such as electron+proton")] = "1",
     tol: Annotated[float, typer.Option(
         "--tol", metavar="T", help="target relative error of the energy (1e-14 ... 0.1)")] = 1e-10,
-    method: Annotated[Method, typer.Option(
-        "--method", help="fd (finite differences), numerov (shooting) or both")] = Method.fd,
+    method: MethodOption = Method.fd,
     unit: Annotated[str, typer.Option(
         "--unit", "-u", metavar="U", help=f"energy unit of the summary and plot: {ENERGY_UNITS_HELP}")
     ] = "hartree",
@@ -864,8 +852,7 @@ def wave_command(
     plot: Annotated[Optional[Path], typer.Option(
         "--plot", metavar="FILE", help="draw u(r) over V(r) and the level energy: FILE.png, .svg or .pdf")
     ] = None,
-    plugins: Annotated[Optional[list[Path]], typer.Option(
-        "--plugins", metavar="DIR", help=PLUGINS_HELP)] = None,
+    plugins: PluginsOption = None,
 ) -> None:
     """The wavefunction of level (N, L) of potential NAME, and what it implies.
 
@@ -970,8 +957,7 @@ def transitions_command(
         help="reduced mass: electron masses, or particles such as electron+proton")] = "1",
     tol: Annotated[float, typer.Option(
         "--tol", metavar="T", help="target relative error of each energy (1e-14 ... 0.1)")] = 1e-10,
-    method: Annotated[Method, typer.Option(
-        "--method", help="fd (finite differences), numerov (shooting) or both")] = Method.fd,
+    method: MethodOption = Method.fd,
     unit: Annotated[str, typer.Option(
         "--unit", "-u", metavar="U", help=f"energy unit of the output: {ENERGY_UNITS_HELP}")
     ] = "hartree",
@@ -991,8 +977,7 @@ def transitions_command(
         "--occupied", metavar="LABELS",
         help="levels filled by core electrons, comma-separated, left out: no line ends on "
              "them (e.g. 1s,2s,2p for the sodium core of alkali_model)")] = None,
-    plugins: Annotated[Optional[list[Path]], typer.Option(
-        "--plugins", metavar="DIR", help=PLUGINS_HELP)] = None,
+    plugins: PluginsOption = None,
 ) -> None:
     """Electric-dipole lines, lifetimes and branching ratios of the levels with n <= N.
 
