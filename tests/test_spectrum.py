@@ -11,12 +11,16 @@ Sources:
   Graboske & Harwood, Phys. Rev. A 1, 1577 (1970); from memory), used only to
   choose screening lengths safely on either side.
 - 2D hydrogen E = -Z**2 / (2 (n - 1/2)**2) (textbook formula).
+- Gaussian well levels: an independent solve_ivp shooting (scipy, DOP853 outward
+  from small r with u ~ r**(l+1), node count and brentq on u(r_max) = 0).
 """
 
 import textwrap
 
 import numpy as np
 import pytest
+from scipy.integrate import solve_ivp
+from scipy.optimize import brentq
 
 import radsolve
 from radsolve.errors import InputError, UnboundedBelowError
@@ -86,14 +90,52 @@ def test_no_bound_state_is_an_empty_result_with_a_message():
     assert result.message.startswith("no bound state")
 
 
+GAUSS_WELL_PLUGIN = textwrap.dedent('''
+    import numpy as np
+    NAME = "gauss_well"
+    PARAMETERS = {"depth": 2.0, "width": 1.5}   # defaults, atomic units
+    def V(r, depth, width):
+        return -depth * np.exp(-(r / width) ** 2)
+''')
+
+
+def shooting_energy(V, l, nodes, E_lo, E_hi, r_max, mu=1.0, r0=1e-6):
+    """Independent solve_ivp shooting (scipy): the level with `nodes` interior zeros of
+    -u''/(2 mu) + [V + l(l+1)/(2 mu r^2)] u = E u, u(0) = 0 = u(r_max).  u ~ r^(l+1) is
+    started at r0 (V regular at the origin) and integrated outward with DOP853; the
+    energy is bracketed by the node count (Sturm oscillation theorem, textbook) and
+    refined with brentq on u(r_max).  No radsolve code is used."""
+    energy = [0.0]
+
+    def rhs(r, y):
+        return [y[1], (l * (l + 1) / r**2 + 2.0 * mu * (V(r) - energy[0])) * y[0]]
+
+    def crossing(r, y):
+        return y[0]
+
+    def run(E):
+        energy[0] = E
+        sol = solve_ivp(rhs, (r0, r_max), [r0 ** (l + 1), (l + 1) * r0**l], method="DOP853",
+                        rtol=1e-12, atol=1e-300, events=crossing)
+        assert sol.success, sol.message
+        return sol.y[0][-1], len(sol.t_events[0])
+
+    (a, ka), (b, kb) = (E_lo, run(E_lo)[1]), (E_hi, run(E_hi)[1])
+    assert ka <= nodes < kb, (ka, kb)
+    while not (ka == nodes and kb == nodes + 1):
+        m = 0.5 * (a + b)
+        k = run(m)[1]
+        if k <= nodes:
+            a, ka = m, k
+        else:
+            b, kb = m, k
+    return brentq(lambda E: run(E)[0], a, b, xtol=1e-15, rtol=1e-14)
+
+
 def test_minimal_plugin_without_metadata_both_methods_agree(tmp_path):
-    (tmp_path / "gauss_well.py").write_text(textwrap.dedent('''
-        import numpy as np
-        NAME = "gauss_well"
-        PARAMETERS = {"depth": 2.0, "width": 1.5}   # defaults, atomic units
-        def V(r, depth, width):
-            return -depth * np.exp(-(r / width) ** 2)
-    '''))
+    # Internal consistency of the two methods (fd vs numerov); the outside reference
+    # for this plug-in is test_gauss_well_plugin_against_independent_shooting.
+    (tmp_path / "gauss_well.py").write_text(GAUSS_WELL_PLUGIN)
     pot = radsolve.potential("gauss_well", plugins=[str(tmp_path)])
     result = radsolve.solve(pot, l=[0, 1, 2], count=6, method="both")
     assert result.success and result.levels
@@ -102,6 +144,23 @@ def test_minimal_plugin_without_metadata_both_methods_agree(tmp_path):
         fd, nu = lev.method_energies["fd"], lev.method_energies["numerov"]
         assert abs(fd - nu) <= lev.error_estimate
         assert lev.relative_error_estimate <= 1e-10
+
+
+def test_gauss_well_plugin_against_independent_shooting(tmp_path):
+    # Source: independent solve_ivp shooting (scipy), shooting_energy above.  The default
+    # well (depth 2, width 1.5) binds a single s level and no p level, so a deeper well
+    # (depth 4) is solved too for the lowest p level (label 2p in atomic units).  Beyond
+    # r_max = 40 bohr both the well (e^-711) and these levels (e^-2 kappa r_max < e^-50)
+    # are negligible, far below the 1e-8 relative asked.
+    (tmp_path / "gauss_well.py").write_text(GAUSS_WELL_PLUGIN)
+    cases = [(2.0, 0, "1s"), (4.0, 0, "1s"), (4.0, 1, "2p")]
+    for depth, l, label in cases:
+        pot = radsolve.potential("gauss_well", plugins=[str(tmp_path)], depth=depth)
+        lev = radsolve.solve(pot, l=l, count=1, method="both").level(label)
+        reference = shooting_energy(lambda r: -depth * np.exp(-(r / 1.5) ** 2), l, 0,
+                                    -depth, -1e-3, 40.0)
+        assert lev.nodes == 0 and lev.converged
+        assert lev.energy == pytest.approx(reference, rel=1e-8), (depth, label)
 
 
 def test_inverse_square_term_changes_the_origin_exponent(tmp_path):
