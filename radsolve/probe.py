@@ -21,10 +21,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .errors import PluginError, UnboundedBelowError
+from .errors import InputError, PluginError, UnboundedBelowError
 
-#: Radii probed, bohr: from far inside a nucleus to macroscopic distances.
-PROBE_RADII = np.logspace(-16, 7, 461)
+#: Radii probed (bohr in atomic units, fm in nuclear ones): from far inside a
+#: nucleus to macroscopic distances.
+PROBE_RADII = np.logspace(-24, 12, 721)
 
 
 @dataclass(frozen=True)
@@ -161,6 +162,12 @@ def profile(potential, mass: float) -> PotentialProfile:
     if math.isinf(v_inf):
         strength = 2.0 * mass * r**2 * np.abs(v - v[0])
     above = np.nonzero(strength >= 1e-2)[0]
+    if above.size and above[0] == 0 and not (abs(p + 2.0) < 1e-3 or p < -2.0):
+        raise InputError(
+            f"potential {potential.name!r} is already {abs(v[0] - reference):.3g} (energy units) away "
+            f"from V(inf) at r = {r[0]:g}, the smallest radius probed, for reduced mass {mass:.6g}: "
+            "the bound states would be smaller than the grid can start; check the parameters and the mass"
+        )
     inner = float(r[above[0]]) if above.size else float(r[-1])
     weak = strength < 1e-3
     if math.isinf(v_inf) or not weak[-1]:

@@ -509,10 +509,36 @@ def load_plugin_file(path: str | os.PathLike, origin: str = "plugin folder") -> 
     return _family_from_object(module, str(path), origin, file=str(path))
 
 
+def _builtin_package():
+    """The package of built-in families, ``radsolve.potentials``.
+
+    An installed radsolve has it (mapped from the top-level ``potentials/``
+    folder).  Run from a source checkout without installing (e.g.
+    ``python -m radsolve`` in the repository root, which imports the source
+    tree), it is loaded from that folder under the same name.
+    """
+    try:
+        return importlib.import_module("radsolve.potentials")
+    except ModuleNotFoundError as exc:
+        if exc.name != "radsolve.potentials":
+            raise
+    root = Path(__file__).resolve().parent.parent
+    folder = root / "potentials"
+    if not ((folder / "__init__.py").is_file() and (root / "pyproject.toml").is_file()):
+        raise PluginError("the built-in potential families (radsolve.potentials) are missing from "
+                          "this installation; reinstall radsolve")
+    spec = importlib.util.spec_from_file_location(
+        "radsolve.potentials", folder / "__init__.py", submodule_search_locations=[str(folder)])
+    package = importlib.util.module_from_spec(spec)
+    sys.modules["radsolve.potentials"] = package
+    spec.loader.exec_module(package)
+    return package
+
+
 def _builtin_families() -> list[PotentialFamily]:
     import pkgutil
 
-    package = importlib.import_module("radsolve.potentials")
+    package = _builtin_package()
     found = []
     for info in sorted(pkgutil.iter_modules(package.__path__), key=lambda i: i.name):
         if info.name.startswith("_"):

@@ -64,6 +64,11 @@ _LARGEST_RATIO = 1e40
 #: A short-range potential is followed out to this multiple of its range.
 _RANGE_MARGIN = 20.0
 
+#: Reduced masses accepted, in each unit system's mass unit: far beyond any
+#: particle pair (an electron-like 1e-6 m_e to ~5e6 u; 1 keV/c^2 to 1e5 TeV/c^2),
+#: and inside what the probed radii (1e-24 ... 1e12 bohr) can resolve.
+_MASS_RANGE = {"atomic": (1e-6, 1e10), "nuclear": (1e-3, 1e8)}
+
 Key = tuple  # (l, j) with j None without spin-orbit
 
 
@@ -573,6 +578,12 @@ def solve(
     pot = _resolve_potential(potential, plugins)
     system = _unit_system(pot, units)
     mu = system.parse_mass(mass)
+    low, high = _MASS_RANGE[system.name]
+    if not low <= mu <= high:
+        raise InputError(
+            f"mass {mu:.6g} {system.mass_unit} is outside the range solved here, "
+            f"{low:g} to {high:g} {system.mass_unit}"
+        )
     kinetic = system.kinetic_mass(mu)
     channels = _channels(pot, ls, bool(spin_orbit), dimension, kinetic)
 
