@@ -65,7 +65,7 @@ _LARGEST_RATIO = 1e40
 _RANGE_MARGIN = 20.0
 
 #: Reduced masses accepted, in each unit system's mass unit: far beyond any
-#: particle pair (an electron-like 1e-6 m_e to ~5e6 u; 1 keV/c^2 to 1e5 TeV/c^2),
+#: particle pair (1e-6 m_e to ~5e6 u in atomic units; 1 keV/c^2 to 100 TeV/c^2),
 #: and inside what the probed radii (1e-24 ... 1e12 bohr) can resolve.
 _MASS_RANGE = {"atomic": (1e-6, 1e10), "nuclear": (1e-3, 1e8)}
 
