@@ -3,9 +3,13 @@
 Sources of the reference values:
 
 * exact hydrogen levels -1/(2 n^2) hartree: textbook formula;
-* levels of the built-in ``yukawa`` and ``woods_saxon`` families, sampled
-  into tables: a table must reproduce them within the interpolation error it
-  states.  The bound used is first-order perturbation theory (textbook):
+* exact s levels of the exponential well V = -V0 exp(-r/a): J_{2 kappa a}(2a
+  sqrt(2 mu V0)) = 0 with kappa = sqrt(-2 mu E) (textbook formula; the
+  substitution z = 2a sqrt(2 mu V0) exp(-r/(2a)) gives Bessel's equation),
+  roots found with scipy.special.jv and scipy.optimize.brentq;
+* consistency with the built-in family: levels of the ``yukawa`` and
+  ``woods_saxon`` families, sampled into tables: a table must reproduce them
+  within the interpolation error it states.  The bound used is first-order perturbation theory (textbook):
   |E_table - E| <= <u| |S - V| |u> + solver tolerance, with S the spline and V
   the sampled potential, evaluated on the level's own grid;
 * eV/hartree, angstrom/bohr and alpha hbar c: CODATA via scipy.constants.
@@ -19,6 +23,8 @@ import pickle
 import numpy as np
 import pytest
 from scipy import constants as const
+from scipy.optimize import brentq
+from scipy.special import jv
 from typer.testing import CliRunner
 
 import radsolve
@@ -62,8 +68,43 @@ def test_table_of_coulomb_gives_hydrogen_within_interpolation_error():
         assert bound < 1e-7 * abs(exact)  # and the table is fine enough for that to mean something
 
 
+def exponential_well_s_levels(V0, a, mu=1.0):
+    """Exact s levels of -V0 exp(-r/a): E = -nu^2/(8 mu a^2) for every order nu > 0 with
+    J_nu(2a sqrt(2 mu V0)) = 0 (textbook formula), deepest first; the roots in nu are
+    bracketed on a fine scan of (0, x0] (J_nu(x0) has no zero for nu > x0) and refined
+    with brentq; J from scipy.special.jv (reference library)."""
+    x0 = 2.0 * a * math.sqrt(2.0 * mu * V0)
+    nu = np.linspace(1e-9, x0, 4001)
+    f = jv(nu, x0)
+    roots = [brentq(lambda v: jv(v, x0), nu[i], nu[i + 1], xtol=1e-15)
+             for i in range(len(nu) - 1) if f[i] * f[i + 1] < 0]
+    return [-(v**2) / (8.0 * mu * a**2) for v in sorted(roots, reverse=True)]
+
+
+def test_table_of_exponential_well_gives_its_exact_levels():
+    # Source: J_{2 kappa a}(2a sqrt(2 mu V0)) = 0 (textbook formula), via scipy.special.jv;
+    # bound: first-order perturbation theory with the exact V, and the table's own
+    # stated interpolation error (largest |S - V|, which bounds <u| |S - V| |u>).
+    # V0 = 12.5 hartree, a = 1 bohr are arbitrary test values (three s levels).
+    V0, a, tol = 12.5, 1.0, 1e-10
+    exact_levels = exponential_well_s_levels(V0, a)
+    assert len(exact_levels) == 3
+    well = lambda r: -V0 * np.exp(-np.asarray(r, dtype=float) / a)
+    r = np.linspace(0.0, 60.0, 3001)  # V(60 bohr) ~ 1e-25 hartree: "beyond=zero" is exact enough
+    table = tabulated_potential((r, well(r)), beyond="zero")
+    stated, _ = table.family.module.TABLE.interpolation_error()
+    res = radsolve.solve(table, l=0, count=5, tol=tol)
+    assert [lev.label for lev in res.levels] == ["1s", "2s", "3s"]
+    for lev, exact in zip(res.levels, exact_levels):
+        slack = 10 * tol * abs(exact)
+        assert abs(lev.energy - exact) <= perturbation_bound(lev, table, well) + slack, lev.label
+        assert abs(lev.energy - exact) <= stated + slack, lev.label
+        assert stated < 1e-6 * abs(exact)  # and the table is fine enough for that to mean something
+
+
 def test_table_of_yukawa_reproduces_its_levels():
-    # Source: the yukawa family sampled at the table points; bound: first-order perturbation theory.
+    # Consistency with the built-in family: the yukawa family sampled at the table
+    # points; bound: first-order perturbation theory.
     yukawa = radsolve.potential("yukawa", Z=1, screening_length=5)
     r = np.geomspace(1e-4, 200.0, 1500)
     table = tabulated_potential((r, yukawa(r)), inside="coulomb:1", beyond="zero")
@@ -99,7 +140,8 @@ def test_quintic_spline_is_more_accurate_on_the_same_table():
 
 
 def test_nuclear_table_from_a_file_reproduces_woods_saxon(tmp_path):
-    # Source: the woods_saxon family (no spin-orbit, neutron) sampled in fm and MeV.
+    # Consistency with the built-in family: the woods_saxon family (no spin-orbit,
+    # neutron) sampled in fm and MeV; bound: first-order perturbation theory.
     ws = radsolve.potential("woods_saxon")
     r = np.linspace(0.0, 30.0, 1201)
     path = write_table(tmp_path / "ws.csv", r, ws(np.maximum(r, 1e-12)), header="r/fm,V/MeV")
