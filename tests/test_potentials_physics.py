@@ -135,8 +135,9 @@ def zero_energy_node_count(D, r_max_factor=80.0):
 
 
 # The ground state of -e^(-r/D)/r unbinds at D_c = 1/1.19061 ≈ 0.8399 bohr
-# (F. J. Rogers, H. C. Graboske, D. J. Harwood, Phys. Rev. A 1, 1577 (1970); value
-# from memory).  Bound-state counts are checked against the zero-energy solution.
+# (Rogers, Graboske & Harwood, Phys. Rev. A 1, 1577 (1970); also Edwards et al.,
+# arXiv:1706.09979 (2017) — from memory).  Bound-state counts are checked against the
+# zero-energy solution.
 @pytest.mark.parametrize("D", [
     0.82,
     0.845,  # bound by only ~1e-5 hartree

@@ -8,8 +8,9 @@ Sources:
 - Sturm oscillation theorem: the k-th level of a radial problem has k
   interior nodes (textbook).
 - Critical screening of the Yukawa 1s level, D_c = 0.8399 bohr (Rogers,
-  Graboske & Harwood, Phys. Rev. A 1, 1577 (1970); from memory), used only to
-  choose screening lengths safely on either side.
+  Graboske & Harwood, Phys. Rev. A 1, 1577 (1970); also Edwards et al.,
+  arXiv:1706.09979 (2017) — from memory), used only to choose screening
+  lengths safely on either side.
 - 2D hydrogen E = -Z**2 / (2 (n - 1/2)**2) (textbook formula).
 - Gaussian well levels: an independent solve_ivp shooting (scipy, DOP853 outward
   from small r with u ~ r**(l+1), node count and brentq on u(r_max) = 0).

@@ -2,8 +2,9 @@
 
 Outside references:
 
-* Yukawa 1s critical screening: 1/D_c = 1.19061 bohr**-1 (Edwards et al.,
-  arXiv:1706.09979 (2017)).
+* Yukawa 1s critical screening: 1/D_c = 1.19061 bohr**-1 (Rogers, Graboske &
+  Harwood, Phys. Rev. A 1, 1577 (1970); also Edwards et al., arXiv:1706.09979
+  (2017) — from memory).
 * Unit factors: CODATA via scipy.constants.
 
 The rest checks that the command line gives what the Python API gives, that
@@ -89,7 +90,8 @@ def test_threshold_command():
                  "--format", "json")
     assert result.exit_code == 0, result.stderr
     (doc,) = json.loads(result.stdout)
-    # Edwards et al. (2017): 1/D_c = 1.19061 bohr**-1.
+    # 1/D_c = 1.19061 bohr**-1 (Rogers, Graboske & Harwood, Phys. Rev. A 1, 1577 (1970);
+    # also Edwards et al., arXiv:1706.09979 (2017) — from memory).
     assert abs(1.0 / doc["value"] / 1.19061 - 1.0) < 1e-5
     assert doc["converged"] is True and doc["approach"].startswith("quadratic")
     table = run("threshold", "yukawa", "--vary", "screening_length", "--nmax", "2", "--bracket", "0.5:6")

@@ -2,9 +2,10 @@
 
 Outside references, each named again beside its test:
 
-* Yukawa critical screening lengths: 1s D_c = 1/1.19061 bohr (Edwards et al.,
-  arXiv:1706.09979 (2017)); 2p D_c = 4.5410 bohr (Rogers, Graboske, Harwood,
-  Phys. Rev. A 1, 1577 (1970), from memory).
+* Yukawa critical screening lengths: 1s D_c = 1/1.19061 bohr (Rogers,
+  Graboske & Harwood, Phys. Rev. A 1, 1577 (1970); also Edwards et al.,
+  arXiv:1706.09979 (2017) — from memory); 2p D_c = 4.5410 bohr (Rogers,
+  Graboske & Harwood 1970, from memory).
 * Hellmann-Feynman theorem (textbook): dE/dD = <dV/dD> = -Z <exp(-r/D)>/D**2 < 0,
   so every Yukawa level rises monotonically as D shrinks.
 * Large-D expansion (textbook first-order perturbation theory with the
@@ -13,9 +14,11 @@ Outside references, each named again beside its test:
   coefficient being about -0.34 (McEnnan, Kissel, Pratt, Phys. Rev. A 13,
   532 (1976), from memory).
 * Scaling (textbook): E(Z, D) = Z**2 E(1, Z D) for V = -Z exp(-r/D)/r, mu = 1.
-* Sweep energies against single solves with the other method (Numerov
-  shooting instead of finite differences): they must agree within the sum of
-  their error estimates.
+
+Internal-consistency checks (not outside references): sweep energies against
+single solves with the other method (Numerov shooting instead of finite
+differences), which must agree within the sum of their error estimates, and
+against a single finite-difference solve, which must be the same number.
 """
 
 from __future__ import annotations
@@ -33,7 +36,9 @@ from radsolve.registry import potential
 from radsolve.spectrum import solve
 from radsolve.sweeps import SweepInterrupted, parameter_values, sweep
 
-D_C_1S = 1.0 / 1.19061  # Edwards et al. (2017)
+# Rogers, Graboske & Harwood, Phys. Rev. A 1, 1577 (1970); also Edwards et al.,
+# arXiv:1706.09979 (2017) — from memory.
+D_C_1S = 1.0 / 1.19061
 D_C_2P = 4.5410  # Rogers et al. (1970), from memory
 
 TOL = 1e-8
@@ -61,7 +66,9 @@ def test_bound_flags_follow_published_critical_screening_lengths(yukawa_sweep):
     one_s = yukawa_sweep.level("1s")
     two_p = yukawa_sweep.level("2p")
     d = one_s.values["screening_length"]
-    # Edwards et al. (2017): 1s bound for D > 0.83991; Rogers et al. (1970): 2p for D > 4.5410.
+    # 1s bound for D > 0.83991 (Rogers, Graboske & Harwood, Phys. Rev. A 1, 1577 (1970); also
+    # Edwards et al., arXiv:1706.09979 (2017) — from memory); 2p for D > 4.5410 (Rogers et al.
+    # 1970, from memory).
     assert np.array_equal(one_s.bound, d > D_C_1S)
     assert np.array_equal(two_p.bound, d > D_C_2P)
     # Unbound rows carry no energy and are not "converged".
@@ -71,6 +78,8 @@ def test_bound_flags_follow_published_critical_screening_lengths(yukawa_sweep):
 
 
 def test_sweep_rows_agree_with_single_solves_by_another_method(yukawa_sweep):
+    # Internal-consistency check (not an outside reference): the sweep's fd energies
+    # against single Numerov solves, within the sum of their error estimates.
     res = yukawa_sweep
     for index in range(res.points_total):
         (d,) = res.point_values(index)
@@ -85,6 +94,8 @@ def test_sweep_rows_agree_with_single_solves_by_another_method(yukawa_sweep):
 
 
 def test_sweep_row_is_the_same_as_a_single_fd_solve(yukawa_sweep):
+    # Internal-consistency check (not an outside reference): a sweep row is the same
+    # computation as a single finite-difference solve at that point.
     single = solve(potential("yukawa", screening_length=5.0), l=[0, 1], count=2, tol=TOL)
     track = yukawa_sweep.level("2s")
     i = int(np.flatnonzero(track.values["screening_length"] == 5.0)[0])

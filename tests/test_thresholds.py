@@ -2,8 +2,9 @@
 
 Outside references used here, each named again beside its test:
 
-* Yukawa -exp(-r/D)/r, 1s: critical 1/D_c = 1.19061 bohr**-1 (Edwards,
-  Bhatt, Dobrowolski, ... arXiv:1706.09979 (2017), and many earlier tables).
+* Yukawa -exp(-r/D)/r, 1s: critical 1/D_c = 1.19061 bohr**-1 (Rogers,
+  Graboske & Harwood, Phys. Rev. A 1, 1577 (1970); also Edwards et al.,
+  arXiv:1706.09979 (2017) — from memory).
 * Yukawa 2p: D_c = 4.5410 bohr (from memory: F. J. Rogers, H. C. Graboske,
   D. J. Harwood, Phys. Rev. A 1, 1577 (1970)); cross-checked here against
   bisection on radsolve.solve's own bound count, which is accurate for l >= 1
@@ -92,7 +93,8 @@ def plugin_dir(tmp_path_factory):
 
 
 def test_yukawa_1s_critical_screening_matches_published_value():
-    # Edwards et al., arXiv:1706.09979 (2017): 1/D_c = 1.19061 bohr**-1 for Z = 1, mu = 1.
+    # 1/D_c = 1.19061 bohr**-1 for Z = 1, mu = 1 (Rogers, Graboske & Harwood, Phys. Rev. A 1,
+    # 1577 (1970); also Edwards et al., arXiv:1706.09979 (2017) — from memory).
     res = threshold("yukawa", "screening_length", level="1s", bracket=(0.5, 1.5), tol=1e-10)
     assert res.converged
     assert abs(1.0 / res.value / 1.19061 - 1.0) <= 1e-5
@@ -286,7 +288,8 @@ def test_spin_orbit_labels_need_a_spin_orbit_term():
 
 
 def test_sweep_crossings_refine_the_sweep_brackets():
-    # Edwards et al. (2017): 1/D_c(1s) = 1.19061; Rogers et al. (1970), from memory: D_c(2p) = 4.5410.
+    # 1/D_c(1s) = 1.19061 (Rogers, Graboske & Harwood, Phys. Rev. A 1, 1577 (1970); also Edwards
+    # et al., arXiv:1706.09979 (2017) — from memory); D_c(2p) = 4.5410 (Rogers et al. 1970, from memory).
     res = sweep("yukawa", vary={"screening_length": [0.6, 1.0, 3.0, 5.0]}, l=[0, 1], count=1, tol=1e-7,
                 workers=1)
     found = sweep_crossings(res)
