@@ -6,9 +6,10 @@ Sources of the reference values, beside each check:
   independently with mpmath.quad (mpmath) to 30 digits.
 - f(1s -> 2p) = 0.4162 (textbook value, e.g. Bethe & Salpeter, Quantum
   Mechanics of One- and Two-Electron Atoms, 1957, Table 13, infinite nuclear
-  mass).
+  mass; from memory).
 - A(2p -> 1s) = 6.2649e8 s^-1 and tau(2p) = 1.596 ns: NIST Atomic Spectra
-  Database; Wiese & Fuhr, J. Phys. Chem. Ref. Data 38, 565 (2009).
+  Database; Wiese & Fuhr, J. Phys. Chem. Ref. Data 38, 565 (2009) (from
+  memory).
 - A(3p -> 1s) = 1.6725e8 s^-1 and A(3d -> 2p) = 6.4651e7 s^-1: same
   compilation (values from memory).
 - Scaling of A with the reduced mass (A ~ mu) and with the nuclear charge
@@ -84,10 +85,10 @@ def test_radial_dipole_integrals_against_sympy(hydrogen_result):
 def test_lyman_alpha_with_the_electron_proton_reduced_mass():
     tr = transitions("coulomb", 2, mass="electron+proton")
     line = tr.line("2p", "1s")
-    # NIST ASD; Wiese & Fuhr, J. Phys. Chem. Ref. Data 38 (2009)
+    # NIST ASD; Wiese & Fuhr, J. Phys. Chem. Ref. Data 38 (2009) (from memory)
     assert line.einstein_A == pytest.approx(6.2649e8, rel=1e-3)
     assert tr.state("2p").lifetime_s == pytest.approx(1.596e-9, rel=1e-3)
-    # textbook value f(1s -> 2p) = 0.4162 (Bethe & Salpeter 1957)
+    # textbook value f(1s -> 2p) = 0.4162 (Bethe & Salpeter 1957; from memory)
     assert line.oscillator_strength == pytest.approx(0.4162, rel=1e-3)
     # vacuum wavelength from the reduced-mass Rydberg energy (CODATA via scipy.constants)
     rydberg_J = pc["Rydberg constant times hc in J"][0]
