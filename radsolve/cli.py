@@ -1015,6 +1015,10 @@ def transitions_command(
         from radsolve.report import render_transitions
 
         text = render_transitions(tr, unit, fmt.value)
+        if fmt.value == "csv":
+            from radsolve.report import MODEL_NOTE_TEXT
+
+            _say("note: " + MODEL_NOTE_TEXT)
         if out is None:
             typer.echo(text, nl=False)
         else:

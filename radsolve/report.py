@@ -478,10 +478,12 @@ def transitions_csv(tr, unit: str = "hartree") -> str:
     (vacuum), oscillator_strength, einstein_A (s^-1) and branching_ratio;
     state rows fill label, energy (the level), lifetime_s (empty when
     metastable), metastable (no E1 decay) and ground (the lowest level).
-    The unit column names the energy unit.
+    The unit column names the energy unit.  A leading ``#`` comment line says
+    that these are model rates (:data:`MODEL_NOTE_TEXT`); readers skip it.
     """
     factor = _unit_factor(unit)
     buf = io.StringIO()
+    buf.write("# Note: " + MODEL_NOTE_TEXT + "\n")
     writer = csv.writer(buf, lineterminator="\n")
     writer.writerow(TRANSITION_CSV_FIELDS)
 

@@ -3,7 +3,8 @@
 Physics references, beside each check:
 - hydrogen <r> = (3n^2 - l(l+1))/2 for unit mass (textbook formula);
 - A(2p -> 1s) = 6.2649e8 s^-1 with the electron-proton reduced mass (NIST
-  Atomic Spectra Database; Wiese & Fuhr, J. Phys. Chem. Ref. Data 38 (2009)).
+  Atomic Spectra Database; Wiese & Fuhr, J. Phys. Chem. Ref. Data 38 (2009);
+  from memory).
 """
 
 from __future__ import annotations
@@ -75,7 +76,8 @@ def test_transitions_json_and_csv(tmp_path):
     doc = json.loads(result.stdout)
     (line,) = doc["lines"]
     assert (line["upper"], line["lower"]) == ("2p", "1s")
-    assert line["einstein_A"] == pytest.approx(6.2649e8, rel=1e-3)  # NIST ASD (Wiese & Fuhr 2009)
+    # NIST ASD (Wiese & Fuhr 2009; from memory)
+    assert line["einstein_A"] == pytest.approx(6.2649e8, rel=1e-3)
     states = {s["label"]: s for s in doc["states"]}
     assert states["2s"]["lifetime_s"] is None and states["2s"]["metastable"] is True
     assert states["2p"]["branching"] == {"1s": 1.0}
@@ -83,7 +85,11 @@ def test_transitions_json_and_csv(tmp_path):
     out = tmp_path / "t.csv"
     result = run("transitions", "coulomb", "--nmax", "3", "--format", "csv", "--out", out)
     assert result.exit_code == 0, result.stderr
-    rows = list(csv.DictReader(io.StringIO(out.read_text())))
+    text = out.read_text()
+    # The model-calculation caveat: a leading '#' line in the file and a note on stderr.
+    assert text.startswith("#") and "model calculation" in text.splitlines()[0]
+    assert "model calculation" in result.stderr and "evaluated data" in result.stderr
+    rows = list(csv.DictReader(line for line in io.StringIO(text) if not line.startswith("#")))
     lines = [r for r in rows if r["record"] == "line"]
     assert len(lines) == 5  # 2p-1s, 3s-2p, 3p-1s, 3p-2s, 3d-2p (E1 rule, textbook)
     assert {r["label"] for r in rows if r["record"] == "state" and r["metastable"] == "true"} == {"1s", "2s"}
@@ -126,7 +132,7 @@ def test_bad_input(args, words):
 
 def test_real_process_has_no_traceback():
     proc = subprocess.run([sys.executable, "-m", "radsolve", "wave", "coulomb", "--n", "2", "--l", "0",
-                           "--moment=-4"], capture_output=True, text=True, timeout=120, cwd=NEUTRAL_CWD)
+                           "--moment=-4"], capture_output=True, text=True, timeout=600, cwd=NEUTRAL_CWD)
     assert proc.returncode == 2
     assert "diverges" in proc.stderr and "Traceback" not in proc.stderr
     assert len(proc.stderr.strip().splitlines()) == 1
@@ -144,9 +150,12 @@ def test_transitions_with_occupied_levels():
 
 
 def test_wave_hellmann_feynman_rows():
-    # dE/dZ = -mu Z/n^2 for -Z/r (textbook formula): -1/4 for n = 2, Z = 1
-    result = run("wave", "coulomb", "--n", "2", "--l", "1", "--hellmann-feynman", "Z", "--tol", "1e-11")
-    assert result.exit_code in (0, 3), result.stderr
+    # dE/dZ = -mu Z/n^2 for -Z/r (textbook formula): -1/4 for n = 2, Z = 1.  tol 1e-10 is
+    # well within reach, so the command must converge (exit 0, every row "yes").
+    result = run("wave", "coulomb", "--n", "2", "--l", "1", "--hellmann-feynman", "Z", "--tol", "1e-10")
+    assert result.exit_code == 0, result.stderr
+    assert _row(result.stdout, "<dV/dZ>")[-1] == "yes"
+    assert _row(result.stdout, "dE/dZ")[-1] == "yes"
     assert float(_row(result.stdout, "<dV/dZ>")[2]) == pytest.approx(-0.25, rel=1e-9)
     assert float(_row(result.stdout, "dE/dZ")[3]) == pytest.approx(-0.25, rel=1e-7)
     bad = run("wave", "coulomb", "--n", "1", "--l", "0", "--hellmann-feynman", "depth")
