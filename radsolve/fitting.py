@@ -55,6 +55,11 @@ import numpy as np
 from .errors import InputError, RadsolveError
 from .thresholds import parse_level
 
+#: The one-line caveat carried by the fit table and JSON ("note").
+MODEL_NOTE = ("model calculation: the fitted values describe a model potential, not measured "
+              "properties of the system; for diagnostics or safety work, use established data "
+              "and practice.")
+
 #: Columns a targets file must have.
 TARGET_COLUMNS = ("label", "energy", "uncertainty", "unit")
 
@@ -346,6 +351,7 @@ class FitResult:
             ],
             "spurious": [{"label": lab, "energy": e / f} for lab, e in self.spurious],
             "warnings": list(self.warnings),
+            "note": MODEL_NOTE,
             "success": bool(self.success), "message": self.message,
             "evaluations": self.evaluations, "mass": self.mass, "tol": self.tol, "units": self.units,
             "parameters": dict(self.parameters),
@@ -728,5 +734,5 @@ def format_fit(result: FitResult, unit: str | None = None) -> str:
     if result.warnings:
         lines.append("")
         lines += [f"WARNING: {w}" for w in result.warnings]
-    lines += ["", "The fitted values describe a model potential, not measured properties of the system."]
+    lines += ["", "Note: " + MODEL_NOTE]
     return "\n".join(lines) + "\n"

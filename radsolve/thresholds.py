@@ -54,6 +54,11 @@ import numpy as np
 from .errors import InputError, RadsolveError
 from .result import SPECTROSCOPIC_LETTERS, level_label
 
+#: The one-line caveat carried by the threshold table and JSON ("note").
+MODEL_NOTE = ("model calculation: a critical parameter value of a model potential, not a measured "
+              "ionization or binding condition of a real system; for diagnostics or safety work, "
+              "use established data and practice.")
+
 #: Step in x of the coarsest grid.
 COARSE_STEP = 0.04
 #: At most this many halvings of COARSE_STEP.
@@ -250,6 +255,7 @@ class ThresholdResult:
             "slope": self.slope, "slope_error": self.slope_error, "approach": self.approach,
             "fixed": dict(self.fixed), "mass": self.mass, "tol": self.tol,
             "units": self.units, "energy_unit": self.energy_unit, "dimension": self.dimension,
+            "note": MODEL_NOTE,
         }
 
 
@@ -847,7 +853,7 @@ def format_thresholds(results: Sequence[ThresholdResult]) -> str:
     lines += format_columns(header, rows, {1, 2})
     lines += ["", "E -> V(inf) as p -> p_c. In three dimensions s levels leave the threshold "
               "quadratically and spread without bound there; l >= 1 levels leave it linearly and "
-              "stay localized. Model calculation."]
+              "stay localized.", "Note: " + MODEL_NOTE]
     if any(not r.converged for r in results):
         lines.append("WARNING: some values did not reach the tolerance; their estimates are what was achieved")
     return "\n".join(lines) + "\n"

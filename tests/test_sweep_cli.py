@@ -94,8 +94,10 @@ def test_threshold_command():
     # also Edwards et al., arXiv:1706.09979 (2017) — from memory).
     assert abs(1.0 / doc["value"] / 1.19061 - 1.0) < 1e-5
     assert doc["converged"] is True and doc["approach"].startswith("quadratic")
+    assert doc["note"].startswith("model calculation")  # the caveat travels with the number
     table = run("threshold", "yukawa", "--vary", "screening_length", "--nmax", "2", "--bracket", "0.5:6")
     assert table.exit_code == 0, table.stderr
+    assert "model calculation" in table.stdout
     assert [line.split()[0] for line in table.stdout.splitlines()[3:6]] == ["1s", "2s", "2p"]
 
 
@@ -115,10 +117,12 @@ def test_fit_command(tmp_path):
     doc = json.loads(result.stdout)
     assert doc["values"]["Z"] == pytest.approx(2.0, abs=1e-3 * doc["standard_errors"]["Z"])
     assert doc["errors_scaled_by_chi2_per_dof"] is False
+    assert doc["note"].startswith("model calculation")  # the caveat travels with the numbers
     assert plot.read_bytes()[:4] == b"\x89PNG"
     text = run("fit", "yukawa", "--targets", str(targets), "--free", "Z", "-p", "screening_length=3")
     assert text.exit_code == 0
     assert "chi2/dof" in text.stdout and "model potential" in text.stdout
+    assert "model calculation" in text.stdout
 
 
 @pytest.mark.parametrize("args, message", [
@@ -171,16 +175,15 @@ def test_ctrl_c_keeps_the_finished_rows(tmp_path):
     cmd = [sys.executable, "-m", "radsolve", "sweep", "yukawa", "--vary", "screening_length=1:30:400",
            "-l", "0", "-l", "1", "--count", "3", "--tol", "1e-10", "--workers", "2", "--out", str(out)]
     proc = subprocess.Popen(cmd, cwd=tmp_path, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True)
-    deadline = time.monotonic() + 60
-    while time.monotonic() < deadline:
-        if out.exists() and out.read_text().count("\n") > 1 + 6 * 5:
-            break
+    # Wait (without a deadline of our own: hang protection is the test runner's) until
+    # some points are written, or the process ends, which would be a failure.
+    while not (out.exists() and out.read_text().count("\n") > 1 + 6 * 5):
+        if proc.poll() is not None:
+            stdout, stderr = proc.communicate()
+            pytest.fail(f"the sweep ended (exit {proc.returncode}) before it was interrupted:\n{stderr}")
         time.sleep(0.05)
-    else:
-        proc.kill()
-        pytest.fail("the sweep wrote no rows within 60 s")
     proc.send_signal(signal.SIGINT)  # what Ctrl-C sends
-    stdout, stderr = proc.communicate(timeout=60)
+    stdout, stderr = proc.communicate(timeout=600)  # generous: only a guard against a hang
     assert proc.returncode == 130, stderr
     assert "interrupted" in stderr and "Traceback" not in stderr
     lines = out.read_text().splitlines()
