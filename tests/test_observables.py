@@ -2,6 +2,8 @@
 
 Sources of the reference values, beside each check:
 
+- Hydrogen levels: sympy.physics.hydrogen.E_nl (sympy), scaled by the reduced
+  mass (proton-electron mass ratio: CODATA via scipy.constants).
 - Hydrogen-like radial moments (textbook formulas, e.g. Bethe & Salpeter,
   Quantum Mechanics of One- and Two-Electron Atoms, 1957, eq. 3.26):
   <r> = (3n^2 - l(l+1)) / (2Z), <r^2> = n^2 (5n^2 + 1 - 3l(l+1)) / (2Z^2),
@@ -23,7 +25,9 @@ import math
 
 import numpy as np
 import pytest
+from scipy.constants import physical_constants
 from scipy.special import gamma
+from sympy.physics.hydrogen import E_nl
 
 import radsolve
 from radsolve.errors import InputError
@@ -114,7 +118,10 @@ def test_moment_needs_a_finite_real_k(hydrogen, bad):
 def test_potential_and_kinetic_energy_of_hydrogen_with_reduced_mass():
     st = state("coulomb", 3, 1, mass="electron+proton", tol=1e-11)
     energy = st.level.energy
-    exact = st.level.exact  # -mu/(2 n^2), textbook formula
+    # sympy.physics.hydrogen.E_nl (sympy), -1/(2 n^2), scaled by the electron-proton reduced
+    # mass in electron masses, mu = 1/(1 + m_e/m_p) (CODATA via scipy.constants)
+    mu = 1.0 / (1.0 + 1.0 / physical_constants["proton-electron mass ratio"][0])
+    exact = mu * float(E_nl(3, 1))
     assert energy == pytest.approx(exact, rel=1e-10)
     # virial theorem for -1/r (textbook): <V> = 2E, <T> = -E
     assert st.potential_energy().value == pytest.approx(2 * exact, rel=1e-9)
@@ -274,6 +281,7 @@ def test_expectation_dispatch(hydrogen):
     assert expectation(st, "r**1.5").value == pytest.approx(st.moment(1.5).value, rel=1e-14)
     assert expectation(st, 2).value == pytest.approx(30.0, rel=1e-8)  # n^2(5n^2+1-6)/2, textbook
     assert expectation(st, "V").value == pytest.approx(-0.25, rel=1e-9)  # 2E, virial theorem
+    # textbook formula (virial theorem, E = -1/8 for 2s/2p): <T> = -E = 1/8
     assert expectation(st, "T").value == pytest.approx(0.125, rel=1e-8)
     via_function = expectation(st, lambda r: np.exp(-r))
     # integral of r^4 e^{-r} e^{-r} / 24 dr = 4!/(24 * 2^5) (textbook integral)
