@@ -82,7 +82,11 @@ def test_correlation_matrix_is_a_correlation_matrix(true_levels):
     assert np.allclose(c, c.T)
     assert np.allclose(np.diag(c), 1.0)
     assert np.all(np.abs(c) <= 1.0 + 1e-12)
-    # Raising Z deepens every level, as does lengthening D: the two compete (negative correlation).
+    # Raising Z deepens every level, as does lengthening D: the two trade off in the binding.
+    # Derivation: by Hellmann-Feynman (textbook), dE/dZ = -<exp(-r/D)/r> < 0 and
+    # dE/dD = -Z <exp(-r/D)>/D**2 < 0 for every level, so the off-diagonal element of
+    # M = J^T W J is sum_i w_i (dE_i/dZ)(dE_i/dD) > 0; the covariance is M^-1 (linearized
+    # least squares, textbook), and the off-diagonal of a 2x2 inverse is -M_01/det M < 0.
     assert c[0, 1] < 0
 
 
