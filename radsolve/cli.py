@@ -283,7 +283,7 @@ def levels_command(
         system = unit_system(pot.family.units)
         if mass is None and system.name != "atomic":
             raise InputError(f"--mass is needed in {system.name} units ({system.mass_unit}, u or "
-                             "particles), e.g. --mass neutron or --mass 939.57")
+                             "particles), e.g. --mass neutron")
         mu = _with_option("--mass", system.parse_mass, "1" if mass is None else mass)
 
         from radsolve.report import render
@@ -576,7 +576,7 @@ def _family_mass(family, units, mass: Optional[str]) -> float:
     system = unit_system(family.units)
     if mass is None and system.name != "atomic":
         raise InputError(f"--mass is needed in {system.name} units ({system.mass_unit}, u or "
-                         "particles), e.g. --mass neutron or --mass 939.57")
+                         "particles), e.g. --mass neutron")
     return _with_option("--mass", system.parse_mass, "1" if mass is None else mass)
 
 

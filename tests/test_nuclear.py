@@ -205,7 +205,8 @@ def test_cornell_refuses_no_potential():
 def test_nuclear_kinetic_mass_gives_the_oscillator():
     # Source: E = hbar omega (2 n_r + l + 3/2) (textbook formula); V = mu omega^2 r^2 / 2
     # written in MeV and fm as (mu c^2) (hbar omega)^2 r^2 / (2 (hbar c)^2), hbar c from scipy.
-    mu, hw = 939.0, 10.0
+    # the neutron mass (CODATA via scipy.constants); hbar omega = 10 MeV is an arbitrary test value
+    mu, hw = const.physical_constants["neutron mass energy equivalent in MeV"][0], 10.0
     pot = formula_potential("0.5*m*w**2*r**2/hbarc**2", units="nuclear", m=mu, w=hw)
     res = radsolve.solve(pot, l=[0, 1, 2], count=2, mass=mu, tol=1e-11)
     for lev in res.levels:
