@@ -259,10 +259,10 @@ def test_confining_families():
 
 # --------------------------------------------------------------------------- exact energies
 
-@pytest.mark.parametrize("n, l", [(1, 0), (2, 0), (2, 1), (3, 2), (7, 4)])
 MUON_MASS = physical_constants["muon-electron mass ratio"][0]  # CODATA via scipy.constants
 
 
+@pytest.mark.parametrize("n, l", [(1, 0), (2, 0), (2, 1), (3, 2), (7, 4)])
 @pytest.mark.parametrize("Z, mass", [(1, 1.0), (3, 0.5), (2.5, MUON_MASS)])
 def test_coulomb_exact_energy_against_sympy(n, l, Z, mass):
     from sympy.physics.hydrogen import E_nl
