@@ -177,8 +177,9 @@ def run_process(*args, env_extra=None):
     env.pop("RADSOLVE_PLUGINS", None)
     env.pop("RADSOLVE_TRACEBACK", None)
     env.update(env_extra or {})
+    # The 600 s timeout only guards against a hang; it is no speed goal.
     return subprocess.run([sys.executable, "-m", "radsolve", *map(str, args)],
-                          capture_output=True, text=True, env=env, timeout=120,
+                          capture_output=True, text=True, env=env, timeout=600,
                           cwd=NEUTRAL_CWD)
 
 
