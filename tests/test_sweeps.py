@@ -202,7 +202,9 @@ def test_interrupt_keeps_finished_rows(tmp_path, workers):
               count=1, tol=1e-6, workers=workers, out=out)
     partial = info.value.partial
     assert not partial.complete
-    assert partial.done[:2].all() and not partial.done[2]
+    assert partial.done[0] and not partial.done[2]
+    if workers == 1:
+        assert partial.done[1]  # in order; with workers the point beside it may be cut short
     doc = json.loads(out.read_text())  # still a complete JSON document
     assert doc["complete"] is False
     assert doc["points_done"] == partial.points_done
