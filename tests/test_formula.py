@@ -21,13 +21,12 @@ import pickle
 import numpy as np
 import pytest
 from scipy import constants as const
-from scipy.integrate import solve_ivp
-from scipy.optimize import brentq
 from scipy.special import erf
 from sympy.physics.hydrogen import E_nl
 from typer.testing import CliRunner
 
 import radsolve
+from independent_shooting import shooting_energy
 from radsolve.cli import app
 from radsolve.errors import InputError, PluginError
 from radsolve.formula import CONSTANTS, FUNCTIONS, Formula, FormulaError, formula_potential
@@ -108,35 +107,13 @@ def test_formula_consistency_with_yukawa_family():
 
 
 def yukawa_shooting_energy(Z, D, l, nodes, E_lo, E_hi, r_max, r0=1e-8):
-    """Independent solve_ivp shooting (scipy) for -Z exp(-r/D)/r, mu = 1: u started at r0
-    with the Coulomb series u = r^(l+1) (1 - Z r/(l+1)) (textbook), DOP853 outward, the
-    energy bracketed by the node count (Sturm oscillation theorem, textbook) and refined
-    with brentq on u(r_max) = 0.  No radsolve code is used."""
-    energy = [0.0]
+    """Independent solve_ivp shooting (scipy; tests/independent_shooting.py) for
+    -Z exp(-r/D)/r, mu = 1, with u started at r0 from the Coulomb series
+    u = r^(l+1) (1 - Z r/(l+1)) (textbook).  No radsolve code is used."""
+    def start(r):
+        return (r ** (l + 1) * (1 - Z * r / (l + 1)), (l + 1) * r**l - Z * (l + 2) * r ** (l + 1) / (l + 1))
 
-    def rhs(r, y):
-        return [y[1], (l * (l + 1) / r**2 - 2.0 * Z * math.exp(-r / D) / r - 2.0 * energy[0]) * y[0]]
-
-    def crossing(r, y):
-        return y[0]
-
-    def run(E):
-        energy[0] = E
-        y0 = [r0 ** (l + 1) * (1 - Z * r0 / (l + 1)), (l + 1) * r0**l - Z * (l + 2) * r0 ** (l + 1) / (l + 1)]
-        sol = solve_ivp(rhs, (r0, r_max), y0, method="DOP853", rtol=1e-12, atol=1e-300, events=crossing)
-        assert sol.success, sol.message
-        return sol.y[0][-1], len(sol.t_events[0])
-
-    (a, ka), (b, kb) = (E_lo, run(E_lo)[1]), (E_hi, run(E_hi)[1])
-    assert ka <= nodes < kb, (ka, kb)
-    while not (ka == nodes and kb == nodes + 1):
-        m = 0.5 * (a + b)
-        k = run(m)[1]
-        if k <= nodes:
-            a, ka = m, k
-        else:
-            b, kb = m, k
-    return brentq(lambda E: run(E)[0], a, b, xtol=1e-15, rtol=1e-14)
+    return shooting_energy(lambda r: -Z * math.exp(-r / D) / r, l, nodes, E_lo, E_hi, r_max, r0=r0, start=start)
 
 
 @pytest.mark.parametrize("l, label", [(0, "1s"), (1, "2p")])

@@ -20,10 +20,9 @@ import textwrap
 
 import numpy as np
 import pytest
-from scipy.integrate import solve_ivp
-from scipy.optimize import brentq
 
 import radsolve
+from independent_shooting import shooting_energy
 from radsolve.errors import InputError, UnboundedBelowError
 
 
@@ -98,39 +97,6 @@ GAUSS_WELL_PLUGIN = textwrap.dedent('''
     def V(r, depth, width):
         return -depth * np.exp(-(r / width) ** 2)
 ''')
-
-
-def shooting_energy(V, l, nodes, E_lo, E_hi, r_max, mu=1.0, r0=1e-6):
-    """Independent solve_ivp shooting (scipy): the level with `nodes` interior zeros of
-    -u''/(2 mu) + [V + l(l+1)/(2 mu r^2)] u = E u, u(0) = 0 = u(r_max).  u ~ r^(l+1) is
-    started at r0 (V regular at the origin) and integrated outward with DOP853; the
-    energy is bracketed by the node count (Sturm oscillation theorem, textbook) and
-    refined with brentq on u(r_max).  No radsolve code is used."""
-    energy = [0.0]
-
-    def rhs(r, y):
-        return [y[1], (l * (l + 1) / r**2 + 2.0 * mu * (V(r) - energy[0])) * y[0]]
-
-    def crossing(r, y):
-        return y[0]
-
-    def run(E):
-        energy[0] = E
-        sol = solve_ivp(rhs, (r0, r_max), [r0 ** (l + 1), (l + 1) * r0**l], method="DOP853",
-                        rtol=1e-12, atol=1e-300, events=crossing)
-        assert sol.success, sol.message
-        return sol.y[0][-1], len(sol.t_events[0])
-
-    (a, ka), (b, kb) = (E_lo, run(E_lo)[1]), (E_hi, run(E_hi)[1])
-    assert ka <= nodes < kb, (ka, kb)
-    while not (ka == nodes and kb == nodes + 1):
-        m = 0.5 * (a + b)
-        k = run(m)[1]
-        if k <= nodes:
-            a, ka = m, k
-        else:
-            b, kb = m, k
-    return brentq(lambda E: run(E)[0], a, b, xtol=1e-15, rtol=1e-14)
 
 
 def test_minimal_plugin_without_metadata_both_methods_agree(tmp_path):
