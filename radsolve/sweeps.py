@@ -486,9 +486,13 @@ class SweepResult:
         floats carry every digit; an unbound level's energy and error estimate
         are empty cells.
         """
+        return self._render(_CsvSink, path, unit)
+
+    def _render(self, sink_class, path, unit) -> str:
+        """Write every row through a sink into text (and, given ``path``, that file)."""
         unit = unit or self.energy_unit
         buf = io.StringIO()
-        sink = _CsvSink(buf, self.columns, unit)
+        sink = sink_class(buf, self.columns, unit)
         sink.start(self)
         for row in self.rows(unit):
             sink.write_row(row)
@@ -525,17 +529,7 @@ class SweepResult:
         level with the keys of :attr:`columns`; an unbound level's energy is
         ``null``), then ``points_done`` and ``complete``.
         """
-        unit = unit or self.energy_unit
-        buf = io.StringIO()
-        sink = _JsonSink(buf, self.columns, unit)
-        sink.start(self)
-        for row in self.rows(unit):
-            sink.write_row(row)
-        sink.finish(self)
-        text = buf.getvalue()
-        if path is not None:
-            _write_text(path, text)
-        return text
+        return self._render(_JsonSink, path, unit)
 
     def to_pandas(self, unit: str | None = None):
         """A pandas DataFrame with one row per level (needs the optional dependency pandas)."""
