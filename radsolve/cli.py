@@ -175,6 +175,13 @@ PLUGINS_HELP = ("folder of potential plug-ins (*.py); repeatable; folders in the
                 "RADSOLVE_PLUGINS environment variable are searched too")
 
 # Options shared by several commands.
+NameArgument = Annotated[str, typer.Argument(
+    metavar="NAME", help="potential family, e.g. coulomb (list: radsolve potentials)")]
+ParamOption = Annotated[Optional[list[str]], typer.Option(
+    "-p", "--param", metavar="KEY=VALUE",
+    help="potential parameter, repeatable; atomic units unless a unit is attached")]
+AtomicMassOption = Annotated[str, typer.Option(
+    "--mass", "-m", metavar="M", help="reduced mass: electron masses, or particles such as electron+proton")]
 PluginsOption = Annotated[Optional[list[Path]], typer.Option("--plugins", metavar="DIR", help=PLUGINS_HELP)]
 MethodOption = Annotated[Method, typer.Option(
     "--method", help="fd (finite differences), numerov (shooting) or both")]
@@ -191,8 +198,7 @@ DimensionOption = Annotated[int, typer.Option(
 
 @app.command("levels")
 def levels_command(
-    name: Annotated[str, typer.Argument(
-        metavar="NAME", help="potential family, e.g. coulomb (list: radsolve potentials)")],
+    name: NameArgument,
     param: Annotated[Optional[list[str]], typer.Option(
         "-p", "--param", metavar="KEY=VALUE",
         help="potential parameter, repeatable; atomic units unless a unit is attached, "
@@ -811,17 +817,12 @@ def _folder_exists(path: Path, option: str) -> None:
 
 @app.command("wave")
 def wave_command(
-    name: Annotated[str, typer.Argument(
-        metavar="NAME", help="potential family, e.g. coulomb (list: radsolve potentials)")],
+    name: NameArgument,
     n: Annotated[int, typer.Option(
         "--n", "-n", min=1, metavar="N", help="principal number n = nodes + l + 1")],
     l: Annotated[int, typer.Option("--l", "-l", min=0, metavar="L", help="orbital angular momentum")],
-    param: Annotated[Optional[list[str]], typer.Option(
-        "-p", "--param", metavar="KEY=VALUE",
-        help="potential parameter, repeatable; atomic units unless a unit is attached")] = None,
-    mass: Annotated[str, typer.Option(
-        "--mass", "-m", metavar="M",
-        help="reduced mass: electron masses, or particles such as electron+proton")] = "1",
+    param: ParamOption = None,
+    mass: AtomicMassOption = "1",
     tol: Annotated[float, typer.Option(
         "--tol", metavar="T", help="target relative error of the energy (1e-14 ... 0.1)")] = 1e-10,
     method: MethodOption = Method.fd,
@@ -945,16 +946,11 @@ def wave_command(
 
 @app.command("transitions")
 def transitions_command(
-    name: Annotated[str, typer.Argument(
-        metavar="NAME", help="potential family, e.g. coulomb (list: radsolve potentials)")],
+    name: NameArgument,
     nmax: Annotated[int, typer.Option(
         "--nmax", min=1, metavar="N", help="every bound level with n <= N, for every l < N")],
-    param: Annotated[Optional[list[str]], typer.Option(
-        "-p", "--param", metavar="KEY=VALUE",
-        help="potential parameter, repeatable; atomic units unless a unit is attached")] = None,
-    mass: Annotated[str, typer.Option(
-        "--mass", "-m", metavar="M",
-        help="reduced mass: electron masses, or particles such as electron+proton")] = "1",
+    param: ParamOption = None,
+    mass: AtomicMassOption = "1",
     tol: Annotated[float, typer.Option(
         "--tol", metavar="T", help="target relative error of each energy (1e-14 ... 0.1)")] = 1e-10,
     method: MethodOption = Method.fd,
