@@ -54,7 +54,7 @@ RESERVED_PARAMETER_NAMES = frozenset({"r", "n", "l", "mass", "plugins"})
 #: The optional hooks of a family and how many positional arguments each takes
 #: before the parameters (see DEVELOPERS.md).
 HOOKS = {"v_infinity": 0, "small_r": 0, "exact_energy": 3, "breakpoints": 0, "validate": 0,
-         "V_l": 2, "spin_orbit": 1}
+         "V_l": 2, "spin_orbit": 1, "potential_error": 1}
 
 _NAME_RE = re.compile(r"^[A-Za-z][A-Za-z0-9_\-]*$")
 _PARAM_RE = re.compile(r"^[A-Za-z_][A-Za-z0-9_]*$")
@@ -287,6 +287,9 @@ class PotentialFamily:
         ``"built-in"``, ``"entry point"``, ``"RADSOLVE_PLUGINS"`` or ``"plugin folder"``.
     v_infinity, small_r, exact_energy, breakpoints, validate : callable or None
         The optional hooks (see DEVELOPERS.md).
+    potential_error : callable or None
+        ``potential_error(r, **params)``: a pointwise estimate of how far V is
+        from the potential it stands for (e.g. a table's interpolation error).
     V_l, spin_orbit : callable or None
         ``V_l(r, l, **params)``: the potential felt with orbital angular
         momentum l (semilocal families); ``spin_orbit(r, **params)``: the
@@ -313,6 +316,7 @@ class PotentialFamily:
     validate: Callable[..., Any] | None = None
     V_l: Callable[..., Any] | None = None
     spin_orbit: Callable[..., Any] | None = None
+    potential_error: Callable[..., Any] | None = None
     file: str | None = field(default=None, repr=False)
 
     @property
@@ -977,6 +981,18 @@ class Potential:
             raise PluginError(f"{self._where()}: breakpoints must be positive finite radii, got {bad}")
         return sorted(set(points))
 
+    def potential_error(self, r: Any) -> np.ndarray | None:
+        """Pointwise |V - V_true| (energy units) at radii ``r`` when the family
+        knows it (e.g. a table's interpolation error); None without the hook."""
+        hook = self._family.potential_error
+        if hook is None:
+            return None
+        r_arr = np.asarray(r, dtype=float)
+        view = r_arr.view()
+        view.flags.writeable = False
+        values = self._checked("potential_error", lambda: hook(view, **self._params), r_arr)
+        return np.abs(values)
+
     @property
     def l_dependent(self) -> bool:
         """True when the family defines V_l (a different potential per l)."""
@@ -1093,6 +1109,9 @@ class ChannelPotential:
 
     def breakpoints(self) -> list[float]:
         return self.base.breakpoints()
+
+    def potential_error(self, r: Any) -> np.ndarray | None:
+        return self.base.potential_error(r)
 
     def exact_energy(self, n: int, l: int, mass: float = 1.0) -> float | None:
         return self.base.exact_energy(n, l, mass) if self.plain else None

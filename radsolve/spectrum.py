@@ -462,7 +462,7 @@ def _run_method(channels, plan: _BoxPlan, mass, tol, cls: type[RadialSolver], ma
         grid = span.grid(refinement)
         if grid.size > MAX_POINTS:
             break
-        all_met, any_improving = True, False
+        all_met, any_improving, all_limited = True, False, True
         for ch in channels:
             want = plan.wanted[ch.key]
             if want == 0:
@@ -473,6 +473,7 @@ def _run_method(channels, plan: _BoxPlan, mass, tol, cls: type[RadialSolver], ma
             energies, u, _ = _spectrum_on(grid, values, ch, mass, inner, cls, math.inf, want, guesses)
             history[ch.key].append([(float(energies[k]), u[k], grid) for k in range(want)])
             levels = best[ch.key]
+            profile = ch.potential.potential_error(grid.r) if hasattr(ch.potential, "potential_error") else None
             for k in range(want):
                 series = [step[k][0] for step in history[ch.key]]
                 value, estimate, observed = richardson(series, cls.error_orders, cls.relative_rounding(grid.size))
@@ -489,9 +490,15 @@ def _run_method(channels, plan: _BoxPlan, mass, tol, cls: type[RadialSolver], ma
                 met = len(series) >= 3 and levels[k]["error"] <= tol * ch.energy_scale(levels[k]["energy"])
                 levels[k]["converged"] = met
                 all_met &= met
+                # How well V itself is known, weighed by this level's density
+                # (first-order perturbation theory): once the grid error is
+                # below it, finer grids cannot make the level better known.
+                known = 0.0 if profile is None else float(np.sum(grid.weights * u[k] ** 2 * profile))
+                levels[k]["potential_limit"] = known
+                all_limited &= met or (len(series) >= 3 and levels[k]["error"] <= known)
         if may_grow and refinement == 1 and _wall_growth(best, tol, channels) > 0.0:
             break  # the wall is too close: the caller grows the box before refining further
-        if refinement >= 2 and all_met:
+        if refinement >= 2 and (all_met or all_limited):
             break
         if refinement >= 3 and not any_improving:
             break  # rounding noise dominates: finer grids will not help
@@ -656,6 +663,12 @@ def solve(
                 )
             )
 
+    limited = [lev.label for lev in levels if not lev.converged and any(
+        runs[m][0][(lev.l, lev.j)][lev.nodes].get("potential_limit", 0.0) > tol * abs(lev.energy) for m in methods)]
+    if limited:
+        threshold_notes.append(
+            "the potential itself is known less well than tol for " + ", ".join(limited[:8])
+            + " (e.g. a table's interpolation error weighed by the level's density): finer grids cannot help")
     message = _message(channels, plan, kept, bound_counts, levels, count, tol, kinetic, system, threshold_notes)
     return SolveResult(
         levels=levels,

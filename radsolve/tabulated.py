@@ -297,6 +297,24 @@ class TabulatedTable:
             points.append(self.r_first)
         return points
 
+    def error_profile(self, r: np.ndarray) -> np.ndarray:
+        """Estimated |S - V| of the spline at radii ``r`` (0 outside the table).
+
+        The same estimate as :meth:`interpolation_error`, point by point,
+        linearly interpolated between table points; the solver weighs it with
+        each level's density to know how well the level can be known at all.
+        """
+        if not hasattr(self, "_profile"):
+            keep = np.arange(0, self.r.size, 2)
+            if keep[-1] != self.r.size - 1:
+                keep = np.append(keep, self.r.size - 1)
+            half = _spline(self.r[keep], self.v[keep], self.degree)
+            miss = np.abs(half(self.r) - self.v) / 2.0 ** (self.degree + 1)
+            self._profile = miss
+        r = np.asarray(r, dtype=float)
+        inside = (r >= self.r_first) & (r <= self.r_last)
+        return np.where(inside, np.interp(r, self.r, self._profile), 0.0)
+
     def interpolation_error(self) -> tuple[float, float]:
         """Estimated largest |S(r) - V(r)| of the spline, and the radius where it is.
 
@@ -421,6 +439,7 @@ def tabulated_potential(source: Any, *, r_unit: str | None = None, v_unit: str |
         v_infinity=table.v_infinity,
         small_r=table.small_r,
         breakpoints=table.breakpoints,
+        potential_error=lambda r: table.error_profile(r),
     )
     family.module.TABLE = table
     return family.bind()

@@ -292,3 +292,33 @@ def test_cli_bad_table_exits_2_naming_the_line(tmp_path):
     assert "line 2" in result.stderr and "Traceback" not in result.stderr + result.output
     result = runner.invoke(app, ["levels", "table"])
     assert result.exit_code == 2 and "needs --file" in result.stderr
+
+
+def test_a_table_too_coarse_for_tol_says_so_instead_of_refining_in_vain():
+    # Exponential well V = -V0 exp(-r/a): its s levels solve J_{2 kappa a}(2 a sqrt(2 mu V0)) = 0
+    # (textbook formula).  A coarse cubic table knows V only to ~1e-6 relative, so a 1e-12
+    # request cannot be met: the level is flagged, the message names the cause, and the
+    # solver stops after a few grids; the value is still within the table's own error of
+    # the exact level.  A fine table meets a tolerance above its interpolation error.
+    V0, a = 12.5, 1.0
+    x0 = 2 * a * np.sqrt(2 * V0)
+    # the largest order nu with J_nu(x0) = 0 gives the ground state; scan for it
+    nus = np.linspace(1e-3, x0, 4000)
+    vals = jv(nus, x0)
+    roots = [brentq(lambda nu: jv(nu, x0), nus[i], nus[i + 1])
+             for i in range(len(nus) - 1) if vals[i] * vals[i + 1] < 0]
+    exact = -(max(roots) / (2 * a)) ** 2 / 2
+    r = np.linspace(0.0, 30.0, 120)
+    coarse = radsolve.tabulated_potential((r, -V0 * np.exp(-r / a)), beyond="zero")
+    result = radsolve.solve(coarse, l=0, count=1, tol=1e-12)
+    lev = result.levels[0]
+    assert not lev.converged
+    assert "known less well than tol" in result.message
+    assert len(lev.samples) <= 4
+    bound = coarse.family.module.TABLE.interpolation_error()[0]
+    assert abs(lev.energy - exact) <= 10 * bound
+    fine_r = np.linspace(0.0, 30.0, 6000)
+    fine = radsolve.tabulated_potential((fine_r, -V0 * np.exp(-fine_r / a)), beyond="zero")
+    result = radsolve.solve(fine, l=0, count=1, tol=1e-8)
+    assert result.success
+    assert result.levels[0].energy == pytest.approx(exact, rel=1e-8)
