@@ -188,6 +188,13 @@ MethodOption = Annotated[Method, typer.Option(
 UnitsOption = Annotated[Optional[UnitsChoice], typer.Option(
     "--units", help="unit system: atomic (hartree, bohr, electron masses) or nuclear "
                     "(MeV, fm, MeV/c^2) [default: the potential's own]")]
+TolOption = Annotated[float, typer.Option(
+    "--tol", metavar="T", help="target relative error of each energy (the solver accepts 1e-14 ... 0.1)")]
+OutputUnitOption = Annotated[Optional[str], typer.Option(
+    "--unit", "-u", metavar="U",
+    help=f"energy unit of the output: {ENERGY_UNITS_HELP} [default: hartree, or MeV in nuclear units]")]
+SpinOrbitOption = Annotated[bool, typer.Option(
+    "--spin-orbit", help="split each l > 0 into j = l -+ 1/2 with the potential's spin-orbit term")]
 DimensionOption = Annotated[int, typer.Option(
     "--dimension", "-d", metavar="D", min=2, max=10,
     help="space dimension D >= 2 (centrifugal term with l -> l + (D-3)/2)")]
@@ -215,18 +222,11 @@ def levels_command(
         help="reduced mass: electron masses, or particles such as electron+proton; in nuclear "
              "units MeV/c^2, u (207u) or particles (neutron, neutron+207u) [default: 1 in "
              "atomic units; needed in nuclear units]")] = None,
-    tol: Annotated[float, typer.Option(
-        "--tol", metavar="T",
-        help="target relative error of each energy (the solver accepts 1e-14 ... 0.1)")] = 1e-10,
+    tol: TolOption = 1e-10,
     method: MethodOption = Method.fd,
-    unit: Annotated[Optional[str], typer.Option(
-        "--unit", "-u", metavar="U", help=f"energy unit of the output: {ENERGY_UNITS_HELP} "
-                                          "[default: hartree, or MeV in nuclear units]")
-    ] = None,
+    unit: OutputUnitOption = None,
     units: UnitsOption = None,
-    spin_orbit: Annotated[bool, typer.Option(
-        "--spin-orbit", help="split each l > 0 into j = l -+ 1/2 with the potential's "
-                             "spin-orbit term")] = False,
+    spin_orbit: SpinOrbitOption = False,
     dimension: Annotated[int, typer.Option(
         "--dimension", "-d", metavar="D",
         help="space dimension D >= 2 (centrifugal term with l -> l + (D-3)/2)")] = 3,
@@ -461,19 +461,12 @@ def sweep_command(
         help="reduced mass: electron masses, or particles such as electron+proton; in nuclear "
              "units MeV/c^2, u or particles [default: 1 in atomic units; needed in nuclear units]")
     ] = None,
-    tol: Annotated[float, typer.Option(
-        "--tol", metavar="T",
-        help="target relative error of each energy (the solver accepts 1e-14 ... 0.1)")] = 1e-10,
+    tol: TolOption = 1e-10,
     method: MethodOption = Method.fd,
-    unit: Annotated[Optional[str], typer.Option(
-        "--unit", "-u", metavar="U", help=f"energy unit of the output: {ENERGY_UNITS_HELP} "
-                                          "[default: hartree, or MeV in nuclear units]")
-    ] = None,
+    unit: OutputUnitOption = None,
     units: UnitsOption = None,
     dimension: DimensionOption = 3,
-    spin_orbit: Annotated[bool, typer.Option(
-        "--spin-orbit", help="split each l > 0 into j = l -+ 1/2 with the potential's "
-                             "spin-orbit term")] = False,
+    spin_orbit: SpinOrbitOption = False,
     out: Annotated[Optional[Path], typer.Option(
         "--out", "-o", metavar="FILE",
         help="write the rows to FILE.csv or FILE.json as they finish [default: CSV on stdout]")
