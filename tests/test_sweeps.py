@@ -31,6 +31,7 @@ import math
 import numpy as np
 import pytest
 
+from plugin_sources import square_well_source
 from radsolve.errors import InputError
 from radsolve.registry import potential
 from radsolve.spectrum import solve
@@ -264,20 +265,7 @@ def small_r(omega, ls):
     return (0.0, 0.0)
 '''
 
-NUCLEAR_WELL = '''
-import numpy as np
-NAME = "nuclear_box_well"
-UNITS = "nuclear"
-PARAMETERS = {"depth": 40.0, "radius": 4.0}
-def V(r, depth, radius):
-    return np.where(r < radius, -depth, 0.0)
-def v_infinity(depth, radius):
-    return 0.0
-def small_r(depth, radius):
-    return (-depth, 0.0)
-def breakpoints(depth, radius):
-    return [radius]
-'''
+NUCLEAR_WELL = square_well_source("nuclear_box_well", 40.0, 4.0, units="nuclear")
 
 
 def test_spin_orbit_sweep_has_j_rows(tmp_path):

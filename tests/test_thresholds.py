@@ -38,6 +38,7 @@ from scipy.integrate import quad
 from scipy.optimize import brentq
 from scipy.special import jn_zeros, spherical_jn
 
+from plugin_sources import square_well_source
 from radsolve.errors import InputError
 from radsolve.spectrum import solve
 from radsolve.registry import potential
@@ -56,19 +57,7 @@ def small_r(depth, decay):
     return (-depth, 0.0)
 '''
 
-SQUARE_WELL = '''
-import numpy as np
-NAME = "square_well_fixture"
-PARAMETERS = {"depth": 1.0, "radius": 1.0}
-def V(r, depth, radius):
-    return np.where(r < radius, -depth, 0.0)
-def v_infinity(depth, radius):
-    return 0.0
-def small_r(depth, radius):
-    return (-depth, 0.0)
-def breakpoints(depth, radius):
-    return [radius]
-'''
+SQUARE_WELL = square_well_source("square_well_fixture", 1.0, 1.0)
 
 POWER_TAIL = '''
 import numpy as np
@@ -234,20 +223,7 @@ def test_critical_values_up_to_nmax_are_ordered_and_distinct():
     assert values == sorted(values)
 
 
-NUCLEAR_SQUARE_WELL = '''
-import numpy as np
-NAME = "nuclear_square_well_fixture"
-UNITS = "nuclear"
-PARAMETERS = {"depth": 10.0, "radius": 3.0}
-def V(r, depth, radius):
-    return np.where(r < radius, -depth, 0.0)
-def v_infinity(depth, radius):
-    return 0.0
-def small_r(depth, radius):
-    return (-depth, 0.0)
-def breakpoints(depth, radius):
-    return [radius]
-'''
+NUCLEAR_SQUARE_WELL = square_well_source("nuclear_square_well_fixture", 10.0, 3.0, units="nuclear")
 
 
 def test_nuclear_units_square_well(tmp_path):
