@@ -421,7 +421,10 @@ def potentials_command(
         if name is None:
             from radsolve.report import families_list
 
-            typer.echo(families_list(registry.discover(dirs)), nl=False)
+            found = registry.discover(dirs)
+            typer.echo(families_list(found), nl=False)
+            for fam in registry.broken_families(found).values():
+                _say(f"warning: potential family {fam.name!r} is broken: {fam.cause}")
         else:
             text = registry.describe(name, plugins=dirs)
             typer.echo(text if text.endswith("\n") else text + "\n", nl=False)

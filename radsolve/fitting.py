@@ -531,7 +531,7 @@ def _spurious(pot, targets: Sequence[Target], options, to_hartree: float) -> tup
     return extra, notes
 
 
-def fit(potential, targets, free, bounds=None, fixed=None, mass=1.0, tol: float = 1e-10,
+def fit(potential, targets, free, bounds=None, fixed=None, mass=None, tol: float = 1e-10,
         method: str = "fd", plugins=None, max_evaluations: int = 400, dimension: int = 3,
         units: str | None = None) -> FitResult:
     """Fit free parameters of a potential family to target levels.

@@ -826,7 +826,7 @@ def plain_properties(props: dict[str, Any]) -> dict[str, Any]:
     return out
 
 
-def state(potential, n: int, l: int, mass=1.0, tol: float = 1e-10, method: str = "fd",
+def state(potential, n: int, l: int, mass=None, tol: float = 1e-10, method: str = "fd",
           plugins=None) -> State:
     """Solve for the single level (n, l) of ``potential`` and return it as a :class:`State`.
 

@@ -554,7 +554,7 @@ def transitions_from(result, nmax: int | None = None, dipole_charge: float = 1.0
                             message=message, occupied=filled)
 
 
-def transitions(potential, nmax: int, mass=1.0, tol: float = 1e-10, method: str = "fd",
+def transitions(potential, nmax: int, mass=None, tol: float = 1e-10, method: str = "fd",
                 plugins=None, dipole_charge: float = 1.0, occupied=()) -> TransitionResult:
     """Every E1 line, lifetime and branching ratio among the bound levels with n <= nmax.
 

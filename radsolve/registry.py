@@ -13,9 +13,12 @@ Families are found (:func:`discover`) in this order:
    (separated by ``os.pathsep``);
 4. ``*.py`` files in the folders passed as ``plugin_dirs`` (``--plugins``).
 
-Two families with the same NAME are an error naming both sources.  Discovery
-keeps no state between calls: each call looks at the folders and the
-environment as they are then.
+A file or entry point that cannot be loaded, or that breaks the protocol, does
+not stop the others: it is kept as a :class:`BrokenFamily` (listed by
+``radsolve potentials`` with its cause; using it raises that cause).  Two
+families with the same NAME are both unusable under that name, and the error
+names both sources.  Discovery keeps no state between calls: each call looks at
+the folders and the environment as they are then.
 """
 
 from __future__ import annotations
@@ -368,6 +371,50 @@ class PotentialFamily:
         return f"PotentialFamily({self.name!r}, source={self.source!r})"
 
 
+@dataclass(frozen=True)
+class BrokenFamily:
+    """A family that could not be loaded, kept so that the others stay usable.
+
+    ``name`` is the file's NAME when it can be read without running the file
+    (a plain ``NAME = "..."`` assignment), else the file's stem; ``cause`` is
+    the complete message (file, exception or broken rule).  :meth:`bind`
+    raises it as a :class:`PluginError`.
+    """
+
+    name: str
+    source: str
+    origin: str
+    cause: str
+    file: str | None = None
+    broken = True
+    parameters = {}  # type: ignore[assignment]  # nothing to list
+    description = ""
+
+    def bind(self, **params: Any) -> "Potential":
+        raise PluginError(self.cause)
+
+    @property
+    def units(self) -> str:
+        return "atomic"
+
+
+def _declared_name(path: Path) -> str:
+    """The literal ``NAME = "..."`` of a plug-in file, read without running it, or its stem."""
+    import ast
+
+    try:
+        tree = ast.parse(path.read_text(encoding="utf-8", errors="replace"))
+    except (SyntaxError, ValueError, OSError):
+        return path.stem
+    for node in tree.body:
+        if (isinstance(node, ast.Assign) and len(node.targets) == 1
+                and isinstance(node.targets[0], ast.Name) and node.targets[0].id == "NAME"
+                and isinstance(node.value, ast.Constant) and isinstance(node.value.value, str)
+                and _NAME_RE.match(node.value.value)):
+            return node.value.value
+    return path.stem
+
+
 def _signature_accepts(func: Callable, positional: int, names: Iterable[str]) -> str | None:
     """None if ``func`` can be called with ``positional`` args and ``names`` as keywords.
 
@@ -539,11 +586,11 @@ def _builtin_package():
     return package
 
 
-def _builtin_families() -> list[PotentialFamily]:
+def _builtin_families() -> list[PotentialFamily | BrokenFamily]:
     import pkgutil
 
     package = _builtin_package()
-    found = []
+    found: list[PotentialFamily | BrokenFamily] = []
     for info in sorted(pkgutil.iter_modules(package.__path__), key=lambda i: i.name):
         if info.name.startswith("_"):
             continue
@@ -551,28 +598,39 @@ def _builtin_families() -> list[PotentialFamily]:
         try:
             module = importlib.import_module(qualified)
         except Exception as exc:  # noqa: BLE001
-            raise PluginError(f"built-in potential module {qualified} failed to import: "
-                              f"{_describe_exception(exc)}") from None
+            found.append(BrokenFamily(info.name, qualified, "built-in",
+                                      f"built-in potential module {qualified} failed to import: "
+                                      f"{_describe_exception(exc)}"))
+            continue
         if not (hasattr(module, "NAME") and hasattr(module, "V")):
             continue  # a helper module, not a family
         source = getattr(module, "__file__", None) or qualified
-        found.append(_family_from_object(module, source, "built-in", file=source))
+        try:
+            found.append(_family_from_object(module, source, "built-in", file=source))
+        except PluginError as exc:
+            found.append(BrokenFamily(str(module.NAME), source, "built-in", str(exc), source))
     return found
 
 
-def _entry_point_families() -> list[PotentialFamily]:
+def _entry_point_families() -> list[PotentialFamily | BrokenFamily]:
     from importlib.metadata import entry_points
 
-    found = []
+    found: list[PotentialFamily | BrokenFamily] = []
     for ep in sorted(entry_points(group=ENTRY_POINT_GROUP), key=lambda e: (e.name, e.value)):
         dist = getattr(getattr(ep, "dist", None), "name", None)
         source = f"entry point {ep.name} = {ep.value}" + (f" (package {dist})" if dist else "")
         try:
             obj = ep.load()
         except Exception as exc:  # noqa: BLE001
-            raise PluginError(f"plug-in {source} failed to load: {_describe_exception(exc)}") from None
+            found.append(BrokenFamily(ep.name, source, "entry point",
+                                      f"plug-in {source} failed to load: {_describe_exception(exc)}"))
+            continue
         file = getattr(inspect.getmodule(obj), "__file__", None)
-        found.append(_family_from_object(obj, source, "entry point", file=file))
+        try:
+            found.append(_family_from_object(obj, source, "entry point", file=file))
+        except PluginError as exc:
+            found.append(BrokenFamily(str(getattr(obj, "NAME", ep.name)), source, "entry point",
+                                      str(exc), file))
     return found
 
 
@@ -603,7 +661,7 @@ def plugin_folders(plugin_dirs: Any = None) -> list[tuple[str, str]]:
     return folders
 
 
-def discover(plugin_dirs: Any = None) -> dict[str, PotentialFamily]:
+def discover(plugin_dirs: Any = None) -> dict[str, PotentialFamily | BrokenFamily]:
     """Find every potential family.
 
     Parameters
@@ -615,33 +673,35 @@ def discover(plugin_dirs: Any = None) -> dict[str, PotentialFamily]:
 
     Returns
     -------
-    dict of str to PotentialFamily
-        Keyed by NAME, in discovery order.
+    dict of str to PotentialFamily or BrokenFamily
+        Keyed by NAME, in discovery order.  A plug-in that fails to import or
+        breaks the protocol is a :class:`BrokenFamily` carrying the cause
+        (naming the file); so is a NAME that two sources define (naming
+        both).  The other families are unaffected.
 
     Raises
     ------
     InputError
         If a plug-in folder does not exist.
-    PluginError
-        If a plug-in fails to import or breaks the protocol, or two families
-        share a NAME (naming both sources).
     """
-    families: dict[str, PotentialFamily] = {}
+    found: dict[str, PotentialFamily | BrokenFamily] = {}
 
-    def add(family: PotentialFamily) -> None:
-        other = families.get(family.name)
-        if other is not None:
-            raise PluginError(
-                f"two potential families are named {family.name!r}: {other.source} and "
-                f"{family.source}; rename one (NAME = ...)"
-            )
-        families[family.name] = family
+    def add(family: PotentialFamily | BrokenFamily) -> None:
+        other = found.get(family.name)
+        if other is None:
+            found[family.name] = family
+            return
+        first = other.source.split(" and ")[0] if isinstance(other, BrokenFamily) else other.source
+        found[family.name] = BrokenFamily(
+            family.name, f"{first} and {family.source}", family.origin,
+            f"two potential families are named {family.name!r}: {first} and "
+            f"{family.source}; rename one (NAME = ...)", family.file)
 
     for family in _builtin_families():
         add(family)
     for family in _entry_point_families():
         add(family)
-    seen_files: set[Path] = {Path(f.file).resolve() for f in families.values() if f.file}
+    seen_files: set[Path] = {Path(f.file).resolve() for f in found.values() if f.file}
     for folder, what in plugin_folders(plugin_dirs):
         label = "RADSOLVE_PLUGINS" if what == PLUGINS_ENV else "--plugins"
         for path in _folder_files(folder, label):
@@ -649,13 +709,26 @@ def discover(plugin_dirs: Any = None) -> dict[str, PotentialFamily]:
             if resolved in seen_files:
                 continue  # the same folder given twice, or a built-in file
             seen_files.add(resolved)
-            add(load_plugin_file(resolved, origin=what))
-    return families
+            try:
+                add(load_plugin_file(resolved, origin=what))
+            except PluginError as exc:
+                add(BrokenFamily(_declared_name(resolved), str(resolved), what, str(exc), str(resolved)))
+    return found
+
+
+def broken_families(found: Mapping[str, Any]) -> dict[str, BrokenFamily]:
+    """The entries of a :func:`discover` result that cannot be used."""
+    return {k: v for k, v in found.items() if isinstance(v, BrokenFamily)}
+
+
+def usable_families(found: Mapping[str, Any]) -> dict[str, PotentialFamily]:
+    """The entries of a :func:`discover` result that can be used."""
+    return {k: v for k, v in found.items() if not isinstance(v, BrokenFamily)}
 
 
 def families(plugins: Any = None) -> list[str]:
-    """Sorted names of every discoverable family (see :func:`discover`)."""
-    return sorted(discover(plugins))
+    """Sorted names of every usable family (see :func:`discover`)."""
+    return sorted(usable_families(discover(plugins)))
 
 
 def _lookup(name: str, found: Mapping[str, PotentialFamily]) -> PotentialFamily:
@@ -727,10 +800,19 @@ def make_family(name: str, V: Callable, parameters: Mapping[str, Any] | None = N
 
 
 def get_family(name: str | PotentialFamily, plugins: Any = None) -> PotentialFamily:
-    """The family called ``name`` (see :func:`potential` for the look-up rules)."""
+    """The family called ``name`` (see :func:`potential` for the look-up rules).
+
+    Raises
+    ------
+    PluginError
+        When that family is broken (the cause: the file and what went wrong).
+    """
     if isinstance(name, PotentialFamily):
         return name
-    return _lookup(name, discover(plugins))
+    family = _lookup(name, discover(plugins))
+    if isinstance(family, BrokenFamily):
+        raise PluginError(family.cause)
+    return family
 
 
 def potential(name: str | PotentialFamily, /, plugins: Any = None, **params: Any) -> "Potential":

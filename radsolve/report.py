@@ -300,9 +300,11 @@ def families_list(families: dict[str, Any]) -> str:
     """
     if not families:
         return "no potential families found\n"
-    lines = [f"{len(families)} potential families (defaults in atomic units unless marked); "
+    broken = {k: v for k, v in families.items() if getattr(v, "broken", False)}
+    usable = {k: v for k, v in families.items() if k not in broken}
+    lines = [f"{len(usable)} potential families (defaults in atomic units unless marked); "
              "'radsolve potentials NAME' shows one in full", ""]
-    for name in sorted(families):
+    for name in sorted(usable):
         fam = families[name]
         desc = family_description(fam)
         system = getattr(fam, "units", "atomic")
@@ -316,6 +318,10 @@ def families_list(families: dict[str, Any]) -> str:
             lines.append("    (no parameters)")
         if getattr(fam, "origin", "built-in") != "built-in":
             lines += _wrap(f"    from {fam.source} ({fam.origin})", indent="    ")
+    if broken:
+        lines += ["", f"{len(broken)} broken (not usable until fixed):"]
+        for name in sorted(broken):
+            lines += _wrap(f"{name} -- BROKEN: {broken[name].cause}", indent="    ")
     return "\n".join(lines) + "\n"
 
 

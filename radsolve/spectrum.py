@@ -527,7 +527,7 @@ def solve(
     potential,
     l=0,
     count: int = 5,
-    mass=1.0,
+    mass=None,
     tol: float = 1e-10,
     method: str = "fd",
     plugins=None,
@@ -548,10 +548,11 @@ def solve(
         Number of lowest levels wanted for each l (each (l, j) with spin-orbit).
         When fewer are bound, the bound ones are returned and
         ``result.bound_counts`` says how many.
-    mass : float or str
+    mass : float or str, optional
         Reduced mass: in electron masses (atomic units) or MeV/c**2 (nuclear
         units), or particles joined by ``+`` (``"electron+proton"``), whose
-        reduced mass is used.
+        reduced mass is used.  Default: one electron mass in atomic units;
+        nuclear units have no default (InputError without it).
     tol : float
         Target relative error of each energy (1e-14 ... 0.1), relative to
         |E| (or to |E - V(inf)| when that is larger).

@@ -869,7 +869,7 @@ def _axes(base, vary) -> dict[str, np.ndarray]:
 
 
 def sweep(potential, vary: Mapping[str, Sequence], fixed: Mapping[str, Any] | None = None, l=0,
-          count: int = 5, mass=1.0, tol: float = 1e-10, method: str = "fd", plugins=None,
+          count: int = 5, mass=None, tol: float = 1e-10, method: str = "fd", plugins=None,
           workers: int | None = None, cluster=None, out=None, unit: str | None = None,
           progress: bool | None = None, spin_orbit: bool = False, dimension: int = 3,
           units: str | None = None) -> SweepResult:

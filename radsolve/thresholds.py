@@ -634,7 +634,7 @@ def _slope_on(problem: _ZeroEnergy, layout: _Layout, p_c: float, refinement: int
     return float(np.sum(weights * dv * shot.u**2) / norm)
 
 
-def threshold(potential, parameter: str, level: str = "1s", bracket=None, fixed=None, mass=1.0,
+def threshold(potential, parameter: str, level: str = "1s", bracket=None, fixed=None, mass=None,
               tol: float = 1e-9, plugins=None, units: str | None = None, dimension: int = 3) -> ThresholdResult:
     """The parameter value at which ``level`` reaches the continuum threshold E = V(inf).
 
@@ -754,7 +754,7 @@ def threshold(potential, parameter: str, level: str = "1s", bracket=None, fixed=
     )
 
 
-def critical_values(potential, parameter: str, nmax: int = 2, bracket=None, fixed=None, mass=1.0,
+def critical_values(potential, parameter: str, nmax: int = 2, bracket=None, fixed=None, mass=None,
                tol: float = 1e-9, plugins=None, levels: Sequence[str] | None = None,
                lmax: int | None = None, spin_orbit: bool = False, units: str | None = None,
                dimension: int = 3) -> list[ThresholdResult]:

@@ -471,10 +471,19 @@ class UnitSystem:
     def parse_mass(self, value: object) -> float:
         """A reduced mass in ``mass_unit``: a number, or particles joined by '+'.
 
+        None means the system's default: one electron mass in atomic units;
+        nuclear units have no default (an InputError says so).
+
         In nuclear units a term may also be a number with the suffix ``u``
         (unified atomic mass units, ``"56u"``) or ``MeV`` (``"939MeV"``);
         see :func:`parse_nuclear_mass`.
         """
+        if value is None:
+            if self.name == "atomic":
+                return 1.0  # the electron, the natural default of atomic units
+            raise InputError(f"mass is needed in {self.name} units (no default there): give it in "
+                             f"{self.mass_unit}, in u, or as particles, e.g. 'neutron', '939.57MeV', "
+                             "'1u', 'proton+neutron'")
         if self.name == "atomic":
             return parse_mass(value)
         return parse_nuclear_mass(value)

@@ -137,14 +137,25 @@ def test_potentials_unknown_name_suggests():
 
 def test_plugin_that_fails_to_import_names_file_and_cause():
     folder = PLUGINS / "broken_import"
-    for args in (["potentials", "--plugins", folder],
-                 ["levels", "coulomb", "--plugins", folder]):
-        assert_clean_failure(run(args), "cli_broken.py", "radsolve_no_such_module_for_tests")
+    # Using it fails cleanly with the cause ...
+    assert_clean_failure(run(["levels", "cli_broken", "--plugins", folder]),
+                         "cli_broken.py", "radsolve_no_such_module_for_tests")
+    # ... but it stops nothing else: the built-ins still solve,
+    ok = run(["levels", "coulomb", "--plugins", folder, "--count", "1", "--tol", "1e-6"])
+    assert ok.exit_code == 0, ok.stderr
+    assert "1s" in ok.stdout
+    # and the listing shows it as broken, with the cause, beside the others.
+    listing = run(["potentials", "--plugins", folder])
+    assert listing.exit_code == 0
+    assert "cli_broken -- BROKEN" in listing.stdout and "radsolve_no_such_module_for_tests" in listing.stdout
+    assert "coulomb" in listing.stdout and "cli_broken.py" in listing.stderr
 
 
 def test_broken_plugin_through_environment_variable():
     env = {"RADSOLVE_PLUGINS": str(PLUGINS / "broken_import")}
-    assert_clean_failure(run(["potentials"], env=env), "cli_broken.py")
+    listing = run(["potentials"], env=env)
+    assert listing.exit_code == 0 and "cli_broken.py" in listing.stdout
+    assert_clean_failure(run(["potentials", "cli_broken"], env=env), "cli_broken.py")
 
 
 BAD_PLUGINS = [
@@ -191,7 +202,7 @@ def run_process(*args, env_extra=None):
      ["cli_nan_tail", "nan"]),
     (["levels", "cli_inverse_square", "--plugins", PLUGINS / "inverse_square", "--count", "1"],
      ["cli_inverse_square"]),
-    (["potentials", "--plugins", PLUGINS / "broken_import"], ["cli_broken.py"]),
+    (["levels", "cli_broken", "--plugins", PLUGINS / "broken_import"], ["cli_broken.py"]),
 ], ids=["malformed -p", "unknown potential", "count 0", "NaN plug-in", "fall to centre",
         "broken plug-in"])
 def test_real_process_has_no_traceback(args, words):

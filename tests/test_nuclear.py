@@ -277,3 +277,16 @@ def test_cli_nuclear_table_shows_j_and_MeV():
     assert "(nuclear units)" in text and "energy/MeV" in text and "MeV/c^2" in text
     rows = {line.split()[0]: line.split() for line in text.splitlines() if line.startswith("1p")}
     assert rows["1p3/2"][3:5] == ["3/2", "4"] and rows["1p1/2"][3:5] == ["1/2", "2"]
+
+
+def test_a_nuclear_family_without_a_mass_is_refused_by_the_api():
+    # The rule lives in the API, not only in the command line: a default of one
+    # electron mass would silently mean 0.511 MeV/c^2 here.
+    import radsolve
+    from radsolve.errors import InputError
+
+    for call in (lambda: radsolve.solve("woods_saxon"),
+                 lambda: radsolve.state("woods_saxon", n=1, l=0),
+                 lambda: radsolve.threshold("woods_saxon", "depth", level="1s")):
+        with pytest.raises(InputError, match="mass is needed in nuclear units"):
+            call()

@@ -40,6 +40,22 @@ def write(folder: Path, name: str, body: str) -> Path:
     return path
 
 
+def refused(folders):
+    """What a broken plug-in gives: one BrokenFamily, whose use raises its cause, and
+    every other family still usable (a broken file must not stop the rest)."""
+    found = discover(folders)
+    broken = registry.broken_families(found)
+    assert len(broken) == 1, broken
+    (fam,) = broken.values()
+    assert BUILT_INS <= set(registry.usable_families(found))
+    assert potential("coulomb", plugins=folders)(np.array([2.0])).tolist() == [-0.5]
+    with pytest.raises(PluginError) as info:
+        potential(fam.name, plugins=folders)
+    assert str(info.value) == fam.cause
+    assert "Traceback" not in fam.cause
+    return info
+
+
 MINIMAL = """\
     import numpy as np
     NAME = "gauss_well"
@@ -152,8 +168,7 @@ def test_missing_folder_is_input_error(tmp_path):
 
 def test_import_failure_names_file_and_cause(tmp_path):
     path = write(tmp_path, "broken.py", "import numpy as np\nNAME = 'x'\n1 / 0\n")
-    with pytest.raises(PluginError) as info:
-        discover([tmp_path])
+    info = refused([tmp_path])
     message = str(info.value)
     assert str(path) in message and "ZeroDivisionError" in message
     assert "Traceback" not in message
@@ -161,8 +176,7 @@ def test_import_failure_names_file_and_cause(tmp_path):
 
 def test_syntax_error_names_file(tmp_path):
     path = write(tmp_path, "typo.py", "NAME = 'typo'\ndef V(r:\n")
-    with pytest.raises(PluginError) as info:
-        discover([tmp_path])
+    info = refused([tmp_path])
     assert str(path) in str(info.value) and "SyntaxError" in str(info.value)
 
 
@@ -172,8 +186,7 @@ def test_missing_attribute_is_named(tmp_path, missing):
              "V": "def V(r, depth):\n    return -depth + 0 * r"}
     body = "\n".join(v for k, v in lines.items() if k != missing) + "\n"
     path = write(tmp_path, "well.py", body)
-    with pytest.raises(PluginError) as info:
-        discover([tmp_path])
+    info = refused([tmp_path])
     assert str(path) in str(info.value) and missing in str(info.value)
 
 
@@ -184,8 +197,7 @@ def test_v_signature_must_accept_parameters(tmp_path):
         def V(r, depth):
             return -depth + 0 * r
     """)
-    with pytest.raises(PluginError) as info:
-        discover([tmp_path])
+    info = refused([tmp_path])
     assert str(path) in str(info.value) and "width" in str(info.value)
 
 
@@ -202,8 +214,8 @@ def test_v_taking_keyword_catch_all_is_accepted(tmp_path):
 @pytest.mark.parametrize("bad_name", ["'two words'", "3", "''", "'9lives'"])
 def test_bad_name_is_refused(tmp_path, bad_name):
     path = write(tmp_path, "p.py", f"NAME = {bad_name}\nPARAMETERS = {{}}\ndef V(r):\n    return r\n")
-    with pytest.raises(PluginError, match="NAME") as info:
-        discover([tmp_path])
+    info = refused([tmp_path])
+    assert "NAME" in str(info.value)
     assert str(path) in str(info.value)
 
 
@@ -211,8 +223,7 @@ def test_bad_name_is_refused(tmp_path, bad_name):
 def test_reserved_parameter_names_are_refused(tmp_path, param):
     write(tmp_path, "p.py", f"NAME = 'p'\nPARAMETERS = {{'{param}': 1.0}}\n"
                             f"def V(r, **k):\n    return r\n")
-    with pytest.raises(PluginError, match="reserved"):
-        discover([tmp_path])
+    assert "reserved" in str(refused([tmp_path]).value)
 
 
 def test_default_outside_its_range_is_a_plugin_error(tmp_path):
@@ -223,25 +234,29 @@ def test_default_outside_its_range_is_a_plugin_error(tmp_path):
         def V(r, width):
             return -1.0 / (r + width)
     """)
-    with pytest.raises(PluginError) as info:
-        discover([tmp_path])
+    info = refused([tmp_path])
     assert str(path) in str(info.value) and "width" in str(info.value)
 
 
 def test_duplicate_names_name_both_files(tmp_path):
     first = write(tmp_path / "a", "gauss_well.py", MINIMAL)
     second = write(tmp_path / "b", "other_name.py", MINIMAL)
-    with pytest.raises(PluginError) as info:
-        discover([tmp_path / "a", tmp_path / "b"])
+    info = refused([tmp_path / "a", tmp_path / "b"])
     message = str(info.value)
     assert str(first.resolve()) in message and str(second.resolve()) in message
 
 
 def test_duplicate_of_a_built_in_is_an_error(tmp_path):
     path = write(tmp_path, "mine.py", MINIMAL.replace("gauss_well", "coulomb"))
+    found = discover([tmp_path])
+    # Neither is taken silently: the name is unusable until one is renamed,
+    # and every other family still works.
+    assert set(registry.broken_families(found)) == {"coulomb"}
+    assert BUILT_INS - {"coulomb"} <= set(registry.usable_families(found))
     with pytest.raises(PluginError) as info:
-        discover([tmp_path])
+        potential("coulomb", plugins=tmp_path)
     assert "coulomb.py" in str(info.value) and str(path.resolve()) in str(info.value)
+    assert potential("yukawa", plugins=tmp_path)(np.array([1.0])).size == 1
 
 
 # --------------------------------------------------------------------------- checked evaluation
@@ -368,8 +383,7 @@ def test_entry_points_load_modules_and_objects(tmp_path, monkeypatch):
 def test_entry_point_that_fails_to_load(monkeypatch):
     ep = EntryPoint("ghost", "no_such_module_for_radsolve", registry.ENTRY_POINT_GROUP)
     monkeypatch.setattr("importlib.metadata.entry_points", lambda group=None: [ep])
-    with pytest.raises(PluginError) as info:
-        discover()
+    info = refused(None)
     assert "ghost" in str(info.value) and "ModuleNotFoundError" in str(info.value)
 
 
@@ -526,3 +540,24 @@ def test_default_text_shows_small_lengths_in_fm():
     assert spec.default_text().endswith("bohr (= 0.84 fm)")
     assert Parameter(2.0, kind="length").default_text() == "2 bohr"
     assert Parameter(0.3, kind="energy").default_text() == "0.3 hartree"
+
+
+def test_broken_file_is_listed_with_its_cause_and_named_by_its_declared_name(tmp_path):
+    write(tmp_path, "good.py", MINIMAL)
+    write(tmp_path, "zz_broken.py", "NAME = 'lj_well'\nimport numpy as np\nraise RuntimeError('no table')\n")
+    found = discover([tmp_path])
+    assert "gauss_well" in registry.usable_families(found)
+    assert set(registry.broken_families(found)) == {"lj_well"}
+    assert potential("gauss_well", plugins=tmp_path)(np.array([0.0])).tolist() == [-2.0]
+    from radsolve.report import families_list
+
+    listing = families_list(found)
+    assert "lj_well -- BROKEN" in listing and "RuntimeError: no table" in listing
+    assert "gauss_well" in listing.split("broken")[0]
+    assert "lj_well" not in families(tmp_path)
+
+
+def test_broken_file_without_a_readable_name_goes_by_its_stem(tmp_path):
+    write(tmp_path, "typo_well.py", "NAME = 'typo'\ndef V(r:\n")
+    found = discover([tmp_path])
+    assert "typo_well" in registry.broken_families(found)
