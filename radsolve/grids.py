@@ -1,48 +1,65 @@
 """The mapped radial grid shared by all solvers.
 
-Points are uniform in a mapping variable x with
+Points are uniform in a grid variable xi.  The base mapping is
 
     x(r) = ln(r) + r / s,
 
 logarithmic (constant relative spacing) for r << s, where bound states vary
 on the scale of r itself, and linear (spacing s*h) for r >> s, where they
-oscillate and decay on a fixed scale.  Under the Liouville substitution
-u(r) = sqrt(r'(x)) w(x) the radial equation becomes, with g = r(x),
+oscillate and decay on a fixed scale.  To put every breakpoint of V (a step,
+a kink) on a point of every grid, xi = x + delta(x), where delta is constant
+outside the breakpoints and moves smoothly (a C-infinity step, all of whose
+derivatives vanish at the breakpoints) from one breakpoint's shift to the
+next one's in between.  With one breakpoint or none, delta is a constant and
+xi is x itself up to an offset.
 
-    -1/(2 mu) w'' + q(x) w = E b(x) w,
+Under the Liouville substitution u(r) = sqrt(r'(xi)) w(xi) the radial
+equation becomes, with g = r(xi),
+
+    -1/(2 m) w'' + q(xi) w = E b(xi) w,
     b = g'**2,
-    q = g'**2 [V + l(l+1)/(2 mu r**2)] - {g, x} / (4 mu),
+    q = g'**2 [V + l(l+1)/(2 m r**2)] - {g, xi} / (4 m),
 
-where {g, x} = g'''/g' - 3/2 (g''/g')**2 is the Schwarzian derivative.  There
-is no first-derivative term, so centred differences and Numerov's method keep
-their even-power error expansions in h, which Richardson extrapolation needs.
+where {g, xi} = g'''/g' - 3/2 (g''/g')**2 is the Schwarzian derivative.
+There is no first-derivative term, so centred differences and Numerov's
+method keep their power-series error expansions in h, which Richardson
+extrapolation needs.
 """
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+import math
+from dataclasses import dataclass, field
+from typing import Iterable
 
 import numpy as np
+
+#: Breakpoints closer than this many coarse steps (in xi) cannot both be
+#: grid points: the smooth shift between them would vary faster than the
+#: coarsest grid resolves.
+MIN_GAP_STEPS = 8.0
 
 
 @dataclass(frozen=True)
 class RadialGrid:
-    """A log-linear grid, including both boundary points (where w = 0).
+    """A grid uniform in xi, including both boundary points (where w = 0).
 
     Attributes
     ----------
     step : float
-        Uniform step h in x (dimensionless).
+        Uniform step h in xi (dimensionless).
     scale : float
-        The crossover radius s of the mapping, bohr.
+        The crossover radius s of the base mapping.
     x : ndarray
-        Mapping variable at the points.
+        The grid variable xi at the points.
     r : ndarray
-        Radii, bohr; ``r[0]`` and ``r[-1]`` carry the Dirichlet conditions.
+        Radii; ``r[0]`` and ``r[-1]`` carry the boundary conditions.
     jacobian : ndarray
-        dr/dx at the points, bohr.
+        dr/dxi at the points.
     schwarzian : ndarray
-        The Schwarzian derivative {r, x} at the points (dimensionless).
+        The Schwarzian derivative {r, xi} at the points.
+    mapping : Mapping
+        The map xi <-> r (for interpolation between points).
     """
 
     step: float
@@ -51,6 +68,7 @@ class RadialGrid:
     r: np.ndarray
     jacobian: np.ndarray
     schwarzian: np.ndarray
+    mapping: "Mapping | None" = field(default=None, repr=False)
 
     @property
     def size(self) -> int:
@@ -58,22 +76,22 @@ class RadialGrid:
 
     @property
     def weights(self) -> np.ndarray:
-        """Trapezoid weights in x mapped to r: sum(weights * f) ~ integral f dr, bohr."""
+        """Trapezoid weights in xi mapped to r: sum(weights * f) ~ integral of f dr."""
         return self.step * self.jacobian
 
     def liouville_coefficients(self, potential_values: np.ndarray, l: int, mass: float, centrifugal: float | None = None):
-        """Return (b, q) of the transformed equation for angular momentum ``l``.
+        """Return (b, q) of the transformed equation.
 
         Parameters
         ----------
         potential_values : ndarray
-            V(r) at ``self.r``, hartree.
+            V(r) at ``self.r``.
         l : int
             Orbital angular momentum.
         mass : float
-            Reduced mass, electron masses.
+            The kinetic mass m of -u''/(2m).
         centrifugal : float, optional
-            The factor in the centrifugal term c/(2 mu r**2); l(l+1) by
+            The factor in the centrifugal term c/(2 m r**2); l(l+1) by
             default, L(L+1) with L = l + (d-3)/2 in d dimensions.
         """
         b = self.jacobian**2
@@ -112,52 +130,222 @@ def radius_from_x(x, scale: float) -> np.ndarray:
     return np.exp(t)
 
 
+def _base_schwarzian(r: np.ndarray, s: float) -> np.ndarray:
+    """{r, x} for the base mapping x = ln r + r/s."""
+    return -(s**3) * (0.5 * s + 2.0 * r) / (r + s) ** 4
+
+
+def _smooth_step(t: np.ndarray):
+    """S(t) rising from 0 (t <= 0) to 1 (t >= 1), C-infinity, and S', S'', S'''.
+
+    S = sigma(phi), sigma the logistic function, phi = 1/(1-t) - 1/t: every
+    derivative of S vanishes at t = 0 and t = 1.
+    """
+    from scipy.special import expit
+
+    t = np.asarray(t, dtype=float)
+    inside = (t > 0.0) & (t < 1.0)
+    S = np.where(t >= 1.0, 1.0, 0.0)
+    d1 = np.zeros_like(t)
+    d2 = np.zeros_like(t)
+    d3 = np.zeros_like(t)
+    if inside.any():
+        ti = t[inside]
+        a, b = 1.0 / (1.0 - ti), 1.0 / ti
+        phi = a - b
+        p1 = a * a + b * b
+        p2 = 2.0 * (a**3 - b**3)
+        p3 = 6.0 * (a**4 + b**4)
+        sig = expit(phi)
+        s1 = sig * expit(-phi)
+        s2 = s1 * (1.0 - 2.0 * sig)
+        s3 = s1 * (1.0 - 6.0 * sig + 6.0 * sig * sig)
+        with np.errstate(over="ignore", invalid="ignore"):
+            S[inside] = sig
+            d1[inside] = np.nan_to_num(s1 * p1)
+            d2[inside] = np.nan_to_num(s2 * p1 * p1 + s1 * p2)
+            d3[inside] = np.nan_to_num(s3 * p1**3 + 3.0 * s2 * p1 * p2 + s1 * p3)
+    return S, d1, d2, d3
+
+
+@dataclass(frozen=True)
+class Mapping:
+    """xi(r) = x(r) + delta(x(r)): the base log-linear map with breakpoints moved onto the grid.
+
+    ``knots`` are the base-map values x_k of the breakpoints and ``shifts``
+    the delta_k that move them to grid points; between consecutive knots
+    delta changes by a C-infinity step, outside them it is constant.
+    """
+
+    scale: float
+    knots: tuple[float, ...] = ()
+    shifts: tuple[float, ...] = ()
+
+    def _delta(self, x: np.ndarray):
+        """delta and its first three derivatives with respect to x."""
+        x = np.asarray(x, dtype=float)
+        d0 = np.zeros_like(x)
+        d1 = np.zeros_like(x)
+        d2 = np.zeros_like(x)
+        d3 = np.zeros_like(x)
+        if not self.knots:
+            return d0, d1, d2, d3
+        k, dk = self.knots, self.shifts
+        d0[:] = dk[0]
+        for i in range(len(k) - 1):
+            width = k[i + 1] - k[i]
+            jump = dk[i + 1] - dk[i]
+            sel = x > k[i]
+            if not sel.any() or jump == 0.0:
+                continue
+            S, S1, S2, S3 = _smooth_step((x[sel] - k[i]) / width)
+            d0[sel] = dk[i] + jump * S
+            d1[sel] = jump * S1 / width
+            d2[sel] = jump * S2 / width**2
+            d3[sel] = jump * S3 / width**3
+        return d0, d1, d2, d3
+
+    def xi_of_x(self, x):
+        return np.asarray(x, dtype=float) + self._delta(x)[0]
+
+    def x_of_xi(self, xi) -> np.ndarray:
+        xi = np.asarray(xi, dtype=float)
+        if not self.knots:
+            return xi.copy()
+        x = xi - self._delta(xi)[0]
+        for _ in range(60):
+            d0, d1, _, _ = self._delta(x)
+            step = (x + d0 - xi) / (1.0 + d1)
+            x = x - step
+            if np.max(np.abs(step), initial=0.0) < 1e-15 * max(1.0, float(np.max(np.abs(x), initial=0.0))):
+                break
+        # the knots themselves are exact
+        for xk, dk in zip(self.knots, self.shifts):
+            x = np.where(np.abs(xi - (xk + dk)) <= 1e-13 * max(1.0, abs(xk)), xk, x)
+        return x
+
+    def xi_of_r(self, r):
+        return self.xi_of_x(mapping_x(r, self.scale))
+
+    def r_of_xi(self, xi) -> np.ndarray:
+        return radius_from_x(self.x_of_xi(xi), self.scale)
+
+    def points(self, xi: np.ndarray, breakpoints: Iterable[float] = ()):
+        """(r, dr/dxi, {r, xi}) at grid values ``xi``; breakpoints land exactly."""
+        x = self.x_of_xi(xi)
+        r = radius_from_x(x, self.scale)
+        for b, xk in zip(breakpoints, self.knots):
+            r = np.where(x == xk, b, r)
+        s = self.scale
+        _, d1, d2, d3 = self._delta(x)
+        xi1 = 1.0 + d1
+        dx_dxi = 1.0 / xi1
+        jac = r * s / (r + s) * dx_dxi
+        schwarz_xi_x = d3 / xi1 - 1.5 * (d2 / xi1) ** 2
+        schwarz = dx_dxi**2 * (_base_schwarzian(r, s) - schwarz_xi_x)
+        return r, jac, schwarz
+
+
 @dataclass(frozen=True)
 class GridSpan:
-    """Where a family of nested grids starts and ends in x, and its mapping.
+    """Where a family of nested grids starts and ends in xi, and its mapping.
 
-    ``x_lo`` and ``x_hi`` are fixed for the whole refinement sequence so that
-    every grid of step ``coarse_step / 2**k`` contains all points of the
-    coarser ones, and the Dirichlet boundaries stay at the same radii.
+    ``x_lo`` and ``x_hi`` (values of xi) are fixed for the whole refinement
+    sequence so that every grid of step ``coarse_step / 2**k`` contains all
+    points of the coarser ones, and the boundaries stay at the same radii.
+    ``anchors`` are the breakpoints that are points of every grid.
     """
 
     x_lo: float
     x_hi: float
     scale: float
     coarse_step: float
+    mapping: Mapping = None  # type: ignore[assignment]
+    anchors: tuple[float, ...] = ()
+    left_out: tuple[float, ...] = ()
+
+    def __post_init__(self):
+        if self.mapping is None:
+            object.__setattr__(self, "mapping", Mapping(self.scale))
 
     @classmethod
-    def covering(cls, r_min: float, r_max: float, coarse_step: float, scale: float, anchor: float | None = None):
-        """Span from about ``r_min`` to at least ``r_max`` (bohr).
+    def covering(cls, r_min: float, r_max: float, coarse_step: float, scale: float, anchor=None):
+        """Span from about ``r_min`` to at least ``r_max``.
 
-        The inner boundary moves inward by less than one coarse step so that
-        ``anchor`` (bohr, e.g. the edge of a uniformly charged nucleus, where
-        V is not smooth) is a point of every grid; the outer one moves outward
-        to a whole number of coarse steps.
+        ``anchor`` is a breakpoint radius or a sequence of them (where V is
+        not smooth, e.g. the edge of a uniformly charged nucleus); each one
+        inside the span becomes a point of every grid.  The inner boundary
+        moves inward by less than one coarse step so that the first one is a
+        grid point; the outer one moves outward to a whole number of coarse
+        steps.  Breakpoints closer together than MIN_GAP_STEPS coarse steps
+        cannot all be grid points: the later ones of such a cluster are left
+        out (``left_out``).
         """
+        if anchor is None:
+            wanted: list[float] = []
+        elif isinstance(anchor, (int, float, np.floating)):
+            wanted = [float(anchor)]
+        else:
+            wanted = sorted(float(a) for a in anchor)
+        wanted = [a for a in wanted if r_min < a < r_max]
         x_lo = float(mapping_x(r_min, scale))
         x_hi = float(mapping_x(r_max, scale))
-        if anchor is not None and r_min < anchor < r_max:
-            x_a = float(mapping_x(anchor, scale))
-            x_lo = x_a - np.ceil((x_a - x_lo) / coarse_step) * coarse_step
-        intervals = int(np.ceil((x_hi - x_lo) / coarse_step - 1e-9))
-        return cls(x_lo=x_lo, x_hi=x_lo + intervals * coarse_step, scale=scale, coarse_step=coarse_step)
+        kept: list[float] = []
+        skipped: list[float] = []
+        for a in wanted:
+            xa = float(mapping_x(a, scale))
+            if kept and xa - float(mapping_x(kept[-1], scale)) < MIN_GAP_STEPS * coarse_step:
+                skipped.append(a)
+            else:
+                kept.append(a)
+        if not kept:
+            intervals = int(np.ceil((x_hi - x_lo) / coarse_step - 1e-9))
+            return cls(x_lo=x_lo, x_hi=x_lo + intervals * coarse_step, scale=scale,
+                       coarse_step=coarse_step, left_out=tuple(skipped))
+        knots = [float(mapping_x(a, scale)) for a in kept]
+        start = knots[0] - np.ceil((knots[0] - x_lo) / coarse_step) * coarse_step
+        shifts = []
+        for xk in knots:
+            m = round((xk - start) / coarse_step)
+            shifts.append(start + m * coarse_step - xk)
+        mapping = Mapping(scale, tuple(knots), tuple(shifts))
+        xi_hi = float(mapping.xi_of_x(np.array([x_hi]))[0])
+        intervals = int(np.ceil((xi_hi - start) / coarse_step - 1e-9))
+        return cls(x_lo=start, x_hi=start + intervals * coarse_step, scale=scale, coarse_step=coarse_step,
+                   mapping=mapping, anchors=tuple(kept), left_out=tuple(skipped))
 
     @property
     def r_min(self) -> float:
-        return float(radius_from_x(self.x_lo, self.scale))
+        return float(self.mapping.r_of_xi(np.array([self.x_lo]))[0])
 
     @property
     def r_max(self) -> float:
-        return float(radius_from_x(self.x_hi, self.scale))
+        return float(self.mapping.r_of_xi(np.array([self.x_hi]))[0])
+
+    def intervals(self, refinement: int = 0) -> int:
+        return int(round((self.x_hi - self.x_lo) / self.coarse_step)) * 2**refinement
 
     def grid(self, refinement: int = 0) -> RadialGrid:
         """The grid of step ``coarse_step / 2**refinement``."""
-        intervals = int(round((self.x_hi - self.x_lo) / self.coarse_step)) * 2**refinement
+        intervals = self.intervals(refinement)
         step = self.coarse_step / 2**refinement
         x = self.x_lo + step * np.arange(intervals + 1)
-        s = self.scale
-        r = radius_from_x(x, s)
-        jac = r * s / (r + s)
-        schwarz = -(s**3) * (0.5 * s + 2.0 * r) / (r + s) ** 4
-        return RadialGrid(step=step, scale=s, x=x, r=r, jacobian=jac, schwarzian=schwarz)
+        r, jac, schwarz = self.mapping.points(x, self.anchors)
+        return RadialGrid(step=step, scale=self.scale, x=x, r=r, jacobian=jac, schwarzian=schwarz,
+                          mapping=self.mapping)
+
+
+def potential_on_grid(pot, r: np.ndarray, breakpoints) -> np.ndarray:
+    """V at the grid radii, with the mean of the one-sided limits at breakpoints.
+
+    Where V jumps at a grid point, the mean of its two limits keeps the
+    discretization error a regular power series in the step.
+    """
+    values = pot(r)
+    for b in breakpoints:
+        i = int(np.searchsorted(r, b))
+        for j in (i - 1, i):
+            if 0 <= j < r.size and abs(r[j] - b) <= 1e-12 * b:
+                sides = pot(np.array([b * (1.0 - 1e-12), b * (1.0 + 1e-12)]))
+                values[j] = 0.5 * (sides[0] + sides[1])
+    return values

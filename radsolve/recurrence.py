@@ -10,12 +10,17 @@ LAPACK's dtbtrs solves by forward substitution.
 from __future__ import annotations
 
 import numpy as np
+import math
+
 from scipy.linalg.lapack import dtbtrs
 
 _CHUNK = 512
+#: Largest growth (natural log) allowed within one chunk.
+_GROWTH = 600.0
 
 
-def three_term(alpha: np.ndarray, beta: np.ndarray | None, y_prev: float, y_cur: float) -> np.ndarray:
+def three_term(alpha: np.ndarray, beta: np.ndarray | None, y_prev: float, y_cur: float,
+               local: bool = False):
     """Run y[k+1] = alpha[k] y[k] - beta[k] y[k-1] from y[-1] = y_prev, y[0] = y_cur.
 
     Parameters
@@ -24,21 +29,42 @@ def three_term(alpha: np.ndarray, beta: np.ndarray | None, y_prev: float, y_cur:
     beta : ndarray, shape (n,), or None for all ones
     y_prev, y_cur : float
 
+    local : bool
+        Return each chunk on its own scale (see below) instead of one common
+        one, so that nothing underflows however much y grows.
+
     Returns
     -------
     ndarray, shape (n + 1,)
         y[0], ..., y[n], divided by one common positive factor chosen to stay
-        far from overflow (signs and ratios are exact; absolute scale is not).
+        far from overflow (signs and ratios are exact; absolute scale is not;
+        values far below the largest may underflow to zero).
+    (ndarray, ndarray) when ``local``
+        ``(z, log_scale)`` with y = z * exp(log_scale) pointwise: every sign
+        is exact, and so is every ratio of neighbours.
     """
     alpha = np.asarray(alpha, dtype=float)
     beta = np.ones_like(alpha) if beta is None else np.asarray(beta, dtype=float)
     out = np.empty(alpha.size + 1)
     out[0] = y_cur
-    pos = 0
+    logs = np.zeros(alpha.size + 1)
+    if alpha.size == 0:
+        return (out, logs) if local else out
+    # Each step multiplies |y| by at most |alpha| + |beta|: cut the chunks so
+    # that no chunk can grow by more than e**_GROWTH (no overflow, whatever the
+    # potential), and rescale between chunks.
+    growth = np.cumsum(np.log1p(np.abs(alpha) + np.abs(beta)))
+    ends = [0]
+    while ends[-1] < alpha.size:
+        start = ends[-1]
+        base = growth[start - 1] if start > 0 else 0.0
+        stop = int(np.searchsorted(growth, base + _GROWTH, side="right"))
+        ends.append(min(max(stop, start + 1), start + _CHUNK, alpha.size))
     prev, cur = y_prev, y_cur
-    while pos < alpha.size:
-        a = alpha[pos : pos + _CHUNK]
-        b = beta[pos : pos + _CHUNK]
+    log_total = 0.0
+    for pos, end in zip(ends[:-1], ends[1:]):
+        a = alpha[pos:end]
+        b = beta[pos:end]
         n = a.size
         band = np.zeros((3, n))
         band[0] = 1.0
@@ -52,8 +78,15 @@ def three_term(alpha: np.ndarray, beta: np.ndarray | None, y_prev: float, y_cur:
         scale = np.max(np.abs(z))
         if not np.isfinite(scale) or scale == 0.0:
             scale = 1.0
+        if local:
+            # z continues from (prev, cur) on their scale: put this chunk on its own.
+            log_total += math.log(scale)
+            out[pos + 1 : pos + 1 + n] = z / scale
+            logs[pos + 1 : pos + 1 + n] = log_total
+            prev = z[n - 2] / scale if n > 1 else cur / scale
+            cur = z[n - 1] / scale
+            continue
         out[: pos + 1] /= scale
         out[pos + 1 : pos + 1 + n] = z / scale
         prev, cur = out[pos + n - 1], out[pos + n]
-        pos += n
-    return out
+    return (out, logs) if local else out

@@ -947,7 +947,21 @@ class Potential:
         view.flags.writeable = False  # a plug-in must not modify the solver's grid
         return self._checked("V", lambda: self._family.V(view, **self._params), r_arr)
 
-    def _checked(self, what: str, compute: Callable[[], Any], r_arr: np.ndarray) -> np.ndarray:
+    def raw(self, r: Any) -> np.ndarray:
+        """V(r) like ``self(r)``, except that infinities and NaN are returned, not refused.
+
+        For probing only: a potential may overflow far inside any physical
+        scale (a Lennard-Jones core at 1e-30 bohr) or far outside it, and the
+        prober needs to know where V is finite rather than fail.
+        """
+        r_arr = np.asarray(r, dtype=float)
+        view = r_arr.view()
+        view.flags.writeable = False
+        with np.errstate(all="ignore"):
+            return self._checked("V", lambda: self._family.V(view, **self._params), r_arr, finite=False)
+
+    def _checked(self, what: str, compute: Callable[[], Any], r_arr: np.ndarray,
+                 finite: bool = True) -> np.ndarray:
         """Run ``compute`` (a plug-in function of r) and check its values as for V."""
         try:
             out = compute()
@@ -982,9 +996,9 @@ class Potential:
                 raise PluginError(f"{self._where()}: {what} returned values of type {values.dtype}, "
                                   "not real numbers") from None
         values = values.astype(float, copy=False)
-        finite = np.isfinite(values)
-        if not finite.all():
-            i = np.flatnonzero(~finite)[0]
+        good = np.isfinite(values)
+        if finite and not good.all():
+            i = np.flatnonzero(~good)[0]
             raise PluginError(
                 f"{self._where()}: {what} returned {values.flat[i]} at r = {_fmt(r_arr.flat[i])} "
                 f"{self._length_unit()}; "
@@ -1170,16 +1184,24 @@ class ChannelPotential:
         return 0.5 * (self.j * (self.j + 1.0) - self.l * (self.l + 1.0) - 0.75)
 
     def __call__(self, r: Any) -> np.ndarray:
+        return self._values(r, finite=True)
+
+    def raw(self, r: Any) -> np.ndarray:
+        """The channel's V at ``r`` with infinities and NaN returned, not refused (for probing)."""
+        with np.errstate(all="ignore"):
+            return self._values(r, finite=False)
+
+    def _values(self, r: Any, finite: bool) -> np.ndarray:
         base, fam, params = self.base, self.base.family, self.base.parameters
         r_arr = np.asarray(r, dtype=float)
         view = r_arr.view()
         view.flags.writeable = False
         if fam.V_l is not None:
-            values = base._checked("V_l", lambda: fam.V_l(view, self.l, **params), r_arr)
+            values = base._checked("V_l", lambda: fam.V_l(view, self.l, **params), r_arr, finite)
         else:
-            values = base(r_arr)
+            values = base(r_arr) if finite else base.raw(r_arr)
         if self.j is not None and self.spin_orbit_factor != 0.0:
-            so = base._checked("spin_orbit", lambda: fam.spin_orbit(view, **params), r_arr)
+            so = base._checked("spin_orbit", lambda: fam.spin_orbit(view, **params), r_arr, finite)
             values = values + self.spin_orbit_factor * so
         return values
 

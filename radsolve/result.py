@@ -59,6 +59,8 @@ class GridSample:
         ``sum(weights * u**2) == 1``, positive near the origin; bohr**-1/2.
     energy : float
         The energy on this grid before extrapolation, hartree.
+    mapping : radsolve.grids.Mapping or None
+        The map between the grid variable (uniform, step ``step``) and r.
     """
 
     step: float
@@ -66,6 +68,7 @@ class GridSample:
     weights: np.ndarray
     u: np.ndarray
     energy: float
+    mapping: Any = None
 
 
 @dataclass
@@ -109,6 +112,17 @@ class Level:
         The method that produced ``samples`` (for ``"both"``, the one with
         the smaller estimate); its error expansion is
         ``radsolve.solvers.solver_class(sample_method).error_orders``.
+    status : radsolve.targets.Status
+        Why the refinement ended: ``converged``, or the cause it did not
+        (rounding floor, finest grid, potential accuracy, box, order not
+        established, near-degenerate, count uncertain).
+    scale : float
+        What the relative error is relative to: |E|, or |E - V(inf)| when
+        that is larger.
+    convergence : dict
+        The record behind ``status``: grids used, observed order and whether
+        it is the expected one, the wall and inner-boundary shifts, the
+        rounding floor, the potential's own accuracy, near-degeneracy.
     """
 
     n: int
@@ -127,6 +141,9 @@ class Level:
     sample_method: str = ""
     j: float | None = None
     degeneracy: int = 1
+    status: Any = None
+    scale: float | None = None
+    convergence: dict[str, Any] = field(default_factory=dict)
 
     @property
     def r(self) -> np.ndarray:
@@ -150,8 +167,9 @@ class Level:
 
     @property
     def relative_error_estimate(self) -> float:
-        """``error_estimate / |energy|``."""
-        return self.error_estimate / abs(self.energy) if self.energy else float("inf")
+        """``error_estimate`` relative to :attr:`scale` (|E| when no scale was recorded)."""
+        scale = abs(self.energy) if self.scale is None else self.scale
+        return self.error_estimate / scale if scale else float("inf")
 
     def to_dict(self, unit_factor: float = 1.0) -> dict[str, Any]:
         """Plain-data view; energies divided by ``unit_factor`` (hartree per unit)."""
@@ -164,6 +182,8 @@ class Level:
             "error_estimate": self.error_estimate / unit_factor,
             "converged": bool(self.converged),
         }
+        if self.status is not None:
+            out["status"] = str(self.status)
         if self.j is not None:
             out["j"] = self.j
             out["degeneracy"] = self.degeneracy
@@ -197,9 +217,14 @@ class SolveResult:
     method : str
         Method used.
     bound_counts : dict
-        For each l asked, the number of bound levels found on the final box
-        when fewer than ``count`` are bound; ``None`` when at least ``count``
-        exist (their total was not needed).
+        For each l asked, the number of bound levels returned when fewer than
+        ``count`` are; ``None`` when ``count`` of them are.
+    certificates : dict
+        For each l asked (or "l=1,j=3/2" keys with spin-orbit), a
+        :class:`radsolve.counting.BoundCount`: how many levels that partial
+        wave binds (``count``; None for infinitely many), established without
+        a box from the threshold-energy solution or the potential's tail,
+        ``certain``, and a ``note`` on how it was found.
     v_infinity : float
         The continuum threshold lim V(r), r -> inf (inf if confining).
     units : str
@@ -220,6 +245,7 @@ class SolveResult:
     v_infinity: float
     units: str = "atomic"
     dimension: int = 3
+    certificates: dict = field(default_factory=dict)
 
     def level(self, label: str) -> Level:
         """The level with spectroscopic ``label`` (e.g. ``"2p"``); KeyError if absent."""
@@ -256,5 +282,6 @@ class SolveResult:
             "tol": self.tol,
             "success": bool(self.success),
             "message": self.message,
+            "certificates": {str(k): v.to_dict() for k, v in self.certificates.items()},
             "levels": [lev.to_dict(factor) for lev in self.levels],
         }

@@ -213,7 +213,11 @@ class SampleGrid:
     def index_of(self, radius) -> np.ndarray:
         """Fractional index (x(radius) - x[0]) / step of radii inside the grid."""
         radius = np.asarray(radius, dtype=float)
-        xr = np.log(radius) + (radius / self.scale if math.isfinite(self.scale) else 0.0)
+        mapping = getattr(self.sample, "mapping", None)
+        if mapping is not None:
+            xr = mapping.xi_of_r(radius)
+        else:
+            xr = np.log(radius) + (radius / self.scale if math.isfinite(self.scale) else 0.0)
         return (xr - self.x[0]) / self.step
 
     def radius_of(self, index) -> np.ndarray:
@@ -221,6 +225,9 @@ class SampleGrid:
         from .grids import radius_from_x
 
         x = self.x[0] + np.asarray(index, dtype=float) * self.step
+        mapping = getattr(self.sample, "mapping", None)
+        if mapping is not None:
+            return mapping.r_of_xi(x)
         if not math.isfinite(self.scale):
             return np.exp(x)
         return radius_from_x(x, self.scale)
@@ -263,8 +270,13 @@ def prepare(sample, lam: float, correction_power: float = 1.0) -> SampleGrid:
     r[j] u is replaced by C r**lambda (1 + a r**q) (see :func:`origin_fit`).
     """
     r = sample.r
-    scale = _mapping_scale(sample)
-    x = np.log(r) + (r / scale if math.isfinite(scale) else 0.0)
+    mapping = getattr(sample, "mapping", None)
+    if mapping is not None:
+        scale = mapping.scale
+        x = mapping.xi_of_r(r)
+    else:
+        scale = _mapping_scale(sample)
+        x = np.log(r) + (r / scale if math.isfinite(scale) else 0.0)
     steps = np.diff(x)
     if steps.size and np.max(np.abs(steps - sample.step)) > 1e-7 * max(sample.step, 1e-300) + 1e-9:
         bad = int(np.argmax(np.abs(steps - sample.step) > 1e-7 * sample.step + 1e-9))

@@ -166,7 +166,8 @@ def test_levels_json_schema_and_exact_coulomb_values():
     assert [lev["label"] for lev in doc["levels"]] == ["1s", "2s", "2p", "3p"]
     for lev in doc["levels"]:
         assert set(lev) == {"n", "l", "nodes", "label", "energy", "error_estimate",
-                            "converged", "exact", "deviation"}
+                            "converged", "status", "exact", "deviation"}
+        assert lev["status"] == "converged"
         assert lev["n"] == lev["nodes"] + lev["l"] + 1
         expected = exact_hydrogenic(lev["n"], 2, 1.0)  # sympy E_nl
         assert lev["exact"] == pytest.approx(expected, rel=1e-14)

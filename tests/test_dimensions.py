@@ -53,12 +53,18 @@ def test_two_dimensional_hydrogen(Z, mu):
     # Source: E = -mu Z^2/(2 (n - 1/2)^2) (textbook formula).  The solve
     # is asked for tol=1e-11; 1e-10 relative leaves a factor 10 for the error estimate
     # being an estimate, and stays far above double-precision round-off (~1e-15).
+    # tol=1e-11 is at the rounding floor of finite differences on the ~2e4-point
+    # grids a 2D s level needs (u ~ r**1/2 asks for r_min ~ 1e-17): a level may
+    # then stop short of tol, and must say so with an estimate that holds.
     res = radsolve.solve(radsolve.potential("coulomb", Z=Z), l=[0, 1, 2, 3], count=4, mass=mu,
                          tol=1e-11, dimension=2)
-    assert res.dimension == 2 and res.success and len(res.levels) == 16
+    assert res.dimension == 2 and len(res.levels) == 16
     for lev in res.levels:
         exact = hydrogen_d(lev.nodes + lev.l + 1, Z, mu, 2)
         assert abs(lev.energy - exact) <= 1e-10 * abs(exact), lev.label
+        assert abs(lev.energy - exact) <= 10 * lev.error_estimate, lev.label
+        assert lev.converged or str(lev.status) in ("rounding floor", "finest grid"), lev.status
+    assert res.success == all(lev.converged for lev in res.levels)
 
 
 @pytest.mark.parametrize("d", [4, 5, 7])

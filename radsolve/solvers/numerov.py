@@ -76,7 +76,7 @@ class NumerovShooting(RadialSolver):
         s = min(max(s, m + 2), last - 1)
         return m, s
 
-    def _shoot(self, energy: float, m: int | None = None, s: int | None = None):
+    def _shoot(self, energy: float, m: int | None = None, s: int | None = None, local: bool = False):
         f = self._f(energy)
         if m is None:
             m, s = self._match_and_start(f)
@@ -88,7 +88,18 @@ class NumerovShooting(RadialSolver):
         d = 2.0 + 12.0 * t / (1.0 - t)
         a = self.inner
         # outward from the power law at the origin: w[a] = ghost_ratio * w[a+1]
-        y_out = three_term(d[a + 1 : m + 1], None, self.ghost_ratio * (1.0 - t[a]), 1.0 - t[a + 1])  # y[a+1 .. m+1]
+        start = (self.ghost_ratio * (1.0 - t[a]), 1.0 - t[a + 1])
+        if local:
+            # Signs and neighbour ratios exact however much y grows; values on
+            # one common scale are not needed for counting.
+            z_out, log_out = three_term(d[a + 1 : m + 1], None, *start, local=True)
+            y_out = z_out * np.exp(np.clip(log_out - log_out[-1], -700.0, 0.0))
+            y_out[:-2] = np.sign(z_out[:-2])  # only the signs matter below m
+            z_in, log_in = three_term(d[m + 1 : s + 1][::-1], None, 0.0, 1.0, local=True)
+            y_in = (z_in * np.exp(np.clip(log_in - log_in[-1], -700.0, 0.0)))[::-1]
+            y_in[2:] = np.sign(z_in[::-1][2:])
+            return m, s, y_out, y_in, t
+        y_out = three_term(d[a + 1 : m + 1], None, *start)  # y[a+1 .. m+1]
         # inward: y[s+1] = 0, y[s] = 1, down to y[m]
         y_in = three_term(d[m + 1 : s + 1][::-1], None, 0.0, 1.0)[::-1]  # y[m .. s]
         return m, s, y_out, y_in, t
@@ -96,7 +107,7 @@ class NumerovShooting(RadialSolver):
     def count_below(self, energy: float) -> int:
         if energy <= self.spectrum_floor:
             return 0
-        m, s, y_out, y_in, _ = self._shoot(energy)
+        m, s, y_out, y_in, _ = self._shoot(energy, local=True)
         n_out = _sign_changes(y_out[:-1])  # y[a+1 .. m]
         n_in = _sign_changes(y_in)  # y[m .. s]
         gamma = y_out[-1] / y_out[-2] - y_in[1] / y_in[0]

@@ -1,0 +1,119 @@
+"""Richardson extrapolation in the grid step, with the order checked against the data.
+
+Every quantity radsolve computes on a sequence of grids of steps h, h/2,
+h/4, ... (energies, observables, critical parameter values) is extrapolated
+to h = 0 here.  The error expansion a method promises (``orders``: h**2,
+h**4, ... for finite differences) holds only for a smooth potential with its
+breakpoints on the grid; a jump on a grid point lowers Numerov's order to
+h**2, h**3, ...; a jump between grid points destroys the expansion.  So the
+observed order is read off the data and compared with the promise, and
+:func:`extrapolate` says (``order_ok``) whether the data show an order the
+extrapolation may rely on.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+#: The observed order may differ from the expected one by this much.
+ORDER_TOLERANCE = 0.3
+#: A lower whole-number order (a jump on the grid) must be this close to an integer ...
+_INTEGER_TOLERANCE = 0.2
+#: Changes below this multiple of the rounding floor are noise, not an order.
+NOISE_FACTOR = 1e3
+
+
+@dataclass(frozen=True)
+class Extrapolation:
+    """The result of :func:`extrapolate`.
+
+    Attributes
+    ----------
+    value : float
+        The extrapolated value.
+    estimate : float
+        Its estimated absolute error: the larger of the last two corrections
+        of the Richardson table (common practice), never below the rounding
+        floor; inf with fewer than three grids.
+    observed : float or None
+        The order log2(d1/d2) of the last three raw values.
+    order_ok : bool
+        True when the data show the expected leading order (or a whole-number
+        lower order seen on two successive triples, as a jump on the grid
+        gives), or the changes are rounding noise.
+    """
+
+    value: float
+    estimate: float
+    observed: float | None
+    order_ok: bool
+
+
+def _observed(e: np.ndarray, end: int) -> float | None:
+    d1, d2 = abs(e[end - 2] - e[end - 1]), abs(e[end - 1] - e[end])
+    return math.log2(d1 / d2) if d1 > 0 and d2 > 0 else None
+
+
+def extrapolate(values, orders: tuple[int, ...], relative_rounding: float = 1e-14,
+                confirm_lower_order: bool = True) -> Extrapolation:
+    """Extrapolate values on grids of steps h, h/2, h/4, ... to h = 0.
+
+    ``orders`` are the powers of h the method promises.  When the observed
+    leading order (from the last three grids) differs from the promised
+    one, a whole-number lower order seen on the last two triples (a jump on
+    a grid point) is eliminated with all integer powers above it; otherwise
+    one conservative step is taken and ``order_ok`` is False.
+    ``confirm_lower_order=False`` accepts a whole-number lower order from the
+    last triple alone (the first release's rule).
+    """
+    e = np.asarray(values, dtype=float)
+    k = e.size
+    floor = max(64.0 * np.finfo(float).eps, relative_rounding) * abs(e[-1])
+    if k < 3:
+        return Extrapolation(float(e[-1]), math.inf, None, False)
+    d2 = abs(e[-2] - e[-1])
+    observed = _observed(e, k - 1)
+    noisy = d2 < NOISE_FACTOR * floor
+    earlier = _observed(e, k - 2) if k >= 4 else None
+    if noisy or observed is None or abs(observed - orders[0]) < ORDER_TOLERANCE:
+        use = orders
+        ok = True
+    elif (observed >= 0.8 and abs(observed - round(observed)) < _INTEGER_TOLERANCE
+          and (not confirm_lower_order
+               or (earlier is not None and abs(earlier - observed) < ORDER_TOLERANCE))):
+        q = int(round(observed))
+        use = tuple(range(q, q + 8))
+        ok = True
+    else:
+        p = min(max(observed, 0.5), float(orders[0]))
+        best = e[-1] + (e[-1] - e[-2]) / (2.0**p - 1.0)
+        estimate = max(abs(best - e[-1]), abs(e[-1] - e[-2]))
+        return Extrapolation(float(best), float(max(estimate, floor)), observed, False)
+    table = [list(e)]
+    for j in range(min(k - 1, len(use))):
+        factor = 2.0 ** use[j] - 1.0
+        prev = table[-1]
+        table.append([prev[i + 1] + (prev[i + 1] - prev[i]) / factor for i in range(len(prev) - 1)])
+    # Each column's newest entry, with the larger of its last two corrections
+    # as its estimate; deep columns amplify rounding noise, so the column whose
+    # estimate is smallest is taken (its own estimate still bounds it).
+    best, estimate = table[-1][-1], math.inf
+    for j in range(1, len(table)):
+        column = table[j]
+        est = abs(column[-1] - table[j - 1][-1])
+        if len(column) >= 2:
+            est = max(est, abs(column[-1] - column[-2]))
+        elif j >= 2:
+            est = max(est, abs(column[-1] - table[j - 1][-2]))
+        if est < estimate:
+            best, estimate = column[-1], est
+    return Extrapolation(float(best), float(max(estimate, floor)), observed, ok)
+
+
+def richardson(energies, orders: tuple[int, ...], relative_rounding: float = 1e-14):
+    """``(value, error_estimate, observed_order)`` of :func:`extrapolate` (the first release's form)."""
+    out = extrapolate(energies, orders, relative_rounding, confirm_lower_order=False)
+    return out.value, out.estimate, out.observed
