@@ -330,10 +330,15 @@ def levels_command(
         if result.message and noteworthy and (out is not None or fmt is not OutputFormat.table):
             _say(result.message)  # the table has it already; JSON/CSV readers may not look
 
-        unconverged = [lev.label for lev in result.levels if not lev.converged]
+        unconverged = [f"{lev.label} ({lev.status})" if lev.status is not None else lev.label
+                       for lev in result.levels if not lev.converged]
         if unconverged:
             _say(f"warning: {len(unconverged)} level(s) did not converge to tol {tol:g}: "
                  + ", ".join(unconverged))
+            raise typer.Exit(EXIT_NOT_CONVERGED)
+        if not result.success:
+            # every level listed converged, but the list is not known to be complete
+            _say("warning: " + result.message)
             raise typer.Exit(EXIT_NOT_CONVERGED)
 
 

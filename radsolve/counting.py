@@ -93,8 +93,9 @@ class Shot:
 
     nodes: int  # zeros on the grid, plus one beyond it when the tail law has one
     interior_nodes: int
-    growing: float  # a: coefficient of (r/R)**nu_plus at the last point R (scale of u)
-    decaying: float  # b: coefficient of (r/R)**nu_minus
+    growing: float  # a: coefficient of (r/R)**nu_plus at the last point R (scale of u);
+    #                 with nu_plus = nu_minus, of (r/R)**nu ln(r/R), the solution dominating far out
+    decaying: float  # b: coefficient of (r/R)**nu_minus (or of (r/R)**nu)
     start: float  # u at the first interior point (scale of u)
     beyond: float  # radius of the zero beyond R, or nan
     r: np.ndarray
@@ -126,14 +127,18 @@ def zero_energy_solution(values: np.ndarray, grid, L: float, mass: float, expone
     changes = np.nonzero(signs[1:] * signs[:-1] < 0)[0]
     r = grid.r[1:]
     last_zero = float(r[changes[-1]]) if changes.size else 0.0
-    # u = sqrt(r') w, w = y / (1 - t); put the last stretch on a common scale
+    # u = sqrt(r') w, w = y / (1 - t), on one common scale: that of its peak
+    # (beyond the range u0 varies like a power of r, so the last points never
+    # underflow against it; tiny values near the origin may).
     k2 = r.size - 1
     k1 = int(np.searchsorted(r, 0.5 * r[k2]))
     k1 = min(max(k1, 0), k2 - 1)
-    ref = logs[k2]
     w = z / (1.0 - t[1:])
-    u_tail = lambda k: math.sqrt(grid.jacobian[1 + k]) * w[k] * math.exp(logs[k] - ref)  # noqa: E731
-    u1, u2 = u_tail(k1), u_tail(k2)
+    with np.errstate(divide="ignore"):
+        level = logs + np.log(np.abs(w))
+    ref = float(np.max(level[np.isfinite(level)]))
+    u_all = np.sqrt(grid.jacobian[1:]) * w * np.exp(np.maximum(logs - ref, -745.0))
+    u1, u2 = float(u_all[k1]), float(u_all[k2])
     a = b = 0.0
     beyond = math.nan
     nodes = interior
@@ -142,11 +147,12 @@ def zero_energy_solution(values: np.ndarray, grid, L: float, mass: float, expone
         nu_p, nu_m = nu
         if abs(nu_p - nu_m) < 1e-9:
             # degenerate pair (e.g. two dimensions, l = 0): r**nu and r**nu ln(r/R)
-            a = u2
-            b = (u1 / rho**nu_p - a) / math.log(rho)
-            if b != 0.0 and -a / b > 0:
+            c0 = u2
+            c1 = (u1 / rho**nu_p - c0) / math.log(rho)
+            if c1 != 0.0 and -c0 / c1 > 0:
                 nodes += 1
-                beyond = float(r[k2] * math.exp(min(-a / b, 700.0)))
+                beyond = float(r[k2] * math.exp(min(-c0 / c1, 700.0)))
+            a, b = c1, c0  # the logarithmic solution is the one that dominates far out
         else:
             det = rho**nu_p - rho**nu_m
             a = (u1 - rho**nu_m * u2) / det
@@ -154,11 +160,11 @@ def zero_energy_solution(values: np.ndarray, grid, L: float, mass: float, expone
             if a != 0.0 and np.sign(a) != np.sign(u2) and -b / a > 1.0:
                 nodes += 1
                 beyond = float(r[k2] * (-b / a) ** (1.0 / (nu_p - nu_m)))
-    # The solution on a common scale for the threshold module (tiny values may underflow).
-    u_all = np.sqrt(grid.jacobian[1:]) * w * np.exp(np.clip(logs - ref, -745.0, 0.0))
+    # The amplitude relative to the start, in logarithms (the start may underflow on the common scale).
+    start = math.copysign(math.exp(min(max(logs[0] + math.log(abs(w[0])) - ref, -745.0), 0.0)), w[0]) \
+        * math.sqrt(grid.jacobian[1])
     return Shot(nodes=nodes, interior_nodes=interior, growing=float(a), decaying=float(b),
-                start=float(np.sqrt(grid.jacobian[1]) * w[0] * math.exp(max(logs[0] - ref, -745.0))),
-                beyond=beyond, r=r, weights=grid.weights[1:], u=u_all, last_zero=last_zero)
+                start=start, beyond=beyond, r=r, weights=grid.weights[1:], u=u_all, last_zero=last_zero)
 
 
 def _span(r_min: float, r_max: float, step: float, anchors) -> GridSpan:

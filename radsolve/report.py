@@ -206,15 +206,42 @@ def levels_table(result, unit: str | None = None) -> str:
                 cells += [_energy_text(d.get("exact")), _small_text(d.get("deviation"), True)]
             table.append(cells)
         lines += format_columns(header, table, right)
-        unconverged = [d["label"] for d in rows if not d["converged"]]
+        unconverged = [d["label"] + (f" ({d['status']})" if d.get("status") else "")
+                       for d in rows if not d["converged"]]
         if unconverged:
             lines.append("")
             lines += _wrap("WARNING: not converged to tol: " + ", ".join(unconverged)
                            + " (their energies are less accurate than asked)")
+    counts = certificate_text(result)
+    if counts:
+        lines.append("")
+        lines += _wrap(counts)
     if result.message:
         lines.append("")
         lines += _wrap(result.message)
     return "\n".join(lines) + "\n"
+
+
+def certificate_text(result) -> str:
+    """One line: how many levels each l binds, and whether that count is certain."""
+    certs = getattr(result, "certificates", None) or {}
+    if not certs:
+        return ""
+    parts = []
+    for key, cert in certs.items():
+        name = key if isinstance(key, str) else f"l={key}"
+        parts.append(f"{name}: {cert.text()}")
+    return "bound levels (counted without a box): " + "; ".join(parts)
+
+
+def _count_cell(result, lev) -> tuple[Any, Any]:
+    """The bound-level count of a level's partial wave, for CSV: ('inf' for infinitely many, certain)."""
+    certs = getattr(result, "certificates", None) or {}
+    key = lev.l if lev.j is None else f"l={lev.l},j={int(round(2 * lev.j))}/2"
+    cert = certs.get(key)
+    if cert is None:
+        return None, None
+    return ("inf" if cert.count is None else cert.count), bool(cert.certain)
 
 
 def levels_json(result, unit: str | None = None) -> str:
@@ -243,13 +270,18 @@ def levels_csv(result, unit: str | None = None) -> str:
     unit = _output_unit(result, unit)
     rows, has_exact = _level_rows(result, unit)
     has_j = any(getattr(lev, "j", None) is not None for lev in result.levels)
-    fields = (list(LEVEL_FIELDS) + (list(J_FIELDS) if has_j else [])
-              + (list(EXACT_FIELDS) if has_exact else []) + ["unit"])
+    has_status = any(getattr(lev, "status", None) is not None for lev in result.levels)
+    has_counts = bool(getattr(result, "certificates", None))
+    fields = (list(LEVEL_FIELDS) + (["status"] if has_status else []) + (list(J_FIELDS) if has_j else [])
+              + (list(EXACT_FIELDS) if has_exact else [])
+              + (["bound_count", "bound_count_certain"] if has_counts else []) + ["unit"])
     buf = io.StringIO()
     writer = csv.writer(buf, lineterminator="\n")
     writer.writerow(fields)
-    for d in rows:
+    for d, lev in zip(rows, result.levels):
         d = dict(d, unit=unit)
+        if has_counts:
+            d["bound_count"], d["bound_count_certain"] = _count_cell(result, lev)
         cells = []
         for f in fields:
             v = _plain(d.get(f))

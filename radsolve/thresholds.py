@@ -65,14 +65,10 @@ COARSE_STEP = 0.04
 MAX_HALVINGS = 7
 #: Never use more points than this on one grid.
 MAX_POINTS = 400_000
-#: The box starts at twice the radius beyond which 2 mu r**2 |V - V(inf)| < TAIL_LEVEL.
-TAIL_LEVEL = 1e-16
 #: At most this many doublings of the box.
 MAX_BOX_DOUBLINGS = 8
 #: Largest box, bohr.
 LARGEST_BOX = 1e10
-#: Radii where the tail is examined, bohr.
-_TAIL_RADII = np.logspace(-12, 9, 841)
 
 
 class NoThresholdError(RadsolveError):
@@ -280,6 +276,7 @@ class _Shot:
     u: np.ndarray
     growing: float  # a = A R2**(l+1) in the scale of u
     decaying: float  # b = B R2**(-l) in the scale of u
+    exponents: tuple | None = None  # (nu_plus, nu_minus) of the tail's zero-energy solutions
 
 
 class _ZeroEnergy:
@@ -314,88 +311,62 @@ class _ZeroEnergy:
         return f"potential {self.base.name!r} at {self.parameter} = {p:.10g}"
 
     def check_tail(self, p: float) -> float:
-        """The radius (bohr) beyond which V - V(inf) is negligible; raises if there is none."""
+        """The radius beyond which V - V(inf) follows its tail law; raises if the tail has no threshold."""
+        from .counting import asymptotic_radius
+
         pot, prof = self.profile(p)
+        tail = prof.tail
         if prof.confining:
             raise NoThresholdError(f"{self.where(p)} is confining (V -> inf as r -> inf): every level "
                                    "stays bound, so there is no binding threshold")
-        r = _TAIL_RADII
-        with np.errstate(all="ignore"):
-            w = pot(r) - prof.v_infinity
-        tau = 2.0 * self.mass * r**2 * np.abs(w)
-        far, farther = np.searchsorted(r, 1e6), np.searchsorted(r, 1e7)
-        if tau[farther] > 1e-6 and tau[farther] > 0.3 * tau[far]:
-            kind = "attractive" if w[farther] < 0 else "repulsive"
-            consequence = ("such a tail (a Coulomb tail, say) binds infinitely many levels for every "
-                           "parameter value, so no level reaches the threshold"
-                           if kind == "attractive" else
-                           "the zero-energy analysis needs V - V(inf) to fall off faster than 1/r**2")
+        why = tail.infinitely_many(self.effective, self.mass)
+        if why is not None:
+            raise NoThresholdError(f"{self.where(p)}: {why}, for every parameter value, so no level "
+                                   "reaches the threshold")
+        if tail.exponents(self.effective, self.mass) is None:
+            kind = "attractive" if (tail.coefficient or 0) < 0 else "repulsive"
             raise NoThresholdError(
-                f"{self.where(p)}: V - V(inf) falls off like 1/r**2 or more slowly "
-                f"({kind}; 2 mu r**2 |V - V(inf)| = {tau[farther]:.3g} at r = 1e7 bohr): {consequence}")
-        strong = np.nonzero(tau >= TAIL_LEVEL)[0]
-        if strong.size == 0:
-            return float(prof.inner_length)
-        last = strong[-1]
-        if last + 1 >= r.size:
-            # A slowly decaying power law: start where it is small and let the
-            # box doublings say how well the value is known.
-            weak = np.nonzero(tau >= 1e-8)[0]
-            return float(r[min(weak[-1] + 1, r.size - 1)]) if weak.size else float(r[-1])
-        return float(r[last + 1])
+                f"{self.where(p)}: V - V(inf) falls off like 1/r**{tail.power:.3g} ({kind}) or has no "
+                "power law at large r: the zero-energy analysis needs V - V(inf) to fall off like "
+                "1/r**2 or faster")
+        return asymptotic_radius(pot, prof, self.mass)
 
     def layout(self, ps: Sequence[float]) -> _Layout:
         """One layout good for every parameter value in ``ps``."""
+        from .targets import Targets
+
+        share = Targets(self.tol).boundary_tol
         r_min, r_max = math.inf, 0.0
         for p in ps:
             tail = self.check_tail(p)
             _, prof = self.profile(p)
-            r_min = min(r_min, prof.inner_cutoff(self.effective, self.mass, self.tol))
+            if prof.scale_free:
+                continue  # nothing there (V - V(inf) = 0 or c/r**2): no length to fit the grid to
+            r_min = min(r_min, prof.inner_cutoff(self.effective, self.mass, share))
             r_max = max(r_max, 2.0 * tail, 8.0 * prof.inner_length,
                         2.0 * max(prof.breakpoints, default=0.0))
+        if not math.isfinite(r_min):
+            raise InputError(f"{self.where(ps[0])}: the potential has no length scale at any of the "
+                             "parameter values tried, so no level can reach a threshold there")
+        r_max = max(r_max, 64.0 * r_min)
         return _Layout(r_min=r_min, r_max=min(r_max, LARGEST_BOX))
 
     def shoot(self, p: float, layout: _Layout, refinement: int) -> _Shot:
-        from .grids import GridSpan
-        from .recurrence import three_term
-        from .spectrum import potential_on_grid
+        from .counting import zero_energy_solution
+        from .grids import GridSpan, potential_on_grid
 
         pot, prof = self.profile(p)
         r_min, r_max = layout.r_min, layout.r_max
-        scale = max(r_max / max(math.log(r_max / r_min), 1.0), prof.inner_length)
-        anchor = next((b for b in prof.breakpoints if r_min < b < r_max), None)
-        span = GridSpan.covering(r_min, r_max, COARSE_STEP, scale, anchor)
+        scale = max(r_max / max(math.log(r_max / r_min), 1.0), min(prof.inner_length, r_max))
+        span = GridSpan.covering(r_min, r_max, COARSE_STEP, scale, prof.breakpoints)
         grid = span.grid(refinement)
-        values = potential_on_grid(pot, grid.r, prof.breakpoints) - prof.v_infinity
+        values = potential_on_grid(pot, grid.r, span.anchors + span.left_out) - prof.v_infinity
         L = self.effective
-        _, q = grid.liouville_coefficients(values, self.l, self.mass, centrifugal=L * (L + 1.0))
-        h2 = grid.step**2
-        t = h2 * 2.0 * self.mass * q / 12.0
-        d = 2.0 + 12.0 * t / (1.0 - t)
-        last = grid.size - 1
-        # The power law u ~ r**lambda at the first point, as the solvers impose
-        # it (radsolve.solvers.base): w[0] = exp(-(lambda - 1/2) h) w[1]; then
-        # run to the last point.
-        ghost = math.exp(-(prof.origin_exponent(L, self.mass) - 0.5) * grid.step)
-        y = three_term(d[1:last], None, ghost * (1.0 - t[0]), 1.0 - t[1])  # y[1 .. last]
-        start = y[0]
-        w = y / (1.0 - t[1:])
-        u = np.sqrt(grid.jacobian[1:]) * w
-        r = grid.r[1:]
-        weights = grid.weights[1:]
-        j2 = r.size - 1
-        j1 = int(np.searchsorted(r, 0.5 * r[j2]))
-        rho = r[j1] / r[j2]
-        # Beyond the range u = a (r/R2)**(L+1) + b (r/R2)**(-L).
-        a = (u[j2] - rho**L * u[j1]) / (1.0 - rho ** (2 * L + 1))
-        b = u[j2] - a
-        signs = np.sign(u)
-        signs = signs[signs != 0]
-        nodes = int(np.count_nonzero(signs[1:] != signs[:-1]))
-        if a != 0.0 and np.sign(a) != np.sign(u[j2]):
-            nodes += 1  # the asymptotic form has one more zero beyond the box
-        return _Shot(nodes=nodes, amplitude=float(a / start), r=r, weights=weights, u=u,
-                     growing=float(a), decaying=float(b))
+        nu = prof.tail.exponents(L, self.mass)
+        shot = zero_energy_solution(values, grid, L, self.mass, prof.origin_exponent(L, self.mass), nu)
+        return _Shot(nodes=shot.nodes, amplitude=float(shot.growing / shot.start), r=shot.r,
+                     weights=shot.weights, u=shot.u, growing=shot.growing, decaying=shot.decaying,
+                     exponents=nu)
 
     def points(self, layout: _Layout, refinement: int) -> int:
         from .grids import mapping_x
@@ -406,6 +377,9 @@ class _ZeroEnergy:
 
     def count(self, p: float, refinement: int = 1) -> int:
         """Bound levels of angular momentum l at parameter ``p`` (zero-energy node count)."""
+        self.check_tail(p)
+        if self.profile(p)[1].scale_free:
+            return 0  # no length scale, no bound level (V - V(inf) is 0 or c/r**2)
         return self.shoot(p, self.layout([p]), refinement).nodes
 
 
@@ -606,7 +580,8 @@ def _slope(problem: _ZeroEnergy, layout: _Layout, p_c: float, refinement: int) -
     error (the trapezoid rule across a jump of V; smooth V converge faster),
     the change being the estimate.
     """
-    if 2.0 * problem.effective - 1.0 <= 0.0:
+    nu = problem.shoot(p_c, layout, max(refinement, 1)).exponents
+    if nu is None or -2.0 * nu[1] - 1.0 <= 0.0:
         return None, None  # the zero-energy state is not normalizable: E leaves the threshold faster than linearly
     fine = _slope_on(problem, layout, p_c, max(refinement, 1))
     coarse = _slope_on(problem, layout, p_c, max(refinement, 1) - 1)
@@ -626,10 +601,11 @@ def _slope_on(problem: _ZeroEnergy, layout: _Layout, p_c: float, refinement: int
         dv = ((potential_on_grid(pot_hi, shot.r, prof_hi.breakpoints) - prof_hi.v_infinity)
               - (potential_on_grid(pot_lo, shot.r, prof_lo.breakpoints) - prof_lo.v_infinity)) / (2.0 * delta)
     # Trapezoid rule up to the last point (u does not vanish there), and beyond
-    # it u = b (R/r)**l, whose norm is b**2 R / (2l - 1).
+    # it u = b (r/R)**nu_minus (nu_minus = -l for a short-range tail), whose
+    # norm is b**2 R / (-2 nu_minus - 1).
     weights = shot.weights.copy()
     weights[-1] *= 0.5
-    tail = shot.decaying**2 * shot.r[-1] / (2.0 * problem.effective - 1.0)
+    tail = shot.decaying**2 * shot.r[-1] / (-2.0 * shot.exponents[1] - 1.0)
     norm = float(np.sum(weights * shot.u**2)) + tail
     return float(np.sum(weights * dv * shot.u**2) / norm)
 
@@ -691,9 +667,10 @@ def threshold(potential, parameter: str, level: str = "1s", bracket=None, fixed=
     n, l, j, k = key.n, key.l, key.j, key.nodes
     if isinstance(dimension, bool) or not isinstance(dimension, (int, np.integer)) or not 2 <= dimension <= 10:
         raise InputError(f"dimension must be a whole number from 2 to 10, got {dimension!r}")
-    if l + (dimension - 3) / 2.0 <= -0.5:
-        raise NoThresholdError(f"in {dimension} dimensions an s level (L = -1/2) is bound by any net "
-                               "attraction, however weak: there is no threshold to find")
+    if l + (dimension - 3) / 2.0 <= -0.5 and k == 0:
+        raise NoThresholdError(f"in {dimension} dimensions the lowest s level (L = -1/2) is bound by any "
+                               "net attraction, however weak: there is no threshold to find (the "
+                               "higher s levels have one)")
     if j is not None and not getattr(base, "has_spin_orbit", False):
         raise InputError(f"level {level!r} names j, but potential {family.name!r} has no spin-orbit "
                          "term; give the label without j (e.g. 1p)")
@@ -728,6 +705,7 @@ def threshold(potential, parameter: str, level: str = "1s", bracket=None, fixed=
     bound_side = "above" if problem.count(hi) > k else "below"
 
     layout = problem.layout([lo, hi])
+    first_layout = layout
     previous, box_error, grid_error = None, math.inf, math.inf
     value, refinement = math.nan, 0
     for doubling in range(MAX_BOX_DOUBLINGS + 1):
@@ -741,7 +719,10 @@ def threshold(potential, parameter: str, level: str = "1s", bracket=None, fixed=
         lo, hi = max(value - width, outer[0]), min(value + width, outer[1])
         layout = _Layout(layout.r_min, min(2.0 * layout.r_max, LARGEST_BOX))
     error = grid_error + box_error
-    slope, slope_error = _slope(problem, layout, value, refinement)
+    # The slope on the first box: beyond it the zero-energy state is the tail
+    # law's decaying solution, whose norm is added in closed form; on a much
+    # larger box the last rounding of p_c (a tiny growing part) would dominate u.
+    slope, slope_error = _slope(problem, first_layout, value, refinement)
     scale = abs(value) if value != 0 else max(abs(outer[0]), abs(outer[1]))
     return ThresholdResult(
         potential=family.name, parameter=parameter, parameter_unit=spec.unit,
