@@ -798,6 +798,8 @@ def _assemble(channels, plan, runs, classes, method_name, count, targets, kineti
                 "rounding_floor": best["rounding"],
                 "potential_limit": best["potential_limit"],
                 "near_degenerate": best["near_degenerate"],
+                "box": plan.span.r_max,
+                "inner_radius": ch.inner_radius,
             }
             levels.append(
                 Level(
