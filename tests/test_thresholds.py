@@ -274,3 +274,74 @@ def test_sweep_crossings_refine_the_sweep_brackets():
     assert abs(found["2p"].value - 4.5410) < 2e-3
     coulomb = sweep("coulomb", vary={"Z": [0.5, 1.0]}, count=1, tol=1e-7, workers=1)
     assert sweep_crossings(coulomb) == {}
+
+
+# ----------------------------------------------------- cases that failed in the first release
+
+
+def _zero_energy_growth(depth: float, l: int, dimension: int, width: float = 1.5) -> float:
+    """The coefficient of the solution that dominates far out, for u0 of -depth exp(-(r/width)**2).
+
+    Independent of radsolve: scipy's solve_ivp (DOP853) on u'' = [L(L+1)/r**2 + 2 V] u from
+    u ~ r**(L+1) at r = 1e-6 to r = 12 width, where V is below 1e-60 of its depth; there u0 is
+    A r**(L+1) + B r**-L (A = (r u' + L u) / ((2L+1) r**(L+1))), or for L = -1/2,
+    sqrt(r) (A ln r + B) (A = r (u / sqrt r)').  The threshold of the level with k nodes is
+    the zero of A where the node count changes from k to k + 1 (textbook oscillation theory).
+    """
+    from scipy.integrate import solve_ivp
+
+    L = l + (dimension - 3) / 2.0
+
+    def rhs(r, y):
+        v = -depth * math.exp(-((r / width) ** 2))
+        return [y[1], (L * (L + 1) / r**2 + 2.0 * v) * y[0]]
+
+    r0, r1 = 1e-6, 12.0 * width
+    sol = solve_ivp(rhs, (r0, r1), [r0 ** (L + 1), (L + 1) * r0**L], method="DOP853",
+                    rtol=1e-12, atol=1e-300)
+    u, du = sol.y[0, -1], sol.y[1, -1]
+    if abs(L + 0.5) < 1e-12:
+        return r1 * (du / math.sqrt(r1) - 0.5 * u / r1**1.5)
+    return (r1 * du + L * u) / ((2 * L + 1) * r1 ** (L + 1))
+
+
+def _critical_depth(l: int, dimension: int, lo: float, hi: float) -> float:
+    return brentq(lambda d: _zero_energy_growth(d, l, dimension), lo, hi, xtol=1e-14, rtol=1e-13)
+
+
+def test_readme_plug_in_3d_threshold_against_an_independent_integration():
+    # The README's gauss_well plug-in for 3d raised an internal error in the first release.
+    from pathlib import Path
+
+    fixtures = Path(__file__).parent / "plugins_fixture"
+    res = threshold("gauss_well", "depth", level="3d", plugins=[str(fixtures)], tol=1e-9)
+    exact = _critical_depth(2, 3, 1.0, 12.0)
+    assert res.converged
+    assert abs(res.value - exact) <= max(10 * res.error_estimate, 1e-9 * exact), (res.value, exact)
+
+
+@pytest.mark.parametrize("label, k, bracket", [("2s", 1, (2.0, 4.0)), ("3s", 2, (6.0, 10.0))])
+def test_two_dimensional_s_thresholds_beyond_the_first(tmp_path, label, k, bracket):
+    # In 2D the first s level is bound by any attraction; the next ones have thresholds
+    # (refused as "any attraction binds" in the first release).
+    (tmp_path / "w2d.py").write_text(
+        "import numpy as np\nNAME = 'w2d'\nPARAMETERS = {'depth': 5.0}\n"
+        "def V(r, depth):\n    return -depth * np.exp(-(r / 1.5) ** 2)\n")
+    res = threshold("w2d", "depth", level=label, plugins=[str(tmp_path)], dimension=2,
+                    bracket=bracket, tol=1e-9)
+    exact = _critical_depth(0, 2, *bracket)
+    assert res.converged
+    assert abs(res.value - exact) <= max(10 * res.error_estimate, 1e-9 * exact), (res.value, exact)
+    with pytest.raises(NoThresholdError, match="lowest s level"):
+        threshold("w2d", "depth", level="1s", plugins=[str(tmp_path)], dimension=2)
+
+
+def test_square_well_slope_without_a_bracket(plugin_dir):
+    # Searched from the default depth, the bracket reached depth 0 (no length scale
+    # at all) and the slope came out as -1e-38; it is -P(r < R) of the zero-energy
+    # state (Hellmann-Feynman; closed form above), -1/3 for the 2p level.
+    res = threshold("square_well_fixture", "depth", level="2p", plugins=[plugin_dir])
+    x = math.pi  # j_0(K R) = 0
+    assert res.value == pytest.approx(x**2 / 2, rel=1e-9)
+    assert res.slope == pytest.approx(-_square_well_zero_energy_probability_inside(1, x), rel=1e-6)
+    assert res.slope == pytest.approx(-1.0 / 3.0, rel=1e-6)
