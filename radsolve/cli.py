@@ -137,11 +137,17 @@ def _plugin_dirs(plugins: list[Path] | None) -> list[str] | None:
 
 
 def _check_tol(tol: float) -> None:
+    from radsolve.targets import validated_tol
+
+    validated_tol(tol, "--tol")
+
+
+def _check_judged_tol(tol: float) -> None:
+    """The tolerance ``check`` judges levels against: any 0 < tol < 1."""
     from radsolve.errors import InputError
 
     if not 0.0 < tol < 1.0:  # NaN fails too
-        raise InputError(f"--tol {tol}: must be a relative tolerance with 0 < tol < 1, "
-                         "e.g. 1e-10")
+        raise InputError(f"--tol {tol}: must be a relative tolerance with 0 < tol < 1, e.g. 1e-10")
 
 
 def _with_option(option: str, func, value):
@@ -401,7 +407,7 @@ def check_command(
     any failure.
     """
     with _reported_errors():
-        _check_tol(tol)
+        _check_judged_tol(tol)
         from radsolve.convergence import check, format_check
 
         kwargs = dict(charges=(1, 92), masses=(1.0,), nmax=4) if quick else {}
@@ -670,8 +676,9 @@ def threshold_command(
             raise InputError("--lmax goes with --nmax")
         family = get_family(name, plugins=_plugin_dirs(plugins))
         mu = _family_mass(family, units, mass)
-        if not 1e-13 <= tol <= 1e-2:  # NaN fails too
-            raise InputError(f"--tol {tol}: must be between 1e-13 and 0.01, e.g. 1e-9")
+        from radsolve.targets import THRESHOLD_TOL_RANGE, validated_tol
+
+        validated_tol(tol, "--tol", THRESHOLD_TOL_RANGE)
         pair = None
         if bracket is not None:
             parts = [p.strip() for p in bracket.split(":")]

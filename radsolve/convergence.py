@@ -231,7 +231,9 @@ def check(tol: float = 1e-10,
     from .spectrum import solve
     from .units import parse_mass
 
-    if not (isinstance(tol, (int, float)) and 0.0 < tol < 1.0):
+    # The tolerance judged: any 0 < tol < 1 may be asked; one the solver refuses
+    # (below 1e-14, say) makes the check fail with the solver's reason.
+    if isinstance(tol, bool) or not (isinstance(tol, (int, float)) and 0.0 < tol < 1.0):
         raise InputError(f"check: tol must be a number with 0 < tol < 1, got {tol!r}")
     if int(nmax) != nmax or nmax < 1:
         raise InputError(f"check: nmax must be a whole number >= 1, got {nmax!r}")

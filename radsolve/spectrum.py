@@ -50,7 +50,7 @@ from .extrapolation import extrapolate, richardson  # noqa: F401 - richardson re
 from .grids import GridSpan, potential_on_grid  # noqa: F401 - potential_on_grid re-exported
 from .result import GridSample, Level, SolveResult, level_designation
 from .solvers.base import METHODS, RadialSolver, solver_class
-from .targets import TOL_RANGE, Status, Targets
+from .targets import Status, Targets, validated_tol
 
 #: Step in xi of the coarsest grid of the refinement sequence.
 COARSE_STEP = 0.1
@@ -171,13 +171,7 @@ def _validate(l, count, tol, method, dimension) -> tuple[list[int], int, float, 
         raise InputError(f"count must be a whole number >= 1 (got {count!r})")
     if count > 1000:
         raise InputError(f"count must be <= 1000 levels per l (got {count})")
-    low, high = TOL_RANGE
-    try:
-        tol = float(tol)
-    except (TypeError, ValueError):
-        raise InputError(f"tol must be a number between {low:g} and {high:g} (got {tol!r})") from None
-    if not (low <= tol <= high):
-        raise InputError(f"tol must be between {low:g} and {high:g} (got {tol!r})")
+    tol = validated_tol(tol)
     if isinstance(method, type) and issubclass(method, RadialSolver):
         methods = [method]
     elif method == "both":

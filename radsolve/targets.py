@@ -19,6 +19,27 @@ from enum import Enum
 
 #: Smallest and largest tolerance a solve accepts.
 TOL_RANGE = (1e-14, 0.1)
+#: ... and a threshold search (critical parameter values are found by root
+#: finding on a grid quantity, which cannot promise the last digit).
+THRESHOLD_TOL_RANGE = (1e-13, 1e-2)
+
+
+def validated_tol(tol, name: str = "tol", limits: tuple[float, float] = TOL_RANGE) -> float:
+    """``tol`` as a float inside ``limits``, or an InputError naming ``name`` and the range.
+
+    The one check of every tolerance radsolve accepts (the API, the command
+    line, the convergence check); ``name`` is what the user typed it as.
+    """
+    from .errors import InputError
+
+    low, high = limits
+    try:
+        value = float(tol)
+    except (TypeError, ValueError):
+        raise InputError(f"{name} must be a number between {low:g} and {high:g} (got {tol!r})") from None
+    if not (low <= value <= high):  # NaN fails too
+        raise InputError(f"{name} must be between {low:g} and {high:g} (got {tol!r}), e.g. 1e-10")
+    return value
 
 
 class Status(str, Enum):

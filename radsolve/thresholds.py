@@ -675,12 +675,9 @@ def threshold(potential, parameter: str, level: str = "1s", bracket=None, fixed=
         raise InputError(f"level {level!r} names j, but potential {family.name!r} has no spin-orbit "
                          "term; give the label without j (e.g. 1p)")
     mu = system.parse_mass(mass)
-    try:
-        tol = float(tol)
-    except (TypeError, ValueError):
-        raise InputError(f"tol must be a number between 1e-13 and 0.01, got {tol!r}") from None
-    if not 1e-13 <= tol <= 1e-2:
-        raise InputError(f"tol must be between 1e-13 and 0.01, got {tol!r}")
+    from .targets import THRESHOLD_TOL_RANGE, validated_tol
+
+    tol = validated_tol(tol, "tol", THRESHOLD_TOL_RANGE)
     problem = _ZeroEnergy(base, parameter, l, system.kinetic_mass(mu), tol, j=j, dimension=int(dimension))
     wave = f"l = {l}" + ("" if j is None else f", j = {int(round(2 * j))}/2")
     given = _parse_bracket(bracket, spec, parameter, family.name)

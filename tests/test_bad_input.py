@@ -76,12 +76,12 @@ RADSOLVE_ERRORS = [
     (["coulomb", "--mass", "electron+"], ["--mass", "empty"]),
     # unit, tolerance, l options
     (["coulomb", "--unit", "kcal"], ["--unit", "'kcal'", "hartree", "eV", "cm-1"]),
-    (["coulomb", "--tol", "0"], ["--tol", "0 < tol < 1"]),
-    (["coulomb", "--tol", "1"], ["--tol", "0 < tol < 1"]),
-    (["coulomb", "--tol", "-1e-8"], ["--tol", "0 < tol < 1"]),
-    (["coulomb", "--tol", "2"], ["--tol", "0 < tol < 1"]),
-    (["coulomb", "--tol", "nan"], ["--tol", "0 < tol < 1"]),
-    (["coulomb", "--tol", "inf"], ["--tol", "0 < tol < 1"]),
+    (["coulomb", "--tol", "0"], ["--tol", "between 1e-14 and 0.1"]),
+    (["coulomb", "--tol", "1"], ["--tol", "between 1e-14 and 0.1"]),
+    (["coulomb", "--tol", "-1e-8"], ["--tol", "between 1e-14 and 0.1"]),
+    (["coulomb", "--tol", "2"], ["--tol", "between 1e-14 and 0.1"]),
+    (["coulomb", "--tol", "nan"], ["--tol", "between 1e-14 and 0.1"]),
+    (["coulomb", "--tol", "inf"], ["--tol", "between 1e-14 and 0.1"]),
     (["coulomb", "--tol", "1e-16"], ["--tol", "1e-14"]),  # below what the solver accepts
     (["coulomb", "--l", "1", "--lmax", "2"], ["--l", "--lmax"]),
     (["coulomb", "--l", "300"], ["--l", "300"]),
