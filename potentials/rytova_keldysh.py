@@ -93,3 +93,8 @@ def small_r(screening_length, dielectric):
     # Only logarithmic at the origin: weaker than any power, so u ~ r**(l+1)
     # (r**(L+1) in d dimensions) as for a finite V; p = 0 says just that.
     return (0.0, 0.0)
+
+
+def breakpoints(screening_length, dielectric):
+    """None: V is smooth (declared, so that V need not be scanned for jumps)."""
+    return []

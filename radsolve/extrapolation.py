@@ -98,16 +98,16 @@ def extrapolate(values, orders: tuple[int, ...], relative_rounding: float = 1e-1
         prev = table[-1]
         table.append([prev[i + 1] + (prev[i + 1] - prev[i]) / factor for i in range(len(prev) - 1)])
     # Each column's newest entry, with the larger of its last two corrections
-    # as its estimate; deep columns amplify rounding noise, so the column whose
+    # as its estimate.  A column with a single entry eliminates a power of h
+    # the data never showed, so only columns of two or more entries are
+    # candidates; deep columns amplify rounding noise, so the candidate whose
     # estimate is smallest is taken (its own estimate still bounds it).
     best, estimate = table[-1][-1], math.inf
     for j in range(1, len(table)):
         column = table[j]
-        est = abs(column[-1] - table[j - 1][-1])
-        if len(column) >= 2:
-            est = max(est, abs(column[-1] - column[-2]))
-        elif j >= 2:
-            est = max(est, abs(column[-1] - table[j - 1][-2]))
+        if len(column) < 2:
+            break
+        est = max(abs(column[-1] - table[j - 1][-1]), abs(column[-1] - column[-2]))
         if est < estimate:
             best, estimate = column[-1], est
     return Extrapolation(float(best), float(max(estimate, floor)), observed, ok)

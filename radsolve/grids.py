@@ -38,6 +38,8 @@ import numpy as np
 #: grid points: the smooth shift between them would vary faster than the
 #: coarsest grid resolves.
 MIN_GAP_STEPS = 8.0
+#: The coarsest step is made at most this many times finer to fit close breakpoints.
+MAX_STEP_DIVISION = 64.0
 
 
 @dataclass(frozen=True)
@@ -287,9 +289,10 @@ class GridSpan:
         inside the span becomes a point of every grid.  The inner boundary
         moves inward by less than one coarse step so that the first one is a
         grid point; the outer one moves outward to a whole number of coarse
-        steps.  Breakpoints closer together than MIN_GAP_STEPS coarse steps
-        cannot all be grid points: the later ones of such a cluster are left
-        out (``left_out``).
+        steps.  Breakpoints closer together than MIN_GAP_STEPS coarse steps make
+        the coarse step finer (at most MAX_STEP_DIVISION times); those still
+        too close cannot all be grid points: the later ones of such a cluster
+        are left out (``left_out``).
         """
         if anchor is None:
             wanted: list[float] = []
@@ -300,6 +303,13 @@ class GridSpan:
         wanted = [a for a in wanted if r_min < a < r_max]
         x_lo = float(mapping_x(r_min, scale))
         x_hi = float(mapping_x(r_max, scale))
+        # Close breakpoints need a finer coarsest grid, for the shift between
+        # them to vary slowly on it (down to 1/MAX_STEP_DIVISION of the step
+        # asked; closer ones than that cannot all be grid points).
+        xs = [float(mapping_x(a, scale)) for a in wanted]
+        gaps = np.diff(xs) if len(xs) > 1 else np.array([])
+        if gaps.size and gaps.min() < MIN_GAP_STEPS * coarse_step:
+            coarse_step = max(gaps.min() / MIN_GAP_STEPS, coarse_step / MAX_STEP_DIVISION)
         kept: list[float] = []
         skipped: list[float] = []
         for a in wanted:

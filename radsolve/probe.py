@@ -44,9 +44,13 @@ INNER_STRENGTH = 1e-2
 #: Strength below which V - V(inf) no longer matters (range).
 RANGE_STRENGTH = 1e-3
 #: Samples per decade of the scan for undeclared jumps and kinks.
-_SCAN_DENSITY = 64
-#: At most this many undeclared breakpoints are located (more suggests noise).
+_SCAN_DENSITY = 128
+#: A first or second difference this many times its neighbours' median is a candidate.
+_OUTLIER = 30.0
+#: At most this many undeclared breakpoints are located (more suggests noise) ...
 _MAX_DETECTED = 24
+#: ... and at most this many candidates of each kind are bisected.
+_MAX_CANDIDATES = 48
 
 
 @dataclass(frozen=True)
@@ -394,48 +398,63 @@ def _tail_law(r: np.ndarray, v: np.ndarray, v_inf: float, mass: float) -> TailLa
 def find_breakpoints(potential, r_lo: float, r_hi: float) -> tuple[float, ...]:
     """Radii in [r_lo, r_hi] where V jumps or its slope jumps, located by bisection.
 
-    V is sampled at _SCAN_DENSITY points per decade; a point whose fourth
-    difference is far above that of its neighbours marks a candidate, which
-    is then bisected: a jump keeps |V(b) - V(a)| finite as b - a -> 0, a kink
-    keeps the change of slope finite.  A sharp but smooth feature fails both
-    tests and is not a breakpoint.
+    V is sampled at _SCAN_DENSITY points per decade.  An interval whose change
+    of V is far above that of its neighbours is a jump candidate; a point
+    whose second difference is far above its neighbours' is a kink candidate.
+    Each candidate is bisected on its own: a jump keeps |V(b) - V(a)| finite as
+    b - a -> 0, a kink keeps the change of slope finite.  A sharp but smooth
+    feature fails both tests and is not a breakpoint.
     """
     if not (0 < r_lo < r_hi) or not math.isfinite(r_hi):
         return ()
     n = int(math.ceil(_SCAN_DENSITY * math.log10(r_hi / r_lo))) + 1
-    n = min(max(n, 64), 4000)
+    n = min(max(n, 64), 8000)
     r = np.geomspace(r_lo, r_hi, n)
     f = _raw(potential, r)
-    if not np.isfinite(f).all():
-        keep = np.isfinite(f)
-        r, f = r[keep], f[keep]
+    keep = np.isfinite(f)
+    r, f = r[keep], f[keep]
     if r.size < 16:
         return ()
-    d4 = np.abs(f[:-4] - 4 * f[1:-3] + 6 * f[2:-2] - 4 * f[3:-1] + f[4:])
-    scale = np.maximum.reduce([np.abs(f[:-4]), np.abs(f[2:-2]), np.abs(f[4:])])
-    window = 9
-    pad = np.pad(d4, window, mode="edge")
+    level = float(np.max(np.abs(f)))
     from numpy.lib.stride_tricks import sliding_window_view
 
-    local = np.median(sliding_window_view(pad, 2 * window + 1), axis=1)
-    candidates = np.nonzero((d4 > 1e3 * local + 1e-300) & (d4 > 1e-11 * scale))[0]
+    def outliers(values, significance):
+        mag = np.abs(values)
+        window = 8
+        pad = np.pad(mag, window, mode="edge")
+        local = np.median(sliding_window_view(pad, 2 * window + 1), axis=1)
+        return np.nonzero((mag > _OUTLIER * local + 1e-300) & (mag > significance))[0]
+
+    d1 = np.diff(f)
+    d2 = f[2:] - 2.0 * f[1:-1] + f[:-2]
+    jumps = outliers(d1, 1e-12 * level)       # interval [r[i], r[i+1]]
+    kinks = outliers(d2, 1e-12 * level) + 1   # point r[i], interval [r[i-1], r[i+1]]
     found: list[float] = []
-    used_until = -1
-    for c in candidates:
-        if c <= used_until:
-            continue
-        # the cluster of neighbouring candidates, and its strongest member
-        stop = c
-        while stop + 1 in set(candidates.tolist()) and stop - c < 8:
-            stop += 1
-        used_until = stop + 3
-        i = c + int(np.argmax(d4[c : stop + 1])) + 2  # centre of the stencil
-        a, b = r[max(i - 3, 0)], r[min(i + 3, r.size - 1)]
-        point = _locate_jump(potential, a, b) or _locate_kink(potential, a, b)
-        if point is not None and (not found or abs(point - found[-1]) > 1e-10 * point):
-            found.append(point)
-        if len(found) >= _MAX_DETECTED:
+
+    def known(a, b):
+        return any(a * (1 - 1e-12) <= x <= b * (1 + 1e-12) for x in found)
+
+    tried = 0
+    for i in jumps:
+        if tried >= _MAX_CANDIDATES or len(found) >= _MAX_DETECTED:
             break
+        a, b = r[i], r[i + 1]
+        if known(a, b):
+            continue
+        tried += 1
+        point = _locate_jump(potential, a, b)
+        if point is not None:
+            found.append(point)
+    for i in kinks:
+        if tried >= 2 * _MAX_CANDIDATES or len(found) >= _MAX_DETECTED:
+            break
+        a, b = r[max(i - 1, 0)], r[min(i + 1, r.size - 1)]
+        if known(a, b):
+            continue
+        tried += 1
+        point = _locate_kink(potential, a, b)
+        if point is not None and not known(point, point):
+            found.append(point)
     return tuple(sorted(found))
 
 

@@ -385,8 +385,9 @@ def _plan_box(channels, count, mass, targets: Targets, breakpoints) -> _BoxPlan:
         notes.append(f"the box reached its largest radius, {largest:.3g}; the most weakly bound levels "
                      "may be limited by it (see their estimates)")
     if span.left_out:
-        notes.append("breakpoints closer together than the coarsest grid resolves are not all grid points ("
-                     + ", ".join(f"{b:.6g}" for b in span.left_out) + "): their levels converge as the data show")
+        notes.append("breakpoints too close together to all be grid points ("
+                     + ", ".join(f"{b:.6g}" for b in span.left_out) + "): the error series of every level is "
+                     "unreliable, so none is claimed converged")
     return _BoxPlan(span, wanted, tuple(notes), max(radius, final_radius), largest, span.anchors, at_limit)
 
 
@@ -534,9 +535,14 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
             levels = best[ch.key]
             profile = ch.potential.potential_error(grid.r) if hasattr(ch.potential, "potential_error") else None
             splits = _unsettled_pairs(history[ch.key])
+            v_eff = values + ch.centrifugal / (2.0 * mass * grid.r**2)
             for k in range(want):
                 series = [step[k][0] for step in history[ch.key]]
-                rounding = cls.relative_rounding(grid.size)
+                # Rounding grows with the energies the state sees, not only with
+                # its own: a level high in a deep well has |V - E| >> |E|.
+                seen = float(np.sum(grid.weights * u[k] ** 2 * np.abs(v_eff - energies[k])))
+                level = max(abs(series[-1]), abs(energies[k]) + seen)
+                rounding = cls.relative_rounding(grid.size) * level / max(abs(series[-1]), 1e-300)
                 ex = extrapolate(series, cls.error_orders, rounding)
                 shifted = ex.value - ch.reference
                 wall = 0.0 if ch.confining else _box_error(grid, u[k], values, ch.centrifugal, mass, shifted)
@@ -768,7 +774,8 @@ def _assemble(channels, plan, runs, classes, method_name, count, targets, kineti
             uncertain = (not cert.certain) and cert.count is not None and k >= cert.count - 1
             status = targets.decide(
                 error=error, energy=energy, v_infinity=ch.v_inf, grids=best["grids"],
-                order_ok=all(p["order_ok"] for p in per.values()),
+                # a breakpoint between grid points spoils the error series whatever the data show
+                order_ok=all(p["order_ok"] for p in per.values()) and not plan.span.left_out,
                 rounding=max(p["rounding"] for p in per.values()),
                 potential_limit=max(p["potential_limit"] for p in per.values()),
                 at_finest=any(runs[c].finest for c in classes),

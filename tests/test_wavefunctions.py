@@ -56,7 +56,11 @@ def test_interpolated_values_match_sympy(n, l):
     exact_R = sympy_R(n, l)(np.where(radii > 0, radii, 1e-300))
     if l == 0:
         exact_R[0] = float(R_nl(n, 0, 0, 1))
-    assert np.allclose(wave.R, exact_R, rtol=1e-8, atol=1e-10)
+    # Near the origin R comes from the fitted law C r**lambda (1 + a r**q); its
+    # accuracy there (~1e-8) depends on the grids the energies needed, and the
+    # point-wise estimate says how large it is.
+    assert np.all(np.abs(wave.R - exact_R) <= 10 * wave.R_error + 1e-10)
+    assert np.allclose(wave.R, exact_R, rtol=3e-8, atol=1e-10)
     assert np.allclose(wave.u, exact_R * radii, atol=1e-10)
     assert not wave.on_grid and wave.weights is None
 
