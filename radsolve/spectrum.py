@@ -816,6 +816,17 @@ def _assemble(channels, plan, runs, classes, method_name, count, targets, kineti
             )
             kept[ch.key] += 1
 
+    disagreements = []
+    for ch in channels:
+        cert = ch.certificate
+        finest = [runs[c].grid_counts[ch.key][-1] for c in classes if runs[c].grid_counts[ch.key]]
+        finest = [n for n in finest if n is not None]
+        if cert.count is not None and finest and max(finest) > cert.count:
+            # A box only raises levels, so more below the threshold than the count is a contradiction.
+            disagreements.append(f"{_key_text(ch.key)}: {max(finest)} levels below the threshold on the "
+                                 f"finest grid, {cert.count} by the count")
+    if disagreements:
+        notes.append("COUNT DISAGREEMENT (" + "; ".join(disagreements) + "): the list may be incomplete")
     bound_counts = {}
     for ch in channels:
         found = kept[ch.key]
@@ -824,7 +835,7 @@ def _assemble(channels, plan, runs, classes, method_name, count, targets, kineti
     message = _message(channels, plan, kept, levels, count, targets, kinetic, system, notes)
     return SolveResult(
         levels=levels,
-        success=all(lev.converged for lev in levels) and _complete(channels, kept, count),
+        success=all(lev.converged for lev in levels) and _complete(channels, kept, count) and not disagreements,
         message=message,
         potential=pot,
         mass=mu,

@@ -365,3 +365,84 @@ def test_one_box_for_every_method():
 def test_potential_decreasing_without_bound_is_refused():
     with pytest.raises(InputError, match="decreases without bound"):
         radsolve.solve(formula_potential("-log(1 + r)"), l=0, count=1)
+
+
+# ---------------------------------------------------------------- against the independent reference
+
+
+def _reference(V, **kwargs):
+    from reference_solver import solve_channel  # tests/reference_solver.py, no radsolve code
+
+    return solve_channel(V, **kwargs)
+
+
+def _double_well(r):
+    return -30.0 * (np.exp(-((r - 3.0) / 0.5) ** 2) + np.exp(-((r - 7.5) / 0.5) ** 2))
+
+
+@pytest.mark.parametrize("method", ["fd", "numerov", "both"])
+@pytest.mark.parametrize("tol", [1e-8, 1e-10])
+def test_tunnelling_doublet_is_right_or_flagged(method, tol):
+    # Two equal Gaussian wells 4.5 bohr apart: tunnelling doublets whose splittings
+    # (~1e-11 and ~1e-6 hartree) are far below the levels' discretization errors on
+    # coarse grids.  The first release gave the second splitting 54x too small, both
+    # levels marked converged.  Reference: the spectral-element solver of the tests.
+    ref = _reference(_double_well, l=0, count=4, v_inf=0.0, scale=3.0)
+    pot = make_family("double_well", _double_well, {}, v_infinity=lambda: 0.0).bind()
+    res = radsolve.solve(pot, l=0, count=4, tol=tol, method=method)
+    assert len(res.levels) == 4
+    for lev, rl in zip(res.levels, ref.levels):
+        assert rl.ok and rl.error < 1e-3 * tol * abs(rl.energy)
+        if lev.converged:
+            assert abs(lev.energy - rl.energy) <= 10 * lev.error_estimate, (lev.label, lev.energy, rl.energy)
+        else:
+            assert str(lev.status) in ("near-degenerate", "finest grid", "rounding floor"), lev.status
+    # a splitting is either resolved within the estimates or its levels say they are not
+    for a, b, ra, rb in zip(res.levels[:-1], res.levels[1:], ref.levels[:-1], ref.levels[1:]):
+        if a.converged and b.converged:
+            split, ref_split = b.energy - a.energy, rb.energy - ra.energy
+            assert abs(split - ref_split) <= 10 * (a.error_estimate + b.error_estimate)
+
+
+@pytest.mark.parametrize("depth", [0.05, 0.5, 3.0])
+def test_two_dimensional_wells_always_bind(depth):
+    # Any net attraction binds an s level in two dimensions (textbook); the first
+    # release answered "no bound state" for weak wells.  Reference energies from the
+    # spectral-element solver of the tests (2D: L = l - 1/2).
+    def V(r):
+        return -depth * np.exp(-r * r)
+
+    res = radsolve.solve(formula_potential("-D*exp(-r*r)", D=depth), l=[0, 1], count=3, dimension=2, tol=1e-8)
+    assert res.certificates[0].count >= 1
+    for l in (0, 1):
+        ref = _reference(V, l=l, dimension=2, v_inf=0.0, scale=1.0)
+        assert res.certificates[l].count == ref.count
+        mine = [lev for lev in res.levels if lev.l == l]
+        assert len(mine) == min(3, ref.count)
+        for lev, rl in zip(mine, ref.levels):
+            if rl.ok and lev.converged:
+                assert abs(lev.energy - rl.energy) <= 10 * lev.error_estimate + rl.error, (l, lev.label)
+
+
+# ---------------------------------------------------------------- the same through the command line
+
+
+def test_crashes_of_the_first_release_are_gone_on_the_command_line(tmp_path):
+    from pathlib import Path
+
+    from typer.testing import CliRunner
+
+    from radsolve.cli import app
+
+    runner = CliRunner()
+    fixtures = Path(__file__).parent / "plugins_fixture"
+    (tmp_path / "lj_well.py").write_text(
+        "NAME = 'lj_well'\nPARAMETERS = {'epsilon': 0.01, 'sigma': 6.0}\n"
+        "def V(r, epsilon, sigma):\n    return 4 * epsilon * ((sigma / r) ** 12 - (sigma / r) ** 6)\n")
+    for args in (["levels", "harmonic", "--count", "200", "--tol", "1e-8"],
+                 ["threshold", "gauss_well", "-v", "depth", "--level", "3d", "--plugins", str(fixtures)],
+                 ["levels", "lj_well", "--plugins", str(tmp_path), "--mass", "1836", "--count", "12", "--tol", "1e-8"]):
+        result = runner.invoke(app, args)
+        assert result.exit_code == 0, (args, result.stdout, result.stderr)
+        assert "internal error" not in result.stderr and "Traceback" not in result.stdout + result.stderr
+        assert "bound levels" in result.stdout or "3d" in result.stdout
