@@ -346,10 +346,7 @@ def _plan_box(channels, count, mass, targets: Targets, breakpoints) -> _BoxPlan:
     short: list = []
     most = max(wanted.values())
     for _ in range(80):
-        span = _span(r_min, radius, PLANNING_STEP, breakpoints)
-        halvings = _planning_halvings(active, span, mass, tops, most)
-        grid = _grid(span, halvings)
-        coarse_r = span.grid(0).r
+        span, halvings, grid, coarse_r = _planning_grid(r_min, radius, breakpoints, active, mass, tops, most)
         needed = 0.0
         short = []
         for ch in active:
@@ -399,6 +396,13 @@ def _planning_halvings(channels, span, mass, tops, most: int, phase: float = _PH
     return min(halvings, 12)
 
 
+def _planning_grid(r_min, radius, breakpoints, channels, mass, tops, most):
+    """(span, halvings, grid, coarse radii) of the planning grid for a box of this radius."""
+    span = _span(r_min, radius, PLANNING_STEP, breakpoints)
+    halvings = _planning_halvings(channels, span, mass, tops, most)
+    return span, halvings, _grid(span, halvings), span.grid(0).r
+
+
 def _verify_box(channels, wanted, mass, targets: Targets, radius, breakpoints, largest, r_min) -> float:
     """Grow the outer radius until the wall shifts no wanted level by more than its boundary target.
 
@@ -411,10 +415,7 @@ def _verify_box(channels, wanted, mass, targets: Targets, radius, breakpoints, l
     tops = {ch.key: ch.reference for ch in channels if not ch.confining}
     most = max(wanted.values())
     for _ in range(8):
-        span = _span(r_min, radius, PLANNING_STEP, breakpoints)
-        halvings = _planning_halvings(channels, span, mass, tops, most)
-        grid = _grid(span, halvings)
-        coarse_r = span.grid(0).r
+        span, halvings, grid, coarse_r = _planning_grid(r_min, radius, breakpoints, channels, mass, tops, most)
         growth = 0.0
         for ch in channels:
             if not wanted[ch.key] or ch.confining:
