@@ -149,7 +149,10 @@ class FiniteDifference(RadialSolver):
             scale = max(abs(g[0]), abs(g[-1]), 1e-300)
             vl, vu = g[0] - _WINDOW * max(abs(g[0]), 1e-3 * scale), g[-1] + _WINDOW * max(abs(g[-1]), 1e-3 * scale)
             first = self.count_below(vl)
-            if first <= lo:
+            # Only a window that holds the wanted levels and few others is worth
+            # bisecting (the coarser grid's energies of unbound box states can
+            # be huge, and a window up to them would hold thousands of levels).
+            if first <= lo and hi + 1 <= self.count_below(vu) <= first + 2 * (hi - lo + 1) + 8:
                 m, w, *_rest, info = dstebz(d, e, 1, vl, vu, 1, 1, _ABSOLUTE_TOLERANCE, b"E")
                 if info == 0 and first + m >= hi + 1:
                     self.window_hits = getattr(self, "window_hits", 0) + 1
