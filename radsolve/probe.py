@@ -401,9 +401,9 @@ def find_breakpoints(potential, r_lo: float, r_hi: float) -> tuple[float, ...]:
     V is sampled at _SCAN_DENSITY points per decade.  An interval whose change
     of V is far above that of its neighbours is a jump candidate; a point
     whose second difference is far above its neighbours' is a kink candidate.
-    Each candidate is bisected on its own: a jump keeps |V(b) - V(a)| finite as
-    b - a -> 0, a kink keeps the change of slope finite.  A sharp but smooth
-    feature fails both tests and is not a breakpoint.
+    Each candidate is bisected on its own (:func:`_locate_break`).  A sharp
+    but smooth feature shows neither a jump nor a change of slope there and
+    is not a breakpoint.
     """
     if not (0 < r_lo < r_hi) or not math.isfinite(r_hi):
         return ()
@@ -427,8 +427,12 @@ def find_breakpoints(potential, r_lo: float, r_hi: float) -> tuple[float, ...]:
 
     d1 = np.diff(f)
     d2 = f[2:] - 2.0 * f[1:-1] + f[:-2]
+    d4 = f[4:] - 4.0 * f[3:-1] + 6.0 * f[2:-2] - 4.0 * f[1:-3] + f[:-4]
     jumps = outliers(d1, 1e-12 * level)       # interval [r[i], r[i+1]]
-    kinks = outliers(d2, 1e-12 * level) + 1   # point r[i], interval [r[i-1], r[i+1]]
+    # A kink stands out in the second differences, and, when V is steep on the
+    # log-spaced samples (a straight line in r is curved in ln r), in the
+    # fourth ones, where smooth V is of order h**4.
+    kinks = np.union1d(outliers(d2, 1e-12 * level) + 1, outliers(d4, 1e-12 * level) + 2)
     found: list[float] = []
 
     def known(a, b):
@@ -442,85 +446,70 @@ def find_breakpoints(potential, r_lo: float, r_hi: float) -> tuple[float, ...]:
         if known(a, b):
             continue
         tried += 1
-        point = _locate_jump(potential, a, b)
-        if point is not None:
+        point = _locate_break(potential, a, b)
+        if point is not None and not known(point, point):
             found.append(point)
     for i in kinks:
         if tried >= 2 * _MAX_CANDIDATES or len(found) >= _MAX_DETECTED:
             break
-        a, b = r[max(i - 1, 0)], r[min(i + 1, r.size - 1)]
+        a, b = r[max(i - 2, 0)], r[min(i + 2, r.size - 1)]
         if known(a, b):
             continue
         tried += 1
-        point = _locate_kink(potential, a, b)
+        point = _locate_break(potential, a, b)
         if point is not None and not known(point, point):
             found.append(point)
     return tuple(sorted(found))
 
 
-def _pair(potential, a: float, b: float) -> tuple[float, float]:
-    v = _raw(potential, np.array([a, b]))
-    return float(v[0]), float(v[1])
+def _quadratic(potential, x0: float, step: float):
+    """The quadratic through V at x0, x0 + step, x0 + 2 step (a one-sided continuation of V)."""
+    xs = np.array([x0, x0 + step, x0 + 2.0 * step])
+    ys = _raw(potential, xs)
+    c = np.polyfit(xs - xs[0], ys, 2)
+    return lambda x: float(np.polyval(c, x - xs[0])), lambda x: float(np.polyval(np.polyder(c), x - xs[0]))
 
 
-def _locate_jump(potential, a: float, b: float) -> float | None:
-    fa, fb = _pair(potential, a, b)
-    slope = abs(fb - fa) / (b - a)
-    width = b - a
-    for _ in range(90):
-        m = 0.5 * (a + b)
-        if not (a < m < b):
+def _locate_break(potential, a: float, b: float) -> float | None:
+    """The radius in [a, b] where V jumps or its slope jumps, or None if V is smooth there.
+
+    Bisection on which one-sided continuation V follows: at the midpoint m,
+    V is compared with the quadratic through three points just left of the
+    interval and with the one through three points just right of it; the
+    continuations are refitted on every halving, so their own error falls
+    like the cube of the interval while a jump stays and a kink shrinks only
+    linearly.  The same steps locate a jump, a kink, or both at once, to
+    rounding.  At the end the two continuations are compared: a break needs a
+    jump or a change of slope far above what their curvature error allows.
+    """
+    width0 = b - a
+    for _ in range(200):
+        w = b - a
+        if w <= 8.0 * np.finfo(float).eps * b:
             break
-        fm = float(_raw(potential, np.array([m]))[0])
-        if abs(fm - fa) >= abs(fb - fm):
-            b, fb = m, fm
-        else:
-            a, fa = m, fm
-    jump = abs(fb - fa)
-    expected = slope * (b - a) + 1e3 * np.finfo(float).eps * (abs(fa) + abs(fb))
-    # A jump survives the halving: it keeps (most of) the change across the first interval.
-    if jump > 1e3 * expected and jump > 1e-12 * slope * width:
-        return 0.5 * (a + b)
-    return None
-
-
-def _locate_kink(potential, a: float, b: float) -> float | None:
-    def bend(x0, x1, x2):
-        f = _raw(potential, np.array([x0, x1, x2]))
-        return (f[2] - f[1]) / (x2 - x1) - (f[1] - f[0]) / (x1 - x0), f
-
-    total, f3 = bend(a, 0.5 * (a + b), b)
-    slope = abs(f3[2] - f3[0]) / (b - a)
-    level = max(abs(f3[0]), abs(f3[2]))
-    for _ in range(26):
+        # the fits keep within half an interval of it, clear of neighbouring breakpoints
+        left, _ = _quadratic(potential, a - 0.5 * w, 0.25 * w)
+        right, _ = _quadratic(potential, b, 0.25 * w)
         m = 0.5 * (a + b)
-        left, _ = bend(a, 0.5 * (a + m), m)
-        right, _ = bend(m, 0.5 * (m + b), b)
-        if abs(left) >= abs(right):
-            b = m
-        else:
+        fm = float(_raw(potential, np.array([m]))[0])
+        if abs(fm - left(m)) <= abs(fm - right(m)):
             a = m
-    s, _ = bend(a, 0.5 * (a + b), b)
-    # A kink keeps its change of slope while a smooth bend shrinks with the
-    # interval (26 halvings: by 7e7).
-    if not (abs(s) > 1e-3 * abs(total) and abs(s) > 1e-7 * (slope + level / b)):
-        return None
-    # Bisection leaves the kink known to ~1e-8; a misplaced kink shifts a level
-    # by an amount no grid refinement reveals, so intersect the two one-sided
-    # continuations of V (lines through points w and 2w away, extrapolated in
-    # w to remove their curvature error).
-    def crossing(w):
-        f = _raw(potential, np.array([a - 2 * w, a - w, b + w, b + 2 * w]))
-        s_left, s_right = (f[1] - f[0]) / w, (f[3] - f[2]) / w
-        if s_left == s_right:
-            return 0.5 * (a + b)
-        # f[1] + s_left (x - (a - w)) = f[2] + s_right (x - (b + w))
-        return float((f[2] - f[1] + s_left * (a - w) - s_right * (b + w)) / (s_left - s_right))
-
-    w = 1e-4 * b
-    c1, c2 = crossing(w), crossing(2 * w)
-    point = c1 + (c1 - c2) / 3.0
-    return point if a - w < point < b + w else 0.5 * (a + b)
+        else:
+            b = m
+    c = 0.5 * (a + b)
+    # Compare the continuations at c from a distance where their curvature
+    # error is small but rounding is not yet dominant.
+    w = max(1e-6 * width0, 64.0 * np.finfo(float).eps * c)
+    left, dleft = _quadratic(potential, c - 3.0 * w, w)
+    right, dright = _quadratic(potential, c + w, w)
+    level = max(abs(left(c)), abs(right(c)), 1e-300)
+    jump = abs(right(c) - left(c))
+    bend = abs(dright(c) - dleft(c))
+    slope = max(abs(dleft(c)), abs(dright(c)))
+    # a smooth V gives jump ~ V3 w**3 and bend ~ V3 w**2 (V3 its third derivative): rounding level here
+    if jump > 1e-9 * level or bend * c > 1e-6 * (level + slope * c):
+        return c
+    return None
 
 
 # --------------------------------------------------------------------------- the profile
