@@ -25,8 +25,8 @@ import time
 import numpy as np
 
 import radsolve
-from radsolve.formula import formula_potential
-from radsolve.tabulated import tabulated_potential
+from radsolve.potentials.formula import formula_potential
+from radsolve.potentials.tabulated import tabulated_potential
 
 REPEATS = 3
 TOLS = (1e-8, 1e-10)

@@ -17,11 +17,11 @@ import time
 
 import numpy as np
 
-from radsolve.fitting import fit
-from radsolve.registry import potential
-from radsolve.spectrum import solve
-from radsolve.sweeps import sweep, usable_cores
-from radsolve.thresholds import threshold
+from radsolve.analysis.fitting import fit
+from radsolve.potentials import potential
+from radsolve.core.spectrum import solve
+from radsolve.analysis.sweeps import sweep, usable_cores
+from radsolve.analysis.thresholds import threshold
 
 
 def timed(func, *args, **kwargs):

@@ -41,7 +41,7 @@ def whole_process(nmax: int) -> tuple[float, dict]:
 def in_process(nmax: int) -> dict[str, float]:
     t0 = time.perf_counter()
     import radsolve
-    from radsolve.radiative import transitions_from
+    from radsolve.analysis.radiative import transitions_from
 
     t1 = time.perf_counter()
     result = radsolve.solve("coulomb", l=list(range(nmax)), count=nmax, mass="electron+proton")

@@ -29,7 +29,7 @@ not predictions of when a real ion in a real plasma loses its bound states.
 import numpy as np
 
 from radsolve import critical_values, sweep
-from radsolve.sweep_plotting import plot_sweep
+from radsolve.output.sweep_plotting import plot_sweep
 
 
 def main() -> None:

@@ -20,7 +20,7 @@ import unicodedata
 from dataclasses import dataclass
 from functools import lru_cache
 
-from .errors import InputError
+from radsolve.errors import InputError
 
 #: Canonical energy unit names, in the order shown to users.
 ENERGY_UNITS = ("hartree", "eV", "meV", "keV", "MeV", "rydberg", "cm-1")

@@ -4,7 +4,7 @@
 plain description (:class:`Case`); ``make_case(seed, index)`` draws the case
 with that seed index, its kind fixed by the index, so that any failing case
 can be rebuilt from two numbers.  ``to_radsolve(case)`` turns it into a
-radsolve potential through ``radsolve.registry.make_family``;
+radsolve potential through ``radsolve.potentials.make_family``;
 ``reference(case)`` solves every channel with tests/reference_solver.py,
 which shares no code with radsolve; ``compare(case)`` runs both and returns a
 record of what agreed and what did not.
@@ -378,7 +378,7 @@ def make_case(seed: int, index: int) -> Case:
 
 def to_radsolve(case: Case):
     """The case as a bound radsolve Potential (hooks only where the case gives them)."""
-    from radsolve.registry import make_family
+    from radsolve.potentials import make_family
 
     c = case.inverse_square
 

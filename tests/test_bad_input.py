@@ -23,8 +23,8 @@ from typer.testing import CliRunner
 
 from radsolve.cli import app
 
-# Subprocesses run outside the repository: from its root, `python -m radsolve`
-# would import the source tree, which lacks the installed radsolve.potentials.
+# Subprocesses run outside the repository, so that they use the installed
+# radsolve as a user's shell would.
 NEUTRAL_CWD = tempfile.mkdtemp(prefix="radsolve-cwd-")
 
 PLUGINS = Path(__file__).parent / "cli_plugins"

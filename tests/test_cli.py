@@ -1,4 +1,4 @@
-"""The command line and the renderers of radsolve.report.
+"""The command line and the renderers of radsolve.output.report.
 
 Two kinds of test live here:
 
@@ -30,11 +30,11 @@ from sympy.physics.hydrogen import E_nl
 from typer.testing import CliRunner
 
 from radsolve.cli import app
-from radsolve.result import Level, SolveResult
-from radsolve import report
+from radsolve.core.result import Level, SolveResult
+from radsolve.output import report
 
-# Subprocesses run outside the repository: from its root, `python -m radsolve`
-# would import the source tree, which lacks the installed radsolve.potentials.
+# Subprocesses run outside the repository, so that they use the installed
+# radsolve as a user's shell would.
 NEUTRAL_CWD = tempfile.mkdtemp(prefix="radsolve-cwd-")
 
 runner = CliRunner()
@@ -66,7 +66,7 @@ def fake_result(levels, message="", mass=1.0, name="fake_well", parameters=None,
 
 
 def fake_level(n, l, energy, err=1e-12, converged=True, exact=None, label=None):
-    from radsolve.result import level_label
+    from radsolve.core.result import level_label
 
     return Level(n=n, l=l, nodes=n - l - 1, label=label or level_label(n, l), energy=energy,
                  error_estimate=err, converged=converged, method="fd", order=4.0, exact=exact)
@@ -294,7 +294,7 @@ def test_plugin_potential_can_be_solved():
 def test_non_converged_levels_exit_3_and_are_marked(monkeypatch):
     # The real solver rarely fails to converge on demand, so a double stands in for it
     # here: this checks only how the command line reports such a result.
-    import radsolve.spectrum
+    import radsolve.core.spectrum
 
     def not_converged(pot, **kwargs):
         return SolveResult(levels=[fake_level(1, 0, -0.5, err=1e-3, converged=False)],
@@ -302,7 +302,7 @@ def test_non_converged_levels_exit_3_and_are_marked(monkeypatch):
                            mass=1.0, tol=kwargs["tol"], method="fd", bound_counts={0: None},
                            v_infinity=0.0)
 
-    monkeypatch.setattr(radsolve.spectrum, "solve", not_converged)
+    monkeypatch.setattr(radsolve.core.spectrum, "solve", not_converged)
     result = run("levels", "coulomb", "--count", "1")
     assert result.exit_code == 3
     assert "NO" in result.stdout and "did not converge" in result.stderr
@@ -327,7 +327,7 @@ def test_potentials_lists_builtins_and_plugins():
 
 
 def test_potentials_name_shows_the_docstring():
-    import radsolve.potentials.coulomb as coulomb
+    import radsolve.potentials.builtin.coulomb as coulomb
 
     result = run("potentials", "coulomb")
     assert result.exit_code == 0

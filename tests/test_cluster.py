@@ -14,10 +14,10 @@ from typer.testing import CliRunner
 distributed = pytest.importorskip(
     "distributed", reason="dask[distributed] is not installed (pip install 'radsolve[cluster]')")
 
-from radsolve import sweeps  # noqa: E402
+from radsolve.analysis import sweeps  # noqa: E402
 from radsolve.cli import app  # noqa: E402
 from radsolve.errors import InputError  # noqa: E402
-from radsolve.sweeps import sweep  # noqa: E402
+from radsolve.analysis.sweeps import sweep  # noqa: E402
 
 VARY = {"screening_length": [0.8, 1.2, 3.0, 4.8, 9.0, 15.0]}
 SETTINGS = dict(l=[0, 1], count=2, tol=1e-8)

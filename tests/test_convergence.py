@@ -1,4 +1,4 @@
-"""The convergence reporter radsolve.convergence (radsolve.check from Python).
+"""The convergence reporter radsolve.analysis.convergence (radsolve.check from Python).
 
 Outside references: sympy.physics.hydrogen.E_nl (source: sympy), the exact
 non-relativistic point-nucleus level -Z^2/(2 n^2) hartree for infinite
@@ -16,7 +16,7 @@ from scipy.constants import physical_constants
 from sympy.physics.hydrogen import E_nl
 from typer.testing import CliRunner
 
-from radsolve.convergence import (MethodOutcome, _assess, check, exact_coulomb_energy,
+from radsolve.analysis.convergence import (MethodOutcome, _assess, check, exact_coulomb_energy,
                             format_check)
 from radsolve.cli import app
 

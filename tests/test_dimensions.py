@@ -28,7 +28,7 @@ from typer.testing import CliRunner
 import radsolve
 from radsolve.cli import app
 from radsolve.errors import InputError
-from radsolve.potentials.rytova_keldysh import struve_minus_y0
+from radsolve.potentials.builtin.rytova_keldysh import struve_minus_y0
 
 runner = CliRunner()
 

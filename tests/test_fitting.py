@@ -1,4 +1,4 @@
-"""Fits to target levels (radsolve.fitting): round trips, uncertainties, spurious states, targets files.
+"""Fits to target levels (radsolve.analysis.fitting): round trips, uncertainties, spurious states, targets files.
 
 The round-trip tests are SELF-CONSISTENCY tests (no outside value is
 involved): levels computed by radsolve for known parameters, given
@@ -24,9 +24,9 @@ import pytest
 from scipy.constants import physical_constants
 
 from radsolve.errors import InputError
-from radsolve.fitting import fit, parse_free, read_targets
-from radsolve.registry import potential
-from radsolve.spectrum import solve
+from radsolve.analysis.fitting import fit, parse_free, read_targets
+from radsolve.potentials import potential
+from radsolve.core.spectrum import solve
 
 TRUE = {"Z": 2.0, "screening_length": 3.0}  # a Debye-screened He+-like ion (demo values)
 SIGMA = 1e-4  # hartree

@@ -1,4 +1,4 @@
-"""Formula potentials (radsolve.formula): safe parsing, vectorized evaluation, solving.
+"""Formula potentials (radsolve.potentials.formula): safe parsing, vectorized evaluation, solving.
 
 Sources of the reference values:
 
@@ -29,7 +29,7 @@ import radsolve
 from independent_shooting import shooting_energy
 from radsolve.cli import app
 from radsolve.errors import InputError, PluginError
-from radsolve.formula import CONSTANTS, FUNCTIONS, Formula, FormulaError, formula_potential
+from radsolve.potentials.formula import CONSTANTS, FUNCTIONS, Formula, FormulaError, formula_potential
 
 runner = CliRunner()
 BOHR_IN_ANGSTROM = const.physical_constants["Bohr radius"][0] / const.angstrom

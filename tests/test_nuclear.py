@@ -36,8 +36,8 @@ from typer.testing import CliRunner
 import radsolve
 from radsolve.cli import app
 from radsolve.errors import InputError
-from radsolve.formula import formula_potential
-from radsolve.potentials import woods_saxon
+from radsolve.potentials.formula import formula_potential
+from radsolve.potentials.builtin import woods_saxon
 from radsolve.units import parse_nuclear_mass, parse_quantity_in, unit_system
 
 runner = CliRunner()

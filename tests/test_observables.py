@@ -1,4 +1,4 @@
-"""Expectation values and diagnostics of computed states (radsolve.observables).
+"""Expectation values and diagnostics of computed states (radsolve.analysis.observables).
 
 Sources of the reference values, beside each check:
 
@@ -31,7 +31,7 @@ from sympy.physics.hydrogen import E_nl
 
 import radsolve
 from radsolve.errors import InputError
-from radsolve.observables import Estimate, State, expectation, state
+from radsolve.analysis.observables import Estimate, State, expectation, state
 
 
 def closed_forms(n: int, l: int, Z: float = 1.0, mu: float = 1.0) -> dict[float, float]:
@@ -313,7 +313,7 @@ def test_properties_summary(hydrogen):
     assert props["r"].value == pytest.approx(10.5, rel=1e-8)  # textbook formula
     assert len(props["turning_points"]) == 2
     assert props["virial"].available
-    from radsolve.observables import plain_properties
+    from radsolve.analysis.observables import plain_properties
 
     plain = plain_properties(props)
     assert plain["turning_points"][0]["unit"] == "bohr"

@@ -15,7 +15,7 @@ from scipy.constants import femto, physical_constants
 from scipy.integrate import quad
 from scipy.special import erf, expit
 
-from radsolve.registry import discover, potential
+from radsolve.potentials import discover, potential
 
 BOHR_M = physical_constants["Bohr radius"][0]
 FM = femto / BOHR_M  # one femtometre in bohr
@@ -79,7 +79,7 @@ def make(Z, radius, model, a):
 
 
 def half_density(pot):
-    from radsolve.potentials.finite_nucleus import nuclear_shape
+    from radsolve.potentials.builtin.finite_nucleus import nuclear_shape
 
     p = pot.parameters
     return nuclear_shape(p["radius"], p["model"], p["diffuseness"]).half_density_radius
@@ -202,7 +202,7 @@ def test_fermi_needs_rms_above_sqrt12_a():
 
 
 def test_charge_density_is_normalized():
-    from radsolve.potentials.finite_nucleus import charge_density
+    from radsolve.potentials.builtin.finite_nucleus import charge_density
 
     for Z, radius, model, a in CASES:
         kwargs = dict(Z=Z, radius=radius, model=model)

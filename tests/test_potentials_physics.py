@@ -15,7 +15,7 @@ import pytest
 from scipy.constants import femto, physical_constants
 
 import radsolve
-from radsolve.registry import potential
+from radsolve.potentials import potential
 
 BOHR_M = physical_constants["Bohr radius"][0]
 FM = femto / BOHR_M  # one femtometre in bohr

@@ -1,5 +1,6 @@
 """The plug-in protocol: discovery, validation, parameter parsing and checked evaluation."""
 
+import os
 import pickle
 import textwrap
 from importlib.metadata import EntryPoint
@@ -10,9 +11,9 @@ import numpy as np
 import pytest
 from scipy.constants import angstrom, femto, physical_constants
 
-from radsolve import registry
+from radsolve import potentials as registry
 from radsolve.errors import InputError, PluginError
-from radsolve.registry import (
+from radsolve.potentials import (
     Parameter,
     Potential,
     PotentialFamily,
@@ -122,7 +123,7 @@ def test_minimal_plugin_via_environment(tmp_path, monkeypatch):
         discover()
     other = tmp_path / "other"
     other.mkdir()
-    monkeypatch.setenv(registry.PLUGINS_ENV, f"{tmp_path / 'env'}{registry.os.pathsep}{other}")
+    monkeypatch.setenv(registry.PLUGINS_ENV, f"{tmp_path / 'env'}{os.pathsep}{other}")
     check_gauss_well(potential("gauss_well"))
     assert discover()["gauss_well"].origin == registry.PLUGINS_ENV
 
@@ -228,7 +229,7 @@ def test_reserved_parameter_names_are_refused(tmp_path, param):
 
 def test_default_outside_its_range_is_a_plugin_error(tmp_path):
     path = write(tmp_path, "p.py", """\
-        from radsolve.registry import Parameter
+        from radsolve.potentials import Parameter
         NAME = "p"
         PARAMETERS = {"width": Parameter(-1.0, kind="length", minimum=0.0, exclusive_minimum=True)}
         def V(r, width):
@@ -367,7 +368,7 @@ def test_entry_points_load_modules_and_objects(tmp_path, monkeypatch):
     monkeypatch.setattr(registry, "_test_holder", holder, raising=False)
     eps = [
         EntryPoint("ep_well", "ep_module_family", registry.ENTRY_POINT_GROUP),
-        EntryPoint("ep_object", "radsolve.registry:_test_holder", registry.ENTRY_POINT_GROUP),
+        EntryPoint("ep_object", "radsolve.potentials:_test_holder", registry.ENTRY_POINT_GROUP),
     ]
 
     def fake_entry_points(group=None):
@@ -549,7 +550,7 @@ def test_broken_file_is_listed_with_its_cause_and_named_by_its_declared_name(tmp
     assert "gauss_well" in registry.usable_families(found)
     assert set(registry.broken_families(found)) == {"lj_well"}
     assert potential("gauss_well", plugins=tmp_path)(np.array([0.0])).tolist() == [-2.0]
-    from radsolve.report import families_list
+    from radsolve.output.report import families_list
 
     listing = families_list(found)
     assert "lj_well -- BROKEN" in listing and "RuntimeError: no table" in listing

@@ -23,8 +23,8 @@ from scipy import constants as const
 
 import radsolve
 from radsolve.errors import InputError
-from radsolve.potentials import alkali_model
-from radsolve.registry import make_family
+from radsolve.potentials.builtin import alkali_model
+from radsolve.potentials import make_family
 
 HARTREE_IN_CM = const.physical_constants["hartree-inverse meter relationship"][0] / 100.0
 

@@ -27,7 +27,7 @@ import pytest
 from typer.testing import CliRunner
 
 from radsolve.cli import app
-from radsolve.sweeps import sweep
+from radsolve.analysis.sweeps import sweep
 
 runner = CliRunner()
 
@@ -104,8 +104,8 @@ def test_threshold_command():
 def test_fit_command(tmp_path):
     targets = tmp_path / "t.csv"
     # Targets made by radsolve itself (a self-consistency check): Z = 2, D = 3 bohr.
-    from radsolve.registry import potential
-    from radsolve.spectrum import solve
+    from radsolve.potentials import potential
+    from radsolve.core.spectrum import solve
 
     levels = solve(potential("yukawa", Z=2.0, screening_length=3.0), l=[0, 1], count=2, tol=1e-11).levels
     targets.write_text("label,energy,uncertainty,unit\n"

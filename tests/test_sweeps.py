@@ -1,4 +1,4 @@
-"""Parameter sweeps (radsolve.sweeps): level identity, unbound rows, export, workers.
+"""Parameter sweeps (radsolve.analysis.sweeps): level identity, unbound rows, export, workers.
 
 Outside references, each named again beside its test:
 
@@ -33,9 +33,9 @@ import pytest
 
 from plugin_sources import square_well_source
 from radsolve.errors import InputError
-from radsolve.registry import potential
-from radsolve.spectrum import solve
-from radsolve.sweeps import SweepInterrupted, parameter_values, sweep
+from radsolve.potentials import potential
+from radsolve.core.spectrum import solve
+from radsolve.analysis.sweeps import SweepInterrupted, parameter_values, sweep
 
 # Rogers, Graboske & Harwood, Phys. Rev. A 1, 1577 (1970); also Edwards et al.,
 # arXiv:1706.09979 (2017) — from memory.

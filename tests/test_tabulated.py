@@ -1,4 +1,4 @@
-"""Tabulated potentials (radsolve.tabulated): reading, interpolation, rules, levels.
+"""Tabulated potentials (radsolve.potentials.tabulated): reading, interpolation, rules, levels.
 
 Sources of the reference values:
 
@@ -30,7 +30,7 @@ from typer.testing import CliRunner
 import radsolve
 from radsolve.cli import app
 from radsolve.errors import InputError
-from radsolve.tabulated import MIN_POINTS, read_table, tabulated_potential
+from radsolve.potentials.tabulated import MIN_POINTS, read_table, tabulated_potential
 
 runner = CliRunner()
 EV_IN_HARTREE = const.physical_constants["electron volt-hartree relationship"][0]

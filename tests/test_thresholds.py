@@ -1,4 +1,4 @@
-"""Binding thresholds (radsolve.thresholds) against published and exact critical values.
+"""Binding thresholds (radsolve.analysis.thresholds) against published and exact critical values.
 
 Outside references used here, each named again beside its test:
 
@@ -40,10 +40,10 @@ from scipy.special import jn_zeros, spherical_jn
 
 from plugin_sources import square_well_source
 from radsolve.errors import InputError
-from radsolve.spectrum import solve
-from radsolve.registry import potential
-from radsolve.sweeps import sweep
-from radsolve.thresholds import NoThresholdError, critical_values, parse_label, sweep_crossings, threshold
+from radsolve.core.spectrum import solve
+from radsolve.potentials import potential
+from radsolve.analysis.sweeps import sweep
+from radsolve.analysis.thresholds import NoThresholdError, critical_values, parse_label, sweep_crossings, threshold
 
 EXP_WELL = '''
 import numpy as np

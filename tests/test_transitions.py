@@ -1,4 +1,4 @@
-"""Electric-dipole transitions (radsolve.radiative, radsolve.transitions).
+"""Electric-dipole transitions (radsolve.analysis.radiative, radsolve.transitions).
 
 Sources of the reference values, beside each check:
 
@@ -31,8 +31,8 @@ from sympy.physics.hydrogen import R_nl
 
 import radsolve
 from radsolve.errors import InputError
-from radsolve.observables import State, state
-from radsolve.radiative import radial_dipole, transitions, transitions_from
+from radsolve.analysis.observables import State, state
+from radsolve.analysis.radiative import radial_dipole, transitions, transitions_from
 
 NMAX = 5
 
@@ -65,7 +65,7 @@ def _pairs():
 
 
 def test_radial_dipole_integrals_against_sympy(hydrogen_result):
-    from radsolve.result import level_label
+    from radsolve.core.result import level_label
 
     states = {lev.label: State.from_result(hydrogen_result, lev.label)
               for lev in hydrogen_result.levels if lev.n <= NMAX}

@@ -18,8 +18,8 @@ from scipy.special import spherical_jn, spherical_kn, spherical_yn
 
 import radsolve
 from radsolve.errors import InputError
-from radsolve.formula import formula_potential
-from radsolve.registry import make_family
+from radsolve.potentials.formula import formula_potential
+from radsolve.potentials import make_family
 
 
 def assert_trusted(result, exact, expected_count=None, tol=None):

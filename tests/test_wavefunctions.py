@@ -1,4 +1,4 @@
-"""Wavefunction values, interpolation and export (radsolve.wavefunctions).
+"""Wavefunction values, interpolation and export (radsolve.core.wavefunctions).
 
 Sources of the reference values, beside each check:
 
@@ -23,8 +23,8 @@ from sympy.physics.hydrogen import R_nl
 
 import radsolve
 from radsolve.errors import InputError
-from radsolve.observables import state
-from radsolve.wavefunctions import export_format
+from radsolve.analysis.observables import state
+from radsolve.core.wavefunctions import export_format
 
 
 def sympy_R(n, l, Z=1.0):
@@ -131,8 +131,8 @@ def test_bad_radii(bad):
 
 
 def test_plots_are_written(tmp_path):
-    from radsolve.plotting import plot_level_diagram, plot_wavefunction
-    from radsolve.radiative import transitions
+    from radsolve.output.plotting import plot_level_diagram, plot_wavefunction
+    from radsolve.analysis.radiative import transitions
 
     png = plot_wavefunction(state("coulomb", 3, 1), tmp_path / "w.png", unit="eV")
     assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"

@@ -5,7 +5,7 @@ V(r) = -depth * exp(-(r / width)**2), depth in hartree, width in bohr.
 
 import numpy as np
 
-from radsolve.registry import Parameter
+from radsolve.potentials import Parameter
 
 NAME = "cli_gauss_dip"
 PARAMETERS = {

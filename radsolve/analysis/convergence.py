@@ -1,0 +1,371 @@
+"""The convergence reporter: every solver against exact hydrogen-like levels.
+
+:func:`check` solves the Coulomb potential V(r) = -Z/r for several nuclear
+charges Z and reduced masses μ, for every n up to ``nmax`` and every l < n,
+with each numerical method separately, and compares each energy with the
+exact non-relativistic point-nucleus value
+
+    E(n) = -μ Z² / (2 n²)   hartree  (textbook formula; μ in electron masses),
+
+computed here from that formula, independently of the potential family's own
+``exact_energy`` hook.  :func:`format_check` renders the report as text.
+
+A result is marked as a failure when
+
+* the level is missing (the solver returned fewer levels than asked, or
+  raised an error), or did not reach ``tol`` by its own account;
+* its relative error ``(E - E_exact)/|E_exact|`` exceeds ``tol`` in size; or
+* its error estimate understates the true error by more than a factor of
+  10 (``|E - E_exact| > 10 * error_estimate``), unless the true error is at
+  the double-precision floor, ``|E - E_exact| <= 1e-14 * |E_exact|``
+  (common practice: about 50 ulp of accumulated rounding), where no
+  estimate can be expected to resolve it.
+
+This is a self-test of the numerics, not a statement about real atoms: the
+model has no fine structure, no Lamb shift and no finite nuclear size.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Callable, Sequence
+
+#: How much the error estimate may understate the true error (common practice).
+UNDERSTATEMENT_FACTOR = 10.0
+#: Relative size of errors treated as rounding noise (common practice).
+DOUBLE_PRECISION_FLOOR = 1e-14
+
+DEFAULT_CHARGES = (1, 2, 10, 92)
+DEFAULT_MASSES = (1.0, "electron+proton", "muon+proton")
+DEFAULT_METHODS = ("fd", "numerov")
+
+
+def exact_coulomb_energy(n: int, Z: float, mass: float) -> float:
+    """Exact level of -Z/r with reduced mass ``mass`` (electron masses), hartree.
+
+    E = -μ Z² / (2 n²) (textbook formula, non-relativistic, point nucleus).
+    """
+    return -mass * Z * Z / (2.0 * n * n)
+
+
+@dataclass
+class MethodOutcome:
+    """One method's result for one level, compared with the exact value.
+
+    Attributes
+    ----------
+    energy : float or None
+        The method's energy, hartree (None when the level is missing).
+    error_estimate : float or None
+        Its own estimate of its absolute error, hartree.
+    relative_error : float or None
+        ``(energy - exact) / |exact|``.
+    relative_estimate : float or None
+        ``error_estimate / |exact|``.
+    order : float or None
+        Observed order of convergence in the grid step.
+    converged : bool
+        Whether the solver says it reached ``tol``.
+    problems : list of str
+        Why this outcome fails the check (empty when it passes).
+    """
+
+    energy: float | None
+    error_estimate: float | None
+    relative_error: float | None
+    relative_estimate: float | None
+    order: float | None
+    converged: bool
+    problems: list[str] = field(default_factory=list)
+
+    @property
+    def failed(self) -> bool:
+        return bool(self.problems)
+
+
+@dataclass
+class CheckRow:
+    """One level (Z, μ, n, l) with every method's outcome.
+
+    Attributes
+    ----------
+    Z : float
+        Nuclear charge.
+    mass : float
+        Reduced mass, electron masses.
+    mass_name : str
+        The mass as given (``"1.0"``, ``"electron+proton"``, ...).
+    label : str
+        Spectroscopic label, e.g. ``"3d"``.
+    n, l : int
+        Principal and orbital quantum numbers.
+    exact : float
+        -μZ²/(2n²), hartree.
+    outcomes : dict
+        Method name -> :class:`MethodOutcome`.
+    """
+
+    Z: float
+    mass: float
+    mass_name: str
+    label: str
+    n: int
+    l: int
+    exact: float
+    outcomes: dict[str, MethodOutcome]
+
+    def energy(self, method: str) -> float | None:
+        return self.outcomes[method].energy
+
+    def relative_error(self, method: str) -> float | None:
+        return self.outcomes[method].relative_error
+
+    def relative_estimate(self, method: str) -> float | None:
+        return self.outcomes[method].relative_estimate
+
+    def order(self, method: str) -> float | None:
+        return self.outcomes[method].order
+
+    @property
+    def failed(self) -> bool:
+        return any(o.failed for o in self.outcomes.values())
+
+
+@dataclass
+class CheckReport:
+    """What :func:`check` found.
+
+    Attributes
+    ----------
+    rows : list of CheckRow
+        In the order Z, μ, l, n.
+    tol : float
+        The tolerance asked of the solvers and used for the verdict.
+    methods : tuple of str
+        The methods compared.
+    failures : list of str
+        One line per failing (level, method): which, and why.
+    """
+
+    rows: list[CheckRow]
+    tol: float
+    methods: tuple[str, ...]
+    failures: list[str]
+
+    @property
+    def passed(self) -> bool:
+        return not self.failures and bool(self.rows)
+
+    @property
+    def verdict(self) -> str:
+        """One line: passed or failed, and how many results were compared."""
+        total = len(self.rows) * len(self.methods)
+        n_fail = len(self.failures)
+        if not self.rows:
+            return "check FAILED: nothing was compared"
+        if n_fail == 0:
+            return (f"check passed: {len(self.rows)} levels x {len(self.methods)} methods "
+                    f"within tol {self.tol:.1e}, estimates honest")
+        return (f"check FAILED: {n_fail} of {total} results marked "
+                f"(tol {self.tol:.1e}); see the marks above")
+
+
+def _assess(outcome: MethodOutcome, exact: float, tol: float) -> None:
+    """Fill ``outcome.problems`` according to the rules in the module docstring."""
+    if outcome.energy is None:
+        return
+    if not outcome.converged:
+        outcome.problems.append("not converged")
+    err = outcome.energy - exact
+    if not abs(outcome.relative_error) <= tol:  # also catches NaN
+        outcome.problems.append("error > tol")
+    est = outcome.error_estimate
+    if (abs(err) > DOUBLE_PRECISION_FLOOR * abs(exact)
+            and not abs(err) <= UNDERSTATEMENT_FACTOR * est):
+        outcome.problems.append("estimate too small")
+
+
+def _coulomb(Z: float):
+    from radsolve.potentials import potential
+
+    return potential("coulomb", Z=Z)
+
+
+def check(tol: float = 1e-10,
+          charges: Sequence[float] = DEFAULT_CHARGES,
+          masses: Sequence[float | str] = DEFAULT_MASSES,
+          nmax: int = 10,
+          methods: Sequence[str] = DEFAULT_METHODS,
+          progress: Callable[[str], None] | None = None) -> CheckReport:
+    """Solve -Z/r for each charge, mass and method and compare with exact levels.
+
+    Parameters
+    ----------
+    tol : float
+        Relative tolerance asked of the solver and used to judge each level,
+        0 < tol < 1.
+    charges : sequence of float
+        Nuclear charges Z (positive).
+    masses : sequence of float or str
+        Reduced masses in electron masses, or particle expressions such as
+        ``"electron+proton"`` (see :func:`radsolve.units.parse_mass`).
+    nmax : int
+        Largest principal number n; every l < nmax is solved with
+        ``count = nmax - l`` levels, i.e. every (n, l) with l < n <= nmax.
+    methods : sequence of str
+        Numerical methods, each solved and judged separately.
+    progress : callable, optional
+        Called with a short text before each (Z, μ, method) case.
+
+    Returns
+    -------
+    CheckReport
+        Rows for every level, failures, ``passed`` and a one-line ``verdict``.
+        A level fails when missing, not converged, off by more than ``tol``,
+        or when its error estimate understates the true error more than 10
+        times while that error is above the double-precision floor
+        ``1e-14 |E|``.
+    """
+    from radsolve.errors import InputError, RadsolveError
+    from radsolve.core.result import level_label
+    from radsolve.core.spectrum import solve
+    from radsolve.units import parse_mass
+
+    # The tolerance judged: any 0 < tol < 1 may be asked; one the solver refuses
+    # (below 1e-14, say) makes the check fail with the solver's reason.
+    if isinstance(tol, bool) or not (isinstance(tol, (int, float)) and 0.0 < tol < 1.0):
+        raise InputError(f"check: tol must be a number with 0 < tol < 1, got {tol!r}")
+    if int(nmax) != nmax or nmax < 1:
+        raise InputError(f"check: nmax must be a whole number >= 1, got {nmax!r}")
+    nmax = int(nmax)
+    methods = tuple(methods)
+    if not methods:
+        raise InputError("check: at least one method is needed")
+
+    rows: list[CheckRow] = []
+    failures: list[str] = []
+    for Z in charges:
+        if not Z > 0:
+            raise InputError(f"check: charges must be positive, got {Z!r}")
+        pot = _coulomb(Z)
+        for mass_spec in masses:
+            mu = parse_mass(mass_spec)
+            block: dict[tuple[int, int], CheckRow] = {}
+            for l in range(nmax):
+                for n in range(l + 1, nmax + 1):
+                    block[(n, l)] = CheckRow(Z, mu, str(mass_spec), level_label(n, l), n, l,
+                                             exact_coulomb_energy(n, Z, mu), {})
+            for method in methods:
+                if progress is not None:
+                    progress(f"Z = {Z:g}, mass = {mass_spec}, method {method}")
+                for l in range(nmax):
+                    found = {}
+                    reason = "missing"
+                    try:
+                        res = solve(pot, l=l, count=nmax - l, mass=mu, tol=tol, method=method)
+                        found = {lev.n: lev for lev in res.levels if lev.l == l}
+                    except RadsolveError as exc:
+                        reason = f"missing ({exc})"
+                    for n in range(l + 1, nmax + 1):
+                        row = block[(n, l)]
+                        lev = found.get(n)
+                        if lev is None:
+                            outcome = MethodOutcome(None, None, None, None, None, False,
+                                                    [reason])
+                        else:
+                            scale = abs(row.exact)
+                            outcome = MethodOutcome(
+                                energy=float(lev.energy),
+                                error_estimate=float(lev.error_estimate),
+                                relative_error=(float(lev.energy) - row.exact) / scale,
+                                relative_estimate=float(lev.error_estimate) / scale,
+                                order=None if lev.order is None else float(lev.order),
+                                converged=bool(lev.converged),
+                            )
+                            _assess(outcome, row.exact, tol)
+                        row.outcomes[method] = outcome
+                        if outcome.failed:
+                            failures.append(
+                                f"Z={Z:g} mass={mass_spec} {row.label} {method}: "
+                                + "; ".join(outcome.problems))
+            rows += sorted(block.values(), key=lambda r: (r.l, r.n))
+    return CheckReport(rows=rows, tol=tol, methods=methods, failures=failures)
+
+
+#: Short marks used in the table, and their meaning (printed as a legend).
+MARKS = {"missing": "!MISSING", "not converged": "!CONV", "error > tol": "!TOL",
+         "estimate too small": "!EST"}
+
+
+def _mark(problem: str) -> str:
+    for key, mark in MARKS.items():
+        if problem.startswith(key):
+            return mark
+    return "!" + problem
+
+
+def _num(x: float | None, fmt: str) -> str:
+    return "-" if x is None else format(x, fmt)
+
+
+def format_check(report: CheckReport) -> str:
+    """Text rendering of ``report``: a block per (Z, μ), the verdict last.
+
+    Each level takes one line for the exact value and one per method with
+    its energy, relative error, relative error estimate, observed order and,
+    when it fails, a mark saying why.  At most 80 columns.
+    """
+    from radsolve.output.report import _wrap, format_columns
+
+    lines: list[str] = []
+    for text in (
+        f"Coulomb levels of -Z/r against the exact E = -mu Z^2/(2 n^2) (textbook "
+        f"formula); tol {report.tol:.1e}; energies in hartree",
+        "rel.err = (E - exact)/|exact|; rel.est = error estimate/|exact|; "
+        "order = observed order of convergence in the grid step",
+        "marks: " + ", ".join(f"{m} {k}" for k, m in MARKS.items())
+        + f" (by more than {UNDERSTATEMENT_FACTOR:g}x, above {DOUBLE_PRECISION_FLOOR:g}|E|)",
+    ):
+        lines += _wrap(text)
+    blocks: dict[tuple[float, str], list[CheckRow]] = {}
+    for row in report.rows:
+        blocks.setdefault((row.Z, row.mass_name), []).append(row)
+    header = ["level", "source", "energy", "rel.err", "rel.est", "order", ""]
+    for (Z, mass_name), rows in blocks.items():
+        mu = rows[0].mass
+        lines.append("")
+        name = "" if mass_name == str(mu) or _is_number(mass_name) else f" ({mass_name})"
+        lines.append(f"== Z = {Z:g}, reduced mass {mu:.10g} electron masses{name}")
+        table = []
+        for row in rows:
+            table.append([row.label, "exact", f"{row.exact:#.13g}", "", "", "", ""])
+            for method in report.methods:
+                o = row.outcomes.get(method)
+                if o is None:
+                    continue
+                mark = " ".join(_mark(p) for p in o.problems)
+                table.append(["", method, "-" if o.energy is None else f"{o.energy:#.13g}",
+                              _num(o.relative_error, "+.1e"), _num(o.relative_estimate, ".1e"),
+                              _num(o.order, ".2f"), mark])
+        lines += format_columns(header, table, right={2, 3, 4, 5})
+    # Why levels are missing does not fit in the table: say it once per reason.
+    reasons: dict[str, int] = {}
+    for row in report.rows:
+        for o in row.outcomes.values():
+            for p in o.problems:
+                if p.startswith("missing ("):
+                    reasons[p[len("missing ("):-1]] = reasons.get(p[len("missing ("):-1], 0) + 1
+    for reason, times in reasons.items():
+        lines.append("")
+        lines += _wrap(f"!MISSING x {times}: the solver refused: {reason}")
+    lines.append("")
+    lines.append(report.verdict)
+    return "\n".join(lines) + "\n"
+
+
+def _is_number(text: str) -> bool:
+    try:
+        float(text)
+    except ValueError:
+        return False
+    return True

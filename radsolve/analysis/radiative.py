@@ -1,0 +1,600 @@
+"""Electric-dipole (E1) radiative transitions between computed bound levels.
+
+(The module is called ``radiative`` so that ``radsolve.transitions`` stays
+the function: a submodule of that name would replace it on import.)
+
+For two levels (n l) and (n' l') with l' = l ± 1 the radial matrix element
+is d = ∫ u_nl(r) r u_n'l'(r) dr (bohr), computed on every grid the two levels
+share and Richardson-extrapolated like the energies.  With l> = max(l, l'),
+ω = |E - E'| (hartree, ħ = 1) and degeneracies g = 2l + 1 (spinless levels;
+spin multiplies every g and S by the same factor and changes neither f nor
+A), in atomic units (textbook formulas, e.g. Bethe & Salpeter, Quantum
+Mechanics of One- and Two-Electron Atoms, 1957, §59-63):
+
+* line strength            S = l> d²                          (e² a0²)
+* absorption oscillator    f(lower -> upper) = (2/3) ω S / g_lower
+  strength, electron-mass convention (the one spectroscopic tables use, so
+  that A = 2 α³ ω² (g_lower/g_upper) f holds);
+* Einstein A               A(upper -> lower) = (4/3) α³ ω³ S / g_upper
+  per atomic unit of time ħ/E_h, converted to s⁻¹ with scipy.constants;
+* lifetime                 τ = 1 / Σ A over every lower level;
+* branching ratio          A_i / Σ A.
+
+Dipole operator convention: -e r with r the relative coordinate of the
+two-body system (exact for a neutral pair such as hydrogen, muonic hydrogen
+or positronium-like systems; ``dipole_charge`` scales it, e.g. to
+(M + Z m)/(M + m) for a hydrogen-like ion of nuclear charge Z and mass M).
+The reduced mass enters through the computed energies (ω) and wavefunctions
+(d).  Wavelengths are vacuum wavelengths, λ = h c / ΔE.
+
+Two levels whose energies agree within their error estimates (the 2s and 2p
+levels of a pure Coulomb potential, say) are treated as degenerate: no line
+is drawn between them and each lists the other under ``degenerate_with``.
+A level with no lower E1 partner is reported as metastable (no E1 decay),
+with lifetime None, never as an infinite or zero number.
+
+This is a model calculation (nonrelativistic, spinless, E1 only, no
+hyperfine, QED or field effects); for rates used in diagnostics or safety
+assessments, use evaluated data compilations.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+from radsolve.errors import InputError
+from radsolve.analysis.observables import Estimate, channel_potential, check_atomic_3d, correction_power
+from radsolve.core.wavefunctions import SampleGrid, prepared_samples
+
+#: Largest nmax accepted: every level's wavefunction on every grid is kept in
+#: memory (about nmax**2 levels).
+NMAX_LIMIT = 25
+
+MODEL_NOTE = ("model calculation: nonrelativistic, spinless, electric-dipole only; "
+              "for rates used in diagnostics or safety work use evaluated compilations")
+CONVENTIONS = {
+    "wavelengths": "vacuum wavelengths, lambda = h c / dE",
+    "oscillator_strength": "absorption f(lower -> upper), electron-mass convention",
+    "einstein_A": "spontaneous emission rate upper -> lower, s^-1",
+    "line_strength": "S = max(l, l') d^2, atomic units (e^2 bohr^2), spinless",
+    "radial_integral": "d = integral of u_upper r u_lower dr, bohr; both u > 0 as r -> 0",
+    "dipole_operator": "-e r, r the relative coordinate, times dipole_charge",
+    "lifetime": "1 / sum of A over all lower levels; null when metastable (no E1 decay)",
+}
+
+
+def _constants() -> dict[str, float]:
+    from scipy.constants import c, fine_structure, h, physical_constants
+
+    return {
+        "alpha": fine_structure,
+        "time_au": physical_constants["atomic unit of time"][0],
+        "hartree_J": physical_constants["Hartree energy"][0],
+        "h": h,
+        "c": c,
+    }
+
+
+@dataclass
+class Line:
+    """One E1 line, upper -> lower.
+
+    Energies in hartree, ``einstein_A`` in s⁻¹, wavelengths in nm (vacuum),
+    ``frequency`` in Hz; each ``*_error`` is the estimated absolute error.
+    """
+
+    upper: str
+    lower: str
+    energy: float
+    energy_error: float
+    radial_integral: Estimate
+    line_strength: float
+    oscillator_strength: float
+    oscillator_strength_error: float
+    einstein_A: float
+    einstein_A_error: float
+    wavelength_nm: float
+    frequency_hz: float
+    branching_ratio: float = 0.0
+
+    def to_dict(self, unit_factor: float = 1.0) -> dict[str, Any]:
+        return {
+            "upper": self.upper,
+            "lower": self.lower,
+            "energy": self.energy / unit_factor,
+            "energy_error": self.energy_error / unit_factor,
+            "wavelength_nm": self.wavelength_nm,
+            "frequency_hz": self.frequency_hz,
+            "oscillator_strength": self.oscillator_strength,
+            "oscillator_strength_error": self.oscillator_strength_error,
+            "einstein_A": self.einstein_A,
+            "einstein_A_error": self.einstein_A_error,
+            "line_strength": self.line_strength,
+            "radial_integral": self.radial_integral.value,
+            "radial_integral_error": self.radial_integral.error,
+            "branching_ratio": self.branching_ratio,
+        }
+
+
+@dataclass
+class StateDecay:
+    """How one level decays by E1.
+
+    Attributes
+    ----------
+    label, n, l : str, int, int
+    energy, energy_error : float
+        Hartree.
+    total_A : float
+        Σ A over lower levels, s⁻¹ (0.0 when metastable).
+    lifetime_s, lifetime_error_s : float or None
+        τ = 1/ΣA and its estimate, s; None when metastable.
+    metastable : bool
+        True when no lower level is reachable by an E1 transition.
+    ground : bool
+        True for the lowest level of the spectrum (which cannot decay at all).
+    branching : dict
+        Lower label -> A_i / ΣA, largest first.
+    degenerate_with : list of str
+        E1 partners whose energy agrees with this level's within the estimates.
+    complete : bool
+        False when a lower level might exist that was not computed (see
+        ``TransitionResult.message``).
+    """
+
+    label: str
+    n: int
+    l: int
+    energy: float
+    energy_error: float
+    total_A: float
+    lifetime_s: float | None
+    lifetime_error_s: float | None
+    metastable: bool
+    ground: bool
+    branching: dict[str, float] = field(default_factory=dict)
+    degenerate_with: list[str] = field(default_factory=list)
+    complete: bool = True
+
+    @property
+    def status(self) -> str:
+        if self.ground:
+            return "ground level (stable)"
+        if self.metastable:
+            return "metastable (no E1 decay)"
+        return "decays by E1"
+
+    def to_dict(self, unit_factor: float = 1.0) -> dict[str, Any]:
+        return {
+            "label": self.label,
+            "n": self.n,
+            "l": self.l,
+            "energy": self.energy / unit_factor,
+            "energy_error": self.energy_error / unit_factor,
+            "lifetime_s": self.lifetime_s,
+            "lifetime_error_s": self.lifetime_error_s,
+            "total_A": self.total_A,
+            "metastable": self.metastable,
+            "ground": self.ground,
+            "status": self.status,
+            "branching": dict(self.branching),
+            "degenerate_with": list(self.degenerate_with),
+            "complete": self.complete,
+        }
+
+
+@dataclass
+class TransitionResult:
+    """Every E1 line among the levels with n <= nmax (and the lower levels they reach).
+
+    Attributes
+    ----------
+    lines : list of Line
+        Sorted by upper level (n, l), then lower level.
+    states : list of StateDecay
+        Sorted by (n, l).
+    result : SolveResult
+        The solve the levels came from (one call, shared grids).
+    nmax : int
+    dipole_charge : float
+    occupied : list of str
+        Levels treated as filled (left out).
+    success : bool
+        Every level and every radial integral converged, and every lifetime
+        is complete.
+    message : str
+    """
+
+    lines: list[Line]
+    states: list[StateDecay]
+    result: Any
+    nmax: int
+    dipole_charge: float
+    success: bool
+    message: str
+    occupied: list[str] = field(default_factory=list)
+
+    # ------------------------------------------------------------ arrays
+
+    @property
+    def einstein_A(self) -> np.ndarray:
+        """A of each line, s⁻¹."""
+        return np.array([x.einstein_A for x in self.lines])
+
+    @property
+    def oscillator_strengths(self) -> np.ndarray:
+        """Absorption f of each line."""
+        return np.array([x.oscillator_strength for x in self.lines])
+
+    @property
+    def wavelengths_nm(self) -> np.ndarray:
+        """Vacuum wavelength of each line, nm."""
+        return np.array([x.wavelength_nm for x in self.lines])
+
+    @property
+    def line_energies(self) -> np.ndarray:
+        """Transition energy of each line, hartree."""
+        return np.array([x.energy for x in self.lines])
+
+    @property
+    def lifetimes_s(self) -> np.ndarray:
+        """τ of each state, s; NaN where metastable (see ``metastable``)."""
+        return np.array([math.nan if s.lifetime_s is None else s.lifetime_s for s in self.states])
+
+    @property
+    def metastable(self) -> np.ndarray:
+        return np.array([s.metastable for s in self.states])
+
+    # ------------------------------------------------------------ look-up
+
+    def state(self, label: str) -> StateDecay:
+        for s in self.states:
+            if s.label == label:
+                return s
+        known = ", ".join(s.label for s in self.states)
+        raise InputError(f"no state {label!r}; states: {known}")
+
+    def line(self, upper: str, lower: str) -> Line:
+        for x in self.lines:
+            if x.upper == upper and x.lower == lower:
+                return x
+        raise InputError(f"no E1 line {upper} -> {lower} among the computed lines")
+
+    # ------------------------------------------------------------ plain data
+
+    def to_dict(self, unit: str = "hartree") -> dict[str, Any]:
+        """The JSON document of ``radsolve transitions``, energies in ``unit``."""
+        from radsolve.units import energy_unit_factor
+
+        factor = energy_unit_factor(unit)
+        res = self.result
+        return {
+            "potential": res.potential.name,
+            "parameters": dict(res.potential.parameters),
+            "mass": res.mass,
+            "unit": unit,
+            "nmax": self.nmax,
+            "method": res.method,
+            "tol": res.tol,
+            "dipole_charge": self.dipole_charge,
+            "occupied": list(self.occupied),
+            "success": bool(self.success),
+            "message": self.message,
+            "conventions": dict(CONVENTIONS),
+            "note": MODEL_NOTE,
+            "lines": [x.to_dict(factor) for x in self.lines],
+            "states": [s.to_dict(factor) for s in self.states],
+        }
+
+
+# ---------------------------------------------------------------- matrix elements
+
+
+def _orders(*methods: str) -> tuple[int, ...]:
+    from radsolve.core.solvers.base import solver_class
+
+    orders: set[int] = set()
+    for m in methods:
+        orders |= set(solver_class(m).error_orders)
+    return tuple(sorted(orders))
+
+
+def _rounding(method: str, size: int) -> float:
+    from radsolve.core.solvers.base import solver_class
+
+    return max(float(solver_class(method).relative_rounding(size)), 64 * np.finfo(float).eps)
+
+
+def common_samples(a: list[SampleGrid], b: list[SampleGrid]) -> int:
+    """How many leading samples of two levels lie on identical grids."""
+    count = 0
+    for ga, gb in zip(a, b):
+        if ga.r.shape != gb.r.shape or not np.array_equal(ga.r, gb.r):
+            break
+        count += 1
+    return count
+
+
+def _dipole(level_a, grids_a: list[SampleGrid], level_b, grids_b: list[SampleGrid], tol: float) -> Estimate:
+    from radsolve.core.spectrum import richardson
+
+    k = common_samples(grids_a, grids_b)
+    if k == 0:
+        raise InputError(f"levels {level_a.label} and {level_b.label} were not solved on the same "
+                         "grids; solve them in one call, e.g. solve(..., l=[0, 1])")
+    values, scale = [], 0.0
+    for ga, gb in zip(grids_a[:k], grids_b[:k]):
+        terms = ga.weights * ga.u * gb.u * ga.r
+        values.append(float(np.sum(terms)))
+        scale = float(np.sum(np.abs(terms)))
+    ma = level_a.sample_method or "fd"
+    mb = level_b.sample_method or "fd"
+    rounding = max(_rounding(ma, grids_a[k - 1].r.size), _rounding(mb, grids_b[k - 1].r.size))
+    value, estimate, observed = richardson(values, _orders(ma, mb), rounding)
+    estimate = max(estimate, rounding * scale)
+    converged = math.isfinite(estimate) and estimate <= 100.0 * tol * max(abs(value), 1e-3 * scale)
+    return Estimate(float(value), float(estimate), "bohr", observed, bool(converged))
+
+
+def radial_dipole(state_a, state_b) -> Estimate:
+    """⟨a|r|b⟩ = ∫ u_a r u_b dr (bohr) of two :class:`radsolve.State` objects.
+
+    Both must come from one solve (shared grids), e.g. ``State.from_result``
+    on a result with several l.  Sign convention: both u > 0 as r -> 0.
+    """
+    if state_a.mass != state_b.mass or state_a.potential != state_b.potential:
+        raise InputError("the two states belong to different potentials or masses")
+    return _dipole(state_a.level, state_a.grids, state_b.level, state_b.grids,
+                   min(state_a.tol, state_b.tol))
+
+
+# ---------------------------------------------------------------- the whole set
+
+
+def _check_nmax(nmax) -> int:
+    if isinstance(nmax, bool) or not isinstance(nmax, (int, np.integer)):
+        raise InputError(f"nmax must be a whole number from 1 to {NMAX_LIMIT}, got {nmax!r}")
+    if not 1 <= nmax <= NMAX_LIMIT:
+        raise InputError(f"nmax must be from 1 to {NMAX_LIMIT} (every level's wavefunction on "
+                         f"every grid is kept in memory), got {nmax}")
+    return int(nmax)
+
+
+def _degenerate(a, b) -> bool:
+    threshold = 10.0 * (a.error_estimate + b.error_estimate) + 64 * np.finfo(float).eps * max(
+        abs(a.energy), abs(b.energy))
+    return abs(a.energy - b.energy) <= threshold
+
+
+def _occupied_labels(occupied) -> list[str]:
+    if occupied is None:
+        return []
+    if isinstance(occupied, str):
+        occupied = [part for part in occupied.replace(" ", ",").split(",") if part]
+    labels = []
+    for item in occupied:
+        if not isinstance(item, str) or not item.strip():
+            raise InputError(f"occupied must be level labels such as '1s', got {item!r}")
+        labels.append(item.strip())
+    return labels
+
+
+def transitions_from(result, nmax: int | None = None, dipole_charge: float = 1.0,
+                     occupied=()) -> TransitionResult:
+    """E1 lines and lifetimes among the levels of one :class:`radsolve.SolveResult`.
+
+    Parameters
+    ----------
+    result : SolveResult
+        From one :func:`radsolve.solve` call (levels of different l then
+        share their grids).
+    nmax : int, optional
+        Report the levels with n <= nmax (and every lower level they decay
+        to); default: every level of ``result``.
+    dipole_charge : float
+        Factor multiplying the dipole operator -e r (see the module docstring).
+    occupied : sequence of str or str
+        Labels of levels filled by other electrons (the core of a model
+        potential that binds core-like states, e.g. ``"1s,2s,2p"`` for
+        sodium): no line ends on them and they are not reported.
+    """
+    from radsolve.core import probe
+
+    if not (isinstance(dipole_charge, (int, float)) and not isinstance(dipole_charge, bool)
+            and math.isfinite(dipole_charge) and dipole_charge > 0):
+        raise InputError(f"dipole_charge must be a positive number, got {dipole_charge!r}")
+    check_atomic_3d(result, "radiative transitions")
+    levels = list(result.levels)
+    if not levels:
+        raise InputError(f"potential {result.potential.name!r} has no bound level to connect "
+                         f"({result.message})")
+    if any(getattr(lev, "j", None) is not None for lev in levels):
+        raise InputError("E1 transitions between spin-orbit (l, j) levels are not implemented; "
+                         "solve without spin_orbit")
+    if nmax is None:
+        nmax = max(lev.n for lev in levels)
+    filled = _occupied_labels(occupied)
+    known = {lev.label for lev in levels}
+    unknown = [x for x in filled if x not in known]
+    if unknown:
+        raise InputError(f"occupied: no computed level {unknown[0]!r}; computed levels: "
+                         + ", ".join(lev.label for lev in levels))
+    levels = [lev for lev in levels if lev.label not in filled]
+    if not levels:
+        raise InputError("occupied: every computed level is marked occupied")
+    profiles: dict[int, Any] = {}
+    for lev in levels:
+        if lev.l not in profiles:
+            profiles[lev.l] = probe.profile(channel_potential(result.potential, lev), result.mass)
+    grids = {id(lev): prepared_samples(lev, profiles[lev.l].origin_exponent(lev.l, result.mass),
+                                       correction_power(profiles[lev.l]))
+             for lev in levels}
+    by_l: dict[int, list] = {l: [] for l in result.bound_counts}
+    for lev in levels:
+        by_l.setdefault(lev.l, []).append(lev)
+
+    def partners(lev):
+        lower, degenerate = [], []
+        for c in (lev.l - 1, lev.l + 1):
+            for other in by_l.get(c, []):
+                if _degenerate(lev, other):
+                    degenerate.append(other)
+                elif other.energy < lev.energy:
+                    lower.append(other)
+        return lower, degenerate
+
+    # The levels asked for, then every level below one of them that they reach.
+    chosen = [lev for lev in levels if lev.n <= nmax]
+    seen = {id(lev) for lev in chosen}
+    queue = list(chosen)
+    while queue:
+        lev = queue.pop()
+        for other in partners(lev)[0]:
+            if id(other) not in seen:
+                seen.add(id(other))
+                chosen.append(other)
+                queue.append(other)
+    chosen.sort(key=lambda x: (x.n, x.l))
+
+    k = _constants()
+    alpha, t_au = k["alpha"], k["time_au"]
+    ground_energy = min(lev.energy for lev in levels)
+    asked = result.bound_counts
+    lines: list[Line] = []
+    states: list[StateDecay] = []
+    notes: list[str] = []
+    all_ok = bool(result.success)
+    for lev in chosen:
+        lower, degenerate = partners(lev)
+        complete = True
+        for c in (lev.l - 1, lev.l + 1):
+            if c < 0:
+                continue
+            if c not in by_l:
+                # a partner in an uncomputed channel l+1 needs n' <= n (see DEVELOPERS.md)
+                if c == lev.l + 1 and lev.n >= c + 1 and c not in asked:
+                    complete = False
+                continue
+            more_may_exist = asked.get(c, None) is None
+            if not by_l[c]:
+                if more_may_exist:  # every computed level of the channel is occupied
+                    complete = False
+                continue
+            highest = max(by_l[c], key=lambda x: x.energy)
+            if more_may_exist and highest.energy < lev.energy and not _degenerate(highest, lev):
+                complete = False
+        own: list[Line] = []
+        for other in sorted(lower, key=lambda x: (x.n, x.l)):
+            d = _dipole(lev, grids[id(lev)], other, grids[id(other)], result.tol)
+            all_ok &= d.converged
+            d_val = dipole_charge * d.value
+            d_err = dipole_charge * d.error
+            omega = lev.energy - other.energy
+            omega_err = lev.error_estimate + other.error_estimate
+            l_big = max(lev.l, other.l)
+            S = l_big * d_val**2
+            g_up, g_low = 2 * lev.l + 1, 2 * other.l + 1
+            f = (2.0 / 3.0) * omega * S / g_low
+            A_au = (4.0 / 3.0) * alpha**3 * omega**3 * S / g_up
+            A = A_au / t_au
+            rel_d = 2.0 * d_err / abs(d_val) if d_val else math.inf
+            rel_w = omega_err / omega
+            energy_J = omega * k["hartree_J"]
+            own.append(Line(
+                upper=lev.label, lower=other.label, energy=float(omega), energy_error=float(omega_err),
+                radial_integral=Estimate(d_val, d_err, "bohr", d.order, d.converged),
+                line_strength=float(S), oscillator_strength=float(f),
+                oscillator_strength_error=float(f * (rel_w + rel_d)) if f else float(omega * l_big * 2 * abs(d_val) * d_err),
+                einstein_A=float(A), einstein_A_error=float(A * (3.0 * rel_w + rel_d)) if A else 0.0,
+                wavelength_nm=float(k["h"] * k["c"] / energy_J * 1e9),
+                frequency_hz=float(energy_J / k["h"]),
+            ))
+        total = math.fsum(x.einstein_A for x in own)
+        total_err = math.fsum(x.einstein_A_error for x in own)
+        branching: dict[str, float] = {}
+        if own and total > 0:
+            for x in own:
+                x.branching_ratio = x.einstein_A / total
+            for x in sorted(own, key=lambda y: -y.einstein_A):
+                branching[x.lower] = x.branching_ratio
+        metastable = not own
+        is_ground = lev.energy == ground_energy
+        if not complete:
+            all_ok = False
+            notes.append(f"{lev.label}: a lower level with l = {lev.l - 1} or {lev.l + 1} may be "
+                         "missing from the computed set, so its lifetime is an upper bound")
+        states.append(StateDecay(
+            label=lev.label, n=lev.n, l=lev.l, energy=lev.energy, energy_error=lev.error_estimate,
+            total_A=float(total),
+            lifetime_s=None if metastable or total <= 0 else float(1.0 / total),
+            lifetime_error_s=None if metastable or total <= 0 else float(total_err / total**2),
+            metastable=metastable, ground=bool(is_ground),
+            branching=branching, degenerate_with=[x.label for x in degenerate], complete=complete,
+        ))
+        lines.extend(own)
+    if filled:
+        notes.append("treated as occupied (no line ends on them): " + ", ".join(filled))
+    extra = [lev.label for lev in chosen if lev.n > nmax]
+    if extra:
+        notes.append("included as lower levels of n <= nmax: " + ", ".join(extra))
+    unconverged = sorted({x.upper + "->" + x.lower for x in lines if not x.radial_integral.converged})
+    if unconverged:
+        notes.append("radial integrals NOT CONVERGED: " + ", ".join(unconverged[:8]))
+    if not result.success:
+        notes.append(result.message)
+    message = "; ".join(notes) if notes else (
+        f"{len(lines)} E1 line{'s' if len(lines) != 1 else ''} among {len(states)} "
+        f"level{'s' if len(states) != 1 else ''}, all converged")
+    return TransitionResult(lines=lines, states=states, result=result, nmax=int(nmax),
+                            dipole_charge=float(dipole_charge), success=bool(all_ok and not unconverged),
+                            message=message, occupied=filled)
+
+
+def transitions(potential, nmax: int, mass=None, tol: float = 1e-10, method: str = "fd",
+                plugins=None, dipole_charge: float = 1.0, occupied=()) -> TransitionResult:
+    """Every E1 line, lifetime and branching ratio among the bound levels with n <= nmax.
+
+    One :func:`radsolve.solve` call computes l = 0 ... nmax-1 with nmax
+    levels each, so that all levels share their grids; levels with n > nmax
+    are kept only as lower levels of those asked for.  If a lower level could
+    lie beyond that set (possible only for l-1 partners of potentials whose
+    spectrum depends strongly on l), the solve is repeated with two more
+    levels per l (twice at most), and a state whose lifetime still may miss
+    a channel is marked incomplete.
+
+    Parameters
+    ----------
+    potential : Potential or str
+        As for :func:`radsolve.solve`.
+    nmax : int
+        Largest principal number n reported (1 ... NMAX_LIMIT).
+    mass : float or str
+        Reduced mass (electron masses, or ``"electron+proton"``).
+    tol, method, plugins
+        As for :func:`radsolve.solve`.
+    dipole_charge : float
+        Factor multiplying the dipole operator -e r.
+    occupied : sequence of str or str
+        Levels filled by core electrons, left out (see :func:`transitions_from`).
+
+    Returns
+    -------
+    TransitionResult
+    """
+    from radsolve.core.spectrum import solve
+
+    nmax = _check_nmax(nmax)
+    count = nmax
+    for attempt in range(3):
+        result = solve(potential, l=list(range(nmax)), count=count, mass=mass, tol=tol,
+                       method=method, plugins=plugins)
+        found = transitions_from(result, nmax, dipole_charge, occupied)
+        if all(s.complete for s in found.states) or attempt == 2:
+            return found
+        # the next levels of the l-1 channels are what a lifetime may miss
+        count += 2
+    return found

@@ -1,0 +1,150 @@
+"""The interface every bound-state method implements, and the method registry.
+
+A method sees one grid at a time.  It is handed the Liouville coefficients of
+the transformed radial equation (see :mod:`radsolve.core.grids`)
+
+    -1/(2 mu) w'' + q w = E b w,   w = 0 at the boundary points,
+
+and answers two questions: how many levels lie below an energy (its own node
+or Sturm count), and what are the energies and normalized wavefunctions of
+the levels with given node numbers.  Choosing grids, refining them,
+extrapolating and labelling are done once for all methods in
+:mod:`radsolve.core.spectrum`.
+
+Adding a method: write ``radsolve/solvers/mymethod.py`` with a subclass of
+:class:`RadialSolver` and add ``"mymethod": "radsolve.core.solvers.mymethod:MyClass"``
+to :data:`METHODS`.
+"""
+
+from __future__ import annotations
+
+import importlib
+from typing import Sequence
+
+import numpy as np
+
+from radsolve.errors import InputError
+from radsolve.core.grids import RadialGrid
+
+#: Method name -> "module:Class", imported on first use.
+METHODS: dict[str, str] = {
+    "fd": "radsolve.core.solvers.fd:FiniteDifference",
+    "numerov": "radsolve.core.solvers.numerov:NumerovShooting",
+}
+
+
+def solver_class(method: str) -> type["RadialSolver"]:
+    """The RadialSolver subclass registered as ``method``."""
+    try:
+        target = METHODS[method]
+    except KeyError:
+        raise InputError(f"unknown method {method!r}; allowed: {', '.join(sorted(METHODS))} or 'both'") from None
+    module_name, class_name = target.split(":")
+    return getattr(importlib.import_module(module_name), class_name)
+
+
+class RadialSolver:
+    """Base class of the bound-state methods.
+
+    Parameters
+    ----------
+    grid : RadialGrid
+        The grid; ``grid.r[-1]`` is a Dirichlet wall, and ``grid.r[inner]``
+        carries the inner boundary condition (see ``origin_exponent``).
+    potential_values : ndarray
+        V at ``grid.r``, hartree.
+    l : int
+        Orbital angular momentum.
+    mass : float
+        Reduced mass, electron masses.
+    inner : int
+        Index of the inner boundary point (points below it are outside the
+        problem).
+    origin_exponent : float, optional
+        lambda in u ~ r**lambda as r -> 0 (default l + 1).  The inner
+        boundary condition is that power law: with r ~ e**x there,
+        w ~ e**((lambda - 1/2) x), so w[inner] = ghost_ratio * w[inner + 1]
+        with ghost_ratio = exp(-(lambda - 1/2) h).  This keeps the error of
+        cutting the grid at r[inner] second order in r[inner], instead of
+        first order for a hard wall, and is what makes lambda = 1/2 (two
+        dimensions, l = 0) solvable at all.
+    centrifugal : float, optional
+        The factor c of the centrifugal term c / (2 mu r**2): l(l+1) by
+        default; L(L+1) with L = l + (d-3)/2 in d dimensions.
+
+    Class attributes
+    ----------------
+    name : str
+        Registry name.
+    error_orders : tuple of int
+        Powers of the step h in the asymptotic error expansion of the
+        energies, leading first (used by Richardson extrapolation).
+    relative_rounding(size) : classmethod
+        Relative rounding noise of the energies; the floor of every estimate.
+    """
+
+    name = "base"
+    error_orders: tuple[int, ...] = (2, 4, 6, 8)
+
+    @classmethod
+    def relative_rounding(cls, size: int) -> float:
+        """Relative rounding noise of this method's energies on a grid of ``size`` points.
+
+        No error estimate is smaller than this.
+        """
+        return 3e-14
+
+    def __init__(
+        self,
+        grid: RadialGrid,
+        potential_values: np.ndarray,
+        l: int,
+        mass: float,
+        inner: int = 0,
+        origin_exponent: float | None = None,
+        centrifugal: float | None = None,
+    ):
+        self.grid = grid
+        self.l = l
+        self.mass = mass
+        self.inner = inner
+        self.origin_exponent = float(l + 1 if origin_exponent is None else origin_exponent)
+        self.ghost_ratio = float(np.exp(-(self.origin_exponent - 0.5) * grid.step))
+        self.b, self.q = grid.liouville_coefficients(potential_values, l, mass, centrifugal)
+
+    def count_below(self, energy: float) -> int:
+        """Number of levels of this discrete problem with energy below ``energy`` (hartree)."""
+        raise NotImplementedError
+
+    def levels(self, indices: Sequence[int], guesses: Sequence[float] | None = None) -> tuple[np.ndarray, np.ndarray]:
+        """Energies (hartree) and wavefunctions of the levels with these node numbers.
+
+        ``guesses`` are this method's own energies for the same levels on the
+        previous, coarser grid (hartree), which a method may use to start its
+        search; they are None on the first grid.
+
+        Returns
+        -------
+        energies : ndarray, shape (k,)
+        u : ndarray, shape (k, grid.size)
+            u(r) = sqrt(dr/dx) w on the whole grid, zero outside the walls,
+            normalized with ``grid.weights`` and positive near the origin.
+        """
+        raise NotImplementedError
+
+    # Shared helpers --------------------------------------------------------
+
+    def to_u(self, w_interior: np.ndarray, start: int) -> np.ndarray:
+        """Embed w (rows) given from grid index ``start`` on, convert to normalized u."""
+        w_interior = np.atleast_2d(w_interior)
+        u = np.zeros((w_interior.shape[0], self.grid.size))
+        stop = start + w_interior.shape[1]
+        u[:, start:stop] = w_interior * np.sqrt(self.grid.jacobian[start:stop])
+        norm = np.sqrt(np.sum(self.grid.weights * u**2, axis=1))
+        u /= norm[:, None]
+        # Sign convention: positive where |u| first exceeds a small fraction of its maximum.
+        for row in u:
+            big = np.nonzero(np.abs(row) > 1e-3 * np.max(np.abs(row)))[0]
+            if big.size and row[big[0]] < 0:
+                row *= -1.0
+        return u

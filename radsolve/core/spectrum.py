@@ -1,0 +1,914 @@
+"""The front door: :func:`solve` finds the bound levels of a central potential.
+
+Work is organised by partial wave ("channel"): an orbital angular momentum l,
+and with a spin-orbit term also j = l +- 1/2.  Each channel has its own
+potential (V, or V_l of a semilocal family, plus V_so <l.s>) and its own
+centrifugal factor L(L+1), L = l + (d-3)/2 in d dimensions.  All channels of
+one solve share one sequence of nested grids, so that states of different l
+can be combined (matrix elements) grid by grid; every method of one solve
+uses the same box.
+
+For every method the same plan is followed:
+
+1. probe each channel's potential (:mod:`radsolve.core.probe`): threshold V(inf),
+   small-r and large-r laws, inner length, range, breakpoints (declared or
+   found by scanning V);
+2. count its bound levels without a box (:mod:`radsolve.core.counting`): the
+   node count of the threshold-energy solution, or "infinitely many" where
+   the tail says so.  That count is the completeness certificate the levels
+   returned are checked against;
+3. choose the box: grow it until the levels wanted are bound in it, then
+   set the outer radius where the weakest of them has decayed (WKB), and
+   check it by the shift the wall itself causes;
+4. solve on a sequence of nested grids (every breakpoint a point of every
+   grid), halving the step; count the levels below the threshold on each
+   grid that produces them; Richardson-extrapolate each level with its
+   observed order checked; stop when every estimate meets ``tol`` or no
+   further grid can help.  Each level carries the cause
+   (:class:`radsolve.core.targets.Status`).
+
+Levels are identified by their node count (Sturm count), so n and the label
+are exact, and the k-th level can be neither missed nor duplicated.
+
+Energies and lengths are in the units of the solve's unit system (hartree and
+bohr, or MeV and fm); ``mass`` below is always the kinetic mass m of
+-1/(2m) u'' in those units (see :class:`radsolve.units.UnitSystem`).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field, replace
+from typing import Any, Iterable
+
+import numpy as np
+
+from radsolve.core import probe as probing
+from radsolve.core.counting import BoundCount, count_bound
+from radsolve.errors import InputError
+from radsolve.core.extrapolation import extrapolate, richardson  # noqa: F401 - richardson re-exported
+from radsolve.core.grids import GridSpan, potential_on_grid  # noqa: F401 - potential_on_grid re-exported
+from radsolve.core.result import GridSample, Level, SolveResult, level_designation
+from radsolve.core.solvers.base import METHODS, RadialSolver, solver_class
+from radsolve.core.targets import Status, Targets, validated_tol
+
+#: Step in xi of the coarsest grid of the refinement sequence.
+COARSE_STEP = 0.1
+#: Step of the grid used to choose the box.
+PLANNING_STEP = 0.2
+#: The finest grid allowed: this many halvings of the coarsest step.
+MAX_REFINEMENTS = 7
+#: Never use more points than this on one grid.
+MAX_POINTS = 400_000
+#: Initial box, in units of the inner length of the potential.
+_INITIAL_BOX = 30.0
+#: No box is larger than this multiple of the inner boundary radius (the
+#: number of grid points grows with the logarithm of the ratio) ...
+_LARGEST_RATIO = 1e40
+#: ... nor larger than this radius.
+_LARGEST_RADIUS = 1e30
+#: Phase of the threshold-energy (or top level's) wave per step of the
+#: coarsest grid of the refinement, and of the planning grid: deep wells get
+#: a finer coarse grid so that extrapolation starts where the error series holds.
+_PHASE_COARSE = 1.5
+_PHASE_PLANNING = 3.0
+#: A near-degenerate pair is resolved once the change of its splitting
+#: between the last two grids is below this fraction of the splitting.
+_SPLITTING_SETTLED = 0.1
+
+#: Reduced masses accepted, in each unit system's mass unit: far beyond any
+#: particle pair (1e-6 m_e to ~5e6 u in atomic units; 1 keV/c^2 to 100 TeV/c^2),
+#: and inside what the probed radii can resolve.
+_MASS_RANGE = {"atomic": (1e-6, 1e10), "nuclear": (1e-3, 1e8)}
+
+Key = tuple  # (l, j) with j None without spin-orbit
+
+
+@dataclass(frozen=True)
+class _Channel:
+    """One partial wave: its potential, what probing learned, its count of bound levels."""
+
+    l: int
+    j: float | None
+    potential: Any
+    profile: probing.PotentialProfile
+    effective_l: float  # L = l + (d-3)/2
+    exponent: float  # u ~ r**exponent at the origin
+    inner_radius: float  # where its grid starts
+    certificate: BoundCount
+
+    @property
+    def key(self) -> Key:
+        return (self.l, self.j)
+
+    @property
+    def centrifugal(self) -> float:
+        return self.effective_l * (self.effective_l + 1.0)
+
+    @property
+    def v_inf(self) -> float:
+        return self.profile.v_infinity
+
+    @property
+    def confining(self) -> bool:
+        return self.profile.confining
+
+    @property
+    def reference(self) -> float:
+        """The energy the solvers measure from: V(inf), or 0 for a confining channel."""
+        return 0.0 if self.confining else self.v_inf
+
+    def wanted(self, count: int) -> int:
+        """How many levels to compute: ``count``, or fewer when fewer are bound."""
+        cert = self.certificate
+        if cert.count is None:
+            return count
+        extra = 0 if cert.certain else 1  # look for the one the count is unsure of
+        return min(count, cert.count + extra)
+
+
+@dataclass(frozen=True)
+class _BoxPlan:
+    span: GridSpan
+    wanted: dict
+    notes: tuple[str, ...]
+    search_radius: float = 0.0  # the box in which levels were looked for
+    largest_radius: float = math.inf  # no box beyond this radius
+    anchors: tuple[float, ...] = ()
+    at_limit: bool = False  # the box could not grow any further
+
+
+@dataclass
+class _Run:
+    """What one method produced on one plan."""
+
+    best: dict  # key -> list of per-level records (dicts)
+    samples: dict  # key -> list of tuples of GridSample
+    grid_counts: dict  # key -> list of levels below the threshold per grid
+    finest: bool  # stopped at the finest affordable grid
+
+
+def _validate(l, count, tol, method, dimension) -> tuple[list[int], int, float, list[type[RadialSolver]], int]:
+    if isinstance(l, (int, np.integer)) and not isinstance(l, bool):
+        ls = [int(l)]
+    elif isinstance(l, Iterable) and not isinstance(l, (str, bytes)):
+        ls = []
+        for item in l:
+            if not isinstance(item, (int, np.integer)) or isinstance(item, bool):
+                raise InputError(f"l must be a whole number >= 0 (got {item!r})")
+            ls.append(int(item))
+        if not ls:
+            raise InputError("l: at least one angular momentum is needed")
+    else:
+        raise InputError(f"l must be a whole number >= 0 or a list of them (got {l!r})")
+    for value in ls:
+        if value < 0:
+            raise InputError(f"l must be >= 0 (got {value})")
+        if value > 200:
+            raise InputError(f"l must be <= 200 (got {value})")
+    ls = sorted(set(ls))
+    if not isinstance(count, (int, np.integer)) or isinstance(count, bool) or count < 1:
+        raise InputError(f"count must be a whole number >= 1 (got {count!r})")
+    if count > 1000:
+        raise InputError(f"count must be <= 1000 levels per l (got {count})")
+    tol = validated_tol(tol)
+    if isinstance(method, type) and issubclass(method, RadialSolver):
+        methods = [method]
+    elif method == "both":
+        methods = [solver_class(name) for name in METHODS]
+    elif method in METHODS:
+        methods = [solver_class(method)]
+    else:
+        raise InputError(f"unknown method {method!r}; allowed: {', '.join(list(METHODS) + ['both'])} "
+                         "or a RadialSolver subclass")
+    if not isinstance(dimension, (int, np.integer)) or isinstance(dimension, bool) or not 2 <= dimension <= 50:
+        raise InputError(f"dimension must be a whole number from 2 to 50 (got {dimension!r})")
+    return ls, int(count), tol, methods, int(dimension)
+
+
+def _resolve_potential(potential, plugins):
+    if isinstance(potential, str):
+        from radsolve.potentials import potential as make_potential
+
+        return make_potential(potential, plugins=plugins)
+    if not callable(potential) or not hasattr(potential, "parameters"):
+        raise InputError(f"potential must be a family name or a radsolve Potential (got {type(potential).__name__})")
+    return potential
+
+
+def _unit_system(pot, units):
+    from radsolve.units import unit_system
+
+    declared = getattr(getattr(getattr(pot, "family", None), "module", None), "UNITS", "atomic")
+    declared = "atomic" if declared is None else str(declared).lower()
+    system = unit_system(declared if units is None else units)
+    if system.name != declared:
+        raise InputError(
+            f"potential {pot.name!r} is written in {declared} units; unit system {system.name!r} "
+            f"is not supported for it (allowed: {declared})"
+        )
+    return system
+
+
+def _largest_radius(r_min: float) -> float:
+    return min(_LARGEST_RATIO * r_min, _LARGEST_RADIUS)
+
+
+def _channels(pot, ls, spin_orbit, dimension, mass, targets: Targets) -> list[_Channel]:
+    if spin_orbit and not getattr(pot, "has_spin_orbit", False):
+        raise InputError(
+            f"spin_orbit was asked for, but potential {pot.name!r} has no spin-orbit term "
+            "(families with one define spin_orbit(r, ...))"
+        )
+    shift = (dimension - 3) / 2.0
+    out = []
+    for l in ls:
+        js = [None]
+        if spin_orbit:
+            js = [0.5] if l == 0 else [l - 0.5, l + 0.5]
+        for j in js:
+            channel_pot = pot.channel(l, j) if hasattr(pot, "channel") else pot
+            prof = probing.profile(channel_pot, mass)
+            effective = l + shift
+            prof.check_bounded_below(effective, mass)
+            exponent = prof.origin_exponent(effective, mass)
+            inner = _inner_radius(channel_pot, prof, effective, mass, targets, prof.v_infinity)
+            cert = count_bound(channel_pot, prof, effective, mass, inner, _largest_radius(inner))
+            out.append(_Channel(l, j, channel_pot, prof, effective, exponent, inner, cert))
+    return out
+
+
+def _inner_radius(pot, prof, L, mass, targets: Targets, energy: float) -> float:
+    """Where a channel's grid starts for levels up to ``energy``.
+
+    Two bounds, the larger wins: the power law u ~ r**lambda is accurate to
+    ``targets.boundary_tol`` there (not for cores), and the level has grown
+    by ``targets.core_nepers`` e-folds from there to its inner turning point
+    (WKB), so that a steep core or a high centrifugal barrier costs no grid
+    points where the state is negligible.
+    """
+    a = prof.inner_cutoff(L, mass, targets.boundary_tol)
+    if math.isinf(energy) or prof.scale_free:
+        return a
+    hi = max(prof.inner_length, a) * 1e6 if math.isfinite(prof.inner_length) else a * 1e6
+    lo = max(a, prof.origin.finite_from * 10.0, 1e-28)
+    if prof.origin.kind == "core":
+        lo = max(prof.origin.finite_from * 10.0, 1e-28)
+    wkb = probing.wkb_inner_radius(pot, L, mass, energy, targets.core_nepers, lo, hi)
+    return max(a, wkb) if prof.origin.kind != "core" else max(wkb, lo)
+
+
+def _inner_index(span: GridSpan, refinement: int, radius: float, coarse_r: np.ndarray) -> int:
+    """Index on grid ``refinement`` of the coarse-grid point just below ``radius``."""
+    i0 = int(np.searchsorted(coarse_r, radius, side="right")) - 1
+    return max(i0, 0) * 2**refinement
+
+
+def _breakpoints(channels) -> tuple[float, ...]:
+    return tuple(sorted({b for ch in channels for b in ch.profile.breakpoints}))
+
+
+def _span(r_min: float, radius: float, step: float, anchors) -> GridSpan:
+    """Grids from r_min to radius, with the crossover scale s = R / ln(R / r_min).
+
+    That s balances the points spent on the logarithmic and the linear part
+    for a fixed accuracy of the states that fill the box.
+    """
+    scale = radius / max(math.log(radius / r_min), 1.0)
+    return GridSpan.covering(r_min, radius, step, scale, anchors)
+
+
+def _solver(cls, grid, values, ch: _Channel, mass, inner) -> RadialSolver:
+    return cls(grid, values, ch.l, mass, inner, origin_exponent=ch.exponent, centrifugal=ch.centrifugal)
+
+
+def _phase_halvings(channels, span: GridSpan, mass, tops: dict, limit: float) -> int:
+    """Halvings of the span's coarse step after which no wanted state turns by more than ``limit`` per step."""
+    grid = span.grid(0)
+    worst = 0.0
+    for ch in channels:
+        top = tops.get(ch.key)
+        if top is None:
+            continue
+        with np.errstate(all="ignore"):
+            v_eff = probing._raw(ch.potential, grid.r) + ch.centrifugal / (2.0 * mass * grid.r**2)
+            k = np.sqrt(np.maximum(2.0 * mass * (top - v_eff), 0.0))
+        phase = k * grid.jacobian * span.coarse_step
+        phase = phase[np.isfinite(phase)]
+        if phase.size:
+            worst = max(worst, float(np.max(phase)))
+    if worst <= limit:
+        return 0
+    return int(math.ceil(math.log2(worst / limit)))
+
+
+def _levels_on(cls, grid, ch: _Channel, mass, inner, count, guesses=None):
+    """The lowest ``count`` levels of one channel on one grid, energies from its reference."""
+    values = potential_on_grid(ch.potential, grid.r, _anchors_of(grid)) - ch.reference
+    solver = _solver(cls, grid, values, ch, mass, inner)
+    energies, u = solver.levels(list(range(count)), guesses=guesses)
+    below = None if ch.confining else solver.count_below(0.0)
+    return energies, u, below, values
+
+
+def _anchors_of(grid) -> tuple[float, ...]:
+    return getattr(grid, "_anchors", ())
+
+
+def _grid(span: GridSpan, refinement: int):
+    grid = span.grid(refinement)
+    object.__setattr__(grid, "_anchors", span.anchors + span.left_out)
+    return grid
+
+
+def _plan_box(channels, count, mass, targets: Targets, breakpoints) -> _BoxPlan:
+    """Choose the outer radius and the number of levels to compute per channel."""
+    from radsolve.core.solvers.fd import FiniteDifference
+
+    wanted = {ch.key: ch.wanted(count) for ch in channels}
+    active = [ch for ch in channels if wanted[ch.key] > 0]
+    r_min = min(ch.inner_radius for ch in channels)
+    largest = _largest_radius(r_min)
+    lengths = [ch.profile.inner_length for ch in channels if math.isfinite(ch.profile.inner_length)]
+    r_in = min(lengths) if lengths else r_min
+    biggest_feature = max(breakpoints, default=0.0)
+    radius = max(_INITIAL_BOX * r_in, 4.0 * biggest_feature, 4.0 * max(ch.inner_radius for ch in channels),
+                 *(2.0 * ch.certificate.outermost for ch in channels))
+    radius = min(radius, largest)
+    confining = all(ch.confining for ch in channels)
+    notes: list[str] = []
+    if not active:
+        span = _span(r_min, radius, COARSE_STEP, breakpoints)
+        return _BoxPlan(span, wanted, (), radius, largest, span.anchors)
+    nepers = targets.decay_nepers
+    tops: dict = {ch.key: ch.reference for ch in active if not ch.confining}
+    needed = 0.0
+    short: list = []
+    most = max(wanted.values())
+    for _ in range(80):
+        span, halvings, grid, coarse_r = _planning_grid(r_min, radius, breakpoints, active, mass, tops, most)
+        needed = 0.0
+        short = []
+        for ch in active:
+            inner = _inner_index(span, halvings, ch.inner_radius, coarse_r)
+            energies, _, below, _ = _levels_on(FiniteDifference, grid, ch, mass, inner, wanted[ch.key])
+            energies = energies + ch.reference
+            if below is not None and below < wanted[ch.key]:
+                short.append(ch.key)
+            top = float(energies[-1])
+            if ch.confining or top < ch.v_inf:
+                tops[ch.key] = max(top, tops.get(ch.key, -math.inf)) if ch.confining else tops[ch.key]
+                needed = max(needed, probing.decay_radius(ch.potential, ch.effective_l, mass, top,
+                                                          r_min, nepers))
+        if short and radius < largest:
+            radius = min(4.0 * radius, largest)
+            continue
+        if needed > radius and radius < largest:
+            radius = min(1.3 * needed, largest)
+            continue
+        break
+    else:  # pragma: no cover - the loop above always reaches its limit
+        notes.append("box search did not settle")
+    final_radius = max(needed if needed > 0 else radius, 2.0 * biggest_feature, 4.0 * r_in)
+    final_radius = min(max(final_radius, min(radius, final_radius)), largest)
+    if not confining:
+        final_radius = _verify_box(active, wanted, mass, targets, final_radius, breakpoints, largest, r_min)
+    span = _span(r_min, final_radius, COARSE_STEP, breakpoints)
+    halvings = _planning_halvings(active, span, mass, tops, most, _PHASE_COARSE)
+    if halvings:
+        span = _span(r_min, final_radius, COARSE_STEP / 2**halvings, breakpoints)
+    at_limit = final_radius >= largest * (1 - 1e-12)
+    if at_limit:
+        notes.append(f"the box reached its largest radius, {largest:.3g}; the most weakly bound levels "
+                     "may be limited by it (see their estimates)")
+    if span.left_out:
+        notes.append("breakpoints too close together to all be grid points ("
+                     + ", ".join(f"{b:.6g}" for b in span.left_out) + "): the error series of every level is "
+                     "unreliable, so none is claimed converged")
+    return _BoxPlan(span, wanted, tuple(notes), max(radius, final_radius), largest, span.anchors, at_limit)
+
+
+def _planning_halvings(channels, span, mass, tops, most: int, phase: float = _PHASE_PLANNING) -> int:
+    """Halvings of a span's coarse step that resolve the wanted states and give room for ``most`` levels."""
+    halvings = _phase_halvings(channels, span, mass, tops, phase)
+    while span.intervals(halvings) < 4 * most + 40 and halvings < 12:
+        halvings += 1  # a few points per node at least
+    return min(halvings, 12)
+
+
+def _planning_grid(r_min, radius, breakpoints, channels, mass, tops, most):
+    """(span, halvings, grid, coarse radii) of the planning grid for a box of this radius."""
+    span = _span(r_min, radius, PLANNING_STEP, breakpoints)
+    halvings = _planning_halvings(channels, span, mass, tops, most)
+    return span, halvings, _grid(span, halvings), span.grid(0).r
+
+
+def _verify_box(channels, wanted, mass, targets: Targets, radius, breakpoints, largest, r_min) -> float:
+    """Grow the outer radius until the wall shifts no wanted level by more than its boundary target.
+
+    The WKB decay estimate ignores the amplitude's prefactor, which is large
+    for weakly bound, extended levels; the wall's own shift (Hadamard
+    formula, see :func:`_box_error`) on the planning grid settles it.
+    """
+    from radsolve.core.solvers.fd import FiniteDifference
+
+    tops = {ch.key: ch.reference for ch in channels if not ch.confining}
+    most = max(wanted.values())
+    for _ in range(8):
+        span, halvings, grid, coarse_r = _planning_grid(r_min, radius, breakpoints, channels, mass, tops, most)
+        growth = 0.0
+        for ch in channels:
+            if not wanted[ch.key] or ch.confining:
+                continue
+            inner = _inner_index(span, halvings, ch.inner_radius, coarse_r)
+            energies, u, _, values = _levels_on(FiniteDifference, grid, ch, mass, inner, wanted[ch.key])
+            for energy, row in zip(energies, u):
+                shift = _box_error(grid, row, values, ch.centrifugal, mass, energy)
+                target = targets.boundary_target(energy + ch.reference, ch.v_inf)
+                if shift > target:
+                    kappa = _decay_rate(grid, values, ch.centrifugal, mass, energy)
+                    growth = max(growth, targets.wall_growth(shift, target, kappa))
+        if growth == 0.0 or radius >= largest:
+            return radius
+        radius = min(radius + min(growth, 4.0 * radius), largest)
+    return radius
+
+
+def _grown(plan: _BoxPlan, growth: float, breakpoints) -> _BoxPlan | None:
+    """The same plan with the outer wall moved out by ``growth`` (at most 4x), or None.
+
+    None when the box is already as large as allowed.  The whole grid family
+    is rebuilt (new crossover scale, breakpoints re-anchored): the refinement
+    starts again from the coarsest grid anyway.
+    """
+    span = plan.span
+    if span.r_max >= plan.largest_radius * (1 - 1e-12):
+        return None
+    radius = min(span.r_max + min(growth, 4.0 * span.r_max), plan.largest_radius)
+    new = _span(span.r_min, radius, span.coarse_step, breakpoints)
+    return replace(plan, span=new, search_radius=max(plan.search_radius, new.r_max), anchors=new.anchors,
+                   at_limit=radius >= plan.largest_radius * (1 - 1e-12))
+
+
+def _decay_rate(grid, values, centrifugal, mass, energy) -> float:
+    """kappa = sqrt(2 m (V_eff - E)) just inside the outer wall."""
+    v_eff = values[-2] + centrifugal / (2.0 * mass * grid.r[-2] ** 2)
+    return math.sqrt(max(2.0 * mass * (v_eff - energy), 1e-300))
+
+
+def _wall_growth(best: dict, targets: Targets, channels) -> float:
+    """How far to move the outer wall so no level's wall shift exceeds its boundary target."""
+    growth = 0.0
+    by_key = {ch.key: ch for ch in channels}
+    for key, levels in best.items():
+        ch = by_key[key]
+        if ch.confining:
+            continue
+        for entry in levels:
+            target = targets.boundary_target(entry["energy"], ch.v_inf)
+            growth = max(growth, targets.wall_growth(entry["wall"], target, entry["kappa"]))
+    return growth
+
+
+def _box_error(grid, u_row, values, centrifugal, mass, energy) -> float:
+    """First-order energy shift caused by the outer wall (Hadamard formula)."""
+    r = grid.r
+    du = u_row[-2] / (r[-1] - r[-2])
+    v_eff = values[-2] + centrifugal / (2.0 * mass * r[-2] ** 2)
+    kappa = math.sqrt(max(2.0 * mass * (v_eff - energy), 1e-300))
+    return float(du * du / (2.0 * mass) / (2.0 * kappa))
+
+
+def _inner_boundary_error(grid, u_row, inner, mass, exponent, values, energy, inverse_square=0.0) -> float:
+    """Energy shift from imposing u ~ r**lambda at a = r[inner].
+
+    A hard wall at a would shift the level by C**2 (2 lambda - 1)
+    a**(2 lambda - 1) / (2 m) (the Hadamard formula dE/da = u'(a)**2/(2 m)
+    integrated from 0 to a, with u ~ C r**lambda below a).  The power-law
+    condition errs only by the potential's relative correction to the
+    logarithmic derivative of u at a, about 2 m a**2 |V(a) - E| / lambda,
+    which multiplies that shift (a c/r**2 term is part of the power law
+    itself and is left out of V there).  C is read off u where it is well
+    above the rounding noise of the eigenvector.
+    """
+    r, a = grid.r, grid.r[inner]
+    peak = np.max(np.abs(u_row))
+    reliable = np.nonzero(np.abs(u_row[inner + 1 :]) > 1e-6 * peak)[0]
+    if reliable.size == 0:
+        return 0.0
+    j = inner + 1 + int(reliable[0])
+    # C**2 a**(2 lambda - 1) = u(r_j)**2 (a / r_j)**(2 lambda) / a, in logarithms (lambda may be large)
+    log_shift = (2.0 * math.log(abs(u_row[j])) + 2.0 * exponent * math.log(a / r[j]) - math.log(a)
+                 + math.log(max(2.0 * exponent - 1.0, 0.25) / (2.0 * mass)))
+    hard_wall = math.exp(min(log_shift, 700.0))
+    correction = 2.0 * mass * a * a * abs(values[inner] - inverse_square / (a * a) - energy) / exponent
+    return float(hard_wall * min(correction, 1.0))
+
+
+def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[RadialSolver],
+                may_grow: bool = True) -> _Run:
+    """Solve on nested grids until every level meets tol, or no finer grid can help.
+
+    Each level keeps the extrapolation with the smallest estimated error
+    seen among those whose order the data confirm (any, if none does).
+    """
+    span = plan.span
+    coarse_r = span.grid(0).r
+    history: dict = {ch.key: [] for ch in channels}
+    best: dict = {ch.key: [] for ch in channels}
+    grid_counts: dict = {ch.key: [] for ch in channels}
+    finest = False
+    for refinement in range(MAX_REFINEMENTS + 1):
+        if span.intervals(refinement) + 1 > MAX_POINTS:
+            finest = True
+            break
+        grid = _grid(span, refinement)
+        all_done, any_improving = True, False
+        for ch in channels:
+            want = plan.wanted[ch.key]
+            if want == 0:
+                continue
+            inner = _inner_index(span, refinement, ch.inner_radius, coarse_r)
+            guesses = [e - ch.reference for (e, _, _) in history[ch.key][-1]] if history[ch.key] else None
+            energies, u, below, values = _levels_on(cls, grid, ch, mass, inner, want, guesses)
+            grid_counts[ch.key].append(below)
+            history[ch.key].append([(float(energies[k]) + ch.reference, u[k], grid) for k in range(want)])
+            levels = best[ch.key]
+            profile = ch.potential.potential_error(grid.r) if hasattr(ch.potential, "potential_error") else None
+            splits = _unsettled_pairs(history[ch.key])
+            v_eff = values + ch.centrifugal / (2.0 * mass * grid.r**2)
+            for k in range(want):
+                series = [step[k][0] for step in history[ch.key]]
+                # Rounding grows with the energies the state sees, not only with
+                # its own: a level high in a deep well has |V - E| >> |E|.
+                seen = float(np.sum(grid.weights * u[k] ** 2 * np.abs(v_eff - energies[k])))
+                level = max(abs(series[-1]), abs(energies[k]) + seen)
+                rounding = cls.relative_rounding(grid.size) * level / max(abs(series[-1]), 1e-300)
+                ex = extrapolate(series, cls.error_orders, rounding)
+                shifted = ex.value - ch.reference
+                wall = 0.0 if ch.confining else _box_error(grid, u[k], values, ch.centrifugal, mass, shifted)
+                inner_err = _inner_boundary_error(grid, u[k], inner, mass, ch.exponent, values, shifted,
+                                                  ch.profile.origin.inverse_square)
+                estimate = ex.estimate + wall + inner_err
+                degenerate = splits.get(k, 0.0)
+                if degenerate:
+                    estimate = max(estimate, degenerate)
+                # How well V itself is known, weighed by this level's density
+                # (first-order perturbation theory): once the grid error is
+                # below it, finer grids cannot make the level better known.
+                known = 0.0 if profile is None else float(np.sum(grid.weights * u[k] ** 2 * profile))
+                entry = dict(nodes=k, energy=ex.value, error=estimate, order=ex.observed, order_ok=ex.order_ok,
+                             wall=wall, inner=inner_err, kappa=_decay_rate(grid, values, ch.centrifugal, mass, shifted),
+                             potential_limit=known, grids=len(series), rounding=rounding * abs(ex.value),
+                             near_degenerate=bool(degenerate), raw=series[-1])
+                if len(levels) <= k:
+                    levels.append(entry)
+                elif _better(entry, levels[k]):
+                    if entry["error"] < levels[k]["error"]:
+                        any_improving = True
+                    levels[k] = entry
+                else:
+                    # keep the best value, but the latest view of ambiguity and count
+                    levels[k]["near_degenerate"] = bool(degenerate)
+                    levels[k]["grids"] = len(series)
+                lev = levels[k]
+                met = (lev["grids"] >= 3 and lev["order_ok"] and not lev["near_degenerate"]
+                       and targets.met(lev["error"], lev["energy"], ch.v_inf))
+                limited = lev["grids"] >= 3 and lev["potential_limit"] > 0 and lev["error"] <= lev["potential_limit"]
+                all_done &= met or limited
+        if may_grow and refinement == 1 and _wall_growth(best, targets, channels) > 0.0:
+            break  # the wall is too close: the caller grows the box before refining further
+        if refinement >= 2 and all_done:
+            break
+        if refinement >= 3 and not any_improving:
+            break  # rounding noise dominates: finer grids will not help
+    else:
+        finest = True
+    samples = {
+        ch.key: [
+            tuple(GridSample(step=g.step, r=g.r, weights=g.weights, u=uk, energy=e, mapping=g.mapping)
+                  for (e, uk, g) in (step[k] for step in history[ch.key]))
+            for k in range(plan.wanted[ch.key])
+        ]
+        for ch in channels
+    }
+    return _Run(best, samples, grid_counts, finest)
+
+
+def _better(new: dict, old: dict) -> bool:
+    """Prefer extrapolations whose order the data confirm, then smaller estimates."""
+    return (not new["order_ok"], new["error"]) < (not old["order_ok"], old["error"])
+
+
+def _unsettled_pairs(history: list) -> dict:
+    """Levels whose splitting from a neighbour is not yet resolved by the grids.
+
+    Two levels closer together than their discretization errors differ can
+    swap places between grids (states localized in different wells of a
+    double well, say): then neither sequence of grid energies belongs to one
+    state and Richardson's extrapolation means nothing.  A pair is settled
+    when its splitting changed by less than _SPLITTING_SETTLED of itself
+    between the last two grids.  Returns {level index: the change of its
+    splitting} for the unsettled ones (an error size to carry).
+    """
+    if len(history) < 2:
+        return {}
+    last = np.array([e for (e, _, _) in history[-1]])
+    prev = np.array([e for (e, _, _) in history[-2]])
+    if last.size < 2:
+        return {}
+    gap_now, gap_before = np.diff(last), np.diff(prev)
+    out: dict = {}
+    for k, (g1, g0) in enumerate(zip(gap_now, gap_before)):
+        change = abs(g1 - g0)
+        if change > _SPLITTING_SETTLED * abs(g1):
+            # only pairs whose splitting is small against their own grid changes matter
+            moved = max(abs(last[k] - prev[k]), abs(last[k + 1] - prev[k + 1]))
+            if abs(g1) < 10.0 * moved:
+                out[k] = max(out.get(k, 0.0), change)
+                out[k + 1] = max(out.get(k + 1, 0.0), change)
+    return out
+
+
+def _degeneracy(l: int, j: float | None, dimension: int) -> int:
+    """Number of states of one level: 2j+1 with spin-orbit, else the orbital multiplicity."""
+    if j is not None:
+        return int(round(2 * j + 1))
+    if dimension == 2:
+        return 1 if l == 0 else 2
+    # dimension of the space of harmonic polynomials of degree l in d variables
+    return math.comb(l + dimension - 1, dimension - 1) - (math.comb(l + dimension - 3, dimension - 1) if l >= 2 else 0)
+
+
+def solve(
+    potential,
+    l=0,
+    count: int = 5,
+    mass=None,
+    tol: float = 1e-10,
+    method: str = "fd",
+    plugins=None,
+    spin_orbit: bool = False,
+    dimension: int = 3,
+    units: str | None = None,
+) -> SolveResult:
+    """Bound levels of a particle in a central potential.
+
+    Parameters
+    ----------
+    potential : Potential or str
+        A potential from :func:`radsolve.potential`, or a family name (then
+        with its default parameters).
+    l : int or sequence of int
+        Orbital angular momenta to solve for.
+    count : int
+        Number of lowest levels wanted for each l (each (l, j) with spin-orbit).
+        When fewer are bound, the bound ones are returned;
+        ``result.certificates`` says how many each l binds and how that is known.
+    mass : float or str, optional
+        Reduced mass: in electron masses (atomic units) or MeV/c**2 (nuclear
+        units), or particles joined by ``+`` (``"electron+proton"``), whose
+        reduced mass is used.  Default: one electron mass in atomic units;
+        nuclear units have no default (InputError without it).
+    tol : float
+        Target relative error of each energy (1e-14 ... 0.1), relative to
+        |E| (or to |E - V(inf)| when that is larger).
+    method : str or RadialSolver subclass
+        ``"fd"`` (finite differences), ``"numerov"`` (Numerov shooting),
+        ``"both"`` (every registered method; their disagreement is folded
+        into the error estimate), or a solver class.
+    plugins : sequence of path, optional
+        Extra folders of potential plug-ins (when ``potential`` is a name).
+    spin_orbit : bool
+        Split each l > 0 into j = l - 1/2 and l + 1/2 with the family's
+        V_so(r) <l.s> term.
+    dimension : int
+        Space dimension d >= 2; the centrifugal term uses L = l + (d-3)/2.
+    units : {"atomic", "nuclear"}, optional
+        The unit system; by default the one the family is written in.
+        Atomic: hartree, bohr, electron masses.  Nuclear: MeV, fm, MeV/c**2.
+
+    Returns
+    -------
+    SolveResult
+        ``.levels`` with energies in the unit system's energy unit, each with
+        ``error_estimate``, ``converged`` and ``status``; ``.certificates``
+        (the number of bound levels of each l, established without a box);
+        ``.success`` and ``.message``.
+
+    Raises
+    ------
+    InputError, PluginError, UnboundedBelowError
+        For bad input or a potential that collapses into the origin.
+    """
+    ls, count, tol, classes, dimension = _validate(l, count, tol, method, dimension)
+    method_name = method if isinstance(method, str) else getattr(method, "name", "custom")
+    pot = _resolve_potential(potential, plugins)
+    system = _unit_system(pot, units)
+    mu = system.parse_mass(mass)
+    low, high = _MASS_RANGE[system.name]
+    if not low <= mu <= high:
+        raise InputError(
+            f"mass {mu:.6g} {system.mass_unit} is outside the range solved here, "
+            f"{low:g} to {high:g} {system.mass_unit}"
+        )
+    kinetic = system.kinetic_mass(mu)
+    targets = Targets(tol)
+    channels = _channels(pot, ls, bool(spin_orbit), dimension, kinetic, targets)
+    breakpoints = _breakpoints(channels)
+    plan = _plan_box(channels, count, kinetic, targets, breakpoints)
+
+    runs: dict = {}
+    for attempt in range(4):
+        may_grow = attempt < 3 and _grown(plan, 1.0, breakpoints) is not None
+        runs = {cls: _run_method(channels, plan, kinetic, targets, cls, may_grow) for cls in classes}
+        # One box for every method: grow it for all when any needs it.
+        growth = max(_wall_growth(run.best, targets, channels) for run in runs.values())
+        short = any(_box_short(ch, plan, run) for run in runs.values() for ch in channels)
+        if short:
+            growth = max(growth, 2.0 * plan.span.r_max)
+        grown = _grown(plan, growth, breakpoints) if growth > 0.0 and may_grow else None
+        if grown is None:
+            break
+        plan = grown
+
+    return _assemble(channels, plan, runs, classes, method_name, count, targets, kinetic, mu, system, pot,
+                     spin_orbit, dimension)
+
+
+def _box_short(ch: _Channel, plan: _BoxPlan, run: _Run) -> bool:
+    """The finest grid holds fewer levels below the threshold than are known to be bound."""
+    counts = run.grid_counts[ch.key]
+    if ch.confining or not counts or counts[-1] is None:
+        return False
+    return counts[-1] < plan.wanted[ch.key] and ch.certificate.count is not None \
+        and counts[-1] < min(plan.wanted[ch.key], ch.certificate.count)
+
+
+def _assemble(channels, plan, runs, classes, method_name, count, targets, kinetic, mu, system, pot,
+              spin_orbit, dimension) -> SolveResult:
+    levels: list[Level] = []
+    notes: list[str] = []
+    kept: dict = {}
+    for ch in channels:
+        want = plan.wanted[ch.key]
+        cert = ch.certificate
+        kept[ch.key] = 0
+        for k in range(want):
+            per = {cls: runs[cls].best[ch.key][k] for cls in classes}
+            above = (not ch.confining) and any(p["energy"] + p["error"] >= ch.v_inf for p in per.values())
+            certified = cert.count is None or k < cert.count
+            if above and not certified:
+                # Beyond the certified count and not below the threshold: a
+                # state of the box (or the uncertain one), not a bound level.
+                notes.append(f"the level with {k} nodes for {_key_text(ch.key)} is not distinguishable from "
+                             "the threshold once extrapolated and is not certified bound: not listed")
+                break
+            best_cls = min(classes, key=lambda c: (not per[c]["order_ok"], per[c]["error"]))
+            best = per[best_cls]
+            energy, error = best["energy"], best["error"]
+            if len(classes) > 1:
+                spread = max(p["energy"] for p in per.values()) - min(p["energy"] for p in per.values())
+                error = max(max(p["error"] for p in per.values()), spread)
+            grid_count = runs[best_cls].grid_counts[ch.key][-1] if runs[best_cls].grid_counts[ch.key] else None
+            box_limited = above or (grid_count is not None and grid_count <= k)
+            uncertain = (not cert.certain) and cert.count is not None and k >= cert.count - 1
+            status = targets.decide(
+                error=error, energy=energy, v_infinity=ch.v_inf, grids=best["grids"],
+                # a breakpoint between grid points spoils the error series whatever the data show
+                order_ok=all(p["order_ok"] for p in per.values()) and not plan.span.left_out,
+                rounding=max(p["rounding"] for p in per.values()),
+                potential_limit=max(p["potential_limit"] for p in per.values()),
+                at_finest=any(runs[c].finest for c in classes),
+                box_limited=box_limited and (plan.at_limit or above),
+                near_degenerate=any(p["near_degenerate"] for p in per.values()),
+                count_uncertain=uncertain)
+            if status is Status.CONVERGED and any(
+                    not targets.met(p["error"], p["energy"], ch.v_inf) for p in per.values()):
+                status = Status.FINEST_GRID  # one of the methods did not get there
+            n, label = level_designation(k, ch.l, ch.j, system.name)
+            exact = None
+            if dimension == 3 and system.name == "atomic":
+                exact = ch.potential.exact_energy(k + ch.l + 1, ch.l, mu)
+            record = {
+                "status": status.value,
+                "grids": best["grids"],
+                "order": best["order"],
+                "order_ok": best["order_ok"],
+                "wall": best["wall"],
+                "inner_boundary": best["inner"],
+                "rounding_floor": best["rounding"],
+                "potential_limit": best["potential_limit"],
+                "near_degenerate": best["near_degenerate"],
+                "box": plan.span.r_max,
+                "inner_radius": ch.inner_radius,
+            }
+            levels.append(
+                Level(
+                    n=n, l=ch.l, nodes=k, label=label, energy=energy, error_estimate=error,
+                    converged=status is Status.CONVERGED, method=method_name, order=best["order"],
+                    samples=runs[best_cls].samples[ch.key][k],
+                    exact=None if exact is None else float(exact),
+                    method_energies={c.name: per[c]["energy"] for c in classes} if len(classes) > 1 else {},
+                    method_errors={c.name: per[c]["error"] for c in classes} if len(classes) > 1 else {},
+                    sample_method=best_cls.name, j=ch.j, degeneracy=_degeneracy(ch.l, ch.j, dimension),
+                    status=status, scale=targets.scale(energy, ch.v_inf), convergence=record,
+                )
+            )
+            kept[ch.key] += 1
+
+    disagreements = []
+    for ch in channels:
+        cert = ch.certificate
+        finest = [runs[c].grid_counts[ch.key][-1] for c in classes if runs[c].grid_counts[ch.key]]
+        finest = [n for n in finest if n is not None]
+        if cert.count is not None and finest and max(finest) > cert.count:
+            # A box only raises levels, so more below the threshold than the count is a contradiction.
+            disagreements.append(f"{_key_text(ch.key)}: {max(finest)} levels below the threshold on the "
+                                 f"finest grid, {cert.count} by the count")
+    if disagreements:
+        notes.append("COUNT DISAGREEMENT (" + "; ".join(disagreements) + "): the list may be incomplete")
+    bound_counts = {}
+    for ch in channels:
+        found = kept[ch.key]
+        bound_counts[ch.key] = None if found >= count else found
+    certificates = {_result_key(ch.key, spin_orbit): ch.certificate for ch in channels}
+    message = _message(channels, plan, kept, levels, count, targets, kinetic, system, notes)
+    return SolveResult(
+        levels=levels,
+        success=all(lev.converged for lev in levels) and _complete(channels, kept, count) and not disagreements,
+        message=message,
+        potential=pot,
+        mass=mu,
+        tol=targets.tol,
+        method=method_name,
+        bound_counts={_result_key(ch.key, spin_orbit): bound_counts[ch.key] for ch in channels},
+        v_infinity=min(ch.v_inf for ch in channels),
+        units=system.name,
+        dimension=dimension,
+        certificates=certificates,
+    )
+
+
+def _complete(channels, kept, count) -> bool:
+    """Every level the certificates promise (up to ``count``) is in the list, and every count is certain."""
+    for ch in channels:
+        cert = ch.certificate
+        if not cert.certain:
+            return False
+        promised = count if cert.count is None else min(count, cert.count)
+        if kept[ch.key] < promised:
+            return False
+    return True
+
+
+def _result_key(key: Key, spin_orbit: bool):
+    return _key_text(key) if spin_orbit else key[0]
+
+
+def _key_text(key: Key) -> str:
+    l, j = key
+    return f"l={l}" if j is None else f"l={l},j={int(round(2 * j))}/2"
+
+
+def _message(channels, plan, kept, levels, count, targets, kinetic, system, notes) -> str:
+    parts = []
+    none = [_key_text(ch.key) for ch in channels if kept[ch.key] == 0 and ch.certificate.count == 0]
+    if none:
+        parts.append("no bound level for " + ", ".join(none) + " (certified: the threshold-energy solution "
+                     "has no node)")
+    fewer = [f"{_key_text(ch.key)}: {ch.certificate.count}" for ch in channels
+             if ch.certificate.count is not None and 0 < ch.certificate.count < count]
+    if fewer:
+        parts.append(f"fewer bound levels than the {count} asked: " + "; ".join(fewer))
+    missing = []
+    for ch in channels:
+        cert = ch.certificate
+        promised = count if cert.count is None else min(count, cert.count)
+        if kept[ch.key] < promised:
+            missing.append(f"{_key_text(ch.key)}: {promised - kept[ch.key]} of {promised}")
+    if missing:
+        parts.append("LEVELS MISSING: the count of bound levels says more are bound than could be resolved ("
+                     + "; ".join(missing) + "): they are too weakly bound for the largest box")
+    uncertain = [f"{_key_text(ch.key)} ({ch.certificate.note})" for ch in channels if not ch.certificate.certain]
+    if uncertain:
+        parts.append("COUNT UNCERTAIN for " + "; ".join(uncertain))
+    parts.extend(notes)
+    unconverged = [lev for lev in levels if not lev.converged]
+    if unconverged:
+        worst = ", ".join(f"{lev.label} ({lev.relative_error_estimate:.1e}, {lev.status})" for lev in unconverged[:8])
+        more = f" and {len(unconverged) - 8} more" if len(unconverged) > 8 else ""
+        parts.append(f"NOT CONVERGED to tol = {targets.tol:.1e}: {worst}{more}; their estimates are what was achieved")
+    limited = [lev.label for lev in levels if lev.status is Status.POTENTIAL_ACCURACY]
+    if limited:
+        parts.append("the potential itself is known less well than tol for " + ", ".join(limited[:8])
+                     + " (e.g. a table's interpolation error weighed by the level's density): finer grids cannot help")
+    degenerate = [lev.label for lev in levels if lev.status is Status.NEAR_DEGENERATE]
+    if degenerate:
+        parts.append("nearly degenerate levels whose splitting the grids did not resolve: " + ", ".join(degenerate))
+    parts.extend(plan.notes)
+    if not levels:
+        if all(ch.certificate.count == 0 for ch in channels):
+            return "no bound state (certified for every l asked): " + "; ".join(parts)
+        return "no level resolved: " + "; ".join(parts)
+    return "; ".join(parts) if parts else f"all {len(levels)} levels converged to tol = {targets.tol:.1e}"

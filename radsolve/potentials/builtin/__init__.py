@@ -1,0 +1,1 @@
+"""The built-in potential families, one module each (see DEVELOPERS.md, "Adding a potential")."""
