@@ -572,16 +572,10 @@ def fit(potential, targets, free, bounds=None, fixed=None, mass=None, tol: float
     """
     from scipy.optimize import least_squares
 
-    from radsolve.potentials import Potential, potential as make_potential
+    from radsolve.potentials import as_potential
     from radsolve.units import unit_system
 
-    fixed = dict(fixed or {})
-    if isinstance(potential, Potential):
-        base = potential.with_parameters(**fixed)
-    elif isinstance(potential, str):
-        base = make_potential(potential, plugins=plugins, **fixed)
-    else:
-        raise InputError(f"potential must be a family name or a radsolve Potential, got {type(potential).__name__}")
+    base = as_potential(potential, plugins, fixed)
     family = base.family
     free, limits = _free_and_bounds(family, free, bounds)
     declared = getattr(family, "units", "atomic")

@@ -2,7 +2,7 @@
 
 Every quantity is computed on each grid of the level's refinement sequence
 (``Level.samples``) and Richardson-extrapolated across them, exactly as the
-energies are (:func:`radsolve.core.spectrum.richardson`), so each value carries
+energies are (:func:`radsolve.core.extrapolation.richardson`), so each value carries
 an error estimate: the larger of the last two changes of the extrapolated
 value, plus the estimated effect of the origin power law and of the outer
 wall where they matter.
@@ -24,7 +24,7 @@ from __future__ import annotations
 import math
 import numbers
 import re
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from typing import Any, Callable
 
 import numpy as np
@@ -279,7 +279,7 @@ class State:
     def _values(self, index: int) -> np.ndarray:
         """V on grid ``index`` (cached), hartree."""
         if index not in self._values_cache:
-            from radsolve.core.spectrum import potential_on_grid
+            from radsolve.core.grids import potential_on_grid
 
             self._values_cache[index] = potential_on_grid(
                 self.channel, self.grids[index].r, self.profile.breakpoints)
@@ -291,7 +291,7 @@ class State:
     def _extrapolate(self, values: list[float], unit: str, scale: float, extra: float = 0.0,
                      orders: tuple[int, ...] | None = None) -> Estimate:
         """Richardson across the samples; ``scale`` sets the rounding floor, ``extra`` is added."""
-        from radsolve.core.spectrum import richardson
+        from radsolve.core.extrapolation import richardson
 
         rounding = _rounding(self.method, self.grids[-1].r.size)
         value, estimate, observed = richardson(list(values), orders or self.orders, rounding)
@@ -728,7 +728,7 @@ class State:
                         for m in _D7}
 
         def dv_dp(g, index):
-            from radsolve.core.spectrum import potential_on_grid
+            from radsolve.core.grids import potential_on_grid
 
             total = np.zeros_like(g.r)
             for m, w in _D7.items():

@@ -320,7 +320,7 @@ def common_samples(a: list[SampleGrid], b: list[SampleGrid]) -> int:
 
 
 def _dipole(level_a, grids_a: list[SampleGrid], level_b, grids_b: list[SampleGrid], tol: float) -> Estimate:
-    from radsolve.core.spectrum import richardson
+    from radsolve.core.extrapolation import richardson
 
     k = common_samples(grids_a, grids_b)
     if k == 0:

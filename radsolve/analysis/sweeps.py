@@ -819,17 +819,6 @@ def _run_dask(settings, chunks, client, collect) -> None:
 # The sweep
 # --------------------------------------------------------------------------- #
 
-def _resolve(potential, fixed, plugins):
-    from radsolve.potentials import Potential, potential as make_potential
-
-    fixed = dict(fixed or {})
-    if isinstance(potential, Potential):
-        return potential.with_parameters(**fixed)
-    if isinstance(potential, str):
-        return make_potential(potential, plugins=plugins, **fixed)
-    raise InputError(f"potential must be a family name or a radsolve Potential, got {type(potential).__name__}")
-
-
 def _axes(base, vary) -> dict[str, np.ndarray]:
     family = base.family
     if not isinstance(vary, Mapping) or not vary:
@@ -910,9 +899,10 @@ def sweep(potential, vary: Mapping[str, Sequence], fixed: Mapping[str, Any] | No
     SweepInterrupted
         On Ctrl-C; ``.partial`` holds the points finished, which are also in ``out``.
     """
+    from radsolve.potentials import as_potential
     from radsolve.units import energy_unit_factor
 
-    base = _resolve(potential, fixed, plugins)
+    base = as_potential(potential, plugins, fixed)
     axes = _axes(base, vary)
     if workers is not None and (isinstance(workers, bool) or not isinstance(workers, (int, np.integer))
                                 or workers < 1):

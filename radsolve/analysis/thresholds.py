@@ -474,17 +474,11 @@ def _auto_bracket(problem: _ZeroEnergy, k: int, p0: float, spec) -> tuple[float,
 # --------------------------------------------------------------------------- #
 
 def _resolve(potential, fixed, plugins, parameter):
-    from radsolve.potentials import Potential, potential as make_potential
+    from radsolve.potentials import as_potential
 
-    fixed = dict(fixed or {})
     if not isinstance(parameter, str):
         raise InputError(f"parameter must be a parameter name, got {parameter!r}")
-    if isinstance(potential, Potential):
-        base = potential.with_parameters(**fixed)
-    elif isinstance(potential, str):
-        base = make_potential(potential, plugins=plugins, **fixed)
-    else:
-        raise InputError(f"potential must be a family name or a radsolve Potential, got {type(potential).__name__}")
+    base = as_potential(potential, plugins, fixed)
     family = base.family
     if parameter not in family.parameters:
         import difflib
@@ -513,7 +507,7 @@ def _parse_bracket(bracket, spec, parameter, family_name) -> tuple[float, float]
 
 
 def _richardson(series):
-    from radsolve.core.spectrum import richardson  # Numerov's error series in h**4, h**6, ...
+    from radsolve.core.extrapolation import richardson  # Numerov's error series in h**4, h**6, ...
 
     return richardson(series, (4, 6, 8, 10))
 
@@ -594,7 +588,7 @@ def _slope_on(problem: _ZeroEnergy, layout: _Layout, p_c: float, refinement: int
     delta = 1e-5 * max(abs(p_c), 1e-30)
     pot_hi, prof_hi = problem.profile(p_c + delta)
     pot_lo, prof_lo = problem.profile(p_c - delta)
-    from radsolve.core.spectrum import potential_on_grid
+    from radsolve.core.grids import potential_on_grid
 
     with np.errstate(all="ignore"):
         # potential_on_grid averages the one-sided limits at a jump, as the integration did.

@@ -28,7 +28,6 @@ extrapolation needs.
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass, field
 from typing import Iterable
 

@@ -303,7 +303,7 @@ def _law_kind(c: float, p: float) -> str:
 def _v_infinity(r: np.ndarray, v: np.ndarray) -> float:
     """lim V as r -> inf from the far samples: a limit, or inf when V keeps rising."""
     far = r >= 1.0
-    rf, vf = r[far], v[far]
+    vf = v[far]
     finite = np.isfinite(vf)
     if not finite.all():
         last = int(np.argmin(finite))  # first non-finite far sample

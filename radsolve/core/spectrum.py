@@ -38,7 +38,7 @@ bohr, or MeV and fm); ``mass`` below is always the kinetic mass m of
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, replace
 from typing import Any, Iterable
 
 import numpy as np
@@ -46,8 +46,8 @@ import numpy as np
 from radsolve.core import probe as probing
 from radsolve.core.counting import BoundCount, count_bound
 from radsolve.errors import InputError
-from radsolve.core.extrapolation import extrapolate, richardson  # noqa: F401 - richardson re-exported
-from radsolve.core.grids import GridSpan, potential_on_grid  # noqa: F401 - potential_on_grid re-exported
+from radsolve.core.extrapolation import extrapolate
+from radsolve.core.grids import GridSpan, potential_on_grid
 from radsolve.core.result import GridSample, Level, SolveResult, level_designation
 from radsolve.core.solvers.base import METHODS, RadialSolver, solver_class
 from radsolve.core.targets import Status, Targets, validated_tol
@@ -184,16 +184,6 @@ def _validate(l, count, tol, method, dimension) -> tuple[list[int], int, float, 
     if not isinstance(dimension, (int, np.integer)) or isinstance(dimension, bool) or not 2 <= dimension <= 50:
         raise InputError(f"dimension must be a whole number from 2 to 50 (got {dimension!r})")
     return ls, int(count), tol, methods, int(dimension)
-
-
-def _resolve_potential(potential, plugins):
-    if isinstance(potential, str):
-        from radsolve.potentials import potential as make_potential
-
-        return make_potential(potential, plugins=plugins)
-    if not callable(potential) or not hasattr(potential, "parameters"):
-        raise InputError(f"potential must be a family name or a radsolve Potential (got {type(potential).__name__})")
-    return potential
 
 
 def _unit_system(pot, units):
@@ -703,7 +693,9 @@ def solve(
     """
     ls, count, tol, classes, dimension = _validate(l, count, tol, method, dimension)
     method_name = method if isinstance(method, str) else getattr(method, "name", "custom")
-    pot = _resolve_potential(potential, plugins)
+    from radsolve.potentials import as_potential
+
+    pot = as_potential(potential, plugins)
     system = _unit_system(pot, units)
     mu = system.parse_mass(mass)
     low, high = _MASS_RANGE[system.name]

@@ -236,7 +236,7 @@ def plot_level_diagram(transitions, path, unit: str = "hartree", scale: str = "a
         pad = (hi / lo) ** 0.05
         ax.set_yscale("log")
         ax.set_ylim(hi * pad, lo / pad)  # inverted: weakly bound levels at the top
-        from matplotlib.ticker import LogLocator, NullFormatter, NullLocator, StrMethodFormatter
+        from matplotlib.ticker import LogLocator, NullFormatter, StrMethodFormatter
 
         decades = math.log10(hi / lo)
         subs = (1.0, 2.0, 5.0) if decades < 4 else (1.0,)

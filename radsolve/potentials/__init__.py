@@ -17,6 +17,7 @@ Plug-in authors need only this package::
 from radsolve.potentials.discovery import (
     ENTRY_POINT_GROUP,
     PLUGINS_ENV,
+    as_potential,
     broken_families,
     describe,
     discover,
@@ -38,6 +39,6 @@ from radsolve.potentials.protocol import (
 )
 
 __all__ = ["ENTRY_POINT_GROUP", "HOOKS", "PARAMETER_KINDS", "PLUGINS_ENV", "BrokenFamily", "ChannelPotential",
-           "Parameter", "Potential", "PotentialFamily", "as_parameter", "broken_families", "describe", "discover",
+           "Parameter", "Potential", "PotentialFamily", "as_parameter", "as_potential", "broken_families", "describe", "discover",
            "families", "get_family", "load_plugin_file", "make_family", "plugin_folders", "potential",
            "usable_families"]

@@ -300,6 +300,25 @@ def potential(name: str | PotentialFamily, /, plugins: Any = None, **params: Any
     return get_family(name, plugins).bind(**params)
 
 
+def as_potential(potential: Any, plugins: Any = None, fixed: Mapping[str, Any] | None = None) -> Potential:
+    """A bound potential from what a user passes: a family name or a Potential, with ``fixed`` values set.
+
+    The one place where the API's functions (solve, sweep, threshold, fit)
+    turn their ``potential`` argument into a :class:`Potential`.
+
+    Raises
+    ------
+    InputError
+        For anything else, naming what was given.
+    """
+    fixed = dict(fixed or {})
+    if isinstance(potential, str):
+        return get_family(potential, plugins).bind(**fixed)
+    if not callable(potential) or not hasattr(potential, "parameters"):
+        raise InputError(f"potential must be a family name or a radsolve Potential, got {type(potential).__name__}")
+    return potential.with_parameters(**fixed) if fixed else potential
+
+
 def describe(family: str | PotentialFamily | "Potential", plugins: Any = None) -> str:
     """Text about a family: formula, parameters (defaults, units, ranges), docstring."""
     if isinstance(family, Potential):

@@ -29,7 +29,6 @@ from __future__ import annotations
 
 import ast
 import math
-import re
 from typing import Any, Callable
 
 import numpy as np

@@ -13,8 +13,6 @@ formula): E(n, l) = -μ Z² / (2 n²) hartree for reduced mass μ (electron
 masses), independent of l, for n > l.
 """
 
-import numpy as np
-
 from radsolve.potentials import Parameter
 
 NAME = "coulomb"

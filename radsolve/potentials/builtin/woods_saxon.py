@@ -48,7 +48,6 @@ mean field: its single-particle energies are model numbers, not a
 substitute for measured separation energies.
 """
 
-import math
 
 import numpy as np
 
