@@ -30,6 +30,7 @@ from sympy.physics.hydrogen import E_nl
 from typer.testing import CliRunner
 
 from radsolve.cli import app
+from radsolve.core.protocol import Note, Outcome
 from radsolve.core.result import Level, SolveResult
 from radsolve.output import report
 
@@ -60,8 +61,9 @@ def fake_result(levels, message="", mass=1.0, name="fake_well", parameters=None,
                 v_infinity=0.0, method="fd"):
     """A SolveResult built by hand, for rendering tests only."""
     pot = SimpleNamespace(name=name, parameters=parameters or {"depth": 2.0, "width": 1.5})
-    return SolveResult(levels=levels, success=all(l.converged for l in levels),
-                       message=message, potential=pot, mass=mass, tol=1e-10,
+    return SolveResult(levels=levels,
+                       status=Outcome.SUCCESS if all(l.converged for l in levels) else Outcome.NOT_CONVERGED,
+                       notes=(Note("test", message),) if message else (), potential=pot, mass=mass, tol=1e-10,
                        method=method, bound_counts={}, v_infinity=v_infinity)
 
 
@@ -166,8 +168,10 @@ def test_levels_json_schema_and_exact_coulomb_values():
     assert [lev["label"] for lev in doc["levels"]] == ["1s", "2s", "2p", "3p"]
     for lev in doc["levels"]:
         assert set(lev) == {"n", "l", "nodes", "label", "energy", "error_estimate",
-                            "converged", "status", "exact", "deviation"}
+                            "converged", "status", "exact", "deviation", "convergence"}
         assert lev["status"] == "converged"
+        # the per-level convergence record names its cause and the grids behind it
+        assert lev["convergence"]["status"] == lev["status"] and lev["convergence"]["grids"] >= 2
         assert lev["n"] == lev["nodes"] + lev["l"] + 1
         expected = exact_hydrogenic(lev["n"], 2, 1.0)  # sympy E_nl
         assert lev["exact"] == pytest.approx(expected, rel=1e-14)
@@ -298,7 +302,7 @@ def test_non_converged_levels_exit_3_and_are_marked(monkeypatch):
 
     def not_converged(pot, **kwargs):
         return SolveResult(levels=[fake_level(1, 0, -0.5, err=1e-3, converged=False)],
-                           success=False, message="1s did not converge", potential=pot,
+                           status=Outcome.NOT_CONVERGED, notes=(Note("test", "1s did not converge"),), potential=pot,
                            mass=1.0, tol=kwargs["tol"], method="fd", bound_counts={0: None},
                            v_infinity=0.0)
 

@@ -11,6 +11,8 @@ from typing import Any
 
 import numpy as np
 
+from radsolve.core.protocol import Note, Outcome, ResultProtocol, message_of
+
 SPECTROSCOPIC_LETTERS = "spdfghiklmnoqrtuvwxyz"  # j is skipped by convention
 
 
@@ -69,6 +71,9 @@ class GridSample:
     u: np.ndarray
     energy: float
     mapping: Any = None
+
+    def __repr__(self) -> str:
+        return f"GridSample(step={self.step:.4g}, points={len(self.r)}, energy={self.energy!r})"
 
 
 @dataclass
@@ -145,6 +150,11 @@ class Level:
     scale: float | None = None
     convergence: dict[str, Any] = field(default_factory=dict)
 
+    def __repr__(self) -> str:
+        status = "" if self.status is None else f", status={str(self.status)!r}"
+        return (f"Level({self.label!r}, n={self.n}, l={self.l}, energy={self.energy!r}, "
+                f"error_estimate={self.error_estimate:.2e}{status})")
+
     @property
     def r(self) -> np.ndarray:
         """Radii of the finest grid, bohr."""
@@ -192,22 +202,43 @@ class Level:
             out["deviation"] = (self.energy - self.exact) / unit_factor
         if self.method_energies:
             out["method_energies"] = {k: v / unit_factor for k, v in self.method_energies.items()}
+        if self.convergence:
+            out["convergence"] = {k: (v / unit_factor if k in _ENERGY_RECORD_KEYS and v is not None else v)
+                                  for k, v in self.convergence.items()}
         return out
 
 
-@dataclass
-class SolveResult:
+#: The entries of a level's convergence record that are energies (converted with the level's energy).
+_ENERGY_RECORD_KEYS = frozenset({"wall", "inner_boundary", "rounding_floor", "potential_limit", "near_degenerate"})
+
+#: Columns of a level's record (CSV, pandas), in order; optional ones appear only when some level has them.
+LEVEL_COLUMNS = ("n", "l", "nodes", "label", "energy", "error_estimate", "converged")
+OPTIONAL_LEVEL_COLUMNS = (("status",), ("j", "degeneracy"), ("exact", "deviation"),
+                          ("bound_count", "bound_count_certain"))
+
+
+@dataclass(repr=False)
+class SolveResult(ResultProtocol):
     """The bound levels of one potential, as returned by :func:`radsolve.solve`.
 
     Attributes
     ----------
     levels : list of Level
         Sorted by l, then by n.
+    status : radsolve.core.protocol.Outcome
+        ``success`` when every level the counts promise (up to ``count`` per
+        partial wave) is listed and converged to ``tol``; ``not converged``
+        when some level did not reach ``tol``; ``incomplete`` when a level the
+        count says is bound is missing or a count is uncertain.
     success : bool
-        True when every returned level converged to ``tol``.
+        ``status is Outcome.SUCCESS``.
+    notes : tuple of Note
+        What the user should know, each with a code (``no_bound``,
+        ``fewer_bound``, ``levels_missing``, ``count_uncertain``,
+        ``count_disagreement``, ``not_listed``, ``not_converged``,
+        ``potential_accuracy``, ``near_degenerate``, ``box``, ...).
     message : str
-        Human-readable summary: how many levels are bound per l when fewer than
-        asked, which levels did not converge, or that nothing is bound.
+        The notes as one human-readable text.
     potential : Potential
         The potential solved.
     mass : float
@@ -235,8 +266,6 @@ class SolveResult:
     """
 
     levels: list[Level]
-    success: bool
-    message: str
     potential: Any
     mass: float
     tol: float
@@ -246,6 +275,62 @@ class SolveResult:
     units: str = "atomic"
     dimension: int = 3
     certificates: dict = field(default_factory=dict)
+    status: Outcome = Outcome.SUCCESS
+    notes: tuple[Note, ...] = ()
+
+    @property
+    def message(self) -> str:
+        if self.levels:
+            default = f"all {len(self.levels)} levels converged to tol = {self.tol:.1e}"
+        else:
+            default = "no level"
+        return message_of(self.notes, default)
+
+    def _header(self) -> list[tuple[str, Any]]:
+        params = ", ".join(f"{k}={v}" for k, v in self.potential.parameters.items())
+        return [("potential", f"{self.potential.name}({params})"), ("method", self.method), ("tol", self.tol),
+                ("unit", self._unit(None)[0]), ("levels", len(self.levels))]
+
+    def _table_columns(self):
+        return ("label", "energy", "error_estimate", "status") if any(
+            lev.status is not None for lev in self.levels) else ("label", "energy", "error_estimate", "converged")
+
+    def _count_cells(self, lev: Level) -> tuple[Any, Any]:
+        key = lev.l if lev.j is None else f"l={lev.l},j={int(round(2 * lev.j))}/2"
+        cert = (self.certificates or {}).get(key)
+        if cert is None:
+            return None, None
+        return ("inf" if cert.count is None else cert.count), bool(cert.certain)
+
+    def records(self, unit: str | None = None) -> list[dict[str, Any]]:
+        """One flat dict per level (energies in ``unit``), with the columns of the CSV output."""
+        unit, factor = self._unit(unit)
+        wanted = list(LEVEL_COLUMNS)
+        present = {
+            ("status",): any(lev.status is not None for lev in self.levels),
+            ("j", "degeneracy"): any(lev.j is not None for lev in self.levels),
+            ("exact", "deviation"): any(lev.exact is not None for lev in self.levels),
+            ("bound_count", "bound_count_certain"): bool(self.certificates),
+        }
+        for group in OPTIONAL_LEVEL_COLUMNS:
+            if present[group]:
+                wanted.extend(group)
+        wanted.append("unit")
+        rows = []
+        for lev in self.levels:
+            d = lev.to_dict(factor)
+            d["unit"] = unit
+            d["bound_count"], d["bound_count_certain"] = self._count_cells(lev)
+            rows.append({c: d.get(c) for c in wanted})
+        return rows
+
+    def _unit(self, unit: str | None) -> tuple[str, float]:
+        from radsolve.units import energy_unit_factor, unit_system
+
+        system = unit_system(self.units)
+        unit = system.energy_unit if unit is None else unit
+        # energies are stored in the system's unit: factor = (system unit) per (unit)
+        return unit, energy_unit_factor(unit) / system.energy_factor()
 
     def level(self, label: str) -> Level:
         """The level with spectroscopic ``label`` (e.g. ``"2p"``); KeyError if absent."""
@@ -264,12 +349,10 @@ class SolveResult:
 
         ``unit`` defaults to the unit system's energy unit (hartree or MeV).
         """
-        from radsolve.units import energy_unit_factor, unit_system
+        from radsolve.units import unit_system
 
         system = unit_system(self.units)
-        unit = system.energy_unit if unit is None else unit
-        # energies are stored in the system's unit: factor = (system unit) per (unit)
-        factor = energy_unit_factor(unit) / system.energy_factor()
+        unit, factor = self._unit(unit)
         return {
             "potential": self.potential.name,
             "parameters": dict(self.potential.parameters),
@@ -281,7 +364,9 @@ class SolveResult:
             "method": self.method,
             "tol": self.tol,
             "success": bool(self.success),
+            "status": str(self.status),
             "message": self.message,
+            "notes": [n.to_dict() for n in self.notes],
             "certificates": {str(k): v.to_dict() for k, v in self.certificates.items()},
             "levels": [lev.to_dict(factor) for lev in self.levels],
         }

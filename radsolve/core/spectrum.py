@@ -48,6 +48,7 @@ from radsolve.core.counting import BoundCount, count_bound
 from radsolve.errors import InputError
 from radsolve.core.extrapolation import extrapolate
 from radsolve.core.grids import GridSpan, potential_on_grid
+from radsolve.core.protocol import Note, Outcome
 from radsolve.core.result import GridSample, Level, SolveResult, level_designation
 from radsolve.core.solvers.base import METHODS, RadialSolver, solver_class
 from radsolve.core.targets import Status, Targets, validated_tol
@@ -131,7 +132,7 @@ class _Channel:
 class _BoxPlan:
     span: GridSpan
     wanted: dict
-    notes: tuple[str, ...]
+    notes: tuple[Note, ...]
     search_radius: float = 0.0  # the box in which levels were looked for
     largest_radius: float = math.inf  # no box beyond this radius
     anchors: tuple[float, ...] = ()
@@ -326,7 +327,7 @@ def _plan_box(channels, count, mass, targets: Targets, breakpoints) -> _BoxPlan:
                  *(2.0 * ch.certificate.outermost for ch in channels))
     radius = min(radius, largest)
     confining = all(ch.confining for ch in channels)
-    notes: list[str] = []
+    notes: list[Note] = []
     if not active:
         span = _span(r_min, radius, COARSE_STEP, breakpoints)
         return _BoxPlan(span, wanted, (), radius, largest, span.anchors)
@@ -358,7 +359,7 @@ def _plan_box(channels, count, mass, targets: Targets, breakpoints) -> _BoxPlan:
             continue
         break
     else:  # pragma: no cover - the loop above always reaches its limit
-        notes.append("box search did not settle")
+        notes.append(Note("box", "box search did not settle"))
     final_radius = max(needed if needed > 0 else radius, 2.0 * biggest_feature, 4.0 * r_in)
     final_radius = min(max(final_radius, min(radius, final_radius)), largest)
     if not confining:
@@ -369,12 +370,12 @@ def _plan_box(channels, count, mass, targets: Targets, breakpoints) -> _BoxPlan:
         span = _span(r_min, final_radius, COARSE_STEP / 2**halvings, breakpoints)
     at_limit = final_radius >= largest * (1 - 1e-12)
     if at_limit:
-        notes.append(f"the box reached its largest radius, {largest:.3g}; the most weakly bound levels "
-                     "may be limited by it (see their estimates)")
+        notes.append(Note("box", f"the box reached its largest radius, {largest:.3g}; the most weakly bound "
+                          "levels may be limited by it (see their estimates)"))
     if span.left_out:
-        notes.append("breakpoints too close together to all be grid points ("
-                     + ", ".join(f"{b:.6g}" for b in span.left_out) + "): the error series of every level is "
-                     "unreliable, so none is claimed converged")
+        notes.append(Note("breakpoints_left_out", "breakpoints too close together to all be grid points ("
+                          + ", ".join(f"{b:.6g}" for b in span.left_out) + "): the error series of every level "
+                          "is unreliable, so none is claimed converged"))
     return _BoxPlan(span, wanted, tuple(notes), max(radius, final_radius), largest, span.anchors, at_limit)
 
 
@@ -740,7 +741,7 @@ def _box_short(ch: _Channel, plan: _BoxPlan, run: _Run) -> bool:
 def _assemble(channels, plan, runs, classes, method_name, count, targets, kinetic, mu, system, pot,
               spin_orbit, dimension) -> SolveResult:
     levels: list[Level] = []
-    notes: list[str] = []
+    notes: list[Note] = []
     kept: dict = {}
     for ch in channels:
         want = plan.wanted[ch.key]
@@ -753,8 +754,9 @@ def _assemble(channels, plan, runs, classes, method_name, count, targets, kineti
             if above and not certified:
                 # Beyond the certified count and not below the threshold: a
                 # state of the box (or the uncertain one), not a bound level.
-                notes.append(f"the level with {k} nodes for {_key_text(ch.key)} is not distinguishable from "
-                             "the threshold once extrapolated and is not certified bound: not listed")
+                notes.append(Note("not_listed", f"the level with {k} nodes for {_key_text(ch.key)} is not "
+                                  "distinguishable from the threshold once extrapolated and is not certified "
+                                  "bound: not listed", _key_text(ch.key)))
                 break
             best_cls = min(classes, key=lambda c: (not per[c]["order_ok"], per[c]["error"]))
             best = per[best_cls]
@@ -819,17 +821,23 @@ def _assemble(channels, plan, runs, classes, method_name, count, targets, kineti
             disagreements.append(f"{_key_text(ch.key)}: {max(finest)} levels below the threshold on the "
                                  f"finest grid, {cert.count} by the count")
     if disagreements:
-        notes.append("COUNT DISAGREEMENT (" + "; ".join(disagreements) + "): the list may be incomplete")
+        notes.append(Note("count_disagreement", "COUNT DISAGREEMENT (" + "; ".join(disagreements)
+                          + "): the list may be incomplete"))
     bound_counts = {}
     for ch in channels:
         found = kept[ch.key]
         bound_counts[ch.key] = None if found >= count else found
     certificates = {_result_key(ch.key, spin_orbit): ch.certificate for ch in channels}
-    message = _message(channels, plan, kept, levels, count, targets, kinetic, system, notes)
+    if not (_complete(channels, kept, count) and not disagreements):
+        outcome = Outcome.INCOMPLETE
+    elif not all(lev.converged for lev in levels):
+        outcome = Outcome.NOT_CONVERGED
+    else:
+        outcome = Outcome.SUCCESS
     return SolveResult(
         levels=levels,
-        success=all(lev.converged for lev in levels) and _complete(channels, kept, count) and not disagreements,
-        message=message,
+        status=outcome,
+        notes=tuple(_notes(channels, plan, kept, levels, count, targets, notes)),
         potential=pot,
         mass=mu,
         tol=targets.tol,
@@ -863,16 +871,21 @@ def _key_text(key: Key) -> str:
     return f"l={l}" if j is None else f"l={l},j={int(round(2 * j))}/2"
 
 
-def _message(channels, plan, kept, levels, count, targets, kinetic, system, notes) -> str:
-    parts = []
+def _notes(channels, plan, kept, levels, count, targets, notes) -> list[Note]:
+    """The notes of a solve, most important first."""
+    out: list[Note] = []
     none = [_key_text(ch.key) for ch in channels if kept[ch.key] == 0 and ch.certificate.count == 0]
     if none:
-        parts.append("no bound level for " + ", ".join(none) + " (certified: the threshold-energy solution "
-                     "has no node)")
+        lead = "no bound state (certified for every l asked)" if not levels and len(none) == len(channels) else \
+            "no bound level for " + ", ".join(none)
+        out.append(Note("no_bound", lead + ": the threshold-energy solution has no node",
+                        ", ".join(none)))
+    elif not levels:
+        out.append(Note("none_resolved", "no level resolved"))
     fewer = [f"{_key_text(ch.key)}: {ch.certificate.count}" for ch in channels
              if ch.certificate.count is not None and 0 < ch.certificate.count < count]
     if fewer:
-        parts.append(f"fewer bound levels than the {count} asked: " + "; ".join(fewer))
+        out.append(Note("fewer_bound", f"fewer bound levels than the {count} asked: " + "; ".join(fewer)))
     missing = []
     for ch in channels:
         cert = ch.certificate
@@ -880,27 +893,27 @@ def _message(channels, plan, kept, levels, count, targets, kinetic, system, note
         if kept[ch.key] < promised:
             missing.append(f"{_key_text(ch.key)}: {promised - kept[ch.key]} of {promised}")
     if missing:
-        parts.append("LEVELS MISSING: the count of bound levels says more are bound than could be resolved ("
-                     + "; ".join(missing) + "): they are too weakly bound for the largest box")
+        out.append(Note("levels_missing", "LEVELS MISSING: the count of bound levels says more are bound than "
+                        "could be resolved (" + "; ".join(missing) + "): they are too weakly bound for the "
+                        "largest box"))
     uncertain = [f"{_key_text(ch.key)} ({ch.certificate.note})" for ch in channels if not ch.certificate.certain]
     if uncertain:
-        parts.append("COUNT UNCERTAIN for " + "; ".join(uncertain))
-    parts.extend(notes)
+        out.append(Note("count_uncertain", "COUNT UNCERTAIN for " + "; ".join(uncertain)))
+    out.extend(notes)
     unconverged = [lev for lev in levels if not lev.converged]
     if unconverged:
         worst = ", ".join(f"{lev.label} ({lev.relative_error_estimate:.1e}, {lev.status})" for lev in unconverged[:8])
         more = f" and {len(unconverged) - 8} more" if len(unconverged) > 8 else ""
-        parts.append(f"NOT CONVERGED to tol = {targets.tol:.1e}: {worst}{more}; their estimates are what was achieved")
+        out.append(Note("not_converged", f"NOT CONVERGED to tol = {targets.tol:.1e}: {worst}{more}; their "
+                        "estimates are what was achieved", ", ".join(lev.label for lev in unconverged)))
     limited = [lev.label for lev in levels if lev.status is Status.POTENTIAL_ACCURACY]
     if limited:
-        parts.append("the potential itself is known less well than tol for " + ", ".join(limited[:8])
-                     + " (e.g. a table's interpolation error weighed by the level's density): finer grids cannot help")
+        out.append(Note("potential_accuracy", "the potential itself is known less well than tol for "
+                        + ", ".join(limited[:8]) + " (e.g. a table's interpolation error weighed by the level's "
+                        "density): finer grids cannot help", ", ".join(limited)))
     degenerate = [lev.label for lev in levels if lev.status is Status.NEAR_DEGENERATE]
     if degenerate:
-        parts.append("nearly degenerate levels whose splitting the grids did not resolve: " + ", ".join(degenerate))
-    parts.extend(plan.notes)
-    if not levels:
-        if all(ch.certificate.count == 0 for ch in channels):
-            return "no bound state (certified for every l asked): " + "; ".join(parts)
-        return "no level resolved: " + "; ".join(parts)
-    return "; ".join(parts) if parts else f"all {len(levels)} levels converged to tol = {targets.tol:.1e}"
+        out.append(Note("near_degenerate", "nearly degenerate levels whose splitting the grids did not resolve: "
+                        + ", ".join(degenerate), ", ".join(degenerate)))
+    out.extend(plan.notes)
+    return out
