@@ -54,6 +54,31 @@ _EXPORTS = {
     "transitions_from": ("radsolve.analysis.radiative", "transitions_from"),
     "radial_dipole": ("radsolve.analysis.radiative", "radial_dipole"),
     "TransitionResult": ("radsolve.analysis.radiative", "TransitionResult"),
+    # every result type, and the protocol they share
+    "ResultProtocol": ("radsolve.core.protocol", "ResultProtocol"),
+    "Outcome": ("radsolve.core.protocol", "Outcome"),
+    "Note": ("radsolve.core.protocol", "Note"),
+    "StateSummary": ("radsolve.analysis.observables", "StateSummary"),
+    "SweepResult": ("radsolve.analysis.sweeps", "SweepResult"),
+    "ThresholdResult": ("radsolve.analysis.thresholds", "ThresholdResult"),
+    "CriticalValues": ("radsolve.analysis.thresholds", "CriticalValues"),
+    "FitResult": ("radsolve.analysis.fitting", "FitResult"),
+    "CheckReport": ("radsolve.analysis.convergence", "CheckReport"),
+    # potentials and methods
+    "Potential": ("radsolve.potentials", "Potential"),
+    "RadialSolver": ("radsolve.core.solvers", "RadialSolver"),
+    "METHODS": ("radsolve.core.solvers", "METHODS"),
+    # errors
+    "InputError": ("radsolve.errors", "InputError"),
+    "PluginError": ("radsolve.errors", "PluginError"),
+    "UnboundedBelowError": ("radsolve.errors", "UnboundedBelowError"),
+    "NoThresholdError": ("radsolve.analysis.thresholds", "NoThresholdError"),
+    "SweepPointFailed": ("radsolve.analysis.sweeps", "SweepPointFailed"),
+    # plots (matplotlib is imported when one is drawn)
+    "plot_wavefunction": ("radsolve.output.plotting", "plot_wavefunction"),
+    "plot_level_diagram": ("radsolve.output.plotting", "plot_level_diagram"),
+    "plot_sweep": ("radsolve.output.sweep_plotting", "plot_sweep"),
+    "plot_fit": ("radsolve.output.sweep_plotting", "plot_fit"),
 }
 
 __all__ = sorted(_EXPORTS)

@@ -28,7 +28,10 @@ model has no fine structure, no Lamb shift and no finite nuclear size.
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Callable, Sequence
+from typing import Any, Callable, Sequence
+
+from radsolve.core.protocol import Note, Outcome, ResultProtocol
+from radsolve.core.solvers.registry import METHODS
 
 #: How much the error estimate may understate the true error (common practice).
 UNDERSTATEMENT_FACTOR = 10.0
@@ -37,7 +40,7 @@ DOUBLE_PRECISION_FLOOR = 1e-14
 
 DEFAULT_CHARGES = (1, 2, 10, 92)
 DEFAULT_MASSES = (1.0, "electron+proton", "muon+proton")
-DEFAULT_METHODS = ("fd", "numerov")
+DEFAULT_METHODS = tuple(METHODS)  # every registered method
 
 
 def exact_coulomb_energy(n: int, Z: float, mass: float) -> float:
@@ -131,8 +134,8 @@ class CheckRow:
         return any(o.failed for o in self.outcomes.values())
 
 
-@dataclass
-class CheckReport:
+@dataclass(repr=False)
+class CheckReport(ResultProtocol):
     """What :func:`check` found.
 
     Attributes
@@ -145,6 +148,9 @@ class CheckReport:
         The methods compared.
     failures : list of str
         One line per failing (level, method): which, and why.
+    status : Outcome
+        ``success`` when every level passed, ``failed`` otherwise (the
+        command line exits with 1).
     """
 
     rows: list[CheckRow]
@@ -155,6 +161,44 @@ class CheckReport:
     @property
     def passed(self) -> bool:
         return not self.failures and bool(self.rows)
+
+    @property
+    def status(self) -> Outcome:
+        return Outcome.SUCCESS if self.passed else Outcome.FAILED
+
+    @property
+    def notes(self) -> tuple[Note, ...]:
+        if not self.rows:
+            return (Note("nothing_compared", "nothing was compared"),)
+        return tuple(Note("wrong_level", text) for text in self.failures)
+
+    @property
+    def message(self) -> str:
+        return self.verdict
+
+    def _header(self) -> list[tuple[str, Any]]:
+        return [("tol", self.tol), ("methods", ",".join(self.methods)), ("levels", len(self.rows))]
+
+    def _table_columns(self):
+        return ("label", "Z", "mass", "method", "relative_error", "relative_estimate", "passed")
+
+    def records(self, unit: str | None = None) -> list[dict[str, Any]]:
+        """One row per (level, method): the exact and computed energies (hartree), errors, verdict."""
+        rows = []
+        for row in self.rows:
+            for method, o in row.outcomes.items():
+                rows.append({"label": row.label, "n": row.n, "l": row.l, "Z": row.Z, "mass": row.mass,
+                             "mass_name": row.mass_name, "method": method, "exact": row.exact,
+                             "energy": o.energy, "error_estimate": o.error_estimate,
+                             "relative_error": o.relative_error, "relative_estimate": o.relative_estimate,
+                             "order": o.order, "converged": o.converged, "passed": not o.failed,
+                             "problems": list(o.problems)})
+        return rows
+
+    def to_dict(self, unit: str | None = None) -> dict[str, Any]:
+        return {"tol": self.tol, "methods": list(self.methods), "success": self.success,
+                "status": str(self.status), "message": self.message,
+                "notes": [n.to_dict() for n in self.notes], "rows": self.records(unit)}
 
     @property
     def verdict(self) -> str:
@@ -191,7 +235,7 @@ def _coulomb(Z: float):
     return potential("coulomb", Z=Z)
 
 
-def check(tol: float = 1e-10,
+def check(tol: float = 1e-10, *,
           charges: Sequence[float] = DEFAULT_CHARGES,
           masses: Sequence[float | str] = DEFAULT_MASSES,
           nmax: int = 10,

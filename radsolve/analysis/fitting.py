@@ -54,6 +54,7 @@ import numpy as np
 
 from radsolve.errors import InputError, RadsolveError
 from radsolve.analysis.thresholds import parse_level
+from radsolve.core.protocol import Note, Outcome, ResultProtocol, message_of
 
 #: The one-line caveat carried by the fit table and JSON ("note").
 MODEL_NOTE = ("model calculation: the fitted values describe a model potential, not measured "
@@ -252,8 +253,8 @@ class FitResidual:
         return (self.computed - self.target) / self.uncertainty if self.bound else math.nan
 
 
-@dataclass
-class FitResult:
+@dataclass(repr=False)
+class FitResult(ResultProtocol):
     """The outcome of :func:`fit`; energies in hartree, parameters in atomic units.
 
     Attributes
@@ -276,10 +277,22 @@ class FitResult:
     spurious : list of (label, energy)
         Levels bound by the fitted potential below the highest target that
         are not targets (possible spurious states).
+    notes : tuple of Note
+        What to know about the fit, coded: ``not_bound``, ``not_converged``,
+        ``uncertain_level``, ``undetermined``, ``at_bound``, ``optimizer``,
+        ``no_dof``, ``spurious``, ``spurious_search``.
     warnings : list of str
+        The notes' texts.
+    status : Outcome
+        ``success`` when the optimizer converged and every target is bound
+        and converged; ``not converged`` when the optimizer stopped early or a
+        target level did not converge; ``incomplete`` when a target is not
+        bound by the fitted potential.
     success : bool
-        The optimizer converged, every target is bound and converged.
+        ``status is Outcome.SUCCESS``.
     message : str
+        The notes as one text (the optimizer's message when there are none).
+    optimizer_message : str
         The optimizer's own message.
     evaluations : int
         Solves made (each a full spectrum).
@@ -305,15 +318,35 @@ class FitResult:
     dof: int
     residuals: list[FitResidual]
     spurious: list[tuple[str, float]]
-    warnings: list[str]
-    success: bool
-    message: str
+    notes: tuple[Note, ...]
+    status: Outcome
+    optimizer_message: str
     evaluations: int
     mass: float
     tol: float
     parameter_units: dict[str, str] = field(default_factory=dict)
     units: str = "atomic"
     energy_unit: str = "hartree"
+
+    @property
+    def warnings(self) -> list[str]:
+        return [n.text for n in self.notes]
+
+    @property
+    def message(self) -> str:
+        return message_of(self.notes, f"fit converged ({self.optimizer_message})")
+
+    def _header(self) -> list[tuple[str, Any]]:
+        return [("potential", self.potential), *((k, self.values[k]) for k in self.free),
+                ("chi2", self.chi2), ("dof", self.dof)]
+
+    def _table_columns(self):
+        return ("label", "target", "computed", "residual", "bound")
+
+    def records(self, unit: str | None = None) -> list[dict[str, Any]]:
+        """One row per target (the ``residuals`` of :meth:`to_dict`)."""
+        doc = self.to_dict(unit)
+        return [dict(row, unit=doc["unit"]) for row in doc["residuals"]]
 
     @property
     def chi2_per_dof(self) -> float:
@@ -352,7 +385,8 @@ class FitResult:
             "spurious": [{"label": lab, "energy": e / f} for lab, e in self.spurious],
             "warnings": list(self.warnings),
             "note": MODEL_NOTE,
-            "success": bool(self.success), "message": self.message,
+            "success": bool(self.success), "status": str(self.status), "message": self.message,
+            "notes": [n.to_dict() for n in self.notes], "optimizer_message": self.optimizer_message,
             "evaluations": self.evaluations, "mass": self.mass, "tol": self.tol, "units": self.units,
             "parameters": dict(self.parameters),
         }
@@ -531,7 +565,7 @@ def _spurious(pot, targets: Sequence[Target], options, to_hartree: float) -> tup
     return extra, notes
 
 
-def fit(potential, targets, free, bounds=None, fixed=None, mass=None, tol: float = 1e-10,
+def fit(potential, targets, *, free, bounds=None, fixed=None, mass=None, tol: float = 1e-10,
         method: str = "fd", plugins=None, max_evaluations: int = 400, dimension: int = 3,
         units: str | None = None) -> FitResult:
     """Fit free parameters of a potential family to target levels.
@@ -636,7 +670,7 @@ def fit(potential, targets, free, bounds=None, fixed=None, mass=None, tol: float
     corr[~np.isfinite(corr)] = math.nan
     np.fill_diagonal(corr, 1.0)
 
-    warnings: list[str] = []
+    notes: list[Note] = []
     residuals: list[FitResidual] = []
     for t in target_list:
         lev = found.get((t.l, t.j, t.nodes))
@@ -644,33 +678,38 @@ def fit(potential, targets, free, bounds=None, fixed=None, mass=None, tol: float
                                      lev.energy * to_hartree if lev else math.nan,
                                      lev.error_estimate * to_hartree if lev else math.nan, lev is not None))
         if lev is None:
-            warnings.append(f"target {t.label} is not bound by the fitted potential")
+            notes.append(Note("not_bound", f"target {t.label} is not bound by the fitted potential", t.label))
         elif not lev.converged:
-            warnings.append(f"{t.label} did not converge to tol = {tol:g}")
+            notes.append(Note("not_converged", f"{t.label} did not converge to tol = {tol:g}", t.label))
         elif lev.error_estimate * to_hartree > 0.1 * t.uncertainty:
-            warnings.append(f"the computed {t.label} is uncertain by {lev.error_estimate * to_hartree:.2g} hartree, "
-                            f"more than a tenth of its target uncertainty; use a smaller tol")
+            notes.append(Note("uncertain_level", f"the computed {t.label} is uncertain by {lev.error_estimate * to_hartree:.2g} hartree, "
+                            f"more than a tenth of its target uncertainty; use a smaller tol", t.label))
     for j in weak:
-        warnings.append(f"{free[j]} is not determined by these targets (singular Jacobian): "
-                        "its standard error is infinite")
+        notes.append(Note("undetermined", f"{free[j]} is not determined by these targets (singular Jacobian): "
+                        "its standard error is infinite", free[j]))
     for k, v, a, b in zip(free, best, lo, hi):
         span = max(abs(v), 1e-30)
         if (math.isfinite(a) and v - a <= 1e-6 * span) or (math.isfinite(b) and b - v <= 1e-6 * span):
-            warnings.append(f"{k} = {v:.10g} is at a bound: its standard error from the Jacobian is not "
-                            "meaningful, and a better fit may lie beyond the bound")
+            notes.append(Note("at_bound", f"{k} = {v:.10g} is at a bound: its standard error from the Jacobian is not "
+                            "meaningful, and a better fit may lie beyond the bound", k))
     if not solution.success:
-        warnings.append(f"the optimizer stopped without converging: {solution.message}")
+        notes.append(Note("optimizer", f"the optimizer stopped without converging: {solution.message}"))
     if dof == 0:
-        warnings.append("as many targets as free parameters: chi^2/dof is undefined and the fit "
-                        "cannot be judged by it")
+        notes.append(Note("no_dof", "as many targets as free parameters: chi^2/dof is undefined and the fit "
+                        "cannot be judged by it"))
     pot = base.with_parameters(**dict(zip(free, (float(v) for v in best))))
-    spurious, notes = _spurious(pot, target_list, options, to_hartree)
+    spurious, search_notes = _spurious(pot, target_list, options, to_hartree)
     if spurious:
         highest = max(target_list, key=lambda t: t.energy).label
-        warnings.append(f"possible spurious states: the fitted potential binds "
+        notes.append(Note("spurious", f"possible spurious states: the fitted potential binds "
                         f"{', '.join(lab for lab, _ in spurious)} below the highest target ({highest}), "
-                        "and they are not among the targets")
-    warnings += notes
+                        "and they are not among the targets"))
+    notes += [Note("spurious_search", text) for text in search_notes]
+    all_bound = all(r.bound for r in residuals)
+    all_converged = all(found[(t.l, t.j, t.nodes)].converged for t in target_list if (t.l, t.j, t.nodes) in found)
+    # The optimizer stopping early is "not converged" (the fit's own iteration), like a level's.
+    status = (Outcome.INCOMPLETE if not all_bound else
+              Outcome.NOT_CONVERGED if not (solution.success and all_converged) else Outcome.SUCCESS)
     return FitResult(
         potential=family.name, free=tuple(free),
         values={k: float(v) for k, v in zip(free, best)},
@@ -680,10 +719,8 @@ def fit(potential, targets, free, bounds=None, fixed=None, mass=None, tol: float
         bounds={k: limits[k] for k in free},
         parameters=dict(pot.parameters),
         covariance=cov, correlation=corr, chi2=chi2, dof=dof,
-        residuals=residuals, spurious=spurious, warnings=warnings,
-        success=bool(solution.success) and all(r.bound for r in residuals)
-        and all(found[(t.l, t.j, t.nodes)].converged for t in target_list if (t.l, t.j, t.nodes) in found),
-        message=str(solution.message), evaluations=model.evaluations, mass=mu, tol=tol,
+        residuals=residuals, spurious=spurious, notes=tuple(notes), status=status,
+        optimizer_message=str(solution.message), evaluations=model.evaluations, mass=mu, tol=tol,
         parameter_units={k: family.parameters[k].unit for k in free},
         units=system.name, energy_unit=system.energy_unit,
     )

@@ -30,6 +30,7 @@ from typing import Any, Callable
 import numpy as np
 
 from radsolve.errors import InputError, RadsolveError
+from radsolve.core.protocol import Note, Outcome, ResultProtocol, message_of
 from radsolve.core.wavefunctions import (
     SampleGrid,
     _cumulative,
@@ -201,8 +202,12 @@ def _check_positive_int(value, name: str) -> int:
     return int(value)
 
 
-class State:
+class State(ResultProtocol):
     """One computed bound level, with the potential and mass that made it.
+
+    It follows the result protocol (``status``, ``message``, ``to_dict``,
+    ``records``, ...): its status is its level's (``success`` when the energy
+    converged); :meth:`summary` computes and judges the expectation values.
 
     Build it with :func:`state` (solves for the level) or
     :meth:`State.from_result` (from a :class:`radsolve.SolveResult`).
@@ -271,8 +276,67 @@ class State:
         return Estimate(lev.energy, lev.error_estimate, "hartree", lev.order, bool(lev.converged))
 
     def __repr__(self) -> str:
+        # one line: the observables are computed on demand, never by a repr
         return (f"State({self.label}, {self.potential!r}, mass={self.mass:.10g}, "
-                f"E={self.level.energy:.12g} hartree)")
+                f"E={self.level.energy:.12g} hartree, status={str(self.status)!r})")
+
+    # ------------------------------------------------------------ result protocol
+
+    @property
+    def status(self) -> Outcome:
+        return Outcome.SUCCESS if self.level.converged else Outcome.NOT_CONVERGED
+
+    @property
+    def notes(self) -> tuple[Note, ...]:
+        lev = self.level
+        if lev.converged:
+            return ()
+        return (Note("not_converged", f"the energy of {lev.label} did not converge to tol = {self.tol:.1e} "
+                     f"({lev.status}); its estimate is what was achieved", lev.label),)
+
+    @property
+    def message(self) -> str:
+        return message_of(self.notes, f"{self.label} converged to tol = {self.tol:.1e}")
+
+    def _header(self) -> list[tuple[str, Any]]:
+        return [("label", self.label), ("energy", self.level.energy), ("mass", self.mass)]
+
+    def to_dict(self, unit: str | None = None) -> dict[str, Any]:
+        """The level and where it came from (energies in hartree; :meth:`summary` has the observables)."""
+        lev = self.level
+        return {"label": lev.label, "n": lev.n, "l": lev.l, "energy": lev.energy,
+                "error_estimate": lev.error_estimate, "converged": bool(lev.converged),
+                "potential": self.potential.name, "parameters": dict(self.potential.parameters),
+                "mass": self.mass, "tol": self.tol, "success": self.success, "status": str(self.status),
+                "message": self.message, "notes": [n.to_dict() for n in self.notes]}
+
+    def records(self, unit: str | None = None) -> list[dict[str, Any]]:
+        doc = self.to_dict(unit)
+        return [{k: v for k, v in doc.items() if k not in ("parameters", "notes", "message")}]
+
+    def summary(self, moments=(), inside=(), hellmann_feynman=()) -> "StateSummary":
+        """The energy, :meth:`properties` and the extra quantities asked for, with one verdict.
+
+        ``moments``: powers k of extra ⟨r^k⟩; ``inside``: radii R (bohr) of
+        P(r < R); ``hellmann_feynman``: parameter names whose dE/dp and
+        ⟨∂V/∂p⟩ are compared.  The summary's status is ``not converged`` when
+        the energy or any quantity shown (the virial ratio included) did not
+        reach its target.
+        """
+        return StateSummary(self, self.properties(), self.extra_quantities(moments, inside, hellmann_feynman))
+
+    def extra_quantities(self, moments=(), inside=(), hellmann_feynman=()) -> list[tuple[str, str, Estimate]]:
+        """(name, unit, Estimate) of each extra ⟨r^k⟩, P(r < R) and Hellmann–Feynman pair (see :meth:`summary`)."""
+        extra: list[tuple[str, str, Estimate]] = []
+        for k in moments:
+            extra.append((f"<r^{k:g}>", f"bohr^{k:g}", self.moment(k)))
+        for radius in inside:
+            extra.append((f"P(r < {radius:g})", "", self.probability_inside(radius)))
+        for parameter in hellmann_feynman:
+            check = self.hellmann_feynman(parameter)
+            extra.append((f"dE/d{parameter} (re-solved)", check.derivative.unit, check.derivative))
+            extra.append((f"<dV/d{parameter}>", check.expectation.unit, check.expectation))
+        return extra
 
     # ------------------------------------------------------------ machinery
 
@@ -785,6 +849,79 @@ class State:
             potential=self.potential.name, parameters=self.potential.parameters)
 
 
+@dataclass(repr=False)
+class StateSummary(ResultProtocol):
+    """What one state implies, judged once: made by :meth:`State.summary`.
+
+    Attributes
+    ----------
+    state : State
+    properties : dict
+        :meth:`State.properties`.
+    extra : list of (name, unit, Estimate)
+        The moments, probabilities and Hellmann–Feynman pairs asked for.
+    quantities : list of (name, Estimate)
+        Everything judged: the energy, each converged-or-not property, the
+        extras and the virial ratio (when the virial check applies).
+    status : Outcome
+        ``not converged`` when one of ``quantities`` did not converge.
+    """
+
+    state: State
+    properties: dict[str, Any]
+    extra: list[tuple[str, str, Estimate]]
+
+    @property
+    def quantities(self) -> list[tuple[str, Estimate]]:
+        props = self.properties
+        shown = [("energy", props["energy"])] + [(k, v) for k, v in props.items()
+                                                 if isinstance(v, Estimate) and k != "energy"]
+        shown += [(k, v) for k, _, v in self.extra]
+        virial = props.get("virial")
+        if virial is not None and virial.available and virial.ratio is not None:
+            shown.append(("virial ratio", virial.ratio))
+        return shown
+
+    @property
+    def unconverged(self) -> list[str]:
+        """Names of the quantities that did not converge."""
+        return [k for k, v in self.quantities if not v.converged]
+
+    @property
+    def status(self) -> Outcome:
+        return Outcome.NOT_CONVERGED if self.unconverged else Outcome.SUCCESS
+
+    @property
+    def notes(self) -> tuple[Note, ...]:
+        bad = self.unconverged
+        if not bad:
+            return ()
+        return (Note("not_converged", f"not converged: {', '.join(bad)} (their estimates are what was "
+                     "achieved)", ", ".join(bad)),)
+
+    @property
+    def message(self) -> str:
+        return message_of(self.notes, f"{self.state.label}: every quantity converged")
+
+    def _header(self) -> list[tuple[str, Any]]:
+        return [("label", self.state.label), ("energy", self.state.level.energy),
+                ("quantities", len(self.quantities))]
+
+    def records(self, unit: str | None = None) -> list[dict[str, Any]]:
+        """One row per quantity: name, value, error_estimate, unit, converged (energies in hartree)."""
+        return [{"quantity": k, "value": v.value, "error_estimate": v.error, "unit": v.unit,
+                 "converged": bool(v.converged)} for k, v in self.quantities]
+
+    def to_dict(self, unit: str | None = None) -> dict[str, Any]:
+        st = self.state
+        props = plain_properties(self.properties)
+        props.update({name: est.to_dict() for name, _, est in self.extra})
+        return {"label": st.label, "n": st.n, "l": st.l, "potential": st.potential.name,
+                "parameters": dict(st.potential.parameters), "mass": st.mass, "tol": st.tol,
+                "success": self.success, "status": str(self.status), "message": self.message,
+                "notes": [n.to_dict() for n in self.notes], "properties": props}
+
+
 def correction_power(profile) -> float:
     """q in u = C r**lambda (1 + O(r**q)) near the origin: p + 2 for V ~ c r**p, capped to [0.25, 1]."""
     c, p = profile.small_r_coefficient, profile.small_r_power
@@ -826,7 +963,7 @@ def plain_properties(props: dict[str, Any]) -> dict[str, Any]:
     return out
 
 
-def state(potential, n: int, l: int, mass=None, tol: float = 1e-10, method: str = "fd",
+def state(potential, n: int, l: int, *, mass=None, tol: float = 1e-10, method: str = "fd",
           plugins=None) -> State:
     """Solve for the single level (n, l) of ``potential`` and return it as a :class:`State`.
 

@@ -48,6 +48,7 @@ import numpy as np
 
 from radsolve.errors import InputError
 from radsolve.analysis.observables import Estimate, channel_potential, check_atomic_3d, correction_power
+from radsolve.core.protocol import Note, Outcome, ResultProtocol, message_of, worst
 from radsolve.core.wavefunctions import SampleGrid, prepared_samples
 
 #: Largest nmax accepted: every level's wavefunction on every grid is kept in
@@ -187,8 +188,8 @@ class StateDecay:
         }
 
 
-@dataclass
-class TransitionResult:
+@dataclass(repr=False)
+class TransitionResult(ResultProtocol):
     """Every E1 line among the levels with n <= nmax (and the lower levels they reach).
 
     Attributes
@@ -203,10 +204,18 @@ class TransitionResult:
     dipole_charge : float
     occupied : list of str
         Levels treated as filled (left out).
+    status : Outcome
+        ``success`` when every level and every radial integral converged and
+        every lifetime is complete; ``not converged`` when a level or a radial
+        integral did not reach ``tol``; ``incomplete`` when a lifetime may
+        miss a decay channel or the solve itself was incomplete.
     success : bool
-        Every level and every radial integral converged, and every lifetime
-        is complete.
+        ``status is Outcome.SUCCESS``.
+    notes : tuple of Note
+        Codes ``occupied``, ``lower_levels_added``, ``not_converged``,
+        ``lifetime_incomplete``, ``solve`` (the solve's own message).
     message : str
+        The notes as one text.
     """
 
     lines: list[Line]
@@ -214,9 +223,51 @@ class TransitionResult:
     result: Any
     nmax: int
     dipole_charge: float
-    success: bool
-    message: str
+    status: Outcome = Outcome.SUCCESS
+    notes: tuple[Note, ...] = ()
     occupied: list[str] = field(default_factory=list)
+
+    #: The model-calculation caveat in one line (CSV comment, table footer).
+    short_note = ("model calculation (nonrelativistic, spinless, E1 only); for rates used in "
+                  "diagnostics or safety work, use evaluated data compilations.")
+
+    @property
+    def message(self) -> str:
+        return message_of(self.notes, f"{len(self.lines)} E1 line{'s' if len(self.lines) != 1 else ''} among "
+                          f"{len(self.states)} level{'s' if len(self.states) != 1 else ''}, all converged")
+
+    def _header(self) -> list[tuple[str, Any]]:
+        res = self.result
+        params = ", ".join(f"{k}={v}" for k, v in res.potential.parameters.items())
+        return [("potential", f"{res.potential.name}({params})"), ("nmax", self.nmax),
+                ("lines", len(self.lines)), ("states", len(self.states))]
+
+    def _table_columns(self):
+        return ("record", "upper", "lower", "label", "wavelength_nm", "einstein_A", "lifetime_s")
+
+    def records(self, unit: str | None = None) -> list[dict[str, Any]]:
+        """One row per line (``record`` 'line'), then one per level (``record`` 'state'); see the CSV output."""
+        from radsolve.units import energy_unit_factor
+
+        unit = "hartree" if unit is None else unit
+        factor = energy_unit_factor(unit)
+        rows: list[dict[str, Any]] = []
+        for x in self.lines:
+            rows.append(dict(record="line", upper=x.upper, lower=x.lower, label=None, energy=x.energy / factor,
+                             energy_error=x.energy_error / factor, wavelength_nm=x.wavelength_nm,
+                             oscillator_strength=x.oscillator_strength, einstein_A=x.einstein_A,
+                             branching_ratio=x.branching_ratio, lifetime_s=None, metastable=None, ground=None,
+                             unit=unit))
+        for st in self.states:
+            rows.append(dict(record="state", upper=None, lower=None, label=st.label, energy=st.energy / factor,
+                             energy_error=st.energy_error / factor, wavelength_nm=None, oscillator_strength=None,
+                             einstein_A=None, branching_ratio=None, lifetime_s=st.lifetime_s,
+                             metastable=str(st.metastable).lower(), ground=str(st.ground).lower(), unit=unit))
+        return rows
+
+    def to_csv(self, unit: str | None = None) -> str:
+        """:meth:`records` as CSV, after a ``#`` comment line saying these are model rates."""
+        return f"# Note: {self.short_note}\n" + super().to_csv(unit)
 
     # ------------------------------------------------------------ arrays
 
@@ -266,10 +317,11 @@ class TransitionResult:
 
     # ------------------------------------------------------------ plain data
 
-    def to_dict(self, unit: str = "hartree") -> dict[str, Any]:
-        """The JSON document of ``radsolve transitions``, energies in ``unit``."""
+    def to_dict(self, unit: str | None = None) -> dict[str, Any]:
+        """The JSON document of ``radsolve transitions``, energies in ``unit`` (default hartree)."""
         from radsolve.units import energy_unit_factor
 
+        unit = "hartree" if unit is None else unit
         factor = energy_unit_factor(unit)
         res = self.result
         return {
@@ -283,7 +335,9 @@ class TransitionResult:
             "dipole_charge": self.dipole_charge,
             "occupied": list(self.occupied),
             "success": bool(self.success),
+            "status": str(self.status),
             "message": self.message,
+            "notes": [n.to_dict() for n in self.notes],
             "conventions": dict(CONVENTIONS),
             "note": MODEL_NOTE,
             "lines": [x.to_dict(factor) for x in self.lines],
@@ -383,7 +437,7 @@ def _occupied_labels(occupied) -> list[str]:
     return labels
 
 
-def transitions_from(result, nmax: int | None = None, dipole_charge: float = 1.0,
+def transitions_from(result, nmax: int | None = None, *, dipole_charge: float = 1.0,
                      occupied=()) -> TransitionResult:
     """E1 lines and lifetimes among the levels of one :class:`radsolve.SolveResult`.
 
@@ -466,7 +520,7 @@ def transitions_from(result, nmax: int | None = None, dipole_charge: float = 1.0
     asked = result.bound_counts
     lines: list[Line] = []
     states: list[StateDecay] = []
-    notes: list[str] = []
+    notes: list[Note] = []
     all_ok = bool(result.success)
     for lev in chosen:
         lower, degenerate = partners(lev)
@@ -525,8 +579,9 @@ def transitions_from(result, nmax: int | None = None, dipole_charge: float = 1.0
         is_ground = lev.energy == ground_energy
         if not complete:
             all_ok = False
-            notes.append(f"{lev.label}: a lower level with l = {lev.l - 1} or {lev.l + 1} may be "
-                         "missing from the computed set, so its lifetime is an upper bound")
+            notes.append(Note("lifetime_incomplete", f"{lev.label}: a lower level with l = {lev.l - 1} or "
+                              f"{lev.l + 1} may be missing from the computed set, so its lifetime is an upper "
+                              "bound", lev.label))
         states.append(StateDecay(
             label=lev.label, n=lev.n, l=lev.l, energy=lev.energy, energy_error=lev.error_estimate,
             total_A=float(total),
@@ -537,24 +592,27 @@ def transitions_from(result, nmax: int | None = None, dipole_charge: float = 1.0
         ))
         lines.extend(own)
     if filled:
-        notes.append("treated as occupied (no line ends on them): " + ", ".join(filled))
+        notes.append(Note("occupied", "treated as occupied (no line ends on them): " + ", ".join(filled)))
     extra = [lev.label for lev in chosen if lev.n > nmax]
     if extra:
-        notes.append("included as lower levels of n <= nmax: " + ", ".join(extra))
+        notes.append(Note("lower_levels_added", "included as lower levels of n <= nmax: " + ", ".join(extra)))
     unconverged = sorted({x.upper + "->" + x.lower for x in lines if not x.radial_integral.converged})
     if unconverged:
-        notes.append("radial integrals NOT CONVERGED: " + ", ".join(unconverged[:8]))
+        notes.append(Note("not_converged", "radial integrals NOT CONVERGED: " + ", ".join(unconverged[:8]),
+                          ", ".join(unconverged)))
     if not result.success:
-        notes.append(result.message)
-    message = "; ".join(notes) if notes else (
-        f"{len(lines)} E1 line{'s' if len(lines) != 1 else ''} among {len(states)} "
-        f"level{'s' if len(states) != 1 else ''}, all converged")
+        notes.append(Note("solve", result.message))
+    outcomes = [result.status]
+    if unconverged or not all_ok:
+        outcomes.append(Outcome.NOT_CONVERGED)
+    if not all(st.complete for st in states):
+        outcomes.append(Outcome.INCOMPLETE)
     return TransitionResult(lines=lines, states=states, result=result, nmax=int(nmax),
-                            dipole_charge=float(dipole_charge), success=bool(all_ok and not unconverged),
-                            message=message, occupied=filled)
+                            dipole_charge=float(dipole_charge), status=worst(outcomes),
+                            notes=tuple(notes), occupied=filled)
 
 
-def transitions(potential, nmax: int, mass=None, tol: float = 1e-10, method: str = "fd",
+def transitions(potential, nmax: int, *, mass=None, tol: float = 1e-10, method: str = "fd",
                 plugins=None, dipole_charge: float = 1.0, occupied=()) -> TransitionResult:
     """Every E1 line, lifetime and branching ratio among the bound levels with n <= nmax.
 
@@ -592,7 +650,7 @@ def transitions(potential, nmax: int, mass=None, tol: float = 1e-10, method: str
     for attempt in range(3):
         result = solve(potential, l=list(range(nmax)), count=count, mass=mass, tol=tol,
                        method=method, plugins=plugins)
-        found = transitions_from(result, nmax, dipole_charge, occupied)
+        found = transitions_from(result, nmax, dipole_charge=dipole_charge, occupied=occupied)
         if all(s.complete for s in found.states) or attempt == 2:
             return found
         # the next levels of the l-1 channels are what a lifetime may miss

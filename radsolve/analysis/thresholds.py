@@ -52,6 +52,7 @@ from typing import Any, Sequence
 import numpy as np
 
 from radsolve.errors import InputError, RadsolveError
+from radsolve.core.protocol import Note, Outcome, ResultProtocol, message_of, worst
 from radsolve.core.result import SPECTROSCOPIC_LETTERS, level_label
 
 #: The one-line caveat carried by the threshold table and JSON ("note").
@@ -149,8 +150,8 @@ def parse_label(label: str, what: str = "level") -> tuple[int, int]:
 # Result
 # --------------------------------------------------------------------------- #
 
-@dataclass
-class ThresholdResult:
+@dataclass(repr=False)
+class ThresholdResult(ResultProtocol):
     """The critical parameter value of one level.
 
     Attributes
@@ -238,8 +239,40 @@ class ThresholdResult:
         return ("linear: E - V(inf) ~ slope * (p - p_c); the zero-energy state is normalizable "
                 "and stays localized")
 
-    def to_dict(self) -> dict[str, Any]:
-        """Plain data, as in the JSON output."""
+    # ------------------------------------------------------------ result protocol
+
+    @property
+    def status(self) -> Outcome:
+        return Outcome.SUCCESS if self.converged else Outcome.NOT_CONVERGED
+
+    @property
+    def notes(self) -> tuple[Note, ...]:
+        if self.converged:
+            return ()
+        return (Note("not_converged", f"the critical {self.parameter} of {self.label} did not reach tol = "
+                     f"{self.tol:.1e} (estimate {self.error_estimate:.1e}); the value is what was achieved",
+                     self.label),)
+
+    @property
+    def message(self) -> str:
+        return message_of(self.notes, f"{self.label}: critical {self.parameter} converged to tol = {self.tol:.1e}")
+
+    def _header(self) -> list[tuple[str, Any]]:
+        return [("potential", self.potential), ("parameter", self.parameter), ("label", self.label)]
+
+    def _table_columns(self):
+        return ("label", "value", "error_estimate", "bound_side", "slope")
+
+    def records(self, unit: str | None = None) -> list[dict[str, Any]]:
+        return [_flat(self.to_dict(unit))]
+
+    def to_dict(self, unit: str | None = None) -> dict[str, Any]:
+        """Plain data, as in the JSON output (``unit``: the energy unit of ``slope``; default its own)."""
+        factor = 1.0
+        if unit is not None and unit != self.energy_unit:
+            from radsolve.units import energy_unit_factor
+
+            factor = energy_unit_factor(unit) / energy_unit_factor(self.energy_unit)
         return {
             "potential": self.potential, "parameter": self.parameter,
             "parameter_unit": self.parameter_unit or "dimensionless",
@@ -248,11 +281,62 @@ class ThresholdResult:
             "grid_error": self.grid_error, "box_error": self.box_error,
             "converged": bool(self.converged), "bound_side": self.bound_side,
             "bracket": list(self.bracket), "box_radius": self.box_radius,
-            "slope": self.slope, "slope_error": self.slope_error, "approach": self.approach,
+            "slope": None if self.slope is None else self.slope / factor,
+            "slope_error": None if self.slope_error is None else self.slope_error / factor,
+            "approach": self.approach,
             "fixed": dict(self.fixed), "mass": self.mass, "tol": self.tol,
-            "units": self.units, "energy_unit": self.energy_unit, "dimension": self.dimension,
+            "units": self.units, "energy_unit": self.energy_unit if unit is None else unit,
+            "dimension": self.dimension, "success": self.success, "status": str(self.status),
+            "message": self.message,
             "note": MODEL_NOTE,
         }
+
+
+def _flat(doc: dict[str, Any]) -> dict[str, Any]:
+    """A threshold's document as one CSV/pandas row: the bracket split, the fixed parameters prefixed."""
+    row = {k: v for k, v in doc.items() if k not in ("bracket", "fixed", "note", "message")}
+    row["bracket_low"], row["bracket_high"] = doc["bracket"]
+    row.update({f"fixed_{k}": v for k, v in doc["fixed"].items()})
+    return row
+
+
+class CriticalValues(list, ResultProtocol):
+    """The list of :class:`ThresholdResult` returned by :func:`critical_values`, with the result protocol.
+
+    It is a list (index it, iterate it); ``status`` is the worst of its
+    members', ``records()`` one row per level, ``to_dict()`` the JSON document
+    ``{"status", "message", "notes", "thresholds": [...]}``.
+    """
+
+    @property
+    def status(self) -> Outcome:
+        return worst([r.status for r in self])
+
+    @property
+    def notes(self) -> tuple[Note, ...]:
+        return tuple(n for r in self for n in r.notes)
+
+    @property
+    def message(self) -> str:
+        return message_of(self.notes, f"{len(self)} critical value{'s' if len(self) != 1 else ''}, all converged")
+
+    def _header(self) -> list[tuple[str, Any]]:
+        first = self[0] if self else None
+        return [("potential", first.potential if first else None),
+                ("parameter", first.parameter if first else None), ("levels", len(self))]
+
+    def _table_columns(self):
+        return ("label", "value", "error_estimate", "bound_side", "slope")
+
+    def records(self, unit: str | None = None) -> list[dict[str, Any]]:
+        return [row for r in self for row in r.records(unit)]
+
+    def to_dict(self, unit: str | None = None) -> dict[str, Any]:
+        return {"success": self.success, "status": str(self.status), "message": self.message,
+                "notes": [n.to_dict() for n in self.notes], "thresholds": [r.to_dict(unit) for r in self]}
+
+    def __repr__(self) -> str:
+        return ResultProtocol.__repr__(self)
 
 
 # --------------------------------------------------------------------------- #
@@ -288,7 +372,9 @@ class _ZeroEnergy:
         self.base, self.parameter, self.l, self.mass, self.tol = base, parameter, l, mass, tol
         self.j = j
         self.effective = l + (dimension - 3) / 2.0  # L in L(L+1)/(2 m r**2)
-        self._profiles: dict[float, Any] = {}
+        #: Whether each probed parameter value is scanned for undeclared breakpoints (see threshold()).
+        self.scan_breakpoints = True
+        self._profiles: dict[tuple[float, bool], Any] = {}
 
     def potential(self, p: float):
         return self.base.with_parameters(**{self.parameter: float(p)})
@@ -296,16 +382,16 @@ class _ZeroEnergy:
     def profile(self, p: float):
         from radsolve.core import probe
 
-        p = float(p)
-        if p not in self._profiles:
+        key = (float(p), self.scan_breakpoints)
+        if key not in self._profiles:
             pot = self.potential(p)
             # The partial wave l of a family with an l-dependent (semilocal) potential.
             if hasattr(pot, "channel"):
                 pot = pot.channel(self.l, self.j)
-            prof = probe.profile(pot, self.mass)
+            prof = probe.profile(pot, self.mass, scan_breakpoints=self.scan_breakpoints)
             prof.check_bounded_below(self.effective, self.mass)
-            self._profiles[p] = (pot, prof)
-        return self._profiles[p]
+            self._profiles[key] = (pot, prof)
+        return self._profiles[key]
 
     def where(self, p: float) -> str:
         return f"potential {self.base.name!r} at {self.parameter} = {p:.10g}"
@@ -604,7 +690,7 @@ def _slope_on(problem: _ZeroEnergy, layout: _Layout, p_c: float, refinement: int
     return float(np.sum(weights * dv * shot.u**2) / norm)
 
 
-def threshold(potential, parameter: str, level: str = "1s", bracket=None, fixed=None, mass=None,
+def threshold(potential, parameter: str, *, level: str = "1s", bracket=None, fixed=None, mass=None,
               tol: float = 1e-9, plugins=None, units: str | None = None, dimension: int = 3) -> ThresholdResult:
     """The parameter value at which ``level`` reaches the continuum threshold E = V(inf).
 
@@ -695,20 +781,16 @@ def threshold(potential, parameter: str, level: str = "1s", bracket=None, fixed=
     lo, hi = _narrow(problem, k, lo, hi, n_lo, n_hi)
     bound_side = "above" if problem.count(hi) > k else "below"
 
-    layout = problem.layout([lo, hi])
-    first_layout = layout
-    previous, box_error, grid_error = None, math.inf, math.inf
-    value, refinement = math.nan, 0
-    for doubling in range(MAX_BOX_DOUBLINGS + 1):
-        value, grid_error, refinement = _on_box(problem, layout, lo, hi, outer, tol)
-        if previous is not None:
-            box_error = abs(value - previous)
-            if box_error <= 0.3 * tol * abs(value) or layout.r_max >= LARGEST_BOX:
-                break
-        previous = value
-        width = max(10.0 * grid_error, 1e-9 * abs(value)) if math.isfinite(grid_error) else hi - lo
-        lo, hi = max(value - width, outer[0]), min(value + width, outer[1])
-        layout = _Layout(layout.r_min, min(2.0 * layout.r_max, LARGEST_BOX))
+    # Scanning V for undeclared breakpoints at each of the ~100 trial values of the parameter
+    # would be most of the run time.  When the scan finds none at either end of the bracket, the
+    # trial values skip it, and the answer is verified by a full scan at p_c: a breakpoint there
+    # that the ends did not show restarts the refinement with every value scanned.
+    smooth_ends = not (problem.profile(lo)[1].breakpoints or problem.profile(hi)[1].breakpoints)
+    problem.scan_breakpoints = not smooth_ends
+    value, grid_error, box_error, refinement, layout, first_layout = _refine(problem, lo, hi, outer, tol)
+    problem.scan_breakpoints = True
+    if smooth_ends and problem.profile(value)[1].breakpoints:
+        value, grid_error, box_error, refinement, layout, first_layout = _refine(problem, lo, hi, outer, tol)
     error = grid_error + box_error
     # The slope on the first box: beyond it the zero-energy state is the tail
     # law's decaying solution, whose norm is added in closed form; on a much
@@ -726,10 +808,29 @@ def threshold(potential, parameter: str, level: str = "1s", bracket=None, fixed=
     )
 
 
-def critical_values(potential, parameter: str, nmax: int = 2, bracket=None, fixed=None, mass=None,
+def _refine(problem: _ZeroEnergy, lo: float, hi: float, outer, tol: float):
+    """p_c on halving grids (:func:`_on_box`) and doubling boxes until the box no longer moves it."""
+    layout = problem.layout([lo, hi])
+    first_layout = layout
+    previous, box_error, grid_error = None, math.inf, math.inf
+    value, refinement = math.nan, 0
+    for doubling in range(MAX_BOX_DOUBLINGS + 1):
+        value, grid_error, refinement = _on_box(problem, layout, lo, hi, outer, tol)
+        if previous is not None:
+            box_error = abs(value - previous)
+            if box_error <= 0.3 * tol * abs(value) or layout.r_max >= LARGEST_BOX:
+                break
+        previous = value
+        width = max(10.0 * grid_error, 1e-9 * abs(value)) if math.isfinite(grid_error) else hi - lo
+        lo, hi = max(value - width, outer[0]), min(value + width, outer[1])
+        layout = _Layout(layout.r_min, min(2.0 * layout.r_max, LARGEST_BOX))
+    return value, grid_error, box_error, refinement, layout, first_layout
+
+
+def critical_values(potential, parameter: str, *, nmax: int = 2, bracket=None, fixed=None, mass=None,
                tol: float = 1e-9, plugins=None, levels: Sequence[str] | None = None,
                lmax: int | None = None, spin_orbit: bool = False, units: str | None = None,
-               dimension: int = 3) -> list[ThresholdResult]:
+               dimension: int = 3) -> "CriticalValues":
     """The critical values of every level with n <= ``nmax``, or of ``levels``.
 
     Atomic labels: every l < n (and l <= ``lmax`` if given).  Nuclear labels
@@ -762,8 +863,8 @@ def critical_values(potential, parameter: str, nmax: int = 2, bracket=None, fixe
         labels = [parse_level(lab, system, "level").label for lab in levels]
         if not labels:
             raise InputError("levels: at least one level label is needed")
-    return [threshold(potential, parameter, level=lab, bracket=bracket, fixed=fixed, mass=mass,
-                      tol=tol, plugins=plugins, units=units, dimension=dimension) for lab in labels]
+    return CriticalValues([threshold(potential, parameter, level=lab, bracket=bracket, fixed=fixed, mass=mass,
+                      tol=tol, plugins=plugins, units=units, dimension=dimension) for lab in labels])
 
 
 def sweep_crossings(result, tol: float = 1e-9) -> dict[str, ThresholdResult]:

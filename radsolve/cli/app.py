@@ -25,6 +25,8 @@ from typing import Annotated, Iterator, Optional
 
 import typer
 
+from radsolve.core.solvers.registry import DESCRIPTIONS, EVERY_METHOD, METHODS
+
 EXIT_OK = 0
 EXIT_CHECK_FAILED = 1
 EXIT_BAD_INPUT = 2
@@ -51,10 +53,8 @@ app = typer.Typer(
 )
 
 
-class Method(str, Enum):
-    fd = "fd"
-    numerov = "numerov"
-    both = "both"
+#: --method choices: read from the solver registry (no solver module is imported for this).
+Method = Enum("Method", {name: name for name in [*METHODS, EVERY_METHOD]}, type=str)
 
 
 class UnitsChoice(str, Enum):
@@ -190,7 +190,8 @@ AtomicMassOption = Annotated[str, typer.Option(
     "--mass", "-m", metavar="M", help="reduced mass: electron masses, or particles such as electron+proton")]
 PluginsOption = Annotated[Optional[list[Path]], typer.Option("--plugins", metavar="DIR", help=PLUGINS_HELP)]
 MethodOption = Annotated[Method, typer.Option(
-    "--method", help="fd (finite differences), numerov (shooting) or both")]
+    "--method", help=", ".join(f"{k} ({v})" for k, v in DESCRIPTIONS.items())
+    + f" or {EVERY_METHOD} (every method; their disagreement is folded into the estimates)")]
 UnitsOption = Annotated[Optional[UnitsChoice], typer.Option(
     "--units", help="unit system: atomic (hartree, bohr, electron masses) or nuclear "
                     "(MeV, fm, MeV/c^2) [default: the potential's own]")]
@@ -229,7 +230,7 @@ def levels_command(
              "units MeV/c^2, u (207u) or particles (neutron, neutron+207u) [default: 1 in "
              "atomic units; needed in nuclear units]")] = None,
     tol: TolOption = 1e-10,
-    method: MethodOption = Method.fd,
+    method: MethodOption = Method(next(iter(METHODS))),
     unit: OutputUnitOption = None,
     units: UnitsOption = None,
     spin_orbit: SpinOrbitOption = False,
@@ -341,11 +342,11 @@ def levels_command(
         if unconverged:
             _say(f"warning: {len(unconverged)} level(s) did not converge to tol {tol:g}: "
                  + ", ".join(unconverged))
-            raise typer.Exit(EXIT_NOT_CONVERGED)
+            raise typer.Exit(result.exit_code)
         if not result.success:
             # every level listed converged, but the list is not known to be complete
             _say("warning: " + result.message)
-            raise typer.Exit(EXIT_NOT_CONVERGED)
+            raise typer.Exit(result.exit_code)
 
 
 def _levels_potential(name, params, plugins, units, expr, table_file, r_unit, v_unit,
@@ -415,7 +416,7 @@ def check_command(
         report = check(tol=tol, progress=progress, **kwargs)
         typer.echo(format_check(report), nl=False)
         if not report.passed:
-            raise typer.Exit(EXIT_CHECK_FAILED)
+            raise typer.Exit(report.exit_code)
 
 
 @app.command("potentials")
@@ -476,7 +477,7 @@ def sweep_command(
              "units MeV/c^2, u or particles [default: 1 in atomic units; needed in nuclear units]")
     ] = None,
     tol: TolOption = 1e-10,
-    method: MethodOption = Method.fd,
+    method: MethodOption = Method(next(iter(METHODS))),
     unit: OutputUnitOption = None,
     units: UnitsOption = None,
     dimension: DimensionOption = 3,
@@ -663,8 +664,6 @@ def threshold_command(
     no threshold and are refused. Exit 3 when a value did not reach --tol.
     """
     with _reported_errors():
-        import json
-
         from radsolve.errors import InputError
         from radsolve.potentials import get_family
         from radsolve.analysis.thresholds import critical_values, format_thresholds
@@ -691,14 +690,17 @@ def threshold_command(
                              levels=None if nmax is not None else (level or ["1s"]),
                              lmax=lmax, spin_orbit=spin_orbit, dimension=dimension)
         if fmt is ReportFormat.json:
-            text = json.dumps([r.to_dict() for r in results], indent=2, allow_nan=False) + "\n"
+            from radsolve.core.serialize import dumps_json
+
+            # a JSON array with one document per level (the 0.1 schema), each with its status
+            text = dumps_json([r.to_dict() for r in results])
         else:
             text = format_thresholds(results)
         _write_output(text, out, f"{len(results)} threshold(s)")
-        if any(not r.converged for r in results):
+        if not results.success:
             _say(f"warning: not converged to tol {tol:g}: "
                  + ", ".join(r.label for r in results if not r.converged))
-            raise typer.Exit(EXIT_NOT_CONVERGED)
+            raise typer.Exit(results.exit_code)
 
 
 @app.command("fit")
@@ -721,7 +723,7 @@ def fit_command(
     ] = None,
     tol: Annotated[float, typer.Option(
         "--tol", metavar="T", help="relative accuracy of each computed energy")] = 1e-10,
-    method: MethodOption = Method.fd,
+    method: MethodOption = Method(next(iter(METHODS))),
     unit: Annotated[Optional[str], typer.Option(
         "--unit", "-u", metavar="U", help=f"energy unit of the report: {ENERGY_UNITS_HELP} "
                                           "[default: hartree, or MeV in nuclear units]")
@@ -750,8 +752,6 @@ def fit_command(
     Exit 3 when the fit did not succeed.
     """
     with _reported_errors():
-        import json
-
         from radsolve.errors import InputError
         from radsolve.analysis.fitting import fit, format_fit, parse_free, read_targets
         from radsolve.potentials import get_family
@@ -777,10 +777,7 @@ def fit_command(
         result = fit(family.name, target_list, free=names, bounds=bounds, fixed=params, mass=mu, tol=tol,
                      method=method.value, plugins=_plugin_dirs(plugins),
                      max_evaluations=max_evaluations, dimension=dimension)
-        if fmt is ReportFormat.json:
-            text = json.dumps(result.to_dict(unit), indent=2, allow_nan=False) + "\n"
-        else:
-            text = format_fit(result, unit)
+        text = result.to_json(unit) if fmt is ReportFormat.json else format_fit(result, unit)
         _write_output(text, out, "the fit report")
         if plot is not None:
             from radsolve.output.sweep_plotting import plot_fit
@@ -792,7 +789,7 @@ def fit_command(
                 _say(f"warning: {warning}")
         if not result.success:
             _say("warning: the fit did not succeed (see the warnings)")
-            raise typer.Exit(EXIT_NOT_CONVERGED)
+            raise typer.Exit(result.exit_code)
 
 
 # ---------------------------------------------------------------- states and transitions
@@ -833,7 +830,7 @@ def wave_command(
     mass: AtomicMassOption = "1",
     tol: Annotated[float, typer.Option(
         "--tol", metavar="T", help="target relative error of the energy (1e-14 ... 0.1)")] = 1e-10,
-    method: MethodOption = Method.fd,
+    method: MethodOption = Method(next(iter(METHODS))),
     unit: Annotated[str, typer.Option(
         "--unit", "-u", metavar="U", help=f"energy unit of the summary and plot: {ENERGY_UNITS_HELP}")
     ] = "hartree",
@@ -905,22 +902,16 @@ def wave_command(
 
         pot = potential(name, plugins=_plugin_dirs(plugins), **params)
         st = _solver_call(pot, make_state, pot, n, l, mass=mu, tol=tol, method=method.value)
-        props = st.properties()
-        extra = []
-        for k in moment or []:
-            extra.append((f"<r^{k:g}>", f"bohr^{k:g}", _with_option("--moment", st.moment, k)))
-        for radius in limits:
-            extra.append((f"P(r < {radius:g})", "", st.probability_inside(radius)))
-        for parameter in hellmann_feynman or []:
-            check = _with_option("--hellmann-feynman", st.hellmann_feynman, parameter)
-            extra.append((f"dE/d{parameter} (re-solved)", check.derivative.unit, check.derivative))
-            extra.append((f"<dV/d{parameter}>", check.expectation.unit, check.expectation))
-        from radsolve.analysis.observables import plain_properties
+        from radsolve.analysis.observables import StateSummary
 
-        plain = plain_properties(props)
-        plain.update({name_: est.to_dict() for name_, _, est in extra})
+        extra = _with_option("--moment", lambda ks: st.extra_quantities(moments=ks), moment or [])
+        extra += st.extra_quantities(inside=limits)
+        extra += _with_option("--hellmann-feynman", lambda ps: st.extra_quantities(hellmann_feynman=ps),
+                              hellmann_feynman or [])
+        summary = StateSummary(st, st.properties(), extra)
+        props = summary.properties
         wave = st.wavefunction(radii if radii else None)
-        wave.properties = plain
+        wave.properties = summary.to_dict()["properties"]
 
         from radsolve.output.report import state_table
 
@@ -940,16 +931,9 @@ def wave_command(
             plot_wavefunction(st, plot, unit)
             _say(f"wrote the plot to {plot}")
 
-        shown = [("energy", props["energy"])] + [(k, v) for k, v in props.items()
-                                                 if hasattr(v, "converged") and k != "energy"]
-        shown += [(k, v) for k, _, v in extra]
-        virial = props.get("virial")
-        if virial is not None and virial.available:
-            shown.append(("virial ratio", virial.ratio))
-        bad = [k for k, v in shown if not v.converged]
-        if bad:
-            _say(f"warning: not converged: {', '.join(bad)} (their estimates are what was achieved)")
-            raise typer.Exit(EXIT_NOT_CONVERGED)
+        if not summary.success:
+            _say("warning: " + summary.message)
+            raise typer.Exit(summary.exit_code)
 
 
 @app.command("transitions")
@@ -961,7 +945,7 @@ def transitions_command(
     mass: AtomicMassOption = "1",
     tol: Annotated[float, typer.Option(
         "--tol", metavar="T", help="target relative error of each energy (1e-14 ... 0.1)")] = 1e-10,
-    method: MethodOption = Method.fd,
+    method: MethodOption = Method(next(iter(METHODS))),
     unit: Annotated[str, typer.Option(
         "--unit", "-u", metavar="U", help=f"energy unit of the output: {ENERGY_UNITS_HELP}")
     ] = "hartree",
@@ -1016,13 +1000,11 @@ def transitions_command(
         pot = potential(name, plugins=_plugin_dirs(plugins), **params)
         tr = _solver_call(pot, transitions, pot, nmax, mass=mu, tol=tol, method=method.value,
                           dipole_charge=dipole_charge, occupied=occupied or ())
-        from radsolve.output.report import render_transitions
+        from radsolve.output.report import render
 
-        text = render_transitions(tr, unit, fmt.value)
+        text = render(tr, unit, fmt.value)
         if fmt.value == "csv":
-            from radsolve.output.report import MODEL_NOTE_TEXT
-
-            _say("note: " + MODEL_NOTE_TEXT)
+            _say("note: " + tr.short_note)
         if out is None:
             typer.echo(text, nl=False)
         else:
@@ -1041,7 +1023,7 @@ def transitions_command(
                 _say(tr.message)
             _say("warning: not everything converged or is complete (see the message); "
                  "the numbers are what was achieved")
-            raise typer.Exit(EXIT_NOT_CONVERGED)
+            raise typer.Exit(tr.exit_code)
 
 
 def _version_callback(value: bool) -> None:

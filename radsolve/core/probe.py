@@ -419,11 +419,14 @@ def find_breakpoints(potential, r_lo: float, r_hi: float) -> tuple[float, ...]:
     from numpy.lib.stride_tricks import sliding_window_view
 
     def outliers(values, significance):
+        # |value| > _OUTLIER * (median of its 17-point window): the median of 17 numbers is the
+        # 9th smallest, so this holds exactly when more than 8 of them lie below |value| / _OUTLIER
+        # -- a count of comparisons, five times cheaper than sorting every window.
         mag = np.abs(values)
         window = 8
         pad = np.pad(mag, window, mode="edge")
-        local = np.median(sliding_window_view(pad, 2 * window + 1), axis=1)
-        return np.nonzero((mag > _OUTLIER * local + 1e-300) & (mag > significance))[0]
+        below = (sliding_window_view(pad, 2 * window + 1) * _OUTLIER + 1e-300 < mag[:, None]).sum(axis=1)
+        return np.nonzero((below > window) & (mag > significance))[0]
 
     d1 = np.diff(f)
     d2 = f[2:] - 2.0 * f[1:-1] + f[:-2]

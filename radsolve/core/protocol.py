@@ -90,9 +90,10 @@ class ResultProtocol:
     """Base class of every result type; see the module docstring for the contract."""
 
     # -- to implement -------------------------------------------------------
-    @property
-    def status(self) -> Outcome:  # pragma: no cover - every subclass overrides it
-        raise NotImplementedError
+    # ``status`` (an Outcome) and ``notes`` are given by each subclass, as a
+    # dataclass field or a property; they are not declared here, because a
+    # property of a base class would become the default of a dataclass field.
+    status: Outcome
 
     def to_dict(self, unit: str | None = None) -> dict[str, Any]:  # pragma: no cover
         raise NotImplementedError

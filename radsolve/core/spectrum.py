@@ -51,6 +51,7 @@ from radsolve.core.grids import GridSpan, potential_on_grid
 from radsolve.core.protocol import Note, Outcome
 from radsolve.core.result import GridSample, Level, SolveResult, level_designation
 from radsolve.core.solvers.base import METHODS, RadialSolver, solver_class
+from radsolve.core.solvers.registry import EVERY_METHOD
 from radsolve.core.targets import Status, Targets, validated_tol
 
 #: Step in xi of the coarsest grid of the refinement sequence.
@@ -175,12 +176,12 @@ def _validate(l, count, tol, method, dimension) -> tuple[list[int], int, float, 
     tol = validated_tol(tol)
     if isinstance(method, type) and issubclass(method, RadialSolver):
         methods = [method]
-    elif method == "both":
+    elif method == EVERY_METHOD:
         methods = [solver_class(name) for name in METHODS]
     elif method in METHODS:
         methods = [solver_class(method)]
     else:
-        raise InputError(f"unknown method {method!r}; allowed: {', '.join(list(METHODS) + ['both'])} "
+        raise InputError(f"unknown method {method!r}; allowed: {', '.join(list(METHODS) + [EVERY_METHOD])} "
                          "or a RadialSolver subclass")
     if not isinstance(dimension, (int, np.integer)) or isinstance(dimension, bool) or not 2 <= dimension <= 50:
         raise InputError(f"dimension must be a whole number from 2 to 50 (got {dimension!r})")
@@ -634,6 +635,7 @@ def _degeneracy(l: int, j: float | None, dimension: int) -> int:
 def solve(
     potential,
     l=0,
+    *,
     count: int = 5,
     mass=None,
     tol: float = 1e-10,

@@ -12,23 +12,13 @@ mistaken for a result.
 
 from __future__ import annotations
 
-import csv
-import io
-import json
 import math
 import textwrap
 from typing import Any
 
-from radsolve.core.serialize import plain as _plain
 
 TABLE_WIDTH = 80
 
-#: Fields of one level in JSON and CSV, in order.
-LEVEL_FIELDS = ("n", "l", "nodes", "label", "energy", "error_estimate", "converged")
-#: Extra fields when levels are split by spin-orbit coupling.
-J_FIELDS = ("j", "degeneracy")
-#: Extra fields when the exact energy is known (pure Coulomb and the like).
-EXACT_FIELDS = ("exact", "deviation")
 
 
 # ---------------------------------------------------------------- helpers
@@ -221,75 +211,20 @@ def certificate_text(result) -> str:
     return "bound levels (counted without a box): " + "; ".join(parts)
 
 
-def _count_cell(result, lev) -> tuple[Any, Any]:
-    """The bound-level count of a level's partial wave, for CSV: ('inf' for infinitely many, certain)."""
-    certs = getattr(result, "certificates", None) or {}
-    key = lev.l if lev.j is None else f"l={lev.l},j={int(round(2 * lev.j))}/2"
-    cert = certs.get(key)
-    if cert is None:
-        return None, None
-    return ("inf" if cert.count is None else cert.count), bool(cert.certain)
-
-
 def levels_json(result, unit: str | None = None) -> str:
-    """One JSON document describing ``result``, energies in ``unit``.
-
-    Keys: ``potential``, ``parameters`` (atomic units), ``mass`` (electron
-    masses), ``unit``, ``levels`` (each with ``n``, ``l``, ``nodes``,
-    ``label``, ``energy``, ``error_estimate``, ``converged`` and, when the
-    exact energy is known, ``exact`` and ``deviation``), plus the bookkeeping
-    keys of :meth:`SolveResult.to_dict` (``method``, ``tol``, ``success``,
-    ``message``).  Non-finite numbers become ``null``.
-    """
-    doc = _plain(result.to_dict(_output_unit(result, unit)))
-    return json.dumps(doc, indent=2, allow_nan=False) + "\n"
+    """:meth:`SolveResult.to_json`: one JSON document, energies in ``unit`` (None: the result's own)."""
+    return result.to_json(_output_unit(result, unit))
 
 
 def levels_csv(result, unit: str | None = None) -> str:
-    """CSV text: a header row, then one row per level, energies in ``unit``.
+    """:meth:`SolveResult.to_csv`: a header row, then one row per level, energies in ``unit``.
 
-    Columns are those of a level in :func:`levels_json` (``exact`` and
-    ``deviation`` only when the exact energy is known), followed by a
+    The columns are those of :meth:`SolveResult.records`, ending with a
     ``unit`` column so that a file read on its own still says its unit.
     Floats are written with every digit (``repr``); non-finite ones as an
     empty cell.
     """
-    unit = _output_unit(result, unit)
-    rows, has_exact = _level_rows(result, unit)
-    has_j = any(getattr(lev, "j", None) is not None for lev in result.levels)
-    has_status = any(getattr(lev, "status", None) is not None for lev in result.levels)
-    has_counts = bool(getattr(result, "certificates", None))
-    fields = (list(LEVEL_FIELDS) + (["status"] if has_status else []) + (list(J_FIELDS) if has_j else [])
-              + (list(EXACT_FIELDS) if has_exact else [])
-              + (["bound_count", "bound_count_certain"] if has_counts else []) + ["unit"])
-    buf = io.StringIO()
-    writer = csv.writer(buf, lineterminator="\n")
-    writer.writerow(fields)
-    for d, lev in zip(rows, result.levels):
-        d = dict(d, unit=unit)
-        if has_counts:
-            d["bound_count"], d["bound_count_certain"] = _count_cell(result, lev)
-        cells = []
-        for f in fields:
-            v = _plain(d.get(f))
-            cells.append("" if v is None else (repr(v) if isinstance(v, float) else v))
-        writer.writerow(cells)
-    return buf.getvalue()
-
-
-RENDERERS = {"table": levels_table, "json": levels_json, "csv": levels_csv}
-
-
-def render(result, unit: str | None = None, fmt: str = "table") -> str:
-    """``result`` in format ``fmt`` (``"table"``, ``"json"`` or ``"csv"``); ``unit`` None: the result's own."""
-    from radsolve.errors import InputError
-
-    try:
-        renderer = RENDERERS[fmt]
-    except KeyError:
-        raise InputError(f"unknown output format {fmt!r}; allowed: "
-                         + ", ".join(RENDERERS)) from None
-    return renderer(result, unit)
+    return result.to_csv(_output_unit(result, unit))
 
 
 # ---------------------------------------------------------------- families
@@ -475,71 +410,64 @@ def transitions_table(tr, unit: str = "hartree") -> str:
     lines += _wrap("f(abs): absorption oscillator strength lower -> upper (electron-mass "
                    "convention); A: spontaneous emission rate; branch: A / sum of A of the upper "
                    "level. Levels degenerate within their error estimates are not connected.")
-    lines += _wrap("Note: " + MODEL_NOTE_TEXT)
+    lines += _wrap("Note: " + tr.short_note)
     if tr.message:
         lines.append("")
         lines += _wrap(tr.message)
     return "\n".join(lines) + "\n"
 
 
-MODEL_NOTE_TEXT = ("model calculation (nonrelativistic, spinless, E1 only); for rates used in "
-                   "diagnostics or safety work, use evaluated data compilations.")
-
-
 def transitions_json(tr, unit: str = "hartree") -> str:
-    """The JSON document of :meth:`TransitionResult.to_dict` (non-finite numbers as null)."""
-    return json.dumps(_plain(tr.to_dict(unit)), indent=2, allow_nan=False) + "\n"
-
-
-TRANSITION_CSV_FIELDS = ("record", "upper", "lower", "label", "energy", "energy_error",
-                         "wavelength_nm", "oscillator_strength", "einstein_A", "branching_ratio",
-                         "lifetime_s", "metastable", "ground", "unit")
+    """:meth:`TransitionResult.to_json` (non-finite numbers as null)."""
+    return tr.to_json(unit)
 
 
 def transitions_csv(tr, unit: str = "hartree") -> str:
-    """CSV: one row per line (record 'line'), then one per level (record 'state').
+    """:meth:`TransitionResult.to_csv`: one row per line (record 'line'), then one per level (record 'state').
 
     Line rows fill upper, lower, energy (the transition energy), wavelength_nm
     (vacuum), oscillator_strength, einstein_A (s^-1) and branching_ratio;
     state rows fill label, energy (the level), lifetime_s (empty when
     metastable), metastable (no E1 decay) and ground (the lowest level).
     The unit column names the energy unit.  A leading ``#`` comment line says
-    that these are model rates (:data:`MODEL_NOTE_TEXT`); readers skip it.
+    that these are model rates; readers skip it.
     """
-    factor = _unit_factor(unit)
-    buf = io.StringIO()
-    buf.write("# Note: " + MODEL_NOTE_TEXT + "\n")
-    writer = csv.writer(buf, lineterminator="\n")
-    writer.writerow(TRANSITION_CSV_FIELDS)
-
-    def cell(v):
-        v = _plain(v)
-        return "" if v is None else (repr(v) if isinstance(v, float) else v)
-
-    for x in tr.lines:
-        row = dict(record="line", upper=x.upper, lower=x.lower, energy=x.energy / factor,
-                   energy_error=x.energy_error / factor, wavelength_nm=x.wavelength_nm,
-                   oscillator_strength=x.oscillator_strength, einstein_A=x.einstein_A,
-                   branching_ratio=x.branching_ratio, unit=unit)
-        writer.writerow([cell(row.get(f)) for f in TRANSITION_CSV_FIELDS])
-    for s in tr.states:
-        row = dict(record="state", label=s.label, energy=s.energy / factor,
-                   energy_error=s.energy_error / factor, lifetime_s=s.lifetime_s,
-                   metastable=str(s.metastable).lower(), ground=str(s.ground).lower(), unit=unit)
-        writer.writerow([cell(row.get(f)) for f in TRANSITION_CSV_FIELDS])
-    return buf.getvalue()
+    return tr.to_csv(unit)
 
 
-TRANSITION_RENDERERS = {"table": transitions_table, "json": transitions_json, "csv": transitions_csv}
+# ---------------------------------------------------------------- the one writer
+
+#: Output formats of every result type.
+FORMATS = ("table", "json", "csv")
 
 
-def render_transitions(tr, unit: str = "hartree", fmt: str = "table") -> str:
-    """``tr`` in format ``fmt`` (``"table"``, ``"json"`` or ``"csv"``)."""
+def _table_writers() -> dict[str, Any]:
+    # Keyed by class name: the analysis layer's result types sit above this one.
+    return {"SolveResult": levels_table, "TransitionResult": transitions_table}
+
+
+def render(result, unit: str | None = None, fmt: str = "table") -> str:
+    """Any result in format ``fmt``: ``"table"`` (text for a terminal), ``"json"`` or ``"csv"``.
+
+    JSON and CSV come from the result protocol (``to_json``, ``to_csv``), so
+    every result type is written the same way; a type without a table of its
+    own is shown by its compact repr.  ``unit`` None: the result's own unit.
+    """
     from radsolve.errors import InputError
 
-    try:
-        renderer = TRANSITION_RENDERERS[fmt]
-    except KeyError:
-        raise InputError(f"unknown output format {fmt!r}; allowed: "
-                         + ", ".join(TRANSITION_RENDERERS)) from None
-    return renderer(tr, unit)
+    if fmt not in FORMATS:
+        raise InputError(f"unknown output format {fmt!r}; allowed: " + ", ".join(FORMATS))
+    if fmt == "json":
+        return result.to_json(_default_unit(result, unit))
+    if fmt == "csv":
+        return result.to_csv(_default_unit(result, unit))
+    table = _table_writers().get(type(result).__name__)
+    if table is None:
+        return repr(result) + "\n"
+    return table(result, _default_unit(result, unit))
+
+
+def _default_unit(result, unit: str | None) -> str:
+    if unit is not None:
+        return unit
+    return _output_unit(result, None) if hasattr(result, "units") else "hartree"

@@ -11,9 +11,10 @@ the levels with given node numbers.  Choosing grids, refining them,
 extrapolating and labelling are done once for all methods in
 :mod:`radsolve.core.spectrum`.
 
-Adding a method: write ``radsolve/solvers/mymethod.py`` with a subclass of
-:class:`RadialSolver` and add ``"mymethod": "radsolve.core.solvers.mymethod:MyClass"``
-to :data:`METHODS`.
+Adding a method: write ``radsolve/core/solvers/mymethod.py`` with a subclass
+of :class:`RadialSolver` and add ``"mymethod": "radsolve.core.solvers.mymethod:MyClass"``
+to :data:`radsolve.core.solvers.registry.METHODS`.  ``solve(method=MyClass)``
+also takes an unregistered subclass directly.
 """
 
 from __future__ import annotations
@@ -26,11 +27,7 @@ import numpy as np
 from radsolve.errors import InputError
 from radsolve.core.grids import RadialGrid
 
-#: Method name -> "module:Class", imported on first use.
-METHODS: dict[str, str] = {
-    "fd": "radsolve.core.solvers.fd:FiniteDifference",
-    "numerov": "radsolve.core.solvers.numerov:NumerovShooting",
-}
+from radsolve.core.solvers.registry import EVERY_METHOD, METHODS
 
 
 def solver_class(method: str) -> type["RadialSolver"]:
@@ -38,7 +35,8 @@ def solver_class(method: str) -> type["RadialSolver"]:
     try:
         target = METHODS[method]
     except KeyError:
-        raise InputError(f"unknown method {method!r}; allowed: {', '.join(sorted(METHODS))} or 'both'") from None
+        raise InputError(f"unknown method {method!r}; allowed: {', '.join(sorted(METHODS))} or "
+                         f"{EVERY_METHOD!r}") from None
     module_name, class_name = target.split(":")
     return getattr(importlib.import_module(module_name), class_name)
 

@@ -1,0 +1,159 @@
+"""Every result type follows one protocol (radsolve.core.protocol), tested once for all.
+
+The protocol is structure, not physics: status and success agree, exit codes
+derive from the status, the message is built from the coded notes, the JSON,
+CSV and pandas views hold the same records, and the repr is short and free of
+grid arrays.  The physics of each result is tested in its own file; here each
+case is also held to one outside fact where it is cheap (the exact hydrogen
+levels, textbook formula), so that a structurally perfect but wrong result
+cannot pass.
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+
+import pytest
+
+import radsolve
+from radsolve.core.protocol import EXIT_CODES, Note, Outcome, ResultProtocol
+
+
+def _solve_ok():
+    return radsolve.solve("coulomb", l=[0, 1], count=2, tol=1e-8)
+
+
+def _solve_rounding():
+    # tol below what double precision allows on these grids: an honest "not converged"
+    return radsolve.solve("coulomb", count=2, tol=1e-14)
+
+
+def _state():
+    return radsolve.state("coulomb", 2, 1, tol=1e-8)
+
+
+def _summary():
+    return radsolve.state("coulomb", 2, 1, tol=1e-8).summary(moments=[3])
+
+
+def _transitions():
+    return radsolve.transitions("coulomb", 2, tol=1e-8)
+
+
+def _threshold():
+    return radsolve.threshold("yukawa", "screening_length", level="1s", bracket=(0.5, 1.5), tol=1e-6)
+
+
+def _critical_values():
+    return radsolve.critical_values("yukawa", "screening_length", levels=["1s", "2p"], tol=1e-6)
+
+
+def _fit():
+    # targets: the exact hydrogen 1s and 2p levels (textbook formula -Z^2/(2 n^2)), Z fitted from 1.2
+    return radsolve.fit("coulomb", [("1s", -0.5, 1e-4), ("2p", -0.125, 1e-4)], free=["Z"], fixed={"Z": 1.2},
+                        tol=1e-9)
+
+
+def _check():
+    return radsolve.check(tol=1e-8, charges=(1,), masses=(1.0,), nmax=2)
+
+
+CASES = {
+    "solve": _solve_ok, "solve_not_converged": _solve_rounding, "state": _state, "summary": _summary,
+    "transitions": _transitions, "threshold": _threshold, "critical_values": _critical_values,
+    "fit": _fit, "check": _check,
+}
+
+
+@pytest.fixture(scope="module", params=sorted(CASES))
+def result(request):
+    return request.param, CASES[request.param]()
+
+
+def test_status_success_and_exit_code_agree(result):
+    _, res = result
+    assert isinstance(res, ResultProtocol)
+    assert isinstance(res.status, Outcome)
+    assert res.success is (res.status is Outcome.SUCCESS)
+    assert res.exit_code == EXIT_CODES[res.status]
+    assert (res.exit_code == 0) is res.success
+
+
+def test_message_is_built_from_the_notes(result):
+    _, res = result
+    assert isinstance(res.message, str) and res.message
+    for note in res.notes:
+        assert isinstance(note, Note) and note.code and note.text
+        assert note.text in res.message
+    if not res.success:
+        assert res.notes, "a result that is not a success must say why in a coded note"
+
+
+def test_json_document_round_trips_and_states_the_status(result):
+    _, res = result
+    doc = json.loads(res.to_json())
+    assert doc == json.loads(json.dumps(res.to_dict()))  # to_json is to_dict as JSON
+    assert doc["success"] is res.success
+    assert doc["status"] == str(res.status)
+    assert doc["message"] == res.message
+
+
+def test_csv_and_pandas_hold_the_records(result):
+    _, res = result
+    records = res.records()
+    assert isinstance(records, list) and records and all(isinstance(r, dict) for r in records)
+    text = "\n".join(line for line in res.to_csv().splitlines() if not line.startswith("#"))
+    rows = list(csv.DictReader(io.StringIO(text)))
+    assert len(rows) == len(records)
+    columns = [c for r in records for c in r]
+    assert set(rows[0]) == set(columns)
+    pd = pytest.importorskip("pandas")
+    frame = res.to_pandas()
+    assert isinstance(frame, pd.DataFrame) and len(frame) == len(records)
+    assert list(frame.columns) == list(rows[0])
+
+
+def test_repr_is_short_and_has_no_arrays(result):
+    _, res = result
+    text = repr(res)
+    assert type(res).__name__ in text and str(res.status) in text
+    assert len(text.splitlines()) <= 16
+    assert "array(" not in text and "GridSample(" not in text
+    assert "<table" in res._repr_html_() or type(res).__name__ == "State"
+
+
+def test_outside_facts(result):
+    # Each case against something outside radsolve (textbook hydrogen formula), so that a
+    # structurally perfect but physically wrong result fails here too.
+    name, res = result
+    if name == "solve":
+        assert res.success
+        for lev in res.levels:
+            assert lev.energy == pytest.approx(-0.5 / lev.n**2, rel=1e-8)
+    elif name == "solve_not_converged":
+        assert res.status is Outcome.NOT_CONVERGED
+        assert any(n.code == "not_converged" for n in res.notes)
+        for lev in res.levels:
+            assert abs(lev.energy + 0.5 / lev.n**2) <= 10 * lev.error_estimate  # honest estimate
+    elif name in ("state", "summary"):
+        st = res if name == "state" else res.state
+        assert st.moment(1).value == pytest.approx(5.0, rel=1e-7)  # <r>_2p = (3n^2 - l(l+1))/2 = 5
+        if name == "summary":
+            row = next(r for r in res.records() if r["quantity"] == "<r^3>")
+            # <r^3> of hydrogen 2p: 210 bohr^3 (textbook closed form for n = 2, l = 1)
+            assert row["value"] == pytest.approx(210.0, rel=1e-7)
+    elif name == "transitions":
+        line = res.line("2p", "1s")
+        # f(1s -> 2p) = 2^13/3^9 = 0.41620 (textbook closed form, Bethe & Salpeter 1957)
+        assert line.oscillator_strength == pytest.approx(2**13 / 3**9, rel=1e-6)
+    elif name == "fit":
+        assert res.success and res.values["Z"] == pytest.approx(1.0, abs=1e-4)
+    elif name == "check":
+        assert res.success and len(res.records()) == len(res.rows) * len(res.methods)
+    elif name in ("threshold", "critical_values"):
+        # 1s of the Yukawa potential unbinds at screening length 0.8399 bohr for Z = 1, mu = 1
+        # (Rogers, Graboske & Harwood, Phys. Rev. A 1, 1577 (1970); from memory, 4 digits)
+        first = res if name == "threshold" else res[0]
+        assert first.value == pytest.approx(0.8399, abs=2e-4)
