@@ -375,6 +375,7 @@ class _ZeroEnergy:
         #: Whether each probed parameter value is scanned for undeclared breakpoints (see threshold()).
         self.scan_breakpoints = True
         self._profiles: dict[tuple[float, bool], Any] = {}
+        self._grids: dict[tuple, Any] = {}
 
     def potential(self, p: float):
         return self.base.with_parameters(**{self.parameter: float(p)})
@@ -444,8 +445,14 @@ class _ZeroEnergy:
         pot, prof = self.profile(p)
         r_min, r_max = layout.r_min, layout.r_max
         scale = max(r_max / max(math.log(r_max / r_min), 1.0), min(prof.inner_length, r_max))
-        span = GridSpan.covering(r_min, r_max, COARSE_STEP, scale, prof.breakpoints)
-        grid = span.grid(refinement)
+        # Brent's trial values share one grid unless the potential's lengths move with p.
+        key = (r_min, r_max, scale, tuple(prof.breakpoints), refinement)
+        if key not in self._grids:
+            if len(self._grids) > 8:
+                self._grids.clear()
+            span = GridSpan.covering(r_min, r_max, COARSE_STEP, scale, prof.breakpoints)
+            self._grids[key] = (span, span.grid(refinement))
+        span, grid = self._grids[key]
         values = potential_on_grid(pot, grid.r, span.anchors + span.left_out) - prof.v_infinity
         L = self.effective
         nu = prof.tail.exponents(L, self.mass)
