@@ -67,13 +67,22 @@ CASES = {
 }
 
 
+#: The type each case returns (checked in test_status_success_and_exit_code_agree).
+CASE_TYPES = {
+    "solve": "SolveResult", "solve_not_converged": "SolveResult", "state": "State", "summary": "StateSummary",
+    "transitions": "TransitionResult", "threshold": "ThresholdResult", "critical_values": "CriticalValues",
+    "fit": "FitResult", "check": "CheckReport",
+}
+
+
 @pytest.fixture(scope="module", params=sorted(CASES))
 def result(request):
     return request.param, CASES[request.param]()
 
 
 def test_status_success_and_exit_code_agree(result):
-    _, res = result
+    name, res = result
+    assert type(res).__name__ == CASE_TYPES[name]
     assert isinstance(res, ResultProtocol)
     assert isinstance(res.status, Outcome)
     assert res.success is (res.status is Outcome.SUCCESS)
@@ -157,3 +166,37 @@ def test_outside_facts(result):
         # (Rogers, Graboske & Harwood, Phys. Rev. A 1, 1577 (1970); from memory, 4 digits)
         first = res if name == "threshold" else res[0]
         assert first.value == pytest.approx(0.8399, abs=2e-4)
+
+
+def test_one_writer_writes_every_format(result):
+    from radsolve.output.report import FORMATS, render
+
+    _, res = result
+    assert set(FORMATS) == {"table", "json", "csv"}
+    assert render(res, None, "json") == res.to_json()
+    assert render(res, None, "csv") == res.to_csv()
+    table = render(res, None, "table")
+    assert isinstance(table, str) and table.strip() and table.endswith("\n")
+    with pytest.raises(radsolve.InputError, match="allowed: table, json, csv"):
+        render(res, None, "yaml")
+
+
+def test_every_result_type_is_exported_and_covered():
+    import importlib
+
+    for module in ("radsolve.core.result", "radsolve.analysis.observables", "radsolve.analysis.radiative",
+                   "radsolve.analysis.thresholds", "radsolve.analysis.fitting", "radsolve.analysis.convergence",
+                   "radsolve.analysis.sweeps"):
+        importlib.import_module(module)
+
+    def subclasses(cls):
+        for sub in cls.__subclasses__():
+            yield sub
+            yield from subclasses(sub)
+
+    types = {cls for cls in subclasses(ResultProtocol) if cls.__module__.startswith("radsolve.")}
+    assert types, "no result type found"
+    covered = set(CASE_TYPES.values())
+    for cls in types:
+        assert getattr(radsolve, cls.__name__) is cls, f"{cls.__name__} is not exported from radsolve"
+        assert cls.__name__ in covered, f"{cls.__name__} has no case in CASES"

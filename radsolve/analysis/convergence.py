@@ -195,6 +195,9 @@ class CheckReport(ResultProtocol):
                              "problems": list(o.problems)})
         return rows
 
+    def to_table(self, unit: str | None = None) -> str:
+        return format_check(self)
+
     def to_dict(self, unit: str | None = None) -> dict[str, Any]:
         return {"tol": self.tol, "methods": list(self.methods), "success": self.success,
                 "status": str(self.status), "message": self.message,

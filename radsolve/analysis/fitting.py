@@ -343,6 +343,9 @@ class FitResult(ResultProtocol):
     def _table_columns(self):
         return ("label", "target", "computed", "residual", "bound")
 
+    def to_table(self, unit: str | None = None) -> str:
+        return format_fit(self, unit)
+
     def records(self, unit: str | None = None) -> list[dict[str, Any]]:
         """One row per target (the ``residuals`` of :meth:`to_dict`)."""
         doc = self.to_dict(unit)

@@ -907,6 +907,11 @@ class StateSummary(ResultProtocol):
         return [("label", self.state.label), ("energy", self.state.level.energy),
                 ("quantities", len(self.quantities))]
 
+    def to_table(self, unit: str | None = None) -> str:
+        from radsolve.output.report import state_table
+
+        return state_table(self.state, self.properties, unit or "hartree", self.extra)
+
     def records(self, unit: str | None = None) -> list[dict[str, Any]]:
         """One row per quantity: name, value, error_estimate, unit, converged (energies in hartree)."""
         return [{"quantity": k, "value": v.value, "error_estimate": v.error, "unit": v.unit,

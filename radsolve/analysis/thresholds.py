@@ -266,6 +266,9 @@ class ThresholdResult(ResultProtocol):
     def records(self, unit: str | None = None) -> list[dict[str, Any]]:
         return [_flat(self.to_dict(unit))]
 
+    def to_table(self, unit: str | None = None) -> str:
+        return format_thresholds([self])
+
     def to_dict(self, unit: str | None = None) -> dict[str, Any]:
         """Plain data, as in the JSON output (``unit``: the energy unit of ``slope``; default its own)."""
         factor = 1.0
@@ -330,6 +333,9 @@ class CriticalValues(list, ResultProtocol):
 
     def records(self, unit: str | None = None) -> list[dict[str, Any]]:
         return [row for r in self for row in r.records(unit)]
+
+    def to_table(self, unit: str | None = None) -> str:
+        return format_thresholds(self)
 
     def to_dict(self, unit: str | None = None) -> dict[str, Any]:
         return {"success": self.success, "status": str(self.status), "message": self.message,

@@ -409,12 +409,12 @@ def check_command(
     """
     with _reported_errors():
         _check_judged_tol(tol)
-        from radsolve.analysis.convergence import check, format_check
+        from radsolve.analysis.convergence import check
 
         kwargs = dict(charges=(1, 92), masses=(1.0,), nmax=4) if quick else {}
         progress = _say if sys.stderr.isatty() else None
         report = check(tol=tol, progress=progress, **kwargs)
-        typer.echo(format_check(report), nl=False)
+        typer.echo(report.to_table(), nl=False)
         if not report.passed:
             raise typer.Exit(report.exit_code)
 
@@ -666,7 +666,7 @@ def threshold_command(
     with _reported_errors():
         from radsolve.errors import InputError
         from radsolve.potentials import get_family
-        from radsolve.analysis.thresholds import critical_values, format_thresholds
+        from radsolve.analysis.thresholds import critical_values
 
         params = parse_assignments(param)
         if level and nmax is not None:
@@ -695,7 +695,7 @@ def threshold_command(
             # a JSON array with one document per level (the 0.1 schema), each with its status
             text = dumps_json([r.to_dict() for r in results])
         else:
-            text = format_thresholds(results)
+            text = results.to_table()
         _write_output(text, out, f"{len(results)} threshold(s)")
         if not results.success:
             _say(f"warning: not converged to tol {tol:g}: "
@@ -753,7 +753,7 @@ def fit_command(
     """
     with _reported_errors():
         from radsolve.errors import InputError
-        from radsolve.analysis.fitting import fit, format_fit, parse_free, read_targets
+        from radsolve.analysis.fitting import fit, parse_free, read_targets
         from radsolve.potentials import get_family
         from radsolve.units import energy_unit_factor
 
@@ -777,7 +777,9 @@ def fit_command(
         result = fit(family.name, target_list, free=names, bounds=bounds, fixed=params, mass=mu, tol=tol,
                      method=method.value, plugins=_plugin_dirs(plugins),
                      max_evaluations=max_evaluations, dimension=dimension)
-        text = result.to_json(unit) if fmt is ReportFormat.json else format_fit(result, unit)
+        from radsolve.output.report import render
+
+        text = render(result, unit, fmt.value)
         _write_output(text, out, "the fit report")
         if plot is not None:
             from radsolve.output.sweep_plotting import plot_fit

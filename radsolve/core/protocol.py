@@ -118,6 +118,10 @@ class ResultProtocol:
         """The command line's exit status for this result."""
         return EXIT_CODES[self.status]
 
+    def to_table(self, unit: str | None = None) -> str:
+        """Text for a terminal (a type with a table of its own overrides this; the repr otherwise)."""
+        return repr(self) + "\n"
+
     def to_json(self, unit: str | None = None, indent: int | None = 2) -> str:
         """:meth:`to_dict` as JSON text (non-finite numbers become null)."""
         return dumps_json(self.to_dict(unit), indent=indent)

@@ -450,8 +450,10 @@ def render(result, unit: str | None = None, fmt: str = "table") -> str:
     """Any result in format ``fmt``: ``"table"`` (text for a terminal), ``"json"`` or ``"csv"``.
 
     JSON and CSV come from the result protocol (``to_json``, ``to_csv``), so
-    every result type is written the same way; a type without a table of its
-    own is shown by its compact repr.  ``unit`` None: the result's own unit.
+    every result type is written the same way; tables are this module's for
+    levels and E1 lines and the result's own ``to_table()`` otherwise (the
+    analysis types draw theirs; the default is the compact repr).  ``unit``
+    None: the result's own unit.
     """
     from radsolve.errors import InputError
 
@@ -463,7 +465,7 @@ def render(result, unit: str | None = None, fmt: str = "table") -> str:
         return result.to_csv(_default_unit(result, unit))
     table = _table_writers().get(type(result).__name__)
     if table is None:
-        return repr(result) + "\n"
+        return result.to_table(unit)
     return table(result, _default_unit(result, unit))
 
 
