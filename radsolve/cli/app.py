@@ -322,16 +322,7 @@ def levels_command(
                 raise
             # Say which potential the solver's complaint (e.g. fall to the centre) is about.
             raise type(exc)(f"potential {pot.name!r}: {exc}") from None
-        text = render(result, unit, fmt.value)
-
-        if out is None:
-            typer.echo(text, nl=False)
-        else:
-            try:
-                out.write_text(text, encoding="utf-8")
-            except OSError as exc:
-                raise InputError(f"--out {str(out)!r}: cannot write: {exc.strerror}") from None
-            _say(f"wrote {len(result.levels)} levels ({fmt.value}) to {out}")
+        _write_output(render(result, unit, fmt.value), out, f"{len(result.levels)} levels ({fmt.value})")
         noteworthy = (not result.success or not result.levels
                       or any(v is not None for v in result.bound_counts.values()))
         if result.message and noteworthy and (out is not None or fmt is not OutputFormat.table):
@@ -1007,14 +998,7 @@ def transitions_command(
         text = render(tr, unit, fmt.value)
         if fmt.value == "csv":
             _say("note: " + tr.short_note)
-        if out is None:
-            typer.echo(text, nl=False)
-        else:
-            try:
-                out.write_text(text, encoding="utf-8")
-            except OSError as exc:
-                raise InputError(f"--out {str(out)!r}: cannot write: {exc.strerror}") from None
-            _say(f"wrote {len(tr.lines)} lines and {len(tr.states)} levels ({fmt.value}) to {out}")
+        _write_output(text, out, f"{len(tr.lines)} lines and {len(tr.states)} levels ({fmt.value})")
         if plot is not None:
             from radsolve.output.plotting import plot_level_diagram
 

@@ -441,27 +441,20 @@ def find_breakpoints(potential, r_lo: float, r_hi: float) -> tuple[float, ...]:
     def known(a, b):
         return any(a * (1 - 1e-12) <= x <= b * (1 + 1e-12) for x in found)
 
+    # Jump candidates are intervals [r[i], r[i+1]], kink candidates points bracketed two samples each
+    # way; at most _MAX_CANDIDATES bisections for jumps, and as many again for kinks.
     tried = 0
-    for i in jumps:
-        if tried >= _MAX_CANDIDATES or len(found) >= _MAX_DETECTED:
-            break
-        a, b = r[i], r[i + 1]
-        if known(a, b):
-            continue
-        tried += 1
-        point = _locate_break(potential, a, b)
-        if point is not None and not known(point, point):
-            found.append(point)
-    for i in kinks:
-        if tried >= 2 * _MAX_CANDIDATES or len(found) >= _MAX_DETECTED:
-            break
-        a, b = r[max(i - 2, 0)], r[min(i + 2, r.size - 1)]
-        if known(a, b):
-            continue
-        tried += 1
-        point = _locate_break(potential, a, b)
-        if point is not None and not known(point, point):
-            found.append(point)
+    for limit, brackets in ((_MAX_CANDIDATES, ((r[i], r[i + 1]) for i in jumps)),
+                            (2 * _MAX_CANDIDATES, ((r[max(i - 2, 0)], r[min(i + 2, r.size - 1)]) for i in kinks))):
+        for a, b in brackets:
+            if tried >= limit or len(found) >= _MAX_DETECTED:
+                break
+            if known(a, b):
+                continue
+            tried += 1
+            point = _locate_break(potential, a, b)
+            if point is not None and not known(point, point):
+                found.append(point)
     return tuple(sorted(found))
 
 
