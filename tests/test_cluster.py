@@ -9,13 +9,12 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from typer.testing import CliRunner
 
 distributed = pytest.importorskip(
     "distributed", reason="dask[distributed] is not installed (pip install 'radsolve[cluster]')")
 
+from helpers import invoke  # noqa: E402
 from radsolve.analysis import sweeps  # noqa: E402
-from radsolve.cli import app  # noqa: E402
 from radsolve.errors import InputError  # noqa: E402
 from radsolve.analysis.sweeps import sweep  # noqa: E402
 
@@ -70,9 +69,9 @@ def test_local_cluster_started_here(serial):
 
 def test_cli_cluster_option(serial, loopback_cluster, tmp_path):
     out = tmp_path / "cli.csv"
-    result = CliRunner().invoke(app, ["sweep", "yukawa", "--vary", "screening_length=0.8,1.2,3,4.8,9,15",
-                                      "-l", "0", "-l", "1", "--count", "2", "--tol", "1e-8",
-                                      "--cluster", loopback_cluster.scheduler_address, "--out", str(out)])
+    result = invoke("sweep", "yukawa", "--vary", "screening_length=0.8,1.2,3,4.8,9,15",
+                    "-l", "0", "-l", "1", "--count", "2", "--tol", "1e-8",
+                    "--cluster", loopback_cluster.scheduler_address, "--out", str(out))
     assert result.exit_code == 0, result.output
     assert out.read_text() == serial.to_csv()
 
@@ -87,8 +86,8 @@ def test_unreachable_scheduler_is_a_clear_error(monkeypatch):
 
 def test_cli_unreachable_scheduler_exits_2_without_traceback(monkeypatch):
     monkeypatch.setattr(sweeps, "CLUSTER_TIMEOUT", 1.0)
-    result = CliRunner().invoke(app, ["sweep", "yukawa", "--vary", "screening_length=1:2:2",
-                                      "--cluster", "tcp://127.0.0.1:9"])
+    result = invoke("sweep", "yukawa", "--vary", "screening_length=1:2:2",
+                    "--cluster", "tcp://127.0.0.1:9")
     assert result.exit_code == 2
     assert "no Dask scheduler answered" in result.stderr
     assert "Traceback" not in result.output + result.stderr
