@@ -2,22 +2,22 @@
 
 No physics reference is needed here: the check is that the cluster gives
 bit-for-bit the rows of the serial run (same solver, same inputs), in the
-same order.  Needs the optional dependency radsolve[cluster]; CI installs it.
+same order.  Needs the optional dependency radsolve[cluster] (marker needs_dask:
+skipped without it; CI installs it and sets RADSOLVE_REQUIRE_EXTRAS=1).
 """
 
 from __future__ import annotations
 
 import numpy as np
 import pytest
-from typer.testing import CliRunner
 
-distributed = pytest.importorskip(
-    "distributed", reason="dask[distributed] is not installed (pip install 'radsolve[cluster]')")
+from helpers import invoke
+from radsolve.analysis import sweeps
+from radsolve.errors import InputError
+from radsolve.analysis.sweeps import sweep
 
-from radsolve.analysis import sweeps  # noqa: E402
-from radsolve.cli import app  # noqa: E402
-from radsolve.errors import InputError  # noqa: E402
-from radsolve.analysis.sweeps import sweep  # noqa: E402
+# distributed itself is imported where it is used, so that this file imports without it.
+pytestmark = pytest.mark.needs_dask
 
 VARY = {"screening_length": [0.8, 1.2, 3.0, 4.8, 9.0, 15.0]}
 SETTINGS = dict(l=[0, 1], count=2, tol=1e-8)
@@ -30,6 +30,8 @@ def serial():
 
 @pytest.fixture(scope="module")
 def loopback_cluster():
+    import distributed
+
     # Threads in this process, but real TCP on loopback, so that the sweep
     # connects through a scheduler address as it would to a remote cluster.
     cluster = distributed.LocalCluster(n_workers=1, threads_per_worker=2, processes=False,
@@ -57,6 +59,8 @@ def test_scheduler_address_gives_the_serial_result(serial, loopback_cluster, tmp
 
 
 def test_client_object_gives_the_serial_result(serial, loopback_cluster):
+    import distributed
+
     with distributed.Client(loopback_cluster) as client:
         res = sweep("yukawa", vary=VARY, cluster=client, **SETTINGS)
         assert client.status == "running"  # a client we were given is left open
@@ -70,9 +74,9 @@ def test_local_cluster_started_here(serial):
 
 def test_cli_cluster_option(serial, loopback_cluster, tmp_path):
     out = tmp_path / "cli.csv"
-    result = CliRunner().invoke(app, ["sweep", "yukawa", "--vary", "screening_length=0.8,1.2,3,4.8,9,15",
-                                      "-l", "0", "-l", "1", "--count", "2", "--tol", "1e-8",
-                                      "--cluster", loopback_cluster.scheduler_address, "--out", str(out)])
+    result = invoke("sweep", "yukawa", "--vary", "screening_length=0.8,1.2,3,4.8,9,15",
+                    "-l", "0", "-l", "1", "--count", "2", "--tol", "1e-8",
+                    "--cluster", loopback_cluster.scheduler_address, "--out", str(out))
     assert result.exit_code == 0, result.output
     assert out.read_text() == serial.to_csv()
 
@@ -87,8 +91,8 @@ def test_unreachable_scheduler_is_a_clear_error(monkeypatch):
 
 def test_cli_unreachable_scheduler_exits_2_without_traceback(monkeypatch):
     monkeypatch.setattr(sweeps, "CLUSTER_TIMEOUT", 1.0)
-    result = CliRunner().invoke(app, ["sweep", "yukawa", "--vary", "screening_length=1:2:2",
-                                      "--cluster", "tcp://127.0.0.1:9"])
+    result = invoke("sweep", "yukawa", "--vary", "screening_length=1:2:2",
+                    "--cluster", "tcp://127.0.0.1:9")
     assert result.exit_code == 2
     assert "no Dask scheduler answered" in result.stderr
     assert "Traceback" not in result.output + result.stderr

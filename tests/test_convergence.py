@@ -13,12 +13,10 @@ import math
 
 import pytest
 from scipy.constants import physical_constants
-from sympy.physics.hydrogen import E_nl
-from typer.testing import CliRunner
 
+from helpers import exact_hydrogenic, invoke
 from radsolve.analysis.convergence import (MethodOutcome, _assess, check, exact_coulomb_energy,
                             format_check)
-from radsolve.cli import app
 
 
 def ratio(name: str) -> float:
@@ -36,15 +34,11 @@ MU = {
 }
 
 
-def sympy_level(n: int, Z: float, mu: float) -> float:
-    return float(E_nl(n, Z)) * mu
-
-
 @pytest.mark.parametrize("Z", [1, 2, 10, 92])
 @pytest.mark.parametrize("n", [1, 2, 7, 10])
 def test_exact_formula_matches_sympy(n, Z):
     for mu in MU.values():
-        assert exact_coulomb_energy(n, Z, mu) == pytest.approx(sympy_level(n, Z, mu), rel=1e-15)
+        assert exact_coulomb_energy(n, Z, mu) == pytest.approx(exact_hydrogenic(n, Z, mu), rel=1e-15)
 
 
 @pytest.fixture(scope="module")
@@ -67,7 +61,7 @@ def test_report_covers_every_level_and_uses_exact_values(small_report):
     for row in rows:
         mu = MU[1.0] if row.mass_name == "1.0" else MU[row.mass_name]
         assert row.mass == pytest.approx(mu, rel=1e-12)
-        expected = sympy_level(row.n, row.Z, mu)
+        expected = exact_hydrogenic(row.n, row.Z, mu)
         assert row.exact == pytest.approx(expected, rel=1e-14)
         assert set(row.outcomes) == {"fd", "numerov"}
         for method in ("fd", "numerov"):
@@ -105,7 +99,7 @@ def test_tolerance_at_the_rounding_floor_fails_on_accuracy():
 
 
 def test_impossible_tolerance_fails_on_the_command_line():
-    result = CliRunner().invoke(app, ["check", "--quick", "--tol", "1e-18"])
+    result = invoke("check", "--quick", "--tol", "1e-18")
     assert result.exit_code == 1, (result.stdout, result.stderr)
     assert "Traceback" not in result.stdout + result.stderr
     last = result.stdout.strip().splitlines()[-1]

@@ -23,15 +23,11 @@ import mpmath
 import numpy as np
 import pytest
 from scipy.special import comb
-from typer.testing import CliRunner
 
 import radsolve
-from radsolve.cli import app
+from helpers import invoke
 from radsolve.errors import InputError
 from radsolve.potentials.builtin.rytova_keldysh import struve_minus_y0
-
-runner = CliRunner()
-
 
 def hydrogen_d(n, Z, mu, d):
     """-mu Z^2 / (2 (n + (d-3)/2)^2): textbook formula."""
@@ -125,20 +121,20 @@ def test_dimension_bad_input():
     for bad in (1, 0, -3, 2.5, "3", True):
         with pytest.raises(InputError, match="dimension"):
             radsolve.solve("coulomb", dimension=bad)
-    result = runner.invoke(app, ["levels", "coulomb", "--dimension", "1"])
+    result = invoke("levels", "coulomb", "--dimension", "1")
     assert result.exit_code == 2 and "--dimension 1" in result.stderr
     assert "Traceback" not in result.stderr + result.output
 
 
 def test_cli_reports_the_dimension():
-    result = runner.invoke(app, ["levels", "coulomb", "-d", "2", "-k", "1", "-f", "json"])
+    result = invoke("levels", "coulomb", "-d", "2", "-k", "1", "-f", "json")
     assert result.exit_code == 0
     import json
 
     doc = json.loads(result.stdout)
     assert doc["dimension"] == 2
     assert doc["levels"][0]["energy"] == pytest.approx(hydrogen_d(1, 1, 1, 2), rel=1e-10)
-    table = runner.invoke(app, ["levels", "coulomb", "-d", "2", "-k", "1"])
+    table = invoke("levels", "coulomb", "-d", "2", "-k", "1")
     assert "dimension 2" in table.stdout
 
 

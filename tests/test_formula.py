@@ -22,16 +22,13 @@ import numpy as np
 import pytest
 from scipy import constants as const
 from scipy.special import erf
-from sympy.physics.hydrogen import E_nl
-from typer.testing import CliRunner
 
 import radsolve
+from helpers import exact_hydrogenic, invoke
 from independent_shooting import shooting_energy
-from radsolve.cli import app
 from radsolve.errors import InputError, PluginError
 from radsolve.potentials.formula import CONSTANTS, FUNCTIONS, Formula, FormulaError, formula_potential
 
-runner = CliRunner()
 BOHR_IN_ANGSTROM = const.physical_constants["Bohr radius"][0] / const.angstrom
 
 
@@ -135,7 +132,7 @@ def test_formula_coulomb_gives_exact_hydrogen():
     res = radsolve.solve(pot, l=[0, 1], count=3, tol=1e-11)
     assert len(res.levels) == 6
     for lev in res.levels:
-        exact = float(E_nl(lev.n, 2))
+        exact = exact_hydrogenic(lev.n, 2)
         assert lev.energy == pytest.approx(exact, rel=1e-10)
 
 
@@ -270,8 +267,8 @@ def test_non_finite_values_are_reported_not_returned():
 
 
 def test_cli_formula_levels_match_python():
-    result = runner.invoke(app, ["levels", "formula", "--expr", "-Z*exp(-r/D)/r", "-p", "Z=1",
-                                 "-p", "D=10", "-l", "0", "-k", "2", "-f", "json"])
+    result = invoke("levels", "formula", "--expr", "-Z*exp(-r/D)/r", "-p", "Z=1",
+                    "-p", "D=10", "-l", "0", "-k", "2", "-f", "json")
     assert result.exit_code == 0, result.output
     import json
 
@@ -289,7 +286,7 @@ def test_cli_formula_levels_match_python():
     (["--expr", "exp(r"], "not a valid expression"),
 ])
 def test_cli_bad_formulas_exit_2_with_one_line(args, fragment):
-    result = runner.invoke(app, ["levels", "formula", *args])
+    result = invoke("levels", "formula", *args)
     assert result.exit_code == 2
     assert fragment in result.stderr
     assert "Traceback" not in result.output + result.stderr

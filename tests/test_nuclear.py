@@ -31,16 +31,14 @@ import numpy as np
 import pytest
 from scipy import constants as const
 from scipy.special import ai_zeros
-from typer.testing import CliRunner
 
 import radsolve
-from radsolve.cli import app
+from helpers import invoke
 from radsolve.errors import InputError
 from radsolve.potentials.formula import formula_potential
 from radsolve.potentials.builtin import woods_saxon
 from radsolve.units import parse_nuclear_mass, parse_quantity_in, unit_system
 
-runner = CliRunner()
 HBARC = const.hbar * const.c / (const.mega * const.e * const.femto)  # MeV fm
 MAGIC = (2, 8, 20, 28, 50, 82, 126)
 
@@ -263,15 +261,15 @@ def test_bad_input_about_units_and_spin_orbit():
         (["levels", "woods_saxon", "--units", "atomic", "--mass", "neutron"], "allowed for it: nuclear"),
         (["levels", "woods_saxon", "--mass", "3kg"], "--mass"),
     ):
-        result = runner.invoke(app, args)
+        result = invoke(*args)
         assert result.exit_code == 2, args
         assert fragment in result.stderr, (args, result.stderr)
         assert "Traceback" not in result.stderr + result.output
 
 
 def test_cli_nuclear_table_shows_j_and_MeV():
-    result = runner.invoke(app, ["levels", "woods_saxon", "--spin-orbit", "-l", "1", "-k", "1",
-                                 "--mass", "neutron", "--tol", "1e-8"])
+    result = invoke("levels", "woods_saxon", "--spin-orbit", "-l", "1", "-k", "1",
+                    "--mass", "neutron", "--tol", "1e-8")
     assert result.exit_code == 0, result.output
     text = result.stdout
     assert "(nuclear units)" in text and "energy/MeV" in text and "MeV/c^2" in text

@@ -27,9 +27,9 @@ import numpy as np
 import pytest
 from scipy.constants import physical_constants
 from scipy.special import gamma
-from sympy.physics.hydrogen import E_nl
 
 import radsolve
+from helpers import exact_hydrogenic
 from radsolve.errors import InputError
 from radsolve.analysis.observables import Estimate, State, expectation, state
 
@@ -46,11 +46,10 @@ def closed_forms(n: int, l: int, Z: float = 1.0, mu: float = 1.0) -> dict[float,
 
 
 @pytest.fixture(scope="module")
-def hydrogen():
-    """One solve of -1/r for l = 0..4, n <= 5, unit mass; states by label."""
-    result = radsolve.solve("coulomb", l=[0, 1, 2, 3, 4], count=5, tol=1e-10)
-    assert result.success, result.message
-    return {lev.label: State.from_result(result, lev.label) for lev in result.levels if lev.n <= 5}
+def hydrogen(hydrogen_result):
+    """States n <= 5 of the shared solve of -1/r (l = 0..4, unit mass; conftest.py), by label."""
+    return {lev.label: State.from_result(hydrogen_result, lev.label)
+            for lev in hydrogen_result.levels if lev.n <= 5}
 
 
 @pytest.mark.parametrize("label", ["1s", "2s", "2p", "3s", "3d", "4f", "5s", "5p", "5g"])
@@ -121,7 +120,7 @@ def test_potential_and_kinetic_energy_of_hydrogen_with_reduced_mass():
     # sympy.physics.hydrogen.E_nl (sympy), -1/(2 n^2), scaled by the electron-proton reduced
     # mass in electron masses, mu = 1/(1 + m_e/m_p) (CODATA via scipy.constants)
     mu = 1.0 / (1.0 + 1.0 / physical_constants["proton-electron mass ratio"][0])
-    exact = mu * float(E_nl(3, 1))
+    exact = exact_hydrogenic(3, 1, mu)
     assert energy == pytest.approx(exact, rel=1e-10)
     # virial theorem for -1/r (textbook): <V> = 2E, <T> = -E
     assert st.potential_energy().value == pytest.approx(2 * exact, rel=1e-9)

@@ -12,13 +12,10 @@ import math
 import mpmath as mp
 import numpy as np
 import pytest
-from scipy.constants import femto, physical_constants
 
 import radsolve
+from helpers import FM
 from radsolve.potentials import potential
-
-BOHR_M = physical_constants["Bohr radius"][0]
-FM = femto / BOHR_M  # one femtometre in bohr
 
 
 def coulomb_level(Z, n, mass=1.0):

@@ -161,8 +161,10 @@ def test_csv_and_json_export_keep_unbound_rows(yukawa_sweep, tmp_path):
     assert doc["parameter_units"]["screening_length"] == "bohr"
 
 
+@pytest.mark.needs_pandas
 def test_to_pandas(yukawa_sweep):
-    pd = pytest.importorskip("pandas", reason="pandas is optional (pip install pandas)")
+    import pandas as pd
+
     frame = yukawa_sweep.to_pandas()
     assert len(frame) == len(yukawa_sweep)
     assert list(frame.columns) == list(yukawa_sweep.columns)

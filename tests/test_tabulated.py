@@ -25,15 +25,12 @@ import pytest
 from scipy import constants as const
 from scipy.optimize import brentq
 from scipy.special import jv
-from typer.testing import CliRunner
 
 import radsolve
-from radsolve.cli import app
+from helpers import EV_IN_HARTREE, invoke
 from radsolve.errors import InputError
 from radsolve.potentials.tabulated import MIN_POINTS, read_table, tabulated_potential
 
-runner = CliRunner()
-EV_IN_HARTREE = const.physical_constants["electron volt-hartree relationship"][0]
 ANGSTROM_IN_BOHR = const.angstrom / const.physical_constants["Bohr radius"][0]
 
 
@@ -273,9 +270,9 @@ def test_missing_and_binary_files(tmp_path):
 def test_cli_table_matches_python(tmp_path):
     r = np.geomspace(1e-5, 400.0, 4000)
     path = write_table(tmp_path / "coulomb.csv", r / ANGSTROM_IN_BOHR, (-1.0 / r) / EV_IN_HARTREE)
-    result = runner.invoke(app, ["levels", "table", "--file", str(path), "--r-unit", "angstrom",
-                                 "--v-unit", "eV", "--inside", "coulomb:1", "--beyond", "zero",
-                                 "-k", "2", "-f", "csv"])
+    result = invoke("levels", "table", "--file", str(path), "--r-unit", "angstrom",
+                    "--v-unit", "eV", "--inside", "coulomb:1", "--beyond", "zero",
+                    "-k", "2", "-f", "csv")
     assert result.exit_code == 0, result.output
     energies = [float(line.split(",")[4]) for line in result.stdout.splitlines()[1:]]
     # Source: E = -1/(2 n^2) hartree (textbook formula).  The Coulomb rule's Z is in the
@@ -287,10 +284,10 @@ def test_cli_table_matches_python(tmp_path):
 def test_cli_bad_table_exits_2_naming_the_line(tmp_path):
     path = tmp_path / "bad.csv"
     path.write_text("1,2\n2,oops\n", encoding="utf-8")
-    result = runner.invoke(app, ["levels", "table", "--file", str(path)])
+    result = invoke("levels", "table", "--file", str(path))
     assert result.exit_code == 2
     assert "line 2" in result.stderr and "Traceback" not in result.stderr + result.output
-    result = runner.invoke(app, ["levels", "table"])
+    result = invoke("levels", "table")
     assert result.exit_code == 2 and "needs --file" in result.stderr
 
 

@@ -34,7 +34,7 @@ from radsolve.errors import InputError
 from radsolve.analysis.observables import State, state
 from radsolve.analysis.radiative import radial_dipole, transitions, transitions_from
 
-NMAX = 5
+NMAX = 5  # the shared hydrogen_result (conftest.py) holds l < 5, five levels each
 
 
 def reference_dipole(n1, l1, n2, l2) -> float:
@@ -44,13 +44,6 @@ def reference_dipole(n1, l1, n2, l2) -> float:
     with mpmath.workdps(30):
         # split at a few radii so the oscillating integrand is resolved
         return float(mpmath.quad(f, [0, 2, 8, 20, 50, mpmath.inf]))
-
-
-@pytest.fixture(scope="module")
-def hydrogen_result():
-    result = radsolve.solve("coulomb", l=list(range(NMAX)), count=NMAX, tol=1e-10)
-    assert result.success, result.message
-    return result
 
 
 def _pairs():

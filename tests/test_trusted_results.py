@@ -430,11 +430,8 @@ def test_two_dimensional_wells_always_bind(depth):
 def test_crashes_of_the_first_release_are_gone_on_the_command_line(tmp_path):
     from pathlib import Path
 
-    from typer.testing import CliRunner
+    from helpers import invoke
 
-    from radsolve.cli import app
-
-    runner = CliRunner()
     fixtures = Path(__file__).parent / "plugins_fixture"
     (tmp_path / "lj_well.py").write_text(
         "NAME = 'lj_well'\nPARAMETERS = {'epsilon': 0.01, 'sigma': 6.0}\n"
@@ -442,7 +439,7 @@ def test_crashes_of_the_first_release_are_gone_on_the_command_line(tmp_path):
     for args in (["levels", "harmonic", "--count", "200", "--tol", "1e-8"],
                  ["threshold", "gauss_well", "-v", "depth", "--level", "3d", "--plugins", str(fixtures)],
                  ["levels", "lj_well", "--plugins", str(tmp_path), "--mass", "1836", "--count", "12", "--tol", "1e-8"]):
-        result = runner.invoke(app, args)
+        result = invoke(*args)
         assert result.exit_code == 0, (args, result.stdout, result.stderr)
         assert "internal error" not in result.stderr and "Traceback" not in result.stdout + result.stderr
         assert "bound levels" in result.stdout or "3d" in result.stdout

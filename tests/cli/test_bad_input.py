@@ -12,27 +12,9 @@ result, e.g. Landau & Lifshitz, Quantum Mechanics, section 35).
 
 from __future__ import annotations
 
-import os
-import subprocess
-import tempfile
-import sys
-from pathlib import Path
-
 import pytest
-from typer.testing import CliRunner
 
-from radsolve.cli import app
-
-# Subprocesses run outside the repository, so that they use the installed
-# radsolve as a user's shell would.
-NEUTRAL_CWD = tempfile.mkdtemp(prefix="radsolve-cwd-")
-
-PLUGINS = Path(__file__).parent / "cli_plugins"
-runner = CliRunner()
-
-
-def run(args, env=None):
-    return runner.invoke(app, [str(a) for a in args], env=env)
+from helpers import CLI_PLUGINS, invoke
 
 
 def assert_clean_failure(result, *words, status=2):
@@ -94,7 +76,7 @@ RADSOLVE_ERRORS = [
 
 @pytest.mark.parametrize("args, words", RADSOLVE_ERRORS, ids=lambda a: " ".join(map(str, a)))
 def test_levels_rejects(args, words):
-    result = run(["levels", *args])
+    result = invoke("levels", *args)
     assert_clean_failure(result, *words)
     lines = result.stderr.strip().splitlines()
     assert len(lines) == 1 and lines[0].startswith("radsolve: error: "), result.stderr
@@ -120,42 +102,42 @@ USAGE_ERRORS = [
 
 @pytest.mark.parametrize("args, words", USAGE_ERRORS, ids=lambda a: " ".join(map(str, a)))
 def test_usage_errors(args, words):
-    assert_clean_failure(run(args), *words)
+    assert_clean_failure(invoke(*args), *words)
 
 
 @pytest.mark.parametrize("tol", ["0", "1", "nan"])
 def test_check_rejects_bad_tol(tol):
-    assert_clean_failure(run(["check", "--quick", "--tol", tol]), "--tol", "0 < tol < 1")
+    assert_clean_failure(invoke("check", "--quick", "--tol", tol), "--tol", "0 < tol < 1")
 
 
 def test_potentials_unknown_name_suggests():
-    assert_clean_failure(run(["potentials", "yukawwa"]), "'yukawwa'", "did you mean 'yukawa'")
+    assert_clean_failure(invoke("potentials", "yukawwa"), "'yukawwa'", "did you mean 'yukawa'")
 
 
 # ---------------------------------------------------------------- bad plug-ins
 
 
 def test_plugin_that_fails_to_import_names_file_and_cause():
-    folder = PLUGINS / "broken_import"
+    folder = CLI_PLUGINS / "broken_import"
     # Using it fails cleanly with the cause ...
-    assert_clean_failure(run(["levels", "cli_broken", "--plugins", folder]),
+    assert_clean_failure(invoke("levels", "cli_broken", "--plugins", folder),
                          "cli_broken.py", "radsolve_no_such_module_for_tests")
     # ... but it stops nothing else: the built-ins still solve,
-    ok = run(["levels", "coulomb", "--plugins", folder, "--count", "1", "--tol", "1e-6"])
+    ok = invoke("levels", "coulomb", "--plugins", folder, "--count", "1", "--tol", "1e-6")
     assert ok.exit_code == 0, ok.stderr
     assert "1s" in ok.stdout
     # and the listing shows it as broken, with the cause, beside the others.
-    listing = run(["potentials", "--plugins", folder])
+    listing = invoke("potentials", "--plugins", folder)
     assert listing.exit_code == 0
     assert "cli_broken -- BROKEN" in listing.stdout and "radsolve_no_such_module_for_tests" in listing.stdout
     assert "coulomb" in listing.stdout and "cli_broken.py" in listing.stderr
 
 
 def test_broken_plugin_through_environment_variable():
-    env = {"RADSOLVE_PLUGINS": str(PLUGINS / "broken_import")}
-    listing = run(["potentials"], env=env)
+    env = {"RADSOLVE_PLUGINS": str(CLI_PLUGINS / "broken_import")}
+    listing = invoke("potentials", env=env)
     assert listing.exit_code == 0 and "cli_broken.py" in listing.stdout
-    assert_clean_failure(run(["potentials", "cli_broken"], env=env), "cli_broken.py")
+    assert_clean_failure(invoke("potentials", "cli_broken", env=env), "cli_broken.py")
 
 
 BAD_PLUGINS = [
@@ -168,14 +150,14 @@ BAD_PLUGINS = [
 
 @pytest.mark.parametrize("folder, name, words", BAD_PLUGINS, ids=[b[1] for b in BAD_PLUGINS])
 def test_plugin_returning_unusable_values(folder, name, words):
-    result = run(["levels", name, "--plugins", PLUGINS / folder, "--count", "1", "--tol", "1e-6"])
+    result = invoke("levels", name, "--plugins", CLI_PLUGINS / folder, "--count", "1", "--tol", "1e-6")
     assert_clean_failure(result, name, *words)
 
 
 def test_fall_to_the_centre_is_refused():
     # 2 mu g = 2 > (l + 1/2)^2 = 1/4 (textbook result): no ground state exists.
-    result = run(["levels", "cli_inverse_square", "--plugins", PLUGINS / "inverse_square",
-                  "--count", "1", "--tol", "1e-6"])
+    result = invoke("levels", "cli_inverse_square", "--plugins", CLI_PLUGINS / "inverse_square",
+                    "--count", "1", "--tol", "1e-6")
     assert_clean_failure(result, "cli_inverse_square")
     assert any(w in result.stderr.lower() for w in ("fall", "unbounded", "no ground state"))
 
@@ -183,30 +165,19 @@ def test_fall_to_the_centre_is_refused():
 # ----------------------------------------------------------- in a real process
 
 
-def run_process(*args, env_extra=None):
-    env = dict(os.environ)
-    env.pop("RADSOLVE_PLUGINS", None)
-    env.pop("RADSOLVE_TRACEBACK", None)
-    env.update(env_extra or {})
-    # The 600 s timeout only guards against a hang; it is no speed goal.
-    return subprocess.run([sys.executable, "-m", "radsolve", *map(str, args)],
-                          capture_output=True, text=True, env=env, timeout=600,
-                          cwd=NEUTRAL_CWD)
-
-
 @pytest.mark.parametrize("args, words", [
     (["levels", "coulomb", "-p", "Z"], ["-p", "KEY=VALUE"]),
     (["levels", "yukawwa"], ["did you mean 'yukawa'"]),
     (["levels", "coulomb", "--count", "0"], ["--count"]),
-    (["levels", "cli_nan_tail", "--plugins", PLUGINS / "nan_v", "--count", "1"],
+    (["levels", "cli_nan_tail", "--plugins", CLI_PLUGINS / "nan_v", "--count", "1"],
      ["cli_nan_tail", "nan"]),
-    (["levels", "cli_inverse_square", "--plugins", PLUGINS / "inverse_square", "--count", "1"],
+    (["levels", "cli_inverse_square", "--plugins", CLI_PLUGINS / "inverse_square", "--count", "1"],
      ["cli_inverse_square"]),
-    (["levels", "cli_broken", "--plugins", PLUGINS / "broken_import"], ["cli_broken.py"]),
+    (["levels", "cli_broken", "--plugins", CLI_PLUGINS / "broken_import"], ["cli_broken.py"]),
 ], ids=["malformed -p", "unknown potential", "count 0", "NaN plug-in", "fall to centre",
         "broken plug-in"])
-def test_real_process_has_no_traceback(args, words):
-    proc = run_process(*args)
+def test_real_process_has_no_traceback(args, words, radsolve_process):
+    proc = radsolve_process(*args)
     assert proc.returncode == 2, (proc.returncode, proc.stderr)
     assert "Traceback" not in proc.stdout + proc.stderr
     assert proc.stdout == ""

@@ -18,40 +18,15 @@ from __future__ import annotations
 import csv
 import io
 import json
-import subprocess
-import tempfile
-import sys
-from pathlib import Path
 from types import SimpleNamespace
 
 import pytest
 from scipy.constants import physical_constants
-from sympy.physics.hydrogen import E_nl
-from typer.testing import CliRunner
 
-from radsolve.cli import app
+from helpers import CLI_PLUGINS, EV_IN_HARTREE, exact_hydrogenic, invoke, levels_json
 from radsolve.core.protocol import Note, Outcome
 from radsolve.core.result import Level, SolveResult
 from radsolve.output import report
-
-# Subprocesses run outside the repository, so that they use the installed
-# radsolve as a user's shell would.
-NEUTRAL_CWD = tempfile.mkdtemp(prefix="radsolve-cwd-")
-
-runner = CliRunner()
-
-# CODATA via scipy.constants: 1 eV in hartree.
-EV_IN_HARTREE = physical_constants["electron volt-hartree relationship"][0]
-
-
-def exact_hydrogenic(n: int, Z: float, mu: float) -> float:
-    """Exact level of -Z/r in hartree: sympy's E_nl (infinite mass) times mu."""
-    return float(E_nl(n, Z)) * mu
-
-
-def run(*args: str, env: dict | None = None):
-    """Invoke the CLI in-process; stdout and stderr separately."""
-    return runner.invoke(app, list(args), env=env)
 
 
 # ---------------------------------------------------------------- test double
@@ -151,15 +126,6 @@ def test_csv_without_exact_has_no_exact_columns():
 
 # ---------------------------------------------------------------- end to end
 
-PLUGINS = Path(__file__).parent / "cli_plugins"
-
-
-def levels_json(*args: str, env: dict | None = None) -> dict:
-    result = run("levels", *args, "--format", "json", env=env)
-    assert result.exit_code == 0, (result.stdout, result.stderr)
-    return json.loads(result.stdout)
-
-
 def test_levels_json_schema_and_exact_coulomb_values():
     doc = levels_json("coulomb", "-p", "Z=2", "--lmax", "1", "--count", "2", "--tol", "1e-8")
     assert {"potential", "parameters", "mass", "unit", "levels"} <= set(doc)
@@ -206,8 +172,8 @@ def test_reduced_mass_from_particles():
 
 
 def test_table_output_end_to_end():
-    result = run("levels", "coulomb", "-p", "Z=92", "--lmax", "2", "--count", "3",
-                 "--tol", "1e-8", "--unit", "eV")
+    result = invoke("levels", "coulomb", "-p", "Z=92", "--lmax", "2", "--count", "3",
+                    "--tol", "1e-8", "--unit", "eV")
     assert result.exit_code == 0, result.stderr
     lines = result.stdout.splitlines()
     assert max(len(line) for line in lines) <= 80
@@ -226,7 +192,7 @@ def test_table_output_end_to_end():
 def test_csv_output_matches_json():
     args = ("coulomb", "--lmax", "1", "--count", "2", "--tol", "1e-8")
     doc = levels_json(*args)
-    result = run("levels", *args, "--format", "csv")
+    result = invoke("levels", *args, "--format", "csv")
     assert result.exit_code == 0
     rows = list(csv.DictReader(io.StringIO(result.stdout)))
     assert len(rows) == len(doc["levels"])
@@ -238,8 +204,8 @@ def test_csv_output_matches_json():
 
 def test_out_writes_the_file(tmp_path):
     target = tmp_path / "levels.json"
-    result = run("levels", "coulomb", "--count", "2", "--tol", "1e-8", "-f", "json",
-                 "--out", str(target))
+    result = invoke("levels", "coulomb", "--count", "2", "--tol", "1e-8", "-f", "json",
+                    "--out", str(target))
     assert result.exit_code == 0, result.stderr
     assert result.stdout == ""
     assert str(target) in result.stderr
@@ -274,11 +240,11 @@ def test_both_methods_report_each_energy():
 def test_no_bound_state_exits_zero_with_message():
     # V = height exp(-r/decay) >= 0 everywhere: a bound level would need E < V(inf) = 0
     # while E > min V = 0 (textbook bound), so nothing is bound.
-    args = ("levels", "cli_bump", "--plugins", str(PLUGINS / "repulsive"), "--tol", "1e-6")
-    result = run(*args)
+    args = ("levels", "cli_bump", "--plugins", str(CLI_PLUGINS / "repulsive"), "--tol", "1e-6")
+    result = invoke(*args)
     assert result.exit_code == 0, result.stderr
     assert "no bound level" in result.stdout
-    result = run(*args, "--format", "json")
+    result = invoke(*args, "--format", "json")
     assert result.exit_code == 0
     doc = json.loads(result.stdout)
     assert doc["levels"] == [] and doc["message"]
@@ -287,7 +253,7 @@ def test_no_bound_state_exits_zero_with_message():
 
 def test_plugin_potential_can_be_solved():
     # Any bound level lies between min V = -depth and V(inf) = 0 (textbook bound).
-    doc = levels_json("cli_gauss_dip", "--plugins", str(PLUGINS / "good"),
+    doc = levels_json("cli_gauss_dip", "--plugins", str(CLI_PLUGINS / "good"),
                       "-p", "depth=3", "--count", "1", "--tol", "1e-6")
     assert doc["parameters"] == {"depth": 3.0, "width": 1.5}
     (lev,) = doc["levels"]
@@ -307,25 +273,25 @@ def test_non_converged_levels_exit_3_and_are_marked(monkeypatch):
                            v_infinity=0.0)
 
     monkeypatch.setattr(radsolve.core.spectrum, "solve", not_converged)
-    result = run("levels", "coulomb", "--count", "1")
+    result = invoke("levels", "coulomb", "--count", "1")
     assert result.exit_code == 3
     assert "NO" in result.stdout and "did not converge" in result.stderr
     assert "1s" in result.stderr
 
 
 def test_potentials_lists_builtins_and_plugins():
-    result = run("potentials")
+    result = invoke("potentials")
     assert result.exit_code == 0
     for name in ("coulomb", "yukawa", "harmonic"):
         assert f"\n{name} -- " in result.stdout
     assert "cli_gauss_dip" not in result.stdout
     assert "screening_length = 5 bohr" in result.stdout  # default with its unit
 
-    result = run("potentials", "--plugins", str(PLUGINS / "good"))
+    result = invoke("potentials", "--plugins", str(CLI_PLUGINS / "good"))
     assert "cli_gauss_dip -- Gaussian dip" in result.stdout
     assert "width = 1.5 bohr" in result.stdout
 
-    result = run("potentials", env={"RADSOLVE_PLUGINS": str(PLUGINS / "envdir")})
+    result = invoke("potentials", env={"RADSOLVE_PLUGINS": str(CLI_PLUGINS / "envdir")})
     assert result.exit_code == 0
     assert "cli_env_dip" in result.stdout and "RADSOLVE_PLUGINS" in result.stdout
 
@@ -333,33 +299,29 @@ def test_potentials_lists_builtins_and_plugins():
 def test_potentials_name_shows_the_docstring():
     import radsolve.potentials.builtin.coulomb as coulomb
 
-    result = run("potentials", "coulomb")
+    result = invoke("potentials", "coulomb")
     assert result.exit_code == 0
     assert coulomb.__doc__.strip().splitlines()[0] in result.stdout
     assert "V(r) = -Z/r" in result.stdout
 
-    result = run("potentials", "cli_gauss_dip", "--plugins", str(PLUGINS / "good"))
+    result = invoke("potentials", "cli_gauss_dip", "--plugins", str(CLI_PLUGINS / "good"))
     assert result.exit_code == 0
     assert "depth in hartree, width in bohr" in result.stdout  # from its docstring
 
 
-def test_python_dash_m_and_help():
-    # The 600 s timeouts only guard against a hang; they are no speed goal.
-    proc = subprocess.run([sys.executable, "-m", "radsolve", "--help"],
-                          capture_output=True, text=True, timeout=600, cwd=NEUTRAL_CWD)
+def test_python_dash_m_and_help(radsolve_process):
+    proc = radsolve_process("--help")
     assert proc.returncode == 0
     for command in ("levels", "check", "potentials"):
         assert command in proc.stdout
     assert "Exit status" in proc.stdout
-    proc = subprocess.run([sys.executable, "-m", "radsolve", "levels", "coulomb", "--count", "1",
-                           "--tol", "1e-8", "--format", "json"],
-                          capture_output=True, text=True, timeout=600, cwd=NEUTRAL_CWD)
+    proc = radsolve_process("levels", "coulomb", "--count", "1", "--tol", "1e-8", "--format", "json")
     assert proc.returncode == 0, proc.stderr
     (lev,) = json.loads(proc.stdout)["levels"]
     assert lev["energy"] == pytest.approx(exact_hydrogenic(1, 1, 1.0), rel=1e-8)  # sympy
 
 
 def test_levels_help_documents_exit_status_for_non_convergence():
-    result = run("levels", "--help")
+    result = invoke("levels", "--help")
     assert result.exit_code == 0
     assert "exit status is 3" in " ".join(result.stdout.split())

@@ -12,22 +12,11 @@ from __future__ import annotations
 import csv
 import io
 import json
-import subprocess
-import sys
-import tempfile
 
 import numpy as np
 import pytest
-from typer.testing import CliRunner
 
-from radsolve.cli import app
-
-runner = CliRunner()
-NEUTRAL_CWD = tempfile.mkdtemp(prefix="radsolve-cwd-")
-
-
-def run(*args: str):
-    return runner.invoke(app, [str(a) for a in args])
+from helpers import invoke
 
 
 def _row(text: str, name: str) -> list[str]:
@@ -38,7 +27,7 @@ def _row(text: str, name: str) -> list[str]:
 
 
 def test_wave_summary_table():
-    result = run("wave", "coulomb", "--n", "3", "--l", "1", "--moment=-2.5", "--inside", "9")
+    result = invoke("wave", "coulomb", "--n", "3", "--l", "1", "--moment=-2.5", "--inside", "9")
     assert result.exit_code == 0, result.stderr
     value = float(_row(result.stdout, "<r>")[2])
     assert value == pytest.approx((27 - 2) / 2, rel=1e-9)  # textbook formula
@@ -48,8 +37,8 @@ def test_wave_summary_table():
 
 
 def test_wave_values_at_radii_in_units():
-    result = run("wave", "coulomb", "--n", "1", "--l", "0", "--at", "0", "--at", "0.5angstrom",
-                 "--format", "csv")
+    result = invoke("wave", "coulomb", "--n", "1", "--l", "0", "--at", "0", "--at", "0.5angstrom",
+                    "--format", "csv")
     assert result.exit_code == 0, result.stderr
     rows = list(csv.reader(io.StringIO(result.stdout)))
     assert rows[0][0] == "r/bohr" and len(rows) == 3
@@ -58,20 +47,20 @@ def test_wave_values_at_radii_in_units():
 
 def test_wave_files_and_plot(tmp_path):
     out, plot = tmp_path / "w.npz", tmp_path / "w.svg"
-    result = run("wave", "harmonic", "--n", "2", "--l", "1", "--out", out, "--plot", plot, "--unit", "eV")
+    result = invoke("wave", "harmonic", "--n", "2", "--l", "1", "--out", out, "--plot", plot, "--unit", "eV")
     assert result.exit_code == 0, result.stderr
     data = np.load(out)
     assert np.sum(data["weights"] * data["u"] ** 2) == pytest.approx(1.0, abs=1e-10)
     assert "<svg" in plot.read_text()[:500]
     assert "energy E" in result.stdout  # the summary still goes to stdout
-    js = run("wave", "coulomb", "--n", "2", "--l", "0", "--format", "json")
+    js = invoke("wave", "coulomb", "--n", "2", "--l", "0", "--format", "json")
     doc = json.loads(js.stdout)
     assert doc["properties"]["r"]["value"] == pytest.approx(6.0, rel=1e-9)  # textbook formula
 
 
 def test_transitions_json_and_csv(tmp_path):
-    result = run("transitions", "coulomb", "--nmax", "2", "--mass", "electron+proton",
-                 "--format", "json", "--unit", "eV")
+    result = invoke("transitions", "coulomb", "--nmax", "2", "--mass", "electron+proton",
+                    "--format", "json", "--unit", "eV")
     assert result.exit_code == 0, result.stderr
     doc = json.loads(result.stdout)
     (line,) = doc["lines"]
@@ -83,7 +72,7 @@ def test_transitions_json_and_csv(tmp_path):
     assert states["2p"]["branching"] == {"1s": 1.0}
     assert "vacuum" in doc["conventions"]["wavelengths"]
     out = tmp_path / "t.csv"
-    result = run("transitions", "coulomb", "--nmax", "3", "--format", "csv", "--out", out)
+    result = invoke("transitions", "coulomb", "--nmax", "3", "--format", "csv", "--out", out)
     assert result.exit_code == 0, result.stderr
     text = out.read_text()
     # The model-calculation caveat: a leading '#' line in the file and a note on stderr.
@@ -97,7 +86,7 @@ def test_transitions_json_and_csv(tmp_path):
 
 def test_transitions_table_and_plot(tmp_path):
     plot = tmp_path / "levels.png"
-    result = run("transitions", "coulomb", "--nmax", "3", "--plot", plot)
+    result = invoke("transitions", "coulomb", "--nmax", "3", "--plot", plot)
     assert result.exit_code == 0, result.stderr
     assert "vacuum" in result.stdout and "metastable (no E1 decay)" in result.stdout
     assert "model calculation" in result.stdout
@@ -123,40 +112,39 @@ def test_transitions_table_and_plot(tmp_path):
     (["transitions", "yukawa", "-p", "screening_length=0.5", "--nmax", "2"], ["no bound level"]),
 ])
 def test_bad_input(args, words):
-    result = run(*args)
+    result = invoke(*args)
     assert result.exit_code == 2, (result.stdout, result.stderr)
     for word in words:
         assert word in result.stderr, (word, result.stderr)
     assert "Traceback" not in result.stderr + result.stdout
 
 
-def test_real_process_has_no_traceback():
-    proc = subprocess.run([sys.executable, "-m", "radsolve", "wave", "coulomb", "--n", "2", "--l", "0",
-                           "--moment=-4"], capture_output=True, text=True, timeout=600, cwd=NEUTRAL_CWD)
+def test_real_process_has_no_traceback(radsolve_process):
+    proc = radsolve_process("wave", "coulomb", "--n", "2", "--l", "0", "--moment=-4")
     assert proc.returncode == 2
     assert "diverges" in proc.stderr and "Traceback" not in proc.stderr
     assert len(proc.stderr.strip().splitlines()) == 1
 
 
 def test_transitions_with_occupied_levels():
-    result = run("transitions", "alkali_model", "-p", "element=Na", "--nmax", "3",
-                 "--occupied", "1s,2s,2p", "--format", "json")
+    result = invoke("transitions", "alkali_model", "-p", "element=Na", "--nmax", "3",
+                    "--occupied", "1s,2s,2p", "--format", "json")
     assert result.exit_code == 0, result.stderr
     doc = json.loads(result.stdout)
     assert doc["occupied"] == ["1s", "2s", "2p"]
     assert all(line["lower"] not in ("1s", "2s", "2p") for line in doc["lines"])
-    bad = run("transitions", "alkali_model", "--nmax", "3", "--occupied", "9q")
+    bad = invoke("transitions", "alkali_model", "--nmax", "3", "--occupied", "9q")
     assert bad.exit_code == 2 and "--occupied" in bad.stderr and "9q" in bad.stderr
 
 
 def test_wave_hellmann_feynman_rows():
     # dE/dZ = -mu Z/n^2 for -Z/r (textbook formula): -1/4 for n = 2, Z = 1.  tol 1e-10 is
     # well within reach, so the command must converge (exit 0, every row "yes").
-    result = run("wave", "coulomb", "--n", "2", "--l", "1", "--hellmann-feynman", "Z", "--tol", "1e-10")
+    result = invoke("wave", "coulomb", "--n", "2", "--l", "1", "--hellmann-feynman", "Z", "--tol", "1e-10")
     assert result.exit_code == 0, result.stderr
     assert _row(result.stdout, "<dV/dZ>")[-1] == "yes"
     assert _row(result.stdout, "dE/dZ")[-1] == "yes"
     assert float(_row(result.stdout, "<dV/dZ>")[2]) == pytest.approx(-0.25, rel=1e-9)
     assert float(_row(result.stdout, "dE/dZ")[3]) == pytest.approx(-0.25, rel=1e-7)
-    bad = run("wave", "coulomb", "--n", "1", "--l", "0", "--hellmann-feynman", "depth")
+    bad = invoke("wave", "coulomb", "--n", "1", "--l", "0", "--hellmann-feynman", "depth")
     assert bad.exit_code == 2 and "--hellmann-feynman" in bad.stderr and "depth" in bad.stderr
