@@ -56,6 +56,10 @@ def _fit():
                         tol=1e-9)
 
 
+def _sweep():
+    return radsolve.sweep("coulomb", {"Z": [1.0, 2.0]}, l=[0, 1], count=2, tol=1e-8)
+
+
 def _check():
     return radsolve.check(tol=1e-8, charges=(1,), masses=(1.0,), nmax=2)
 
@@ -63,7 +67,7 @@ def _check():
 CASES = {
     "solve": _solve_ok, "solve_not_converged": _solve_rounding, "state": _state, "summary": _summary,
     "transitions": _transitions, "threshold": _threshold, "critical_values": _critical_values,
-    "fit": _fit, "check": _check,
+    "fit": _fit, "check": _check, "sweep": _sweep,
 }
 
 
@@ -71,7 +75,7 @@ CASES = {
 CASE_TYPES = {
     "solve": "SolveResult", "solve_not_converged": "SolveResult", "state": "State", "summary": "StateSummary",
     "transitions": "TransitionResult", "threshold": "ThresholdResult", "critical_values": "CriticalValues",
-    "fit": "FitResult", "check": "CheckReport",
+    "fit": "FitResult", "check": "CheckReport", "sweep": "SweepResult",
 }
 
 
@@ -128,7 +132,11 @@ def test_pandas_frame_holds_the_records(result):
     frame = res.to_pandas()
     header = next(line for line in res.to_csv().splitlines() if not line.startswith("#")).split(",")
     assert isinstance(frame, pd.DataFrame) and len(frame) == len(res.records())
-    assert list(frame.columns) == header
+    # the CSV columns in order; a sweep keeps its 0.1 frame, whose unit sits in frame.attrs
+    assert [c for c in header if c in frame.columns] == list(frame.columns)
+    assert set(header) - set(frame.columns) <= {"unit"}
+    if "unit" in header and "unit" not in frame.columns:
+        assert frame.attrs["unit"] == res.records()[0]["unit"]
 
 
 def test_repr_is_short_and_has_no_arrays(result):
@@ -166,6 +174,10 @@ def test_outside_facts(result):
         assert line.oscillator_strength == pytest.approx(2**13 / 3**9, rel=1e-6)
     elif name == "fit":
         assert res.success and res.values["Z"] == pytest.approx(1.0, abs=1e-4)
+    elif name == "sweep":
+        assert res.success and len(res.records()) == 2 * 2 * 2
+        for row in res.records():  # textbook formula -Z^2/(2 n^2)
+            assert row["energy"] == pytest.approx(-row["Z"] ** 2 / (2 * row["n"] ** 2), rel=1e-8)
     elif name == "check":
         assert res.success and len(res.records()) == len(res.rows) * len(res.methods)
     elif name in ("threshold", "critical_values"):

@@ -48,7 +48,8 @@ import numpy as np
 
 from radsolve.errors import InputError
 from radsolve.analysis.observables import Estimate, channel_potential, check_atomic_3d, correction_power
-from radsolve.core.protocol import Note, Outcome, ResultProtocol, message_of, worst
+from radsolve.core.protocol import Note, Outcome, ResultProtocol, message_of, worst, write_text
+from radsolve.core.serialize import records_to_csv
 from radsolve.core.wavefunctions import SampleGrid, prepared_samples
 
 #: Largest nmax accepted: every level's wavefunction on every grid is kept in
@@ -265,9 +266,10 @@ class TransitionResult(ResultProtocol):
                              metastable=str(st.metastable).lower(), ground=str(st.ground).lower(), unit=unit))
         return rows
 
-    def to_csv(self, unit: str | None = None) -> str:
+    def to_csv(self, path=None, unit: str | None = None) -> str:
         """:meth:`records` as CSV, after a ``#`` comment line saying these are model rates."""
-        return f"# Note: {self.short_note}\n" + super().to_csv(unit)
+        text = f"# Note: {self.short_note}\n" + records_to_csv(self.records(unit))
+        return write_text(path, text)
 
     # ------------------------------------------------------------ arrays
 

@@ -56,6 +56,7 @@ import numpy as np
 
 from radsolve.core.serialize import plain as _plain
 from radsolve.errors import InputError, RadsolveError
+from radsolve.core.protocol import Note, Outcome, ResultProtocol, message_of, write_text
 from radsolve.core.result import level_designation
 
 #: Columns of a sweep row after the parameter columns, in order (``j`` only
@@ -309,8 +310,8 @@ class LevelTrack:
     v_infinity: np.ndarray
 
 
-@dataclass
-class SweepResult:
+@dataclass(repr=False)
+class SweepResult(ResultProtocol):
     """The levels of a potential family over a grid of parameter values.
 
     Points are the Cartesian product of the ``axes`` in the order the
@@ -347,6 +348,12 @@ class SweepResult:
         V(inf) at each point (``inf`` for a confining potential).
     done : ndarray of bool, shape (points,)
         Which points were computed (all of them unless interrupted).
+    status : Outcome
+        ``success`` when every point was computed and every bound level
+        converged; ``incomplete`` when points are missing (an interrupted
+        sweep); ``not converged`` when some bound level did not reach ``tol``.
+    notes : tuple of Note
+        Codes ``points_missing``, ``not_converged``.
     """
 
     potential: str
@@ -403,10 +410,52 @@ class SweepResult:
         mesh = np.meshgrid(*(self.axes[k] for k in self.parameters), indexing="ij")
         return {k: m.ravel() for k, m in zip(self.parameters, mesh)}
 
+    # -- result protocol -----------------------------------------------------
+
     @property
-    def success(self) -> bool:
-        """Every point computed and every bound level converged."""
-        return self.complete and bool(np.all(self.converged[self.done] | ~self.bound[self.done]))
+    def status(self) -> Outcome:
+        if not self.complete:
+            return Outcome.INCOMPLETE
+        return Outcome.NOT_CONVERGED if self.unconverged else Outcome.SUCCESS
+
+    @property
+    def notes(self) -> tuple[Note, ...]:
+        notes = []
+        if not self.complete:
+            notes.append(Note("points_missing", f"{self.points_total - self.points_done} of {self.points_total} "
+                              "points were not computed (the sweep was interrupted)"))
+        if self.unconverged:
+            notes.append(Note("not_converged", f"{self.unconverged} bound level(s) did not converge to tol = "
+                              f"{self.tol:.1e} (converged = False in their rows)"))
+        return tuple(notes)
+
+    @property
+    def message(self) -> str:
+        return message_of(self.notes, f"{self.points_done} points, every bound level converged to tol = "
+                          f"{self.tol:.1e}")
+
+    def _header(self) -> list[tuple[str, Any]]:
+        axes = ", ".join(f"{k}[{len(self.axes[k])}]" for k in self.parameters)
+        return [("potential", self.potential), ("axes", axes), ("points", self.points_done),
+                ("levels", len(self.channels) * self.count)]
+
+    def _table_columns(self):
+        return ("point", *self.parameters, "label", "energy", "error_estimate", "bound")
+
+    def records(self, unit: str | None = None) -> list[dict[str, Any]]:
+        """One flat dict per (finished point, level): the CSV columns (energies in ``unit``)."""
+        unit = unit or self.energy_unit
+        return [{**{c: row[c] for c in self.columns}, "unit": unit} for row in self.rows(unit)]
+
+    def to_dict(self, unit: str | None = None) -> dict[str, Any]:
+        """The JSON document: :meth:`metadata`, ``rows``, then how far it got and its status."""
+        return {**self.metadata(unit), "rows": [{c: row[c] for c in self.columns} for row in self.rows(unit)],
+                **self._tail()}
+
+    def _tail(self) -> dict[str, Any]:
+        return {"points_done": self.points_done, "complete": self.complete, "success": self.success,
+                "status": str(self.status), "message": self.message,
+                "notes": [n.to_dict() for n in self.notes]}
 
     @property
     def unconverged(self) -> int:
@@ -498,10 +547,7 @@ class SweepResult:
         for row in self.rows(unit):
             sink.write_row(row)
         sink.finish(self)
-        text = buf.getvalue()
-        if path is not None:
-            _write_text(path, text)
-        return text
+        return write_text(path, buf.getvalue())
 
     def metadata(self, unit: str | None = None) -> dict[str, Any]:
         """The settings of the sweep as plain data (the head of the JSON document)."""
@@ -576,13 +622,6 @@ def _point_rows(meta: SweepResult, index: int, values: tuple, block: tuple, fact
     return rows
 
 
-def _write_text(path, text: str) -> None:
-    try:
-        Path(path).write_text(text, encoding="utf-8")
-    except OSError as exc:
-        raise InputError(f"cannot write {str(path)!r}: {exc.strerror}") from None
-
-
 # --------------------------------------------------------------------------- #
 # Incremental writers
 # --------------------------------------------------------------------------- #
@@ -629,9 +668,9 @@ class _JsonSink:
         self.stream.flush()
 
     def finish(self, meta) -> None:
-        tail = {"points_done": meta.points_done, "complete": meta.complete}
+        tail = meta._tail()
         self.stream.write(("\n ],\n" if not self.first else "],\n")
-                          + ",\n".join(f" {json.dumps(k)}: {json.dumps(v)}" for k, v in tail.items())
+                          + ",\n".join(f" {json.dumps(k)}: {json.dumps(_plain(v))}" for k, v in tail.items())
                           + "\n}\n")
         self.stream.flush()
 

@@ -567,7 +567,7 @@ def sweep_command(
         if result.unconverged:
             _say(f"warning: {result.unconverged} bound level(s) did not converge to tol {tol:g} "
                  "(converged = False in their rows)")
-            raise typer.Exit(EXIT_NOT_CONVERGED)
+            raise typer.Exit(result.exit_code)
 
 
 def _family_mass(family, units, mass: Optional[str]) -> float:

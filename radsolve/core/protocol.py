@@ -8,9 +8,11 @@ the same way:
   exit code is ``EXIT_CODES[status]``);
 - ``notes``: structured :class:`Note` objects (a machine-readable ``code``,
   the text, and the item it concerns), and ``message``, built from them;
-- ``to_dict(unit=None)``, ``to_json(unit=None)``: one JSON document;
+- ``to_dict(unit=None)``; ``to_json(path=None, unit=None)``: one JSON document
+  (also written to ``path`` when given);
 - ``records(unit=None)``: one flat dict per row (level, line, point, ...),
-  which is what ``to_csv()`` and ``to_pandas()`` (pandas optional) show;
+  which is what ``to_csv(path=None, unit=None)`` and ``to_pandas()`` (pandas
+  optional) show;
 - a compact ``repr`` (a short ordered header and a table of at most
   ``REPR_ROWS`` rows) and ``_repr_html_`` for notebooks.  Heavy arrays (grids,
   wavefunctions) stay reachable as attributes but never appear in either.
@@ -27,7 +29,7 @@ from dataclasses import dataclass
 from enum import Enum
 from typing import Any, Sequence
 
-from radsolve.core.serialize import dumps_json, plain, rows_to_csv
+from radsolve.core.serialize import columns_of, dumps_json, plain, records_to_csv
 
 #: Rows a repr shows before it says how many more there are.
 REPR_ROWS = 12
@@ -122,14 +124,13 @@ class ResultProtocol:
         """Text for a terminal (a type with a table of its own overrides this; the repr otherwise)."""
         return repr(self) + "\n"
 
-    def to_json(self, unit: str | None = None, indent: int | None = 2) -> str:
-        """:meth:`to_dict` as JSON text (non-finite numbers become null)."""
-        return dumps_json(self.to_dict(unit), indent=indent)
+    def to_json(self, path=None, unit: str | None = None, indent: int | None = 2) -> str:
+        """:meth:`to_dict` as JSON text (non-finite numbers become null); also written to ``path`` if given."""
+        return write_text(path, dumps_json(self.to_dict(unit), indent=indent))
 
-    def to_csv(self, unit: str | None = None) -> str:
-        """:meth:`records` as CSV text, one line per record."""
-        rows = self.records(unit)
-        return rows_to_csv(rows, _columns(rows))
+    def to_csv(self, path=None, unit: str | None = None) -> str:
+        """:meth:`records` as CSV text, one line per record; also written to ``path`` if given."""
+        return write_text(path, records_to_csv(self.records(unit)))
 
     def to_pandas(self, unit: str | None = None):
         """:meth:`records` as a pandas DataFrame (needs the optional ``pandas`` extra)."""
@@ -140,11 +141,11 @@ class ResultProtocol:
 
             raise InputError("to_pandas() needs pandas: pip install 'radsolve[pandas]'") from None
         rows = self.records(unit)
-        return pd.DataFrame([{k: plain(v) for k, v in row.items()} for row in rows], columns=_columns(rows))
+        return pd.DataFrame([{k: plain(v) for k, v in row.items()} for row in rows], columns=columns_of(rows))
 
     def _table(self) -> tuple[list[str], list[list[str]], int]:
         rows = self.records()
-        columns = list(self._table_columns() or _columns(rows))
+        columns = list(self._table_columns() or columns_of(rows))
         shown = [[_cell(row.get(c)) for c in columns] for row in rows[:REPR_ROWS]]
         return columns, shown, len(rows) - len(shown)
 
@@ -181,11 +182,17 @@ class ResultProtocol:
         return f"<div><strong>{esc(type(self).__name__)}</strong><table>{head}</table>{body}</div>"
 
 
-def _columns(rows: Sequence[dict[str, Any]]) -> list[str]:
-    columns: list[str] = []
-    for row in rows:
-        columns.extend(k for k in row if k not in columns)
-    return columns
+def write_text(path, text: str) -> str:
+    """``text``, after writing it to ``path`` (UTF-8) when a path is given; InputError if it cannot be written."""
+    if path is not None:
+        try:
+            with open(path, "w", encoding="utf-8", newline="") as handle:
+                handle.write(text)
+        except OSError as exc:
+            from radsolve.errors import InputError
+
+            raise InputError(f"cannot write {str(path)!r}: {exc.strerror}") from None
+    return text
 
 
 def _cell(value: Any, quote: bool = False) -> str:

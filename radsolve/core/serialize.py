@@ -50,6 +50,19 @@ def csv_cell(value: Any) -> Any:
     return value
 
 
+def columns_of(rows: Iterable[Mapping[str, Any]]) -> list[str]:
+    """Every key of ``rows``, in the order they first appear."""
+    columns: list[str] = []
+    for row in rows:
+        columns.extend(k for k in row if k not in columns)
+    return columns
+
+
+def records_to_csv(rows: Sequence[Mapping[str, Any]]) -> str:
+    """CSV text of ``rows`` with the columns of :func:`columns_of`."""
+    return rows_to_csv(rows, columns_of(rows))
+
+
 def rows_to_csv(rows: Iterable[Mapping[str, Any]], columns: Sequence[str]) -> str:
     """CSV text with a header line of ``columns`` and one line per row."""
     buffer = io.StringIO()

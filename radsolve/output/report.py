@@ -213,7 +213,7 @@ def certificate_text(result) -> str:
 
 def levels_json(result, unit: str | None = None) -> str:
     """:meth:`SolveResult.to_json`: one JSON document, energies in ``unit`` (None: the result's own)."""
-    return result.to_json(_output_unit(result, unit))
+    return result.to_json(unit=_output_unit(result, unit))
 
 
 def levels_csv(result, unit: str | None = None) -> str:
@@ -224,7 +224,7 @@ def levels_csv(result, unit: str | None = None) -> str:
     Floats are written with every digit (``repr``); non-finite ones as an
     empty cell.
     """
-    return result.to_csv(_output_unit(result, unit))
+    return result.to_csv(unit=_output_unit(result, unit))
 
 
 # ---------------------------------------------------------------- families
@@ -419,7 +419,7 @@ def transitions_table(tr, unit: str = "hartree") -> str:
 
 def transitions_json(tr, unit: str = "hartree") -> str:
     """:meth:`TransitionResult.to_json` (non-finite numbers as null)."""
-    return tr.to_json(unit)
+    return tr.to_json(unit=unit)
 
 
 def transitions_csv(tr, unit: str = "hartree") -> str:
@@ -432,7 +432,7 @@ def transitions_csv(tr, unit: str = "hartree") -> str:
     The unit column names the energy unit.  A leading ``#`` comment line says
     that these are model rates; readers skip it.
     """
-    return tr.to_csv(unit)
+    return tr.to_csv(unit=unit)
 
 
 # ---------------------------------------------------------------- the one writer
@@ -460,9 +460,9 @@ def render(result, unit: str | None = None, fmt: str = "table") -> str:
     if fmt not in FORMATS:
         raise InputError(f"unknown output format {fmt!r}; allowed: " + ", ".join(FORMATS))
     if fmt == "json":
-        return result.to_json(_default_unit(result, unit))
+        return result.to_json(unit=_default_unit(result, unit))
     if fmt == "csv":
-        return result.to_csv(_default_unit(result, unit))
+        return result.to_csv(unit=_default_unit(result, unit))
     table = _table_writers().get(type(result).__name__)
     if table is None:
         return result.to_table(unit)
