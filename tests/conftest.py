@@ -28,7 +28,7 @@ pytest.register_assert_rewrite("helpers")
 EXTRAS = {
     "needs_dask": ("distributed", "pip install 'radsolve[cluster]'"),
     "needs_pandas": ("pandas", "pip install 'radsolve[pandas]'"),
-    "needs_xarray": ("xarray", "pip install xarray"),
+    "needs_xarray": ("xarray", "pip install 'radsolve[xarray]'"),
 }
 
 

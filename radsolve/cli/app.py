@@ -475,7 +475,8 @@ def sweep_command(
     spin_orbit: SpinOrbitOption = False,
     out: Annotated[Optional[Path], typer.Option(
         "--out", "-o", metavar="FILE",
-        help="write the rows to FILE.csv or FILE.json as they finish [default: CSV on stdout]")
+        help="write the rows to FILE.csv or FILE.json as they finish, or FILE.nc (NetCDF, at the end; "
+             "needs radsolve[xarray]) [default: CSV on stdout]")
     ] = None,
     plot: Annotated[Optional[Path], typer.Option(
         "--plot", metavar="FILE.png", help="draw each level's energy against the swept parameter")
@@ -522,8 +523,10 @@ def sweep_command(
                 raise InputError(f"parameter {key!r} is given both with --vary and with -p; "
                                  "a swept parameter takes its values from --vary only")
             axes[key] = values
-        if out is not None and out.suffix.lower() not in (".csv", ".json"):
-            raise InputError(f"--out {str(out)!r}: the file name must end in .csv or .json")
+        if out is not None:
+            from radsolve.analysis.sweeps.sinks import check_out_path
+
+            _with_option("--out", check_out_path, out)
         if plot is not None:
             _check_png(plot, "--plot")
         started = time.monotonic()

@@ -1,0 +1,170 @@
+"""Where the points run: worker processes, any map-like executor, or a Dask cluster -- behind one interface."""
+
+from __future__ import annotations
+
+import os
+import signal
+from typing import Callable, Iterable
+
+
+from radsolve.errors import InputError
+from radsolve.analysis.sweeps.points import solve_chunk
+
+
+#: Seconds to wait for a Dask scheduler to answer.
+CLUSTER_TIMEOUT = 10.0
+
+
+def _ignore_sigint() -> None:
+    # Worker processes leave Ctrl-C to the parent, which stops the sweep cleanly;
+    # otherwise every worker would print its own traceback.
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+
+
+def usable_cores() -> int:
+    """Cores this process may run on."""
+    try:
+        return max(len(os.sched_getaffinity(0)), 1)
+    except AttributeError:  # not on every platform
+        return max(os.cpu_count() or 1, 1)
+
+
+def chunks_of(indices: Iterable[int], settings_values: Callable[[int], tuple], size: int):
+    chunk = []
+    for index in indices:
+        chunk.append((index, settings_values(index)))
+        if len(chunk) == size:
+            yield chunk
+            chunk = []
+    if chunk:
+        yield chunk
+
+
+def chunk_size(points: int, workers: int) -> int:
+    # Small chunks keep Ctrl-C prompt and the load balanced; big enough that the
+    # cost of sending a task (~1 ms) is small against a point (~10-300 ms).
+    return int(min(max(points // (workers * 32), 1), 16))
+
+
+def run_pool(settings, chunks, workers: int, collect) -> None:
+    """The chunks on ``workers`` local processes (started and stopped here)."""
+    from concurrent.futures import ProcessPoolExecutor
+
+    executor = ProcessPoolExecutor(max_workers=workers, initializer=_ignore_sigint)
+    try:
+        _run_windowed(executor, settings, chunks, 4 * workers, collect)
+    except KeyboardInterrupt:
+        # Chunks already running finish (they are small); their rows were kept.
+        executor.shutdown(wait=True, cancel_futures=True)
+        raise
+    except BaseException:
+        executor.shutdown(wait=False, cancel_futures=True)
+        raise
+    executor.shutdown(wait=True)
+
+
+def run_executor(settings, chunks, executor, collect) -> None:
+    """The chunks on a caller's executor, which stays open.
+
+    A :class:`concurrent.futures.Executor` (threads, processes, MPI pools, ...)
+    gets a bounded window of ``submit`` calls; any other object with a
+    ``map(function, iterable)`` method (multiprocessing pools, a cluster's
+    map) gets one ``map`` call and must return the results in order.
+    """
+    from concurrent.futures import Executor
+    from functools import partial
+
+    if isinstance(executor, Executor):
+        width = getattr(executor, "_max_workers", None) or usable_cores()
+        _run_windowed(executor, settings, chunks, 4 * int(width), collect)
+    elif callable(getattr(executor, "map", None)):
+        for pairs in executor.map(partial(solve_chunk, settings), chunks):
+            collect(pairs)
+    else:
+        raise InputError(f"executor must be a concurrent.futures.Executor or have a map(function, iterable) "
+                         f"method; got {type(executor).__name__}")
+
+
+def _run_windowed(executor, settings, chunks, window: int, collect) -> None:
+    """Submit chunks keeping at most ``window`` in flight; collect each as it finishes."""
+    from concurrent.futures import FIRST_COMPLETED, wait
+
+    pending: set = set()
+    try:
+        for chunk in chunks:
+            pending.add(executor.submit(solve_chunk, settings, chunk))
+            if len(pending) >= window:
+                done, pending = wait(pending, return_when=FIRST_COMPLETED)
+                for future in done:
+                    collect(future.result())
+        while pending:
+            done, pending = wait(pending, return_when=FIRST_COMPLETED)
+            for future in done:
+                collect(future.result())
+    except KeyboardInterrupt:
+        for future in pending:
+            future.cancel()
+        wait(pending)
+        for future in pending:
+            if future.done() and not future.cancelled() and future.exception() is None:
+                collect(future.result())
+        raise
+
+
+def dask_client(cluster, workers: int | None):
+    """``(client, close_client, local_cluster)`` for ``cluster``: an address, ``"local"`` or a Client."""
+    try:
+        import distributed
+    except ImportError:
+        raise InputError("--cluster needs Dask distributed, the optional dependency of "
+                         "radsolve[cluster]: pip install 'radsolve[cluster]'") from None
+    if isinstance(cluster, distributed.Client):
+        return cluster, False, None
+    if not isinstance(cluster, str) or not cluster.strip():
+        raise InputError(f"cluster must be 'local', a scheduler address such as tcp://host:8786, "
+                         f"or a distributed.Client; got {cluster!r}")
+    address = cluster.strip()
+    import logging
+
+    if address == "local":
+        n = workers if workers is not None else usable_cores()
+        # No dashboard, and the scheduler's small HTTP server on a free loopback
+        # port, so that a second cluster on this machine does not clash.
+        local = distributed.LocalCluster(n_workers=n, threads_per_worker=1, processes=True,
+                                         host="127.0.0.1", dashboard_address=None,
+                                         scheduler_kwargs={"dashboard_address": "127.0.0.1:0"},
+                                         silence_logs=logging.ERROR)
+        return distributed.Client(local), True, local
+    if "://" not in address:
+        raise InputError(f"--cluster {address!r}: expected 'local' or a scheduler address "
+                         "such as tcp://host:8786")
+    try:
+        client = distributed.Client(address, timeout=CLUSTER_TIMEOUT)
+    except (OSError, TimeoutError, ValueError) as exc:
+        raise InputError(f"--cluster {address!r}: no Dask scheduler answered there within "
+                         f"{CLUSTER_TIMEOUT:g} s ({type(exc).__name__}: {exc}); start one "
+                         "(dask scheduler) or use --cluster local") from None
+    return client, True, None
+
+
+def run_dask(settings, chunks, client, collect) -> None:
+    from distributed import as_completed
+
+    window = 4 * max(sum(client.nthreads().values()), 1)
+    futures = as_completed()
+    live: list = []
+    try:
+        for chunk in chunks:
+            future = client.submit(solve_chunk, settings, chunk, pure=False)
+            futures.add(future)
+            live.append(future)
+            if futures.count() >= window:
+                finished = next(futures)
+                live.remove(finished)
+                collect(finished.result())
+        for finished in futures:
+            live.remove(finished)
+            collect(finished.result())
+    except BaseException:
+        client.cancel(live)
+        raise

@@ -1,0 +1,82 @@
+"""One sweep point: the settings every point shares and the solve of one point (run in any process)."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Any, Sequence
+
+import numpy as np
+
+from radsolve.errors import RadsolveError
+from radsolve.analysis.sweeps.result import SweepPointFailed
+
+
+@dataclass(frozen=True)
+class Settings:
+    """What every point of a sweep shares; sent to the workers."""
+
+    base: Any  # Potential
+    keys: tuple[str, ...]
+    ls: tuple[int, ...]
+    channels: tuple[tuple[int, float | None], ...]
+    count: int
+    mass: float
+    tol: float
+    method: str
+    spin_orbit: bool
+    dimension: int
+    units: str
+
+
+def describe_point(keys, values) -> str:
+    return ", ".join(f"{k} = {v:.10g}" if isinstance(v, float) else f"{k} = {v}"
+                     for k, v in zip(keys, values))
+
+
+def solve_point(settings: Settings, values: tuple) -> tuple:
+    """Energies, errors, converged and bound flags (shape (len(ls), count)) and V(inf)."""
+    from radsolve.core.spectrum import solve
+
+    try:
+        pot = settings.base.with_parameters(**dict(zip(settings.keys, values)))
+        result = solve(pot, l=list(settings.ls), count=settings.count, mass=settings.mass,
+                       tol=settings.tol, method=settings.method, spin_orbit=settings.spin_orbit,
+                       dimension=settings.dimension, units=settings.units)
+    except RadsolveError as exc:
+        raise type(exc)(f"sweep point {describe_point(settings.keys, values)}: {exc}") from None
+    except (KeyboardInterrupt, MemoryError):
+        raise
+    except Exception as exc:  # a solver bug: say where, so that it can be reproduced
+        raise SweepPointFailed(f"sweep point {describe_point(settings.keys, values)}: the solver "
+                               f"failed with {type(exc).__name__}: {exc}") from exc
+    return level_block(result, settings.channels, settings.count)
+
+
+def channel_keys(ls: Sequence[int], spin_orbit: bool) -> tuple[tuple[int, float | None], ...]:
+    """The partial waves (l, j) solved, in the order of their rows (j = None without spin-orbit)."""
+    keys: list[tuple[int, float | None]] = []
+    for l in ls:
+        js = ([0.5] if l == 0 else [l - 0.5, l + 0.5]) if spin_orbit else [None]
+        keys += [(l, j) for j in js]
+    return tuple(keys)
+
+
+def level_block(result, channels: Sequence[tuple[int, float | None]], count: int) -> tuple:
+    shape = (len(channels), count)
+    energy = np.full(shape, np.nan)
+    error = np.full(shape, np.nan)
+    converged = np.zeros(shape, dtype=bool)
+    bound = np.zeros(shape, dtype=bool)
+    row_of = {key: i for i, key in enumerate(channels)}
+    for lev in result.levels:
+        i, k = row_of[(lev.l, getattr(lev, "j", None))], lev.nodes
+        energy[i, k] = lev.energy
+        error[i, k] = lev.error_estimate
+        converged[i, k] = lev.converged
+        bound[i, k] = True
+    return energy, error, converged, bound, float(result.v_infinity)
+
+
+def solve_chunk(settings: Settings, chunk: Sequence[tuple[int, tuple]]) -> list[tuple[int, tuple]]:
+    """``solve_point`` for each ``(index, values)`` of ``chunk``."""
+    return [(index, solve_point(settings, values)) for index, values in chunk]
