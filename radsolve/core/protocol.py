@@ -203,7 +203,7 @@ def _cell(value: Any, quote: bool = False) -> str:
         return str(value)
     if isinstance(value, float):
         # twelve digits: enough to show an energy converged to tol = 1e-10 without a wall of noise
-        return f"{value:.12g}" if abs(value) >= 1e-3 or value == 0 else f"{value:.3e}"
+        return f"{value:.12g}" if abs(value) >= 1e-3 or value == 0 else f"{value:.4g}"
     if isinstance(value, (list, dict)):
         return _shorten(str(value), 60)
     return repr(value) if quote and isinstance(value, str) else str(value)
