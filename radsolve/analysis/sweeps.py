@@ -645,13 +645,13 @@ def _open_sink(out, columns, unit: str):
     path = Path(out)
     suffix = path.suffix.lower()
     if suffix not in (".csv", ".json"):
-        raise InputError(f"output file {str(path)!r}: the name must end in .csv or .json")
+        raise InputError(f"output file {str(path)!r}: the name must end in .csv or .json", parameter="out")
     if not (path.parent if str(path.parent) else Path(".")).is_dir():
-        raise InputError(f"output file {str(path)!r}: folder {str(path.parent)!r} does not exist")
+        raise InputError(f"output file {str(path)!r}: folder {str(path.parent)!r} does not exist", parameter="out")
     try:
         stream = open(path, "w", encoding="utf-8", newline="")
     except OSError as exc:
-        raise InputError(f"output file {str(path)!r}: cannot write: {exc.strerror}") from None
+        raise InputError(f"output file {str(path)!r}: cannot write: {exc.strerror}", parameter="out") from None
     sink = _CsvSink(stream, columns, unit) if suffix == ".csv" else _JsonSink(stream, columns, unit)
     return sink, stream
 
@@ -904,9 +904,14 @@ def sweep(potential, vary: Mapping[str, Sequence], fixed: Mapping[str, Any] | No
 
     base = as_potential(potential, plugins, fixed)
     axes = _axes(base, vary)
+    both = sorted(set(axes) & set(fixed or {}))
+    if both:
+        raise InputError(f"parameter {both[0]!r} is given both in vary and in fixed; a swept parameter "
+                         "takes its values from vary only", parameter="fixed")
     if workers is not None and (isinstance(workers, bool) or not isinstance(workers, (int, np.integer))
                                 or workers < 1):
-        raise InputError(f"workers must be a whole number >= 1 (or None for every core), got {workers!r}")
+        raise InputError(f"workers must be a whole number >= 1 (or None for every core), got {workers!r}",
+                         parameter="workers")
     if unit is not None:
         energy_unit_factor(unit)  # checks the unit before anything is solved
     from radsolve.units import unit_system
@@ -941,6 +946,8 @@ def _sweep_points(base, axes, l, count, options, workers, dask, out, unit, progr
     try:
         first = solve(base.with_parameters(**dict(zip(keys, first_values))), l=l, count=count, **options)
     except RadsolveError as exc:
+        if isinstance(exc, InputError) and exc.parameter is not None and exc.family is None:
+            raise  # about an argument (tol, count, ...), the same at every point
         raise type(exc)(f"sweep point {_describe_point(keys, first_values)}: {exc}") from None
     from radsolve.units import unit_system
 
