@@ -30,7 +30,7 @@ import typer
 # Light modules (standard library only): the ranges and names shown in the help.
 from radsolve.core.inputs import COUNT_MAX, DIMENSION_RANGE, L_MAX
 from radsolve.core.targets import JUDGED_TOL_RANGE, THRESHOLD_TOL_RANGE, TOL_RANGE
-from radsolve.units import ENERGY_UNITS, MASS_UNITS, PARTICLES
+from radsolve.units import ENERGY_UNITS, MASS_UNITS, PARTICLES, UNIT_SYSTEMS
 
 EXIT_OK = 0
 EXIT_CHECK_FAILED = 1
@@ -56,17 +56,6 @@ app = typer.Typer(
     pretty_exceptions_enable=False,
     context_settings={"help_option_names": ["-h", "--help"]},
 )
-
-
-class Method(str, Enum):
-    fd = "fd"
-    numerov = "numerov"
-    both = "both"
-
-
-class UnitsChoice(str, Enum):
-    atomic = "atomic"
-    nuclear = "nuclear"
 
 
 class OutputFormat(str, Enum):
@@ -240,11 +229,13 @@ MassOption = Annotated[Optional[str], typer.Option(
          "'+' joins terms into their reduced mass (electron+proton) [default: 1 electron mass in "
          "atomic units; needed in nuclear units]")]
 PluginsOption = Annotated[Optional[list[Path]], typer.Option("--plugins", metavar="DIR", help=PLUGINS_HELP)]
-MethodOption = Annotated[Method, typer.Option(
-    "--method", help="fd (finite differences), numerov (shooting) or both")]
-UnitsOption = Annotated[Optional[UnitsChoice], typer.Option(
-    "--units", help="unit system: atomic (hartree, bohr, electron masses) or nuclear "
-                    "(MeV, fm, MeV/c^2) [default: the potential's own]")]
+MethodOption = Annotated[str, typer.Option(
+    "--method", metavar="METHOD",
+    help="a registered method: fd (finite differences), numerov (shooting), or both (every one)")]
+UnitsOption = Annotated[Optional[str], typer.Option(
+    "--units", metavar="SYSTEM",
+    help=f"unit system, one of {', '.join(UNIT_SYSTEMS)}: atomic (hartree, bohr, electron masses) or "
+         "nuclear (MeV, fm, MeV/c^2) [default: the potential's own]")]
 TolOption = Annotated[float, typer.Option(
     "--tol", metavar="T",
     help=f"target relative error of each energy ({TOL_RANGE[0]:g} ... {TOL_RANGE[1]:g})")]
@@ -273,7 +264,7 @@ def levels_command(
     count: CountOption = 5,
     mass: MassOption = None,
     tol: TolOption = 1e-10,
-    method: MethodOption = Method.fd,
+    method: MethodOption = "fd",
     unit: OutputUnitOption = None,
     units: UnitsOption = None,
     spin_orbit: SpinOrbitOption = False,
@@ -332,9 +323,9 @@ def levels_command(
         from radsolve.output.report import render
         from radsolve.core.spectrum import solve
 
-        result = _solver_call(pot, solve, pot, count=count, mass=mass, tol=tol, method=method.value,
+        result = _solver_call(pot, solve, pot, count=count, mass=mass, tol=tol, method=method,
                               spin_orbit=spin_orbit, dimension=dimension,
-                              **_given(l=ls, units=None if units is None else units.value))
+                              **_given(l=ls, units=units))
         text = render(result, unit, fmt.value)
 
         if out is None:
@@ -367,7 +358,7 @@ def _levels_potential(name, params, plugins, units, expr, table_file, r_unit, v_
     """The potential of ``radsolve levels``: a family, a formula (--expr) or a table (--file)."""
     from radsolve.errors import InputError
 
-    system = None if units is None else units.value
+    system = units
     table_rules = _given(beyond=beyond, inside=inside, spline_degree=spline)
     kind = name.strip().lower()
     table_options = {"--r-unit": r_unit, "--v-unit": v_unit}
@@ -479,7 +470,7 @@ def sweep_command(
     count: CountOption = 5,
     mass: MassOption = None,
     tol: TolOption = 1e-10,
-    method: MethodOption = Method.fd,
+    method: MethodOption = "fd",
     unit: OutputUnitOption = None,
     units: UnitsOption = None,
     dimension: DimensionOption = 3,
@@ -537,10 +528,10 @@ def sweep_command(
         started = time.monotonic()
         try:
             result = sweep(family.name, vary=axes, fixed=params, count=count, mass=mass, tol=tol,
-                           method=method.value, plugins=_plugin_dirs(plugins), workers=workers,
+                           method=method, plugins=_plugin_dirs(plugins), workers=workers,
                            cluster=cluster, out=out if out is not None else sys.stdout, unit=unit,
                            spin_orbit=spin_orbit, dimension=dimension,
-                           **_given(l=ls, units=None if units is None else units.value))
+                           **_given(l=ls, units=units))
         except SweepInterrupted as stop:
             partial = stop.partial
             where = f"in {out}" if out is not None else "on stdout"
@@ -662,7 +653,7 @@ def threshold_command(
         results = critical_values(family.name, vary, nmax=nmax, bracket=pair, fixed=params, mass=mass,
                                   tol=tol, plugins=_plugin_dirs(plugins), levels=level or None,
                                   lmax=lmax, spin_orbit=spin_orbit, dimension=dimension,
-                                  units=None if units is None else units.value)
+                                  units=units)
         if fmt is ReportFormat.json:
             text = json.dumps([r.to_dict() for r in results], indent=2, allow_nan=False) + "\n"
         else:
@@ -689,7 +680,7 @@ def fit_command(
         help="fixed parameters, and start values of free ones; repeatable")] = None,
     mass: MassOption = None,
     tol: TolOption = 1e-10,
-    method: MethodOption = Method.fd,
+    method: MethodOption = "fd",
     unit: OutputUnitOption = None,
     units: UnitsOption = None,
     dimension: DimensionOption = 3,
@@ -732,9 +723,9 @@ def fit_command(
             if pair is not None:
                 bounds[key] = pair
         result = fit(name, str(targets), free=names, bounds=bounds, fixed=params, mass=mass, tol=tol,
-                     method=method.value, plugins=_plugin_dirs(plugins),
+                     method=method, plugins=_plugin_dirs(plugins),
                      max_evaluations=max_evaluations, dimension=dimension,
-                     units=None if units is None else units.value)
+                     units=units)
         if fmt is ReportFormat.json:
             text = json.dumps(result.to_dict(unit), indent=2, allow_nan=False) + "\n"
         else:
@@ -787,7 +778,7 @@ def wave_command(
     param: ParamOption = None,
     mass: MassOption = None,
     tol: TolOption = 1e-10,
-    method: MethodOption = Method.fd,
+    method: MethodOption = "fd",
     unit: AtomicOutputUnitOption = "hartree",
     at: Annotated[Optional[list[str]], typer.Option(
         "--at", metavar="R",
@@ -851,7 +842,7 @@ def wave_command(
         from radsolve.potentials import potential
 
         pot = potential(name, plugins=_plugin_dirs(plugins), **params)
-        st = _solver_call(pot, make_state, pot, n, l, mass=mass, tol=tol, method=method.value)
+        st = _solver_call(pot, make_state, pot, n, l, mass=mass, tol=tol, method=method)
         props = st.properties()
         extra = []
         for k in moment or []:
@@ -908,7 +899,7 @@ def transitions_command(
     param: ParamOption = None,
     mass: MassOption = None,
     tol: TolOption = 1e-10,
-    method: MethodOption = Method.fd,
+    method: MethodOption = "fd",
     unit: AtomicOutputUnitOption = "hartree",
     fmt: Annotated[OutputFormat, typer.Option(
         "--format", "-f", help="table for reading, json or csv for programs")
@@ -955,7 +946,7 @@ def transitions_command(
         from radsolve.analysis.radiative import transitions
 
         pot = potential(name, plugins=_plugin_dirs(plugins), **params)
-        tr = _solver_call(pot, transitions, pot, nmax, mass=mass, tol=tol, method=method.value,
+        tr = _solver_call(pot, transitions, pot, nmax, mass=mass, tol=tol, method=method,
                           dipole_charge=dipole_charge, occupied=occupied or ())
         from radsolve.output.report import render_transitions
 

@@ -161,7 +161,7 @@ def _validate(l, count, tol, method, dimension) -> tuple[list[int], int, float, 
         methods = [solver_class(method)]
     else:
         raise InputError(f"method {method!r}: unknown; allowed: {', '.join(list(METHODS) + ['both'])} "
-                         "or a RadialSolver subclass", parameter="method")
+                         "(or, from Python, a RadialSolver subclass)", parameter="method")
     return ls, count, tol, methods, validated_dimension(dimension)
 
 
