@@ -162,7 +162,8 @@ def _folder_files(folder: str, what: str) -> list[Path]:
     if not path.is_dir():
         raise InputError(
             f"{what}: plug-in folder {folder!r} does not exist or is not a folder; "
-            "give a folder holding *.py potential files", parameter="plugins" if what == "plugins" else None
+            "give a folder holding *.py potential files",
+            parameter=None if what == "RADSOLVE_PLUGINS" else "plugins",
         )
     return sorted(p for p in path.glob("*.py") if not p.name.startswith("_") and p.is_file())
 
@@ -216,7 +217,7 @@ def discover(plugin_dirs: Any = None) -> dict[str, PotentialFamily | BrokenFamil
         add(family)
     seen_files: set[Path] = {Path(f.file).resolve() for f in found.values() if f.file}
     for folder, what in plugin_folders(plugin_dirs):
-        label = "RADSOLVE_PLUGINS" if what == PLUGINS_ENV else "plugins"
+        label = "RADSOLVE_PLUGINS" if what == PLUGINS_ENV else "--plugins"
         for path in _folder_files(folder, label):
             resolved = path.resolve()
             if resolved in seen_files:
