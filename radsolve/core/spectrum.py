@@ -160,7 +160,7 @@ def _validate(l, count, tol, method, dimension) -> tuple[list[int], int, float, 
     elif method in METHODS:
         methods = [solver_class(method)]
     else:
-        raise InputError(f"method {method!r}: unknown; allowed: {', '.join(list(METHODS) + ['both'])} "
+        raise InputError(f"unknown method {method!r}; allowed: {', '.join(list(METHODS) + ['both'])} "
                          "(or, from Python, a RadialSolver subclass)", parameter="method")
     return ls, count, tol, methods, validated_dimension(dimension)
 
