@@ -2,10 +2,12 @@
 
 Every command here calls functions a script can call too
 (:func:`radsolve.potentials.potential`, :func:`radsolve.solve.solve`,
-:func:`radsolve.analysis.convergence.check`, :mod:`radsolve.output.report`).  Only typer and the
-standard library are imported at module level so that ``radsolve --help``
-answers at once; numpy, scipy and the solvers are imported inside the
-commands.
+:func:`radsolve.analysis.convergence.check`, :mod:`radsolve.output.report`), and
+holds no rule of its own: ranges and defaults are the API's, and the API's
+errors name the option through ``OPTION_OF``.  Only typer, the standard
+library and radsolve's light modules (the ranges shown in the help) are
+imported at module level so that ``radsolve --help`` answers at once; numpy,
+scipy and the solvers are imported inside the commands.
 
 Exit status: 0 success; 1 ``radsolve check`` found a failure; 2 bad input
 or usage (one line ``radsolve: error: ...`` on stderr, no traceback);
@@ -25,7 +27,11 @@ from typing import Annotated, Iterator, Optional
 
 import typer
 
-from radsolve.core.solvers.registry import DESCRIPTIONS, EVERY_METHOD, METHODS
+from radsolve.core.solvers.registry import DESCRIPTIONS, EVERY_METHOD
+# Light modules (standard library only): the ranges and names shown in the help.
+from radsolve.core.inputs import COUNT_MAX, DIMENSION_RANGE, L_MAX
+from radsolve.core.targets import JUDGED_TOL_RANGE, THRESHOLD_TOL_RANGE, TOL_RANGE
+from radsolve.units import ENERGY_UNITS, MASS_UNITS, PARTICLES, UNIT_SYSTEMS
 
 EXIT_OK = 0
 EXIT_CHECK_FAILED = 1
@@ -33,7 +39,7 @@ EXIT_BAD_INPUT = 2
 EXIT_NOT_CONVERGED = 3
 EXIT_INTERNAL = 4
 
-ENERGY_UNITS_HELP = "hartree, eV, meV, keV, MeV, rydberg, cm-1"
+ENERGY_UNITS_HELP = ", ".join(ENERGY_UNITS)
 
 app = typer.Typer(
     name="radsolve",
@@ -51,15 +57,6 @@ app = typer.Typer(
     pretty_exceptions_enable=False,
     context_settings={"help_option_names": ["-h", "--help"]},
 )
-
-
-#: --method choices: read from the solver registry (no solver module is imported for this).
-Method = Enum("Method", {name: name for name in [*METHODS, EVERY_METHOD]}, type=str)
-
-
-class UnitsChoice(str, Enum):
-    atomic = "atomic"
-    nuclear = "nuclear"
 
 
 class OutputFormat(str, Enum):
@@ -81,19 +78,61 @@ def _fail(message: str, status: int = EXIT_BAD_INPUT) -> typer.Exit:
     return typer.Exit(status)
 
 
+#: The option that gives each API argument, for every command (``InputError.parameter``
+#: -> option); a command whose option for an argument differs passes its own on top.
+OPTION_OF = {
+    "potential": "NAME", "plugins": "--plugins", "fixed": "-p",
+    "l": "--l/--lmax", "lmax": "--lmax", "count": "--count", "mass": "--mass", "tol": "--tol",
+    "method": "--method", "units": "--units", "unit": "--unit", "spin_orbit": "--spin-orbit",
+    "dimension": "--dimension",
+    "expr": "--expr", "source": "--file", "r_unit": "--r-unit", "v_unit": "--v-unit",
+    "beyond": "--beyond", "inside": "--inside", "spline_degree": "--spline",
+    "vary": "--vary", "workers": "--workers", "cluster": "--cluster", "out": "--out",
+    "parameter": "--vary", "level": "--level", "levels": "--level", "nmax": "--nmax",
+    "bracket": "--bracket",
+    "targets": "--targets", "free": "--free", "bounds": "--free", "max_evaluations": "--max-evaluations",
+    "n": "--n", "k": "--moment", "radius": "--inside", "r": "--at",
+    "dipole_charge": "--dipole-charge", "occupied": "--occupied",
+}
+
+
+def _option_message(exc, option: str | None) -> str:
+    """The message of ``exc`` with the API argument it is about named as ``option``.
+
+    The argument comes from the error's ``parameter`` field, never from its
+    text.  A message that leads with the argument's name (``"tol must be
+    ..."``) gets the option in its place (``"--tol must be ..."``); any other
+    message gets the option in front (``"--vary: potential 'yukawa' has no
+    parameter ..."``).  Errors about a potential parameter (``family`` set)
+    already name it and are left as they are.
+    """
+    message = str(exc)
+    parameter = getattr(exc, "parameter", None)
+    if option is None or getattr(exc, "family", None) is not None or message.startswith(option):
+        return message
+    if parameter and (message == parameter or message.startswith((parameter + " ", parameter + ":"))):
+        return option + message[len(parameter):]
+    return f"{option}: {message}"
+
+
 @contextmanager
-def _reported_errors() -> Iterator[None]:
+def _reported_errors(options: dict[str, str] | None = None) -> Iterator[None]:
     """Turn radsolve's user-facing errors into one stderr line and exit status 2.
 
+    An InputError about one API argument names the option that gives it:
+    ``OPTION_OF``, with ``options`` (the command's own names) on top.
     Anything else is a bug (ours or a plug-in's that the registry did not
     wrap); it gets one line and status 4 unless RADSOLVE_TRACEBACK is set.
     """
-    from radsolve.errors import RadsolveError
+    from radsolve.errors import InputError, RadsolveError
 
     try:
         yield
     except typer.Exit:
         raise
+    except InputError as exc:
+        table = {**OPTION_OF, **(options or {})}
+        raise _fail(_option_message(exc, table.get(exc.parameter))) from None
     except RadsolveError as exc:
         raise _fail(str(exc)) from None
     except KeyboardInterrupt:
@@ -136,36 +175,18 @@ def _plugin_dirs(plugins: list[Path] | None) -> list[str] | None:
     return [str(p) for p in plugins] if plugins else None
 
 
-def _check_tol(tol: float) -> None:
-    from radsolve.core.targets import validated_tol
-
-    validated_tol(tol, "--tol")
-
-
-def _check_judged_tol(tol: float) -> None:
-    """The tolerance ``check`` judges levels against: any 0 < tol < 1."""
-    from radsolve.errors import InputError
-
-    if not 0.0 < tol < 1.0:  # NaN fails too
-        raise InputError(f"--tol {tol}: must be a relative tolerance with 0 < tol < 1, e.g. 1e-10")
-
-
 def _with_option(option: str, func, value):
-    """``func(value)``, with the option's name put in front of any error message."""
-    from radsolve.errors import InputError, RadsolveError
+    """``func(value)`` for a value that ``option`` alone gives, its errors naming ``option``."""
+    from radsolve.errors import InputError
 
     try:
         return func(value)
-    except RadsolveError as exc:
-        message, plain = str(exc), option.lstrip("-")
-        if message.startswith(plain + ":") or message.startswith(plain + " "):
-            message = "--" + message  # "mass must be ..." -> "--mass must be ..."
-        else:
-            message = f"{option}: {message}"
-        raise InputError(message) from None
+    except InputError as exc:
+        raise InputError(_option_message(exc, option)) from None
 
 
-def _l_values(l: list[int] | None, lmax: int | None) -> list[int]:
+def _l_values(l: list[int] | None, lmax: int | None):
+    """The API's ``l`` from --l or --lmax (None: the API's default)."""
     from radsolve.errors import InputError
 
     if l and lmax is not None:
@@ -173,38 +194,64 @@ def _l_values(l: list[int] | None, lmax: int | None) -> list[int]:
     if lmax is not None:
         return list(range(lmax + 1))
     if l:
-        return sorted(set(l))
-    return [0]
+        return l if len(l) > 1 else l[0]
+    return None
+
+
+def _given(**values):
+    """The keyword arguments that were given (not None), so that the API's defaults apply."""
+    return {key: value for key, value in values.items() if value is not None}
 
 
 PLUGINS_HELP = ("folder of potential plug-ins (*.py); repeatable; folders in the "
                 "RADSOLVE_PLUGINS environment variable are searched too")
 
-# Options shared by several commands.
+# Options shared by several commands: one definition per concept.  Their ranges and
+# defaults are the API's (the CLI checks nothing itself; the API's errors name the
+# option through OPTION_OF).
 NameArgument = Annotated[str, typer.Argument(
     metavar="NAME", help="potential family, e.g. coulomb (list: radsolve potentials)")]
 ParamOption = Annotated[Optional[list[str]], typer.Option(
     "-p", "--param", metavar="KEY=VALUE",
-    help="potential parameter, repeatable; atomic units unless a unit is attached")]
-AtomicMassOption = Annotated[str, typer.Option(
-    "--mass", "-m", metavar="M", help="reduced mass: electron masses, or particles such as electron+proton")]
+    help="potential parameter, repeatable; atomic units unless a unit is attached, "
+         "e.g. -p width=0.5angstrom")]
+LOption = Annotated[Optional[list[int]], typer.Option(
+    "--l", "-l", metavar="L", help=f"orbital angular momentum 0 ... {L_MAX}, repeatable [default: 0]")]
+LmaxOption = Annotated[Optional[int], typer.Option(
+    "--lmax", metavar="L", help="every l from 0 to L (not with --l)")]
+CountOption = Annotated[int, typer.Option(
+    "--count", "-k", metavar="K",
+    help=f"the K lowest levels for each l, 1 ... {COUNT_MAX} (in a sweep each has a row at every point, "
+         "bound or not)")]
+MassOption = Annotated[Optional[str], typer.Option(
+    "--mass", "-m", metavar="M",
+    help="reduced mass: a number of electron masses (MeV/c^2 in nuclear units), a number with "
+         f"{', '.join(MASS_UNITS)} (e.g. 0.50391u, 939.57MeV), or particles ({', '.join(PARTICLES)}); "
+         "'+' joins terms into their reduced mass (electron+proton) [default: 1 electron mass in "
+         "atomic units; needed in nuclear units]")]
 PluginsOption = Annotated[Optional[list[Path]], typer.Option("--plugins", metavar="DIR", help=PLUGINS_HELP)]
-MethodOption = Annotated[Method, typer.Option(
-    "--method", help=", ".join(f"{k} ({v})" for k, v in DESCRIPTIONS.items())
-    + f" or {EVERY_METHOD} (every method; their disagreement is folded into the estimates)")]
-UnitsOption = Annotated[Optional[UnitsChoice], typer.Option(
-    "--units", help="unit system: atomic (hartree, bohr, electron masses) or nuclear "
-                    "(MeV, fm, MeV/c^2) [default: the potential's own]")]
+MethodOption = Annotated[str, typer.Option(
+    "--method", metavar="METHOD",
+    help="a registered method: " + ", ".join(f"{k} ({v})" for k, v in DESCRIPTIONS.items())
+    + f", or {EVERY_METHOD} (every one; their disagreement is folded into the estimates)")]
+UnitsOption = Annotated[Optional[str], typer.Option(
+    "--units", metavar="SYSTEM",
+    help=f"unit system, one of {', '.join(UNIT_SYSTEMS)}: atomic (hartree, bohr, electron masses) or "
+         "nuclear (MeV, fm, MeV/c^2) [default: the potential's own]")]
 TolOption = Annotated[float, typer.Option(
-    "--tol", metavar="T", help="target relative error of each energy (the solver accepts 1e-14 ... 0.1)")]
+    "--tol", metavar="T",
+    help=f"target relative error of each energy ({TOL_RANGE[0]:g} ... {TOL_RANGE[1]:g})")]
 OutputUnitOption = Annotated[Optional[str], typer.Option(
     "--unit", "-u", metavar="U",
     help=f"energy unit of the output: {ENERGY_UNITS_HELP} [default: hartree, or MeV in nuclear units]")]
+AtomicOutputUnitOption = Annotated[str, typer.Option(
+    "--unit", "-u", metavar="U", help=f"energy unit of the output: {ENERGY_UNITS_HELP}")]
 SpinOrbitOption = Annotated[bool, typer.Option(
     "--spin-orbit", help="split each l > 0 into j = l -+ 1/2 with the potential's spin-orbit term")]
 DimensionOption = Annotated[int, typer.Option(
-    "--dimension", "-d", metavar="D", min=2, max=10,
-    help="space dimension D >= 2 (centrifugal term with l -> l + (D-3)/2)")]
+    "--dimension", "-d", metavar="D",
+    help=f"space dimension D, {DIMENSION_RANGE[0]} ... {DIMENSION_RANGE[1]} (centrifugal term with "
+         "l -> l + (D-3)/2)")]
 
 
 # ---------------------------------------------------------------- commands
@@ -213,30 +260,17 @@ DimensionOption = Annotated[int, typer.Option(
 @app.command("levels")
 def levels_command(
     name: NameArgument,
-    param: Annotated[Optional[list[str]], typer.Option(
-        "-p", "--param", metavar="KEY=VALUE",
-        help="potential parameter, repeatable; atomic units unless a unit is attached, "
-             "e.g. -p width=0.5angstrom")] = None,
-    l: Annotated[Optional[list[int]], typer.Option(
-        "--l", "-l", min=0, metavar="L",
-        help="orbital angular momentum, repeatable [default: 0]")] = None,
-    lmax: Annotated[Optional[int], typer.Option(
-        "--lmax", min=0, metavar="L", help="every l from 0 to L (not with --l)")] = None,
-    count: Annotated[int, typer.Option(
-        "--count", "-k", min=1, metavar="K", help="the K lowest levels for each l")] = 5,
-    mass: Annotated[Optional[str], typer.Option(
-        "--mass", "-m", metavar="M",
-        help="reduced mass: electron masses, or particles such as electron+proton; in nuclear "
-             "units MeV/c^2, u (207u) or particles (neutron, neutron+207u) [default: 1 in "
-             "atomic units; needed in nuclear units]")] = None,
+    param: ParamOption = None,
+    l: LOption = None,
+    lmax: LmaxOption = None,
+    count: CountOption = 5,
+    mass: MassOption = None,
     tol: TolOption = 1e-10,
-    method: MethodOption = Method(next(iter(METHODS))),
+    method: MethodOption = "fd",
     unit: OutputUnitOption = None,
     units: UnitsOption = None,
     spin_orbit: SpinOrbitOption = False,
-    dimension: Annotated[int, typer.Option(
-        "--dimension", "-d", metavar="D",
-        help="space dimension D >= 2 (centrifugal term with l -> l + (D-3)/2)")] = 3,
+    dimension: DimensionOption = 3,
     expr: Annotated[Optional[str], typer.Option(
         "--expr", metavar="EXPR",
         help="with NAME 'formula': V(r) as an expression in r and parameters, e.g. "
@@ -250,14 +284,15 @@ def levels_command(
     v_unit: Annotated[Optional[str], typer.Option(
         "--v-unit", metavar="U", help="energy unit of the table's V [default: hartree or MeV]")
     ] = None,
-    beyond: Annotated[str, typer.Option(
+    beyond: Annotated[Optional[str], typer.Option(
         "--beyond", metavar="RULE",
-        help="V beyond the table's last r: constant, zero or coulomb:Z (-Z/r)")] = "constant",
-    inside: Annotated[str, typer.Option(
+        help="V beyond the table's last r: constant, zero or coulomb:Z (-Z/r) [default: constant]")
+    ] = None,
+    inside: Annotated[Optional[str], typer.Option(
         "--inside", metavar="RULE",
-        help="V inside the table's first r: constant or coulomb:Z")] = "constant",
-    spline: Annotated[int, typer.Option(
-        "--spline", metavar="K", help="degree of the table's spline: 3 or 5")] = 3,
+        help="V inside the table's first r: constant or coulomb:Z [default: constant]")] = None,
+    spline: Annotated[Optional[int], typer.Option(
+        "--spline", metavar="K", help="degree of the table's spline: 3 or 5 [default: 3]")] = None,
     fmt: Annotated[OutputFormat, typer.Option(
         "--format", "-f", help="table for reading, json or csv for programs")
     ] = OutputFormat.table,
@@ -274,54 +309,24 @@ def levels_command(
     warning goes to stderr and the exit status is 3.
     """
     with _reported_errors():
-        from radsolve.errors import InputError, RadsolveError
+        from radsolve.units import energy_unit_factor
 
         params = parse_assignments(param)
         ls = _l_values(l, lmax)
-        _check_tol(tol)
-        if dimension < 2:
-            raise InputError(f"--dimension {dimension}: the radial problem needs a dimension D >= 2")
-        from radsolve.units import energy_unit_factor, unit_system
-
         if unit is not None:
-            _with_option("--unit", energy_unit_factor, unit)
-        if out is not None and not (out.parent if str(out.parent) else Path(".")).is_dir():
-            raise InputError(f"--out {str(out)!r}: folder {str(out.parent)!r} does not exist")
+            energy_unit_factor(unit)  # before anything is solved
+        if out is not None:
+            _folder_exists(out, "--out")
 
         pot = _levels_potential(name, params, plugins, units, expr, table_file, r_unit, v_unit,
                                 beyond, inside, spline)
-        if units is not None and units.value != pot.family.units:
-            raise InputError(f"--units {units.value}: potential {pot.name!r} is written in "
-                             f"{pot.family.units} units; allowed for it: {pot.family.units}")
-        system = unit_system(pot.family.units)
-        if mass is None and system.name != "atomic":
-            raise InputError(f"--mass is needed in {system.name} units ({system.mass_unit}, u or "
-                             "particles), e.g. --mass neutron")
-        mu = _with_option("--mass", system.parse_mass, "1" if mass is None else mass)
 
         from radsolve.output.report import render
         from radsolve.core.spectrum import solve
 
-        try:
-            result = solve(pot, l=ls if len(ls) > 1 else ls[0], count=count, mass=mu,
-                           tol=tol, method=method.value, spin_orbit=spin_orbit,
-                           dimension=dimension, units=None if units is None else units.value)
-        except RadsolveError as exc:
-            message = str(exc)
-            if isinstance(exc, InputError):
-                # About an option: "tol must be ..." -> "--tol must be ..."
-                first = message.split(" ", 1)[0].rstrip(":")
-                if first in ("l", "count", "tol", "mass", "dimension"):
-                    raise InputError("--" + message) from None
-                if first == "spin_orbit":
-                    raise InputError("--spin-orbit" + message[len("spin_orbit"):]) from None
-                if "unit system" in message:
-                    raise InputError(f"--units: {message}") from None
-                raise
-            if repr(pot.name) in message:
-                raise
-            # Say which potential the solver's complaint (e.g. fall to the centre) is about.
-            raise type(exc)(f"potential {pot.name!r}: {exc}") from None
+        result = _solver_call(pot, solve, pot, count=count, mass=mass, tol=tol, method=method,
+                              spin_orbit=spin_orbit, dimension=dimension,
+                              **_given(l=ls, units=units))
         _write_output(render(result, unit, fmt.value), out, f"{len(result.levels)} levels ({fmt.value})")
         noteworthy = (not result.success or not result.levels
                       or any(v is not None for v in result.bound_counts.values()))
@@ -345,7 +350,8 @@ def _levels_potential(name, params, plugins, units, expr, table_file, r_unit, v_
     """The potential of ``radsolve levels``: a family, a formula (--expr) or a table (--file)."""
     from radsolve.errors import InputError
 
-    system = None if units is None else units.value
+    system = units
+    table_rules = _given(beyond=beyond, inside=inside, spline_degree=spline)
     kind = name.strip().lower()
     table_options = {"--r-unit": r_unit, "--v-unit": v_unit}
     if kind == "formula":
@@ -355,7 +361,7 @@ def _levels_potential(name, params, plugins, units, expr, table_file, r_unit, v_
             raise InputError("--file belongs to NAME 'table', not 'formula'")
         from radsolve.potentials.formula import formula_potential
 
-        return formula_potential(expr, units=system or "atomic", **params)
+        return formula_potential(expr, **_given(units=system), **params)
     if expr is not None:
         raise InputError(f"--expr is for NAME 'formula' (got NAME {name!r}); "
                          "e.g. radsolve levels formula --expr '-Z/r' -p Z=1")
@@ -366,13 +372,12 @@ def _levels_potential(name, params, plugins, units, expr, table_file, r_unit, v_
             raise InputError(f"a table has no parameters; drop -p {', '.join(params)}")
         from radsolve.potentials.tabulated import tabulated_potential
 
-        return tabulated_potential(table_file, r_unit=r_unit, v_unit=v_unit, units=system or "atomic",
-                                   beyond=beyond, inside=inside, spline_degree=spline)
+        return tabulated_potential(table_file, r_unit=r_unit, v_unit=v_unit, **_given(units=system),
+                                   **table_rules)
     given = [opt for opt, value in table_options.items() if value is not None]
     given += ["--file"] if table_file is not None else []
-    given += [f"--{opt}" for opt, value, default in (("beyond", beyond, "constant"),
-                                                     ("inside", inside, "constant"),
-                                                     ("spline", spline, 3)) if value != default]
+    given += [{"beyond": "--beyond", "inside": "--inside", "spline_degree": "--spline"}[key]
+              for key in table_rules]
     if given:
         raise InputError(f"{', '.join(given)}: only for NAME 'table' (got NAME {name!r})")
     from radsolve.potentials import potential
@@ -384,7 +389,9 @@ def _levels_potential(name, params, plugins, units, expr, table_file, r_unit, v_
 def check_command(
     tol: Annotated[float, typer.Option(
         "--tol", metavar="T",
-        help="relative tolerance asked of the solvers and judged (1e-14 ... 0.1)")] = 1e-10,
+        help=f"relative tolerance asked of the solvers and judged: {JUDGED_TOL_RANGE[0]:g} < T < "
+             f"{JUDGED_TOL_RANGE[1]:g} (one the solvers refuse, outside {TOL_RANGE[0]:g} ... "
+             f"{TOL_RANGE[1]:g}, fails with their reason)")] = 1e-10,
     quick: Annotated[bool, typer.Option(
         "--quick", help="a reduced set (Z = 1 and 92, mass 1, n <= 4) for a fast smoke run")
     ] = False,
@@ -399,12 +406,10 @@ def check_command(
     any failure.
     """
     with _reported_errors():
-        _check_judged_tol(tol)
         from radsolve.analysis.convergence import check
 
-        kwargs = dict(charges=(1, 92), masses=(1.0,), nmax=4) if quick else {}
         progress = _say if sys.stderr.isatty() else None
-        report = check(tol=tol, progress=progress, **kwargs)
+        report = check(tol=tol, progress=progress, quick=quick)
         typer.echo(report.to_table(), nl=False)
         if not report.passed:
             raise typer.Exit(report.exit_code)
@@ -451,24 +456,13 @@ def sweep_command(
              "screening_length=1angstrom:2nm:50), or KEY=V1,V2,...; repeat for a grid")],
     log: Annotated[bool, typer.Option(
         "--log", help="space START:STOP:NUM ranges geometrically")] = False,
-    param: Annotated[Optional[list[str]], typer.Option(
-        "-p", "--param", metavar="KEY=VALUE",
-        help="fixed potential parameter, repeatable (atomic units unless a unit is attached)")] = None,
-    l: Annotated[Optional[list[int]], typer.Option(
-        "--l", "-l", min=0, metavar="L",
-        help="orbital angular momentum, repeatable [default: 0]")] = None,
-    lmax: Annotated[Optional[int], typer.Option(
-        "--lmax", min=0, metavar="L", help="every l from 0 to L (not with --l)")] = None,
-    count: Annotated[int, typer.Option(
-        "--count", "-k", min=1, metavar="K",
-        help="the K lowest levels for each l; each has a row at every point, bound or not")] = 5,
-    mass: Annotated[Optional[str], typer.Option(
-        "--mass", "-m", metavar="M",
-        help="reduced mass: electron masses, or particles such as electron+proton; in nuclear "
-             "units MeV/c^2, u or particles [default: 1 in atomic units; needed in nuclear units]")
-    ] = None,
+    param: ParamOption = None,
+    l: LOption = None,
+    lmax: LmaxOption = None,
+    count: CountOption = 5,
+    mass: MassOption = None,
     tol: TolOption = 1e-10,
-    method: MethodOption = Method(next(iter(METHODS))),
+    method: MethodOption = "fd",
     unit: OutputUnitOption = None,
     units: UnitsOption = None,
     dimension: DimensionOption = 3,
@@ -482,7 +476,7 @@ def sweep_command(
         "--plot", metavar="FILE.png", help="draw each level's energy against the swept parameter")
     ] = None,
     workers: Annotated[Optional[int], typer.Option(
-        "--workers", "-w", min=1, metavar="N",
+        "--workers", "-w", metavar="N",
         help="local worker processes [default: every core]; 1 runs serially")] = None,
     cluster: Annotated[Optional[str], typer.Option(
         "--cluster", metavar="ADDRESS",
@@ -509,34 +503,32 @@ def sweep_command(
 
         params = parse_assignments(param)
         ls = _l_values(l, lmax)
-        _check_tol(tol)
         if unit is not None:
-            _with_option("--unit", energy_unit_factor, unit)
+            energy_unit_factor(unit)  # before anything is solved
         family = get_family(name, plugins=_plugin_dirs(plugins))
-        mu = _family_mass(family, units, mass)
         axes: dict = {}
         for item in vary:
             key, values = parse_vary(item, family, log)
             if key in axes:
                 raise InputError(f"--vary: parameter {key!r} is given twice")
             if key in params:
+                # The API refuses this too (fixed and vary overlap); said here in the options' names.
                 raise InputError(f"parameter {key!r} is given both with --vary and with -p; "
                                  "a swept parameter takes its values from --vary only")
             axes[key] = values
         if out is not None:
             from radsolve.analysis.sweeps.sinks import check_out_path
 
-            _with_option("--out", check_out_path, out)
+            check_out_path(out)
         if plot is not None:
             _check_png(plot, "--plot")
         started = time.monotonic()
         try:
-            result = sweep(family.name, vary=axes, fixed=params, l=ls if len(ls) > 1 else ls[0],
-                           count=count, mass=mu, tol=tol, method=method.value,
-                           plugins=_plugin_dirs(plugins), workers=workers, cluster=cluster,
-                           out=out if out is not None else sys.stdout, unit=unit,
+            result = sweep(family.name, vary=axes, fixed=params, count=count, mass=mass, tol=tol,
+                           method=method, plugins=_plugin_dirs(plugins), workers=workers,
+                           cluster=cluster, out=out if out is not None else sys.stdout, unit=unit,
                            spin_orbit=spin_orbit, dimension=dimension,
-                           units=None if units is None else units.value)
+                           **_given(l=ls, units=units))
         except SweepInterrupted as stop:
             partial = stop.partial
             where = f"in {out}" if out is not None else "on stdout"
@@ -573,21 +565,6 @@ def sweep_command(
             raise typer.Exit(result.exit_code)
 
 
-def _family_mass(family, units, mass: Optional[str]) -> float:
-    """--mass read in the unit system of ``family`` (which --units must match)."""
-    from radsolve.errors import InputError
-    from radsolve.units import unit_system
-
-    if units is not None and units.value != family.units:
-        raise InputError(f"--units {units.value}: potential {family.name!r} is written in "
-                         f"{family.units} units; allowed for it: {family.units}")
-    system = unit_system(family.units)
-    if mass is None and system.name != "atomic":
-        raise InputError(f"--mass is needed in {system.name} units ({system.mass_unit}, u or "
-                         "particles), e.g. --mass neutron")
-    return _with_option("--mass", system.parse_mass, "1" if mass is None else mass)
-
-
 def _check_png(path: Path, option: str) -> None:
     from radsolve.errors import InputError
 
@@ -621,24 +598,21 @@ def threshold_command(
     level: Annotated[Optional[list[str]], typer.Option(
         "--level", metavar="LABEL", help="level such as 1s or 2p; repeatable [default: 1s]")] = None,
     nmax: Annotated[Optional[int], typer.Option(
-        "--nmax", min=1, max=30, metavar="N",
+        "--nmax", metavar="N",
         help="every level with n <= N (all l < n; nuclear labels also need --lmax), "
              "instead of --level")] = None,
     lmax: Annotated[Optional[int], typer.Option(
-        "--lmax", min=0, metavar="L", help="with --nmax: only l <= L")] = None,
+        "--lmax", metavar="L", help="with --nmax: only l <= L")] = None,
     bracket: Annotated[Optional[str], typer.Option(
         "--bracket", metavar="A:B",
         help="values of KEY between which the level stops being bound (units allowed) "
              "[default: searched outward from -p KEY=VALUE or the default]")] = None,
-    param: Annotated[Optional[list[str]], typer.Option(
-        "-p", "--param", metavar="KEY=VALUE", help="other potential parameters, repeatable")] = None,
-    mass: Annotated[Optional[str], typer.Option(
-        "--mass", "-m", metavar="M",
-        help="reduced mass: electron masses, or particles such as electron+proton; in nuclear "
-             "units MeV/c^2, u or particles [default: 1 in atomic units; needed in nuclear units]")
-    ] = None,
+    param: ParamOption = None,
+    mass: MassOption = None,
     tol: Annotated[float, typer.Option(
-        "--tol", metavar="T", help="target relative error of the critical value")] = 1e-9,
+        "--tol", metavar="T",
+        help=f"target relative error of the critical value ({THRESHOLD_TOL_RANGE[0]:g} ... "
+             f"{THRESHOLD_TOL_RANGE[1]:g})")] = 1e-9,
     units: UnitsOption = None,
     dimension: DimensionOption = 3,
     spin_orbit: Annotated[bool, typer.Option(
@@ -663,15 +637,7 @@ def threshold_command(
         from radsolve.analysis.thresholds import critical_values
 
         params = parse_assignments(param)
-        if level and nmax is not None:
-            raise InputError("--level and --nmax: give one or the other")
-        if lmax is not None and nmax is None:
-            raise InputError("--lmax goes with --nmax")
         family = get_family(name, plugins=_plugin_dirs(plugins))
-        mu = _family_mass(family, units, mass)
-        from radsolve.core.targets import THRESHOLD_TOL_RANGE, validated_tol
-
-        validated_tol(tol, "--tol", THRESHOLD_TOL_RANGE)
         pair = None
         if bracket is not None:
             parts = [p.strip() for p in bracket.split(":")]
@@ -679,10 +645,10 @@ def threshold_command(
                 raise InputError(f"--bracket {bracket!r}: expected A:B, two values of {vary}, "
                                  "e.g. --bracket 0.5:2")
             pair = tuple(parts)
-        results = critical_values(family.name, vary, nmax=nmax or 1, bracket=pair, fixed=params, mass=mu,
-                             tol=tol, plugins=_plugin_dirs(plugins),
-                             levels=None if nmax is not None else (level or ["1s"]),
-                             lmax=lmax, spin_orbit=spin_orbit, dimension=dimension)
+        results = critical_values(family.name, vary, nmax=nmax, bracket=pair, fixed=params, mass=mass,
+                                  tol=tol, plugins=_plugin_dirs(plugins), levels=level or None,
+                                  lmax=lmax, spin_orbit=spin_orbit, dimension=dimension,
+                                  units=units)
         if fmt is ReportFormat.json:
             from radsolve.core.serialize import dumps_json
 
@@ -710,18 +676,10 @@ def fit_command(
     param: Annotated[Optional[list[str]], typer.Option(
         "-p", "--param", metavar="KEY=VALUE",
         help="fixed parameters, and start values of free ones; repeatable")] = None,
-    mass: Annotated[Optional[str], typer.Option(
-        "--mass", "-m", metavar="M",
-        help="reduced mass: electron masses, or particles such as electron+proton; in nuclear "
-             "units MeV/c^2, u or particles [default: 1 in atomic units; needed in nuclear units]")
-    ] = None,
-    tol: Annotated[float, typer.Option(
-        "--tol", metavar="T", help="relative accuracy of each computed energy")] = 1e-10,
-    method: MethodOption = Method(next(iter(METHODS))),
-    unit: Annotated[Optional[str], typer.Option(
-        "--unit", "-u", metavar="U", help=f"energy unit of the report: {ENERGY_UNITS_HELP} "
-                                          "[default: hartree, or MeV in nuclear units]")
-    ] = None,
+    mass: MassOption = None,
+    tol: TolOption = 1e-10,
+    method: MethodOption = "fd",
+    unit: OutputUnitOption = None,
     units: UnitsOption = None,
     dimension: DimensionOption = 3,
     fmt: Annotated[ReportFormat, typer.Option(
@@ -732,7 +690,7 @@ def fit_command(
         "--plot", metavar="FILE.png", help="draw computed against target levels, with residuals")
     ] = None,
     max_evaluations: Annotated[int, typer.Option(
-        "--max-evaluations", min=1, metavar="N", help="most spectra the optimizer may solve")] = 400,
+        "--max-evaluations", metavar="N", help="most spectra the optimizer may solve")] = 400,
     plugins: PluginsOption = None,
 ) -> None:
     """Fit the --free parameters of NAME so that its levels match the --targets levels.
@@ -746,31 +704,24 @@ def fit_command(
     Exit 3 when the fit did not succeed.
     """
     with _reported_errors():
-        from radsolve.errors import InputError
-        from radsolve.analysis.fitting import fit, parse_free, read_targets
-        from radsolve.potentials import get_family
+        from radsolve.analysis.fitting import fit, parse_free
         from radsolve.units import energy_unit_factor
 
         params = parse_assignments(param)
-        _check_tol(tol)
         if unit is not None:
-            _with_option("--unit", energy_unit_factor, unit)
-        family = get_family(name, plugins=_plugin_dirs(plugins))
-        mu = _family_mass(family, units, mass)
+            energy_unit_factor(unit)  # before anything is solved
         if plot is not None:
             _check_png(plot, "--plot")
         names, bounds = [], {}
         for item in free:
             key, pair = parse_free(item)
-            if key in names:
-                raise InputError(f"--free: parameter {key!r} is given twice")
-            names.append(key)
+            names.append(key)  # a name given twice is the API's to refuse
             if pair is not None:
                 bounds[key] = pair
-        target_list = read_targets(targets, family.units)
-        result = fit(family.name, target_list, free=names, bounds=bounds, fixed=params, mass=mu, tol=tol,
-                     method=method.value, plugins=_plugin_dirs(plugins),
-                     max_evaluations=max_evaluations, dimension=dimension)
+        result = fit(name, str(targets), free=names, bounds=bounds, fixed=params, mass=mass, tol=tol,
+                     method=method, plugins=_plugin_dirs(plugins),
+                     max_evaluations=max_evaluations, dimension=dimension,
+                     units=units)
         from radsolve.output.report import render
 
         text = render(result, unit, fmt.value)
@@ -792,20 +743,17 @@ def fit_command(
 
 
 def _solver_call(pot, func, *args, **kwargs):
-    """Run a solving API call, prefixing option names and the potential to its errors."""
+    """Run a solving API call; a complaint of the solver (not about an input) names the potential."""
     from radsolve.errors import InputError, RadsolveError
 
     try:
         return func(*args, **kwargs)
+    except InputError:
+        raise  # _reported_errors names the option from the error's parameter
     except RadsolveError as exc:
-        message = str(exc)
-        if isinstance(exc, InputError):
-            first = message.split(" ", 1)[0].rstrip(":")
-            if first in ("l", "n", "nmax", "count", "tol", "mass", "occupied"):
-                raise InputError("--" + message) from None
+        if repr(pot.name) in str(exc):
             raise
-        if repr(pot.name) in message:
-            raise
+        # Say which potential the solver's complaint (e.g. fall to the centre) is about.
         raise type(exc)(f"potential {pot.name!r}: {exc}") from None
 
 
@@ -820,16 +768,13 @@ def _folder_exists(path: Path, option: str) -> None:
 def wave_command(
     name: NameArgument,
     n: Annotated[int, typer.Option(
-        "--n", "-n", min=1, metavar="N", help="principal number n = nodes + l + 1")],
-    l: Annotated[int, typer.Option("--l", "-l", min=0, metavar="L", help="orbital angular momentum")],
+        "--n", "-n", metavar="N", help="principal number n = nodes + l + 1")],
+    l: Annotated[int, typer.Option("--l", "-l", metavar="L", help="orbital angular momentum")],
     param: ParamOption = None,
-    mass: AtomicMassOption = "1",
-    tol: Annotated[float, typer.Option(
-        "--tol", metavar="T", help="target relative error of the energy (1e-14 ... 0.1)")] = 1e-10,
-    method: MethodOption = Method(next(iter(METHODS))),
-    unit: Annotated[str, typer.Option(
-        "--unit", "-u", metavar="U", help=f"energy unit of the summary and plot: {ENERGY_UNITS_HELP}")
-    ] = "hartree",
+    mass: MassOption = None,
+    tol: TolOption = 1e-10,
+    method: MethodOption = "fd",
+    unit: AtomicOutputUnitOption = "hartree",
     at: Annotated[Optional[list[str]], typer.Option(
         "--at", metavar="R",
         help="radius to interpolate u and R to, repeatable; bohr unless a unit is attached "
@@ -865,21 +810,16 @@ def wave_command(
     are normalized (integral of u^2 dr = 1) with u > 0 as r -> 0. Exit 3
     when the energy or a quantity shown did not converge.
     """
-    with _reported_errors():
+    with _reported_errors({"l": "--l", "parameter": "--hellmann-feynman"}):
         from radsolve.errors import InputError
 
         params = parse_assignments(param)
-        _check_tol(tol)
-        from radsolve.units import energy_unit_factor, parse_mass, parse_quantity
+        from radsolve.units import energy_unit_factor, parse_quantity
 
-        _with_option("--unit", energy_unit_factor, unit)
-        mu = _with_option("--mass", parse_mass, mass)
-        radii = [parse_quantity(v, "length", name="--at") for v in at or []]
-        if any(r < 0 for r in radii):
-            raise InputError("--at: radii must be >= 0 bohr")
-        limits = [parse_quantity(v, "length", name="--inside") for v in inside or []]
-        if any(not r > 0 for r in limits):
-            raise InputError("--inside: radii must be > 0 bohr")
+        energy_unit_factor(unit)  # before anything is solved
+        # Lengths with units become bohr here; their rules (r >= 0, R > 0) are the API's.
+        radii = [parse_quantity(v, "length", name="r", parameter="r") for v in at or []]
+        limits = [parse_quantity(v, "length", name="radius", parameter="radius") for v in inside or []]
         if out is not None:
             from radsolve.core.wavefunctions import export_format
 
@@ -897,15 +837,10 @@ def wave_command(
         from radsolve.potentials import potential
 
         pot = potential(name, plugins=_plugin_dirs(plugins), **params)
-        st = _solver_call(pot, make_state, pot, n, l, mass=mu, tol=tol, method=method.value)
-        from radsolve.analysis.observables import StateSummary
+        st = _solver_call(pot, make_state, pot, n, l, mass=mass, tol=tol, method=method)
 
-        extra = _with_option("--moment", lambda ks: st.extra_quantities(moments=ks), moment or [])
-        extra += st.extra_quantities(inside=limits)
-        extra += _with_option("--hellmann-feynman", lambda ps: st.extra_quantities(hellmann_feynman=ps),
-                              hellmann_feynman or [])
-        summary = StateSummary(st, st.properties(), extra)
-        props = summary.properties
+        summary = st.summary(moments=moment or [], inside=limits, hellmann_feynman=hellmann_feynman or [])
+        props, extra = summary.properties, summary.extra
         wave = st.wavefunction(radii if radii else None)
         wave.properties = summary.to_dict()["properties"]
 
@@ -936,15 +871,13 @@ def wave_command(
 def transitions_command(
     name: NameArgument,
     nmax: Annotated[int, typer.Option(
-        "--nmax", min=1, metavar="N", help="every bound level with n <= N, for every l < N")],
+        "--nmax", metavar="N",
+        help="every bound level with n <= N, for every l < N")],
     param: ParamOption = None,
-    mass: AtomicMassOption = "1",
-    tol: Annotated[float, typer.Option(
-        "--tol", metavar="T", help="target relative error of each energy (1e-14 ... 0.1)")] = 1e-10,
-    method: MethodOption = Method(next(iter(METHODS))),
-    unit: Annotated[str, typer.Option(
-        "--unit", "-u", metavar="U", help=f"energy unit of the output: {ENERGY_UNITS_HELP}")
-    ] = "hartree",
+    mass: MassOption = None,
+    tol: TolOption = 1e-10,
+    method: MethodOption = "fd",
+    unit: AtomicOutputUnitOption = "hartree",
     fmt: Annotated[OutputFormat, typer.Option(
         "--format", "-f", help="table for reading, json or csv for programs")
     ] = OutputFormat.table,
@@ -973,16 +906,11 @@ def transitions_command(
     converge or a lifetime may miss a lower level.
     """
     with _reported_errors():
-        from radsolve.errors import InputError
 
         params = parse_assignments(param)
-        _check_tol(tol)
-        from radsolve.units import energy_unit_factor, parse_mass
+        from radsolve.units import energy_unit_factor
 
-        _with_option("--unit", energy_unit_factor, unit)
-        mu = _with_option("--mass", parse_mass, mass)
-        if not (dipole_charge > 0 and dipole_charge < float("inf")):
-            raise InputError(f"--dipole-charge {dipole_charge}: must be a positive number")
+        energy_unit_factor(unit)  # before anything is solved
         if out is not None:
             _folder_exists(out, "--out")
         if plot is not None:
@@ -994,7 +922,7 @@ def transitions_command(
         from radsolve.analysis.radiative import transitions
 
         pot = potential(name, plugins=_plugin_dirs(plugins), **params)
-        tr = _solver_call(pot, transitions, pot, nmax, mass=mu, tol=tol, method=method.value,
+        tr = _solver_call(pot, transitions, pot, nmax, mass=mass, tol=tol, method=method,
                           dipole_charge=dipole_charge, occupied=occupied or ())
         from radsolve.output.report import render
 

@@ -82,7 +82,7 @@ def run_executor(settings, chunks, executor, collect) -> None:
             collect(pairs)
     else:
         raise InputError(f"executor must be a concurrent.futures.Executor or have a map(function, iterable) "
-                         f"method; got {type(executor).__name__}")
+                         f"method; got {type(executor).__name__}", parameter="executor")
 
 
 def _run_windowed(executor, settings, chunks, window: int, collect) -> None:
