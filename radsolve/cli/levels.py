@@ -10,7 +10,7 @@ import typer
 
 from radsolve.cli.adapter import (OutputFormat, say, reported_errors, parse_assignments, plugin_dirs,
                                   l_values, only_given, write_output, solver_call, folder_exists)
-from radsolve.cli.options import (NameArgument, ParamOption, LOption, LmaxOption, CountOption, MassOption,
+from radsolve.cli.options import (FormatOption, OutFileOption, NameArgument, ParamOption, LOption, LmaxOption, CountOption, MassOption,
                                   PluginsOption, MethodOption, UnitsOption, TolOption, OutputUnitOption,
                                   SpinOrbitOption, DimensionOption)
 from radsolve.core.targets import JUDGED_TOL_RANGE, TOL_RANGE
@@ -51,12 +51,8 @@ def levels_command(
         help="V inside the table's first r: constant or coulomb:Z [default: constant]")] = None,
     spline: Annotated[Optional[int], typer.Option(
         "--spline", metavar="K", help="degree of the table's spline: 3 or 5 [default: 3]")] = None,
-    fmt: Annotated[OutputFormat, typer.Option(
-        "--format", "-f", help="table for reading, json or csv for programs")
-    ] = OutputFormat.table,
-    out: Annotated[Optional[Path], typer.Option(
-        "--out", "-o", metavar="FILE", help="write the output to FILE instead of stdout")
-    ] = None,
+    fmt: FormatOption = OutputFormat.table,
+    out: OutFileOption = None,
     plugins: PluginsOption = None,
 ) -> None:
     """The K lowest bound levels of potential NAME for each l.

@@ -7,6 +7,8 @@ from typing import Annotated, Optional
 
 import typer
 
+from radsolve.cli.adapter import OutputFormat, ReportFormat
+
 from radsolve.core.solvers.registry import DESCRIPTIONS, EVERY_METHOD
 from radsolve.core.inputs import COUNT_MAX, DIMENSION_RANGE, L_MAX
 from radsolve.core.targets import TOL_RANGE
@@ -92,3 +94,9 @@ DimensionOption = Annotated[int, typer.Option(
     "--dimension", "-d", metavar="D",
     help=f"space dimension D, {DIMENSION_RANGE[0]} ... {DIMENSION_RANGE[1]} (centrifugal term with "
          "l -> l + (D-3)/2)")]
+FormatOption = Annotated[OutputFormat, typer.Option(
+    "--format", "-f", help="table for reading, json or csv for programs")]
+ReportFormatOption = Annotated[ReportFormat, typer.Option(
+    "--format", "-f", help="table for reading, json for programs")]
+OutFileOption = Annotated[Optional[Path], typer.Option(
+    "--out", "-o", metavar="FILE", help="write the output to FILE instead of stdout")]

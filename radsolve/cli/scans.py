@@ -11,7 +11,7 @@ import typer
 
 from radsolve.cli.adapter import (ReportFormat, say, fail, reported_errors, parse_assignments, plugin_dirs,
                                   l_values, only_given, check_png, write_output)
-from radsolve.cli.options import (ParamOption, LOption, LmaxOption, CountOption, MassOption, PluginsOption,
+from radsolve.cli.options import (ReportFormatOption, OutFileOption, ParamOption, LOption, LmaxOption, CountOption, MassOption, PluginsOption,
                                   MethodOption, UnitsOption, TolOption, OutputUnitOption, SpinOrbitOption,
                                   DimensionOption)
 from radsolve.core.targets import THRESHOLD_TOL_RANGE
@@ -163,10 +163,8 @@ def threshold_command(
     spin_orbit: Annotated[bool, typer.Option(
         "--spin-orbit", help="with --nmax: both j = l -+ 1/2 of each l > 0 (with --level, "
                              "give j in the label, e.g. 1p3/2)")] = False,
-    fmt: Annotated[ReportFormat, typer.Option(
-        "--format", "-f", help="table for reading, json for programs")] = ReportFormat.table,
-    out: Annotated[Optional[Path], typer.Option(
-        "--out", "-o", metavar="FILE", help="write the output to FILE instead of stdout")] = None,
+    fmt: ReportFormatOption = ReportFormat.table,
+    out: OutFileOption = None,
     plugins: PluginsOption = None,
 ) -> None:
     """The value of parameter KEY at which a level of NAME reaches the continuum (E -> V(inf)).
@@ -226,8 +224,7 @@ def fit_command(
     unit: OutputUnitOption = None,
     units: UnitsOption = None,
     dimension: DimensionOption = 3,
-    fmt: Annotated[ReportFormat, typer.Option(
-        "--format", "-f", help="table for reading, json for programs")] = ReportFormat.table,
+    fmt: ReportFormatOption = ReportFormat.table,
     out: Annotated[Optional[Path], typer.Option(
         "--out", "-o", metavar="FILE", help="write the report to FILE instead of stdout")] = None,
     plot: Annotated[Optional[Path], typer.Option(

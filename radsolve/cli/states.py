@@ -9,7 +9,7 @@ import typer
 
 from radsolve.cli.adapter import (OutputFormat, say, reported_errors, parse_assignments, plugin_dirs,
                                   with_option, write_output, solver_call, folder_exists)
-from radsolve.cli.options import (NameArgument, ParamOption, MassOption, PluginsOption, MethodOption,
+from radsolve.cli.options import (FormatOption, OutFileOption, NameArgument, ParamOption, MassOption, PluginsOption, MethodOption,
                                   TolOption, AtomicOutputUnitOption)
 
 
@@ -125,12 +125,8 @@ def transitions_command(
     tol: TolOption = 1e-10,
     method: MethodOption = "fd",
     unit: AtomicOutputUnitOption = "hartree",
-    fmt: Annotated[OutputFormat, typer.Option(
-        "--format", "-f", help="table for reading, json or csv for programs")
-    ] = OutputFormat.table,
-    out: Annotated[Optional[Path], typer.Option(
-        "--out", "-o", metavar="FILE", help="write the output to FILE instead of stdout")
-    ] = None,
+    fmt: FormatOption = OutputFormat.table,
+    out: OutFileOption = None,
     plot: Annotated[Optional[Path], typer.Option(
         "--plot", metavar="FILE", help="draw the level diagram with its E1 lines: FILE.png, .svg or .pdf")
     ] = None,
