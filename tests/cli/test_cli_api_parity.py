@@ -180,7 +180,7 @@ CASES = [
     Case(["sweep", "yukawa", "--vary", "screening_length=1:2:3", "--out", "x.txt"],
          lambda: sweep("yukawa", {"screening_length": [1.0, 1.5, 2.0]}, out="x.txt", workers=1), "out", "--out"),
     Case(["sweep", "yukawa", "--vary", "screening_length=1:2:2", "--cluster", "nowhere"],
-         lambda: sweep("yukawa", {"screening_length": [1.0, 2.0]}, cluster="nowhere"), None, "--cluster"),
+         lambda: sweep("yukawa", {"screening_length": [1.0, 2.0]}, cluster="nowhere"), "cluster", "--cluster"),
     Case(["sweep", "yukawa", "--vary", "screening_length=1:2:2", "--workers", "0"],
          lambda: sweep("yukawa", {"screening_length": [1.0, 2.0]}, workers=0), "workers", "--workers"),
     Case(["sweep", "yukawa", "--vary", "screening_length=1:2:2", "--tol", "5"],

@@ -113,16 +113,20 @@ def _run_windowed(executor, settings, chunks, window: int, collect) -> None:
 
 def dask_client(cluster, workers: int | None):
     """``(client, close_client, local_cluster)`` for ``cluster``: an address, ``"local"`` or a Client."""
+    # An address that cannot be one is refused before Dask is looked for.
+    if isinstance(cluster, str) and cluster.strip() and cluster.strip() != "local" and "://" not in cluster:
+        raise InputError(f"--cluster {cluster.strip()!r}: expected 'local' or a scheduler address "
+                         "such as tcp://host:8786", parameter="cluster")
     try:
         import distributed
     except ImportError:
         raise InputError("--cluster needs Dask distributed, the optional dependency of "
-                         "radsolve[cluster]: pip install 'radsolve[cluster]'") from None
+                         "radsolve[cluster]: pip install 'radsolve[cluster]'", parameter="cluster") from None
     if isinstance(cluster, distributed.Client):
         return cluster, False, None
     if not isinstance(cluster, str) or not cluster.strip():
         raise InputError(f"cluster must be 'local', a scheduler address such as tcp://host:8786, "
-                         f"or a distributed.Client; got {cluster!r}")
+                         f"or a distributed.Client; got {cluster!r}", parameter="cluster")
     address = cluster.strip()
     import logging
 
@@ -135,9 +139,6 @@ def dask_client(cluster, workers: int | None):
                                          scheduler_kwargs={"dashboard_address": "127.0.0.1:0"},
                                          silence_logs=logging.ERROR)
         return distributed.Client(local), True, local
-    if "://" not in address:
-        raise InputError(f"--cluster {address!r}: expected 'local' or a scheduler address "
-                         "such as tcp://host:8786")
     try:
         client = distributed.Client(address, timeout=CLUSTER_TIMEOUT)
     except (OSError, TimeoutError, ValueError) as exc:
