@@ -264,11 +264,17 @@ def _phase_halvings(channels, span: GridSpan, mass, tops: dict, limit: float) ->
     return int(math.ceil(math.log2(worst / limit)))
 
 
-def _levels_on(cls, grid, ch: _Channel, mass, inner, count, guesses=None):
-    """The lowest ``count`` levels of one channel on one grid, energies from its reference."""
+def _levels_on(cls, grid, ch: _Channel, mass, inner, count, guesses=None, energies_only: bool = False):
+    """The lowest ``count`` levels of one channel on one grid, energies from its reference.
+
+    ``energies_only`` (finite differences, for planning): u is None, and no eigenvector is computed.
+    """
     values = potential_on_grid(ch.potential, grid.r, _anchors_of(grid)) - ch.reference
     solver = _solver(cls, grid, values, ch, mass, inner)
-    energies, u = solver.levels(list(range(count)), guesses=guesses)
+    if energies_only:
+        energies, u = solver.energies(list(range(count)), guesses=guesses), None
+    else:
+        energies, u = solver.levels(list(range(count)), guesses=guesses)
     below = None if ch.confining else solver.count_below(0.0)
     return energies, u, below, values
 
@@ -313,7 +319,8 @@ def _plan_box(channels, count, mass, targets: Targets, breakpoints) -> _BoxPlan:
         short = []
         for ch in active:
             inner = _inner_index(span, halvings, ch.inner_radius, coarse_r)
-            energies, _, below, _ = _levels_on(FiniteDifference, grid, ch, mass, inner, wanted[ch.key])
+            energies, _, below, _ = _levels_on(FiniteDifference, grid, ch, mass, inner, wanted[ch.key],
+                                               energies_only=True)
             energies = energies + ch.reference
             if below is not None and below < wanted[ch.key]:
                 short.append(ch.key)

@@ -161,9 +161,12 @@ class FiniteDifference(RadialSolver):
         return eigh_tridiagonal(d, e, eigvals_only=True, select="i", select_range=(lo, hi),
                                 lapack_driver="stebz", tol=_ABSOLUTE_TOLERANCE)
 
-    def levels(self, indices: Sequence[int], guesses=None) -> tuple[np.ndarray, np.ndarray]:
-        indices = list(indices)
-        d, e, b = self._cached_matrix()
+    def energies(self, indices: Sequence[int], guesses=None) -> np.ndarray:
+        """The energies of :meth:`levels` alone (planning needs no eigenvectors, which cost as much again)."""
+        d, e, _ = self._cached_matrix()
+        return self._energies(d, e, list(indices), guesses)
+
+    def _energies(self, d, e, indices: list[int], guesses) -> np.ndarray:
         if max(indices) >= d.size:
             raise ValueError(f"level {max(indices)} asked of a matrix of size {d.size}")
         lo, hi = min(indices), max(indices)
@@ -171,8 +174,12 @@ class FiniteDifference(RadialSolver):
         if guesses is not None and len(guesses) == len(indices) and indices == list(range(lo, hi + 1)):
             window = guesses
         values = self._eigenvalues(d, e, lo, hi, window)
-        take = [i - lo for i in indices]
-        values = values[take]
+        return values[[i - lo for i in indices]]
+
+    def levels(self, indices: Sequence[int], guesses=None) -> tuple[np.ndarray, np.ndarray]:
+        indices = list(indices)
+        d, e, b = self._cached_matrix()
+        values = self._energies(d, e, indices, guesses)
         vectors = _vectors(d, e, values)
         for j, value in enumerate(values):
             _clean_small_components(vectors[:, j], d, e, value)
