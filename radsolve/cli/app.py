@@ -488,16 +488,20 @@ def sweep_command(
         "--cluster", metavar="ADDRESS",
         help="run on Dask: tcp://host:port of a running scheduler, or 'local' for a local "
              "Dask cluster (needs radsolve[cluster])")] = None,
+    progress: Annotated[Optional[bool], typer.Option(
+        "--progress/--no-progress",
+        help="progress bar on stderr [default: only when stderr is a terminal]")] = None,
     plugins: PluginsOption = None,
 ) -> None:
     """The K lowest levels of NAME for each l at every point of a parameter grid.
 
     One row per (point, level): point index, the swept parameters (atomic
-    units), l, n, nodes, label, energy, error_estimate, converged, bound and
-    V(inf). A level that is not bound at a point keeps its row (bound false,
-    energy empty). Rows are written as points finish; Ctrl-C stops and keeps
-    the rows finished (exit 130). Exit 3 when some bound level did not
-    converge to --tol.
+    units), l, n, nodes, label, energy, error_estimate, converged, bound,
+    status and V(inf). A level that is not bound at a point keeps its row
+    (bound false, energy empty, status unbound when the count of bound levels
+    proves it, else missing or unknown). Rows are written as points finish;
+    Ctrl-C stops and keeps the rows finished (exit 130). Exit 3 when some
+    bound level did not converge to --tol or some level is not resolved.
     """
     with _reported_errors():
         import time
@@ -535,7 +539,7 @@ def sweep_command(
                            count=count, mass=mu, tol=tol, method=method.value,
                            plugins=_plugin_dirs(plugins), workers=workers, cluster=cluster,
                            out=out if out is not None else sys.stdout, unit=unit,
-                           spin_orbit=spin_orbit, dimension=dimension,
+                           spin_orbit=spin_orbit, dimension=dimension, progress=progress,
                            units=None if units is None else units.value)
         except SweepInterrupted as stop:
             partial = stop.partial
@@ -567,9 +571,9 @@ def sweep_command(
                          f"+- {res.error_estimate:.1g} {res.parameter_unit}".rstrip())
             plot_sweep(result, plot, unit=unit, thresholds=marks)
             _say(f"plot written to {plot}")
-        if result.unconverged:
-            _say(f"warning: {result.unconverged} bound level(s) did not converge to tol {tol:g} "
-                 "(converged = False in their rows)")
+        if not result.success:
+            for note in result.notes:
+                _say(f"warning: {note.text}")
             raise typer.Exit(result.exit_code)
 
 

@@ -11,8 +11,11 @@ same state at every point.  A level that is not bound at a point (fewer than
 ``count`` levels exist there) still has its row, with ``bound = False``, no
 energy (NaN in memory, an empty cell in CSV, ``null`` in JSON) and
 ``converged = False``: nothing is dropped.  "Bound" means that ``solve`` found
-the level below V(inf); a level bound by less than the box resolution that
-``solve`` reports in its message counts as unbound.
+the level below V(inf).  A level without energy is called ``unbound`` (its
+``status``) only when the partial wave's count of bound levels proves it;
+otherwise its status is ``missing`` (bound by the count, not resolved) or
+``unknown`` (the count is uncertain), and the sweep's status is
+``incomplete``, as is that point's solve.
 
 Execution.  The points are independent, so they run
 
@@ -209,6 +212,8 @@ def _sweep_points(base, axes, l, count, options, workers, dask, executor, out, u
         energy=np.full((total, nl, count), np.nan), error_estimate=np.full((total, nl, count), np.nan),
         converged=np.zeros((total, nl, count), dtype=bool), bound=np.zeros((total, nl, count), dtype=bool),
         v_infinity=np.full(total, np.nan), done=np.zeros(total, dtype=bool),
+        level_status=np.full((total, nl, count), None, dtype=object),
+        point_status=np.full(total, None, dtype=object), point_notes=[()] * total,
         log_spaced={k: looks_geometric(axes[k]) for k in keys}, base=base,
     )
 
@@ -220,13 +225,6 @@ def _sweep_points(base, axes, l, count, options, workers, dask, executor, out, u
     waiting: dict[int, tuple] = {}
     state = {"next": 0}
 
-    def store(index: int, block: tuple) -> None:
-        energy, error, converged, bound, v_inf = block
-        result.energy[index], result.error_estimate[index] = energy, error
-        result.converged[index], result.bound[index] = converged, bound
-        result.v_infinity[index] = v_inf
-        result.done[index] = True
-
     def write(index: int, block: tuple) -> None:
         if sink is not None:
             for row in point_rows(result, index, result.point_values(index), block, factor):
@@ -234,7 +232,7 @@ def _sweep_points(base, axes, l, count, options, workers, dask, executor, out, u
 
     def collect(pairs) -> None:
         for index, block in pairs:
-            store(index, block)
+            result.store(index, block)
             waiting[index] = block
         # Rows go out in point order, so the file does not depend on who finished first.
         while state["next"] in waiting:
