@@ -318,13 +318,13 @@ class SweepResult(ResultProtocol):
         )
 
     def grid(self, label: str, what: str = "energy") -> np.ndarray:
-        """``energy`` (or ``error_estimate``, ``bound``, ``converged``) of ``label`` on the grid.
+        """``energy`` (or ``error_estimate``, ``bound``, ``converged``, ``status``) of ``label`` on the grid.
 
-        An array of shape :attr:`shape`; NaN (or False) at points not computed.
+        An array of shape :attr:`shape`; NaN (or False, or None) at points not computed.
         """
         i, k = self._find(label)
         array = {"energy": self.energy, "error_estimate": self.error_estimate,
-                 "bound": self.bound, "converged": self.converged}[what]
+                 "bound": self.bound, "converged": self.converged, "status": self.level_status}[what]
         return array[:, i, k].reshape(self.shape)
 
     # -- rows and export -----------------------------------------------------
