@@ -149,11 +149,11 @@ def _unit_error(unit: object, what: str, allowed: tuple[str, ...], name: str | N
     if isinstance(unit, str) and unit.lower() == "mev":
         extra = " (meV and MeV differ by case: milli- vs mega-electronvolt)"
     return InputError(
-        f"{label}unknown {what} unit {unit!r}{extra}; allowed: {', '.join(allowed)}"
+        f"{label}unknown {what} unit {unit!r}{extra}; allowed: {', '.join(allowed)}", parameter=name
     )
 
 
-def energy_unit_factor(unit: str) -> float:
+def energy_unit_factor(unit: str, parameter: str | None = "unit") -> float:
     """Hartree per one ``unit``.
 
     Parameters
@@ -162,6 +162,9 @@ def energy_unit_factor(unit: str) -> float:
         One of :data:`ENERGY_UNITS` or an alias: ``Eh``, ``Ha``, ``au`` (hartree),
         ``Ry`` (rydberg), ``cm^-1`` (cm-1).  ``meV`` and ``MeV`` are
         case-sensitive; other names are not.
+    parameter : str, optional
+        The argument ``unit`` was given as, named by the error (the output
+        unit ``unit`` of most functions).
 
     Returns
     -------
@@ -175,11 +178,11 @@ def energy_unit_factor(unit: str) -> float:
     """
     canonical = _canonical_energy_unit(unit) if isinstance(unit, str) else None
     if canonical is None:
-        raise _unit_error(unit, "energy", ENERGY_UNITS)
+        raise _unit_error(unit, "energy", ENERGY_UNITS, parameter)
     return _energy_factors()[canonical]
 
 
-def length_unit_factor(unit: str) -> float:
+def length_unit_factor(unit: str, parameter: str | None = None) -> float:
     """Bohr per one ``unit`` (``bohr``/``a0``, ``angstrom``/``Å``, ``nm``, ``pm``, ``fm``).
 
     Raises
@@ -189,7 +192,7 @@ def length_unit_factor(unit: str) -> float:
     """
     canonical = _canonical_length_unit(unit) if isinstance(unit, str) else None
     if canonical is None:
-        raise _unit_error(unit, "length", LENGTH_UNITS)
+        raise _unit_error(unit, "length", LENGTH_UNITS, parameter)
     return _length_factors()[canonical]
 
 
@@ -203,13 +206,13 @@ def from_unit(value, unit: str):
     return value * energy_unit_factor(unit)
 
 
-def _finite_number(value: object, name: str) -> float:
+def _finite_number(value: object, name: str, parameter: str | None = None) -> float:
     """``value`` as a finite float, or InputError naming ``name``."""
     if isinstance(value, bool) or not isinstance(value, numbers.Real):
-        raise InputError(f"{name} must be a number, got {value!r}")
+        raise InputError(f"{name} must be a number, got {value!r}", parameter=parameter)
     number = float(value)
     if not math.isfinite(number):
-        raise InputError(f"{name} must be a finite number, got {value!r}")
+        raise InputError(f"{name} must be a finite number, got {value!r}", parameter=parameter)
     return number
 
 
@@ -229,7 +232,8 @@ def _allowed_suffixes(kind: str, system: str = "atomic") -> str:
     return "a plain number (this quantity has no unit)"
 
 
-def parse_quantity_in(value: object, kind: str, system: str = "atomic", name: str = "value") -> float:
+def parse_quantity_in(value: object, kind: str, system: str = "atomic", name: str = "value",
+                      parameter: str | None = None) -> float:
     """Parse a number with an optional unit suffix into the units of ``system``.
 
     Like :func:`parse_quantity`, but a plain number is taken to be in the
@@ -247,21 +251,21 @@ def parse_quantity_in(value: object, kind: str, system: str = "atomic", name: st
     if system not in _SYSTEM_BASE_UNITS:
         raise InputError(f"unknown unit system {system!r}; allowed: {', '.join(_SYSTEM_BASE_UNITS)}")
     if system == "atomic":
-        return parse_quantity(value, kind, name)
+        return parse_quantity(value, kind, name, parameter)
     if not isinstance(value, str):
-        return _finite_number(value, name)
+        return _finite_number(value, name, parameter)
     match = _QUANTITY_RE.match(_normalize(value))
     if match is not None and not match.group(2):
         number = float(match.group(1))
         if not math.isfinite(number):
-            raise InputError(f"{name} must be a finite number, got {value!r}")
+            raise InputError(f"{name} must be a finite number, got {value!r}", parameter=parameter)
         return number  # already in the system's own unit: no round trip through bohr
     try:
-        atomic = parse_quantity(value, kind, name)
+        atomic = parse_quantity(value, kind, name, parameter)
     except InputError as exc:
         # Re-word "a plain number in bohr ..." for this system.
         message = str(exc).replace(_allowed_suffixes(kind), _allowed_suffixes(kind, system))
-        raise InputError(message) from None
+        raise InputError(message, parameter=parameter) from None
     length, energy = _SYSTEM_BASE_UNITS[system]
     if kind == "length":
         return atomic / _length_factors()[length]
@@ -272,7 +276,7 @@ def parse_quantity_in(value: object, kind: str, system: str = "atomic", name: st
     return atomic
 
 
-def parse_quantity(value: object, kind: str, name: str = "value") -> float:
+def parse_quantity(value: object, kind: str, name: str = "value", parameter: str | None = None) -> float:
     """Parse a number with an optional unit suffix into atomic units.
 
     Parameters
@@ -287,7 +291,10 @@ def parse_quantity(value: object, kind: str, name: str = "value") -> float:
         inverse lengths in 1/bohr (suffix ``/unit``, e.g. ``"0.5/bohr"``, or
         ``unit^-1``), dimensionless values accept no suffix.
     name : str
-        How the input is called in error messages (e.g. ``"--radius"``).
+        How the input is called in error messages (e.g. ``"radius"``).
+    parameter : str, optional
+        The API argument the value was given as, set on the errors
+        (:attr:`radsolve.errors.InputError.parameter`).
 
     Returns
     -------
@@ -304,17 +311,18 @@ def parse_quantity(value: object, kind: str, name: str = "value") -> float:
     if kind not in QUANTITY_KINDS:
         raise InputError(f"unknown quantity kind {kind!r}; allowed: {', '.join(QUANTITY_KINDS)}")
     if not isinstance(value, str):
-        return _finite_number(value, name)
+        return _finite_number(value, name, parameter)
 
     text = _normalize(value)
     match = _QUANTITY_RE.match(text)
     if match is None:
         raise InputError(
-            f"{name}: cannot read {value!r} as a number; expected {_allowed_suffixes(kind)}"
+            f"{name}: cannot read {value!r} as a number; expected {_allowed_suffixes(kind)}",
+            parameter=parameter,
         )
     number = float(match.group(1))
     if not math.isfinite(number):  # e.g. "1e999"
-        raise InputError(f"{name} must be a finite number, got {value!r}")
+        raise InputError(f"{name} must be a finite number, got {value!r}", parameter=parameter)
     suffix = match.group(2)
     if not suffix:
         return number
@@ -350,7 +358,7 @@ def parse_quantity(value: object, kind: str, name: str = "value") -> float:
     what = f"{suffix!r} is {other} unit" if other else f"unknown unit {suffix!r}"
     if suffix.lower() == "mev" and kind == "energy":
         what += " (meV and MeV differ by case: milli- vs mega-electronvolt)"
-    raise InputError(f"{name}: {what} in {value!r}; expected {_allowed_suffixes(kind)}")
+    raise InputError(f"{name}: {what} in {value!r}; expected {_allowed_suffixes(kind)}", parameter=parameter)
 
 
 def particle_mass(name: str) -> float:
@@ -368,77 +376,188 @@ def particle_mass(name: str) -> float:
     near = difflib.get_close_matches(str(key), PARTICLES, n=1)
     hint = f" (did you mean {near[0]!r}?)" if near else ""
     raise InputError(
-        f"mass: unknown particle {name!r}{hint}; known particles: {', '.join(PARTICLES)}"
+        f"mass: unknown particle {name!r}{hint}; known particles: {', '.join(PARTICLES)}",
+        parameter="mass",
     )
 
 
 def reduced_mass(*masses: float) -> float:
     """Reduced mass 1 / (1/m1 + 1/m2 + ...) of positive masses (any one unit)."""
     if not masses:
-        raise InputError("reduced_mass needs at least one mass")
+        raise InputError("mass: reduced_mass needs at least one mass", parameter="mass")
     for m in masses:
         if not (m > 0 and math.isfinite(m)):
-            raise InputError(f"mass must be a positive finite number, got {m!r}")
+            raise InputError(f"mass must be a positive finite number, got {m!r}", parameter="mass")
     return 1.0 / math.fsum(1.0 / m for m in masses)
 
 
-def parse_mass(value: object) -> float:
-    """Parse a (reduced) mass into electron masses.
+# --- masses as people type them ------------------------------------------------
+
+#: Suffixes a mass may carry (``"0.50391u"``, ``"939.57MeV"``), in the order shown to users.
+#: ``u`` and ``Da`` are the dalton (unified atomic mass unit), ``me`` the electron mass;
+#: the energies mean that energy over c^2 (``/c^2`` may be written out).
+MASS_UNITS = ("u", "Da", "me", "eV", "keV", "MeV", "GeV")
+
+# Spellings of each mass unit.  MeV is matched case-sensitively (meV would be a
+# milli-electronvolt); the others in any case.
+_MASS_ALIASES = {"u": "u", "Da": "u", "dalton": "u", "amu": "u", "me": "me", "m_e": "me",
+                 "eV": "eV", "keV": "keV", "MeV": "MeV", "GeV": "GeV"}
+_CASE_SENSITIVE_MASS = {"MeV"}
+_OVER_C_SQUARED = ("/c^2", "/c**2", "/c2")
+_MASS_TERM_RE = re.compile(rf"^({_NUMBER})\s*([^+\s][^+]*?)?\s*$")
+_NOT_FINITE = ("nan", "+nan", "-nan", "inf", "+inf", "-inf", "infinity", "+infinity", "-infinity")
+
+
+def _canonical_mass_unit(suffix: str) -> str | None:
+    unit = suffix.strip()
+    for tail in _OVER_C_SQUARED:
+        if unit.endswith(tail):
+            unit = unit[: -len(tail)].strip()
+            break
+    if unit in _MASS_ALIASES:
+        return _MASS_ALIASES[unit]
+    for alias, canonical in _MASS_ALIASES.items():
+        if alias not in _CASE_SENSITIVE_MASS and alias.lower() == unit.lower():
+            return canonical
+    return None
+
+
+@lru_cache(maxsize=None)
+def _mass_unit_factors(system: str) -> dict[str, float]:
+    """One of each mass unit in the system's mass unit (CODATA via scipy.constants)."""
+    from scipy.constants import physical_constants as pc
+
+    electron_MeV = pc["electron mass energy equivalent in MeV"][0]
+    if system == "atomic":  # electron masses
+        per_MeV = 1.0 / electron_MeV
+        dalton = 1.0 / pc["electron mass in u"][0]
+        electron = 1.0
+    else:  # MeV/c^2
+        per_MeV = 1.0
+        dalton = pc["atomic mass constant energy equivalent in MeV"][0]
+        electron = electron_MeV
+    return {"u": dalton, "me": electron, "eV": 1e-6 * per_MeV, "keV": 1e-3 * per_MeV,
+            "MeV": per_MeV, "GeV": 1e3 * per_MeV}
+
+
+def _particle_mass_in(name: str, system: str) -> float:
+    mass = particle_mass(name)
+    if system == "atomic":
+        return mass
+    from scipy.constants import physical_constants as pc
+
+    return mass * pc["electron mass energy equivalent in MeV"][0]
+
+
+def mass_syntax(system: str = "atomic") -> str:
+    """What a mass may be written as in ``system``, for messages and help texts."""
+    unit = "electron masses" if system == "atomic" else "MeV/c^2"
+    return (f"a number of {unit}, a number followed by one of {', '.join(MASS_UNITS)} "
+            f"(e.g. 0.50391u, 939.57MeV), or a particle ({', '.join(PARTICLES)}); "
+            "terms joined by '+' mean their reduced mass (electron+proton)")
+
+
+def parse_mass_in(value: object, system: str = "atomic") -> float:
+    """Parse a (reduced) mass into the mass unit of ``system``.
 
     Parameters
     ----------
     value : float or str
-        A positive finite number of electron masses (or such a number as a
-        string), a particle name (``"muon"``), or two or more terms joined by
-        ``+`` meaning the reduced mass m1·m2/(m1 + m2) (generally
-        1/(1/m1 + 1/m2 + ...)): ``"electron+proton"``, ``"muon+proton"``,
-        ``"electron+positron"``.  A term may itself be a number in electron
-        masses (``"1+1836.15"``).  Known particles: see :data:`PARTICLES`
-        (masses from CODATA via scipy.constants).
+        A positive finite number in the system's mass unit (electron masses in
+        atomic units, MeV/c^2 in nuclear units), or a string of one or more
+        terms joined by ``+``, meaning the reduced mass 1/(1/m1 + 1/m2 + ...).
+        A term is a number in the system's unit, a number with a mass unit of
+        :data:`MASS_UNITS` -- ``u`` or ``Da`` (dalton), ``me`` (electron
+        masses), ``eV``, ``keV``, ``MeV``, ``GeV`` (each over c^2; ``/c^2``
+        may be written out) -- or a particle name of :data:`PARTICLES`.
+        Every system accepts every form: ``"0.50391u"`` in atomic units is
+        0.50391 dalton in electron masses.
+    system : {"atomic", "nuclear"}
 
     Returns
     -------
     float
-        The mass in electron masses.
+        The mass in electron masses (atomic) or MeV/c^2 (nuclear).  The
+        conversions use CODATA via scipy.constants (the dalton from
+        "electron mass in u" or "atomic mass constant energy equivalent in
+        MeV", the electron from "electron mass energy equivalent in MeV").
 
     Raises
     ------
     InputError
-        For zero, negative, NaN or infinite masses, unknown particle names
-        (listing the known ones) and empty terms.
+        (``parameter="mass"``) for zero, negative, NaN or infinite masses,
+        unknown particles (listing the known ones) or units (listing the
+        allowed ones), and empty terms.
     """
+    unit = "electron masses" if system == "atomic" else "MeV/c^2"
     if not isinstance(value, str):
-        mass = _finite_number(value, "mass")
+        mass = _finite_number(value, "mass", "mass")
         if mass <= 0:
-            raise InputError(f"mass must be positive (electron masses), got {value!r}")
+            raise InputError(f"mass must be positive ({unit}), got {value!r}", parameter="mass")
         return mass
 
-    terms = [t.strip() for t in value.split("+")]
-    if len(terms) > 1 and terms[0] == "" and re.fullmatch(_NUMBER, value.strip()):
-        terms = [value.strip()]  # "+3" is a signed number, not an empty term
+    text = _normalize(value)
+    # Split at '+' between terms, not at the sign of an exponent ("1e+5u").
+    terms = [t.strip() for t in re.split(r"(?<![0-9.][eE])\+", text)]
+    if len(terms) > 1 and terms[0] == "" and _MASS_TERM_RE.match(text[1:].strip()) and len(terms) == 2:
+        terms = [text]  # "+3" is a signed number, not an empty term
     where = f" in {value!r}" if len(terms) > 1 else ""
+    factors = _mass_unit_factors(system)
     masses = []
     for term in terms:
         if not term:
-            raise InputError(
-                f"mass: empty term in {value!r}; write particle names or numbers joined by '+', "
-                "e.g. 'electron+proton'"
-            )
-        if re.fullmatch(_NUMBER, term):
-            m = float(term)
-            if not (m > 0 and math.isfinite(m)):
-                raise InputError(f"mass must be a positive finite number, got {term!r}{where}")
-            masses.append(m)
-        elif term.lower() in ("nan", "inf", "+inf", "-inf", "infinity"):
-            raise InputError(f"mass must be a positive finite number, got {term!r}{where}")
-        else:
-            masses.append(particle_mass(term))
+            raise InputError(f"mass: empty term in {value!r}; write particle names or masses joined "
+                             "by '+', e.g. 'electron+proton' or 'neutron+207u'", parameter="mass")
+        if term.lower() in _NOT_FINITE:
+            raise InputError(f"mass must be a positive finite number, got {term!r}{where}",
+                             parameter="mass")
+        match = _MASS_TERM_RE.match(term)
+        if match is None:
+            masses.append(_particle_mass_in(term, system))
+            continue
+        number, suffix = float(match.group(1)), match.group(2)
+        factor = 1.0
+        if suffix:
+            canonical = _canonical_mass_unit(suffix)
+            if canonical is None:
+                hint = (" (MeV is written with a capital M and V: mega-electronvolt)"
+                        if suffix.strip().lower().startswith("mev") else "")
+                raise InputError(f"mass: cannot read {term!r}{where}: unknown mass unit {suffix!r}{hint}; "
+                                 f"a mass is {mass_syntax(system)}", parameter="mass")
+            factor = factors[canonical]
+        m = number * factor
+        if not (m > 0 and math.isfinite(m)):
+            raise InputError(f"mass must be a positive finite number, got {term!r}{where}",
+                             parameter="mass")
+        masses.append(m)
     return masses[0] if len(masses) == 1 else reduced_mass(*masses)
+
+
+def parse_mass(value: object) -> float:
+    """Parse a (reduced) mass into electron masses: :func:`parse_mass_in` in atomic units.
+
+    ``2``, ``"muon"``, ``"electron+proton"`` (the reduced mass), ``"0.50391u"``
+    (daltons), ``"105.66MeV"``.  Known particles: see :data:`PARTICLES`
+    (masses from CODATA via scipy.constants).
+    """
+    return parse_mass_in(value, "atomic")
+
+
+def parse_nuclear_mass(value: object) -> float:
+    """Parse a (reduced) mass into MeV/c^2: :func:`parse_mass_in` in nuclear units.
+
+    ``"939.5"``, ``"939.5MeV"``, ``"1.5GeV"``, ``"207u"``, ``"neutron"``,
+    ``"neutron+207u"`` (a neutron bound to a core of 207 u).
+    """
+    return parse_mass_in(value, "nuclear")
 
 
 # --- unit systems ------------------------------------------------------------
 
 UNIT_SYSTEMS = ("atomic", "nuclear")
+
+#: The reduced masses a solve accepts, in each system's mass unit.
+MASS_RANGE = {"atomic": (1e-6, 1e10), "nuclear": (1e-3, 1e8)}
 
 
 @dataclass(frozen=True)
@@ -469,24 +588,26 @@ class UnitSystem:
         return energy_unit_factor(self.energy_unit)
 
     def parse_mass(self, value: object) -> float:
-        """A reduced mass in ``mass_unit``: a number, or particles joined by '+'.
+        """The reduced mass a solve in this system uses, in ``mass_unit``.
 
-        None means the system's default: one electron mass in atomic units;
-        nuclear units have no default (an InputError says so).
-
-        In nuclear units a term may also be a number with the suffix ``u``
-        (unified atomic mass units, ``"56u"``) or ``MeV`` (``"939MeV"``);
-        see :func:`parse_nuclear_mass`.
+        The one check of a mass: parsed by :func:`parse_mass_in` (numbers,
+        ``u``/``Da``/``me``/``MeV``/... suffixes, particles joined by '+'), and
+        inside :data:`MASS_RANGE`.  None means the system's default: one
+        electron mass in atomic units; nuclear units have no default (an
+        InputError says so).
         """
         if value is None:
             if self.name == "atomic":
                 return 1.0  # the electron, the natural default of atomic units
             raise InputError(f"mass is needed in {self.name} units (no default there): give it in "
                              f"{self.mass_unit}, in u, or as particles, e.g. 'neutron', '939.57MeV', "
-                             "'1u', 'proton+neutron'")
-        if self.name == "atomic":
-            return parse_mass(value)
-        return parse_nuclear_mass(value)
+                             "'1u', 'proton+neutron'", parameter="mass")
+        mass = parse_mass_in(value, self.name)
+        low, high = MASS_RANGE[self.name]
+        if not low <= mass <= high:
+            raise InputError(f"mass {mass:.6g} {self.mass_unit} is outside the range solved here, "
+                             f"{low:g} to {high:g} {self.mass_unit}", parameter="mass")
+        return mass
 
     def kinetic_mass(self, mass: float) -> float:
         """The m of -1/(2 m) u'' in this system's units for reduced mass ``mass``."""
@@ -498,14 +619,6 @@ class UnitSystem:
         return float(mass) / hbar_c_MeV_fm**2
 
 
-def _looks_numeric(text: str) -> bool:
-    try:
-        float(text)
-    except ValueError:
-        return False
-    return True
-
-
 def unit_system(name: str | None) -> UnitSystem:
     """The :class:`UnitSystem` called ``name`` (``"atomic"`` when None)."""
     key = "atomic" if name is None else str(name).strip().lower()
@@ -513,70 +626,25 @@ def unit_system(name: str | None) -> UnitSystem:
         return UnitSystem("atomic", "hartree", "bohr", "electron masses")
     if key == "nuclear":
         return UnitSystem("nuclear", "MeV", "fm", "MeV/c^2")
-    raise InputError(f"unknown unit system {name!r}; allowed: {', '.join(UNIT_SYSTEMS)}")
+    raise InputError(f"unknown unit system {name!r}; allowed: {', '.join(UNIT_SYSTEMS)}",
+                     parameter="units")
 
 
-_NUCLEAR_MASS_TERM_RE = re.compile(rf"^({_NUMBER})\s*(u|MeV|MeV/c\^?2|GeV|GeV/c\^?2)?$")
+def family_unit_system(family, units: str | None = None) -> UnitSystem:
+    """The unit system a solve of ``family`` works in: its own, which ``units`` may name.
 
-
-def parse_nuclear_mass(value: object) -> float:
-    """Parse a (reduced) mass into MeV/c^2.
-
-    Parameters
-    ----------
-    value : float or str
-        A positive number of MeV/c^2, or a string of one or more terms
-        joined by ``+`` meaning the reduced mass 1/(1/m1 + 1/m2 + ...).  A
-        term is a number of MeV/c^2 (``"939.5"``, ``"939.5MeV"``), of GeV/c^2
-        (``"1.5GeV"``), of unified atomic mass units (``"207u"``), or a
-        particle name (see :data:`PARTICLES`).  So ``"neutron+207u"`` is a
-        neutron bound to a core of 207 u.  The masses come from CODATA via
-        scipy.constants (the u from "atomic mass constant energy
-        equivalent in MeV").
-
-    Returns
-    -------
-    float
-        The mass in MeV/c^2.
-
-    Raises
-    ------
-    InputError
-        For zero, negative, NaN or infinite masses, unknown particle names
-        or units, and empty terms.
+    The one check of ``units`` (solve, sweep, threshold, fit): a family is
+    solved in the system it is written in (``family.units`` or its module's
+    ``UNITS``), and any other is an InputError (``parameter="units"``).
     """
-    from scipy.constants import physical_constants as pc
-
-    if not isinstance(value, str):
-        mass = _finite_number(value, "mass")
-        if mass <= 0:
-            raise InputError(f"mass must be > 0 MeV/c^2 (got {value!r})")
-        return mass
-    text = _normalize(value)
-    terms = [t.strip() for t in text.split("+")]
-    if len(terms) > 1 and terms[0] == "" and _NUCLEAR_MASS_TERM_RE.match(text[1:].strip()):
-        terms = [text]  # "+3" is a signed number, not an empty term
-    where = f" in {value!r}" if len(terms) > 1 else ""
-    electron = pc["electron mass energy equivalent in MeV"][0]
-    per_unit = {"u": pc["atomic mass constant energy equivalent in MeV"][0], "GeV": 1e3}
-    masses = []
-    for term in terms:
-        if not term:
-            raise InputError(f"mass: empty term in {value!r}; write particle names or masses "
-                             "joined by '+', e.g. 'neutron+207u'")
-        match = _NUCLEAR_MASS_TERM_RE.match(term)
-        if match is not None:
-            unit = (match.group(2) or "MeV").split("/")[0]
-            m = float(match.group(1)) * per_unit.get(unit, 1.0)
-            if not (m > 0 and math.isfinite(m)):
-                raise InputError(f"mass must be a positive finite number, got {term!r}{where}")
-            masses.append(m)
-        elif term.lower() in ("nan", "inf", "+inf", "-inf", "infinity"):
-            raise InputError(f"mass must be a positive finite number, got {term!r}{where}")
-        elif re.match(_NUMBER, term):
-            raise InputError(f"mass: cannot read {term!r}{where}; a mass in nuclear units is a "
-                             "number of MeV/c^2, a number with u, MeV or GeV (e.g. 207u), "
-                             "or a particle name")
-        else:
-            masses.append(particle_mass(term) * electron)
-    return masses[0] if len(masses) == 1 else reduced_mass(*masses)
+    declared = getattr(family, "units", None)
+    if declared is None:
+        declared = getattr(getattr(family, "module", None), "UNITS", None)
+    declared = "atomic" if declared is None else str(declared).lower()
+    system = unit_system(declared if units is None else units)
+    if system.name != declared:
+        name = getattr(family, "name", family)
+        raise InputError(f"units {system.name}: potential {name!r} is written in {declared} units, and "
+                         f"another unit system is not supported for it; allowed for it: {declared}",
+                         parameter="units")
+    return system

@@ -41,6 +41,9 @@ DOUBLE_PRECISION_FLOOR = 1e-14
 DEFAULT_CHARGES = (1, 2, 10, 92)
 DEFAULT_MASSES = (1.0, "electron+proton", "muon+proton")
 DEFAULT_METHODS = tuple(METHODS)  # every registered method
+#: The full set of cases and the reduced one of ``check(quick=True)``.
+FULL_SET = {"charges": DEFAULT_CHARGES, "masses": DEFAULT_MASSES, "nmax": 10}
+QUICK_SET = {"charges": (1, 92), "masses": (1.0,), "nmax": 4}
 
 
 def exact_coulomb_energy(n: int, Z: float, mass: float) -> float:
@@ -239,20 +242,23 @@ def _coulomb(Z: float):
 
 
 def check(tol: float = 1e-10, *,
-          charges: Sequence[float] = DEFAULT_CHARGES,
-          masses: Sequence[float | str] = DEFAULT_MASSES,
-          nmax: int = 10,
+          charges: Sequence[float] | None = None,
+          masses: Sequence[float | str] | None = None,
+          nmax: int | None = None,
           methods: Sequence[str] = DEFAULT_METHODS,
-          progress: Callable[[str], None] | None = None) -> CheckReport:
+          progress: Callable[[str], None] | None = None,
+          quick: bool = False) -> CheckReport:
     """Solve -Z/r for each charge, mass and method and compare with exact levels.
 
     Parameters
     ----------
     tol : float
         Relative tolerance asked of the solver and used to judge each level,
-        0 < tol < 1.
+        0 < tol < 1 (:data:`radsolve.core.targets.JUDGED_TOL_RANGE`).
     charges : sequence of float
-        Nuclear charges Z (positive).
+        Nuclear charges Z (positive).  Default: :data:`DEFAULT_CHARGES`, or
+        those of :data:`QUICK_SET` with ``quick``; likewise ``masses`` and
+        ``nmax``.
     masses : sequence of float or str
         Reduced masses in electron masses, or particle expressions such as
         ``"electron+proton"`` (see :func:`radsolve.units.parse_mass`).
@@ -263,6 +269,9 @@ def check(tol: float = 1e-10, *,
         Numerical methods, each solved and judged separately.
     progress : callable, optional
         Called with a short text before each (Z, μ, method) case.
+    quick : bool
+        The reduced set :data:`QUICK_SET` (a fast smoke run) for every one
+        of ``charges``, ``masses``, ``nmax`` not given.
 
     Returns
     -------
@@ -278,22 +287,27 @@ def check(tol: float = 1e-10, *,
     from radsolve.core.spectrum import solve
     from radsolve.units import parse_mass
 
+    from radsolve.core.targets import JUDGED_TOL_RANGE, validated_tol
+
     # The tolerance judged: any 0 < tol < 1 may be asked; one the solver refuses
     # (below 1e-14, say) makes the check fail with the solver's reason.
-    if isinstance(tol, bool) or not (isinstance(tol, (int, float)) and 0.0 < tol < 1.0):
-        raise InputError(f"check: tol must be a number with 0 < tol < 1, got {tol!r}")
-    if int(nmax) != nmax or nmax < 1:
-        raise InputError(f"check: nmax must be a whole number >= 1, got {nmax!r}")
+    tol = validated_tol(tol, "tol", JUDGED_TOL_RANGE)
+    preset = QUICK_SET if quick else FULL_SET
+    charges = preset["charges"] if charges is None else charges
+    masses = preset["masses"] if masses is None else masses
+    nmax = preset["nmax"] if nmax is None else nmax
+    if isinstance(nmax, bool) or int(nmax) != nmax or nmax < 1:
+        raise InputError(f"nmax must be a whole number >= 1, got {nmax!r}", parameter="nmax")
     nmax = int(nmax)
     methods = tuple(methods)
     if not methods:
-        raise InputError("check: at least one method is needed")
+        raise InputError("methods: at least one method is needed", parameter="methods")
 
     rows: list[CheckRow] = []
     failures: list[str] = []
     for Z in charges:
         if not Z > 0:
-            raise InputError(f"check: charges must be positive, got {Z!r}")
+            raise InputError(f"charges must be positive, got {Z!r}", parameter="charges")
         pot = _coulomb(Z)
         for mass_spec in masses:
             mu = parse_mass(mass_spec)

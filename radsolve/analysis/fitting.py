@@ -113,9 +113,9 @@ def _number(text: str, column: str, where: str) -> float:
     try:
         value = float(text)
     except (TypeError, ValueError):
-        raise InputError(f"{where}: {column} {text!r} is not a number") from None
+        raise InputError(f"{where}: {column} {text!r} is not a number", parameter="targets") from None
     if not math.isfinite(value):
-        raise InputError(f"{where}: {column} {text!r} must be a finite number")
+        raise InputError(f"{where}: {column} {text!r} must be a finite number", parameter="targets")
     return value
 
 
@@ -123,20 +123,22 @@ def _make_target(label, energy, uncertainty, unit, where: str, units: str = "ato
     from radsolve.units import energy_unit_factor
 
     if not isinstance(label, str) or not label.strip():
-        raise InputError(f"{where}: the label is empty; give a level label such as 1s or 2p")
-    key = parse_level(label.strip(), units, f"{where}: label")
+        raise InputError(f"{where}: the label is empty; give a level label such as 1s or 2p",
+                         parameter="targets")
+    key = parse_level(label.strip(), units, f"{where}: label", parameter="targets")
     energy = _number(energy, "energy", where) if isinstance(energy, str) else energy
     uncertainty = _number(uncertainty, "uncertainty", where) if isinstance(uncertainty, str) else uncertainty
     for column, value in (("energy", energy), ("uncertainty", uncertainty)):
         if isinstance(value, bool) or not isinstance(value, (int, float, np.floating, np.integer)) \
                 or not math.isfinite(float(value)):
-            raise InputError(f"{where}: {column} must be a finite number, got {value!r}")
+            raise InputError(f"{where}: {column} must be a finite number, got {value!r}", parameter="targets")
     try:
         factor = energy_unit_factor(str(unit).strip())
     except RadsolveError as exc:
-        raise InputError(f"{where}: {exc}") from None
+        raise InputError(f"{where}: {exc}", parameter="targets") from None
     if not float(uncertainty) > 0:
-        raise InputError(f"{where}: uncertainty must be > 0 (one standard deviation), got {uncertainty!r}")
+        raise InputError(f"{where}: uncertainty must be > 0 (one standard deviation), got {uncertainty!r}",
+                         parameter="targets")
     return Target(key.label, key.n, key.l, key.nodes, float(energy) * factor, float(uncertainty) * factor,
                   where, key.j, units)
 
@@ -158,35 +160,36 @@ def read_targets(path: str | os.PathLike, units: str = "atomic") -> list[Target]
     try:
         text = path.read_text(encoding="utf-8-sig")
     except FileNotFoundError:
-        raise InputError(f"targets file {name!r} does not exist") from None
+        raise InputError(f"targets file {name!r} does not exist", parameter="targets") from None
     except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"targets file {name!r} cannot be read: {exc}") from None
+        raise InputError(f"targets file {name!r} cannot be read: {exc}", parameter="targets") from None
     lines = [(i + 1, line) for i, line in enumerate(text.splitlines())
              if line.strip() and not line.lstrip().startswith("#")]
     if not lines:
         raise InputError(f"targets file {name!r} is empty; it needs a header row "
-                         f"({','.join(TARGET_COLUMNS)}) and one row per level")
+                         f"({','.join(TARGET_COLUMNS)}) and one row per level", parameter="targets")
     rows = list(csv.reader([line for _, line in lines]))
     header = [cell.strip().lower() for cell in rows[0]]
     missing = [c for c in TARGET_COLUMNS if c not in header]
     if missing:
         raise InputError(f"targets file {name!r}, line {lines[0][0]}: missing column(s) "
                          f"{', '.join(missing)}; the header must name {', '.join(TARGET_COLUMNS)} "
-                         f"(found: {', '.join(h for h in header if h) or 'nothing'})")
+                         f"(found: {', '.join(h for h in header if h) or 'nothing'})", parameter="targets")
     where_col = {c: header.index(c) for c in TARGET_COLUMNS}
     targets: list[Target] = []
     for (lineno, _), cells in zip(lines[1:], rows[1:]):
         where = f"targets file {name!r}, line {lineno}"
         if len(cells) < len(header):
-            raise InputError(f"{where}: {len(cells)} cells, but the header has {len(header)} columns")
+            raise InputError(f"{where}: {len(cells)} cells, but the header has {len(header)} columns",
+                             parameter="targets")
         values = {c: cells[i].strip() for c, i in where_col.items()}
         for c in TARGET_COLUMNS:
             if not values[c]:
-                raise InputError(f"{where}: the {c} cell is empty")
+                raise InputError(f"{where}: the {c} cell is empty", parameter="targets")
         targets.append(_make_target(values["label"], values["energy"], values["uncertainty"],
                                     values["unit"], where, units))
     if not targets:
-        raise InputError(f"targets file {name!r} has a header but no rows")
+        raise InputError(f"targets file {name!r} has a header but no rows", parameter="targets")
     _check_unique(targets)
     return targets
 
@@ -196,7 +199,7 @@ def _check_unique(targets: Sequence[Target]) -> None:
     for t in targets:
         if t.label in seen:
             raise InputError(f"target {t.label} is given twice ({seen[t.label].source or 'first'} and "
-                             f"{t.source or 'again'}); give each level once")
+                             f"{t.source or 'again'}); give each level once", parameter="targets")
         seen[t.label] = t
 
 
@@ -210,7 +213,8 @@ def as_targets(targets, units: str = "atomic") -> list[Target]:
     if isinstance(targets, (str, os.PathLike)):
         return read_targets(targets, units)
     if not isinstance(targets, Sequence) or isinstance(targets, (bytes,)):
-        raise InputError("targets must be a CSV file path or a list of (label, energy, uncertainty[, unit])")
+        raise InputError("targets must be a CSV file path or a list of (label, energy, uncertainty[, unit])",
+                         parameter="targets")
     out: list[Target] = []
     for i, item in enumerate(targets):
         where = f"targets[{i}]"
@@ -219,15 +223,16 @@ def as_targets(targets, units: str = "atomic") -> list[Target]:
         elif isinstance(item, Mapping):
             missing = [c for c in ("label", "energy", "uncertainty") if c not in item]
             if missing:
-                raise InputError(f"{where}: missing key(s) {', '.join(missing)}")
+                raise InputError(f"{where}: missing key(s) {', '.join(missing)}", parameter="targets")
             out.append(_make_target(item["label"], item["energy"], item["uncertainty"],
                                     item.get("unit", "hartree"), where, units))
         elif isinstance(item, (tuple, list)) and len(item) in (3, 4):
             out.append(_make_target(*item[:3], item[3] if len(item) == 4 else "hartree", where, units))
         else:
-            raise InputError(f"{where}: expected (label, energy, uncertainty[, unit]) or a dict, got {item!r}")
+            raise InputError(f"{where}: expected (label, energy, uncertainty[, unit]) or a dict, got {item!r}",
+                             parameter="targets")
     if not out:
-        raise InputError("targets: at least one target level is needed")
+        raise InputError("targets: at least one target level is needed", parameter="targets")
     _check_unique(out)
     return out
 
@@ -409,19 +414,20 @@ def _free_and_bounds(family, free, bounds) -> tuple[list[str], dict[str, tuple[f
         free = list(free)
     free = list(free or [])
     if not free:
-        raise InputError("free: name at least one parameter to fit")
+        raise InputError("free: name at least one parameter to fit", parameter="free")
     if len(set(free)) != len(free):
-        raise InputError(f"free: a parameter is named twice ({', '.join(free)})")
+        raise InputError(f"free: a parameter is named twice ({', '.join(free)})", parameter="free")
     limits: dict[str, tuple[float, float]] = {}
     for key in free:
         if key not in family.parameters:
             near = difflib.get_close_matches(key, list(family.parameters), n=1)
             hint = f" (did you mean {near[0]!r}?)" if near else ""
             raise InputError(f"free parameter {key!r}: potential {family.name!r} has no such parameter{hint}; "
-                             f"its parameters: {', '.join(family.parameters) or 'none'}")
+                             f"its parameters: {', '.join(family.parameters) or 'none'}", parameter="free")
         spec = family.parameters[key]
         if not spec.is_numeric:
-            raise InputError(f"free parameter {key!r} is a {spec.kind}, not a number; it cannot be fitted")
+            raise InputError(f"free parameter {key!r} is a {spec.kind}, not a number; it cannot be fitted",
+                             parameter="free")
         lo = -math.inf if spec.minimum is None else float(spec.minimum)
         hi = math.inf if spec.maximum is None else float(spec.maximum)
         # Keep clear of an excluded end (a length > 0, say): the potential cannot be built there.
@@ -432,21 +438,24 @@ def _free_and_bounds(family, free, bounds) -> tuple[list[str], dict[str, tuple[f
         given = (bounds or {}).get(key)
         if given is not None:
             if isinstance(given, str) or len(given) != 2:
-                raise InputError(f"bounds[{key!r}] must be (low, high) with None for no bound, got {given!r}")
+                raise InputError(f"bounds[{key!r}] must be (low, high) with None for no bound, got {given!r}",
+                                 parameter="bounds")
             g_lo = lo if given[0] is None else spec.parse(given[0], key, family.name)
             g_hi = hi if given[1] is None else spec.parse(given[1], key, family.name)
             if not g_lo < g_hi:
-                raise InputError(f"bounds of {key!r}: the low bound {g_lo:g} must be below the high bound {g_hi:g}")
+                raise InputError(f"bounds of {key!r}: the low bound {g_lo:g} must be below the high bound {g_hi:g}",
+                                 parameter="bounds")
             lo, hi = max(lo, g_lo), min(hi, g_hi)
         limits[key] = (lo, hi)
     for key in bounds or {}:
         if key not in free:
-            raise InputError(f"bounds given for {key!r}, which is not a free parameter ({', '.join(free)})")
+            raise InputError(f"bounds given for {key!r}, which is not a free parameter ({', '.join(free)})",
+                             parameter="bounds")
     return free, limits
 
 
 def parse_free(text: str) -> tuple[str, tuple[str | None, str | None] | None]:
-    """Read one ``--free`` item: ``KEY``, ``KEY:LO:HI``, ``KEY:LO:`` or ``KEY::HI``.
+    """Read one free-parameter item: ``KEY``, ``KEY:LO:HI``, ``KEY:LO:`` or ``KEY::HI``.
 
     The bounds stay text (they may carry units); they are read against the
     parameter's kind by :func:`fit`.
@@ -458,12 +467,13 @@ def parse_free(text: str) -> tuple[str, tuple[str | None, str | None] | None]:
     """
     parts = [p.strip() for p in text.split(":")]
     if not parts[0]:
-        raise InputError(f"--free {text!r}: the parameter name is missing; expected KEY or KEY:LO:HI")
+        raise InputError(f"free {text!r}: the parameter name is missing; expected KEY or KEY:LO:HI",
+                         parameter="free")
     if len(parts) == 1:
         return parts[0], None
     if len(parts) != 3:
-        raise InputError(f"--free {text!r}: expected KEY or KEY:LO:HI (LO or HI may be left empty "
-                         "for no bound), e.g. screening_length:0.5:20")
+        raise InputError(f"free {text!r}: expected KEY or KEY:LO:HI (LO or HI may be left empty "
+                         "for no bound), e.g. screening_length:0.5:20", parameter="free")
     return parts[0], (parts[1] or None, parts[2] or None)
 
 
@@ -491,6 +501,8 @@ class _Model:
             try:
                 result = solve(pot, l=self.ls, count=self.count, **self.options)
             except RadsolveError as exc:
+                if isinstance(exc, InputError) and exc.parameter is not None and exc.family is None:
+                    raise  # about an argument (tol, dimension, ...), the same at every point
                 point = ", ".join(f"{k} = {v:.10g}" for k, v in zip(self.free, key))
                 raise type(exc)(f"fit at {point}: {exc}") from None
             self.evaluations += 1
@@ -610,24 +622,24 @@ def fit(potential, targets, *, free, bounds=None, fixed=None, mass=None, tol: fl
     from scipy.optimize import least_squares
 
     from radsolve.potentials import as_potential
-    from radsolve.units import unit_system
+    from radsolve.units import family_unit_system
 
     base = as_potential(potential, plugins, fixed)
     family = base.family
     free, limits = _free_and_bounds(family, free, bounds)
-    declared = getattr(family, "units", "atomic")
-    system = unit_system(declared if units is None else units)
+    system = family_unit_system(family, units)
     mass = system.parse_mass(mass)
     target_list = as_targets(targets, system.name)
     with_j = {t.j is not None for t in target_list}
     if len(with_j) > 1:
-        raise InputError("targets: give j for every target (as in 1p3/2) or for none")
+        raise InputError("targets: give j for every target (as in 1p3/2) or for none", parameter="targets")
     spin_orbit = with_j == {True}
     if len(target_list) < len(free):
         raise InputError(f"{len(target_list)} target level(s) cannot determine {len(free)} free parameters; "
                          "give at least as many targets as free parameters")
     if isinstance(max_evaluations, bool) or not isinstance(max_evaluations, int) or max_evaluations < 1:
-        raise InputError(f"max_evaluations must be a whole number >= 1, got {max_evaluations!r}")
+        raise InputError(f"max_evaluations must be a whole number >= 1, got {max_evaluations!r}",
+                         parameter="max_evaluations")
     x0 = np.array([float(base.parameters[k]) for k in free])
     lo = np.array([limits[k][0] for k in free])
     hi = np.array([limits[k][1] for k in free])

@@ -198,7 +198,7 @@ def _rounding(method: str, size: int) -> float:
 
 def _check_positive_int(value, name: str) -> int:
     if isinstance(value, bool) or not isinstance(value, (int, np.integer)):
-        raise InputError(f"{name} must be a whole number, got {value!r}")
+        raise InputError(f"{name} must be a whole number, got {value!r}", parameter=name)
     return int(value)
 
 
@@ -413,14 +413,15 @@ class State(ResultProtocol):
             For k that is not a finite real number, or for which ⟨r**k⟩ diverges.
         """
         if isinstance(k, bool) or not isinstance(k, numbers.Real) or not math.isfinite(float(k)):
-            raise InputError(f"k must be a finite real number, got {k!r}")
+            raise InputError(f"k must be a finite real number, got {k!r}", parameter="k")
         k = float(k)
         limit = -(2.0 * self.origin_exponent + 1.0)
         if k <= limit + 1e-12:
             lam = self.origin_exponent
             raise InputError(
                 f"<r^{k:g}> diverges for the {self.label} level: u ~ r^{lam:g} at the origin, so "
-                f"u^2 r^k ~ r^{2 * lam + k:g} is not integrable at r = 0; allowed: k > {limit:g}"
+                f"u^2 r^k ~ r^{2 * lam + k:g} is not integrable at r = 0; allowed: k > {limit:g}",
+                parameter="k",
             )
         unit = "" if k == 0 else (f"bohr^{k:g}" if k != 1 else "bohr")
         return self._integral(lambda g, i: g.u**2 * g.r**k, self._moment_beta(k), unit)
@@ -491,9 +492,9 @@ class State(ResultProtocol):
         """P(r < radius) = ∫_0^radius u² dr for a radius in bohr (or a length string)."""
         from radsolve.units import parse_quantity
 
-        radius = parse_quantity(radius, "length", name="radius")
+        radius = parse_quantity(radius, "length", name="radius", parameter="radius")
         if not radius > 0:
-            raise InputError(f"radius must be > 0 bohr, got {radius!r}")
+            raise InputError(f"radius must be > 0 bohr, got {radius!r}", parameter="radius")
         lam = self.origin_exponent
         beta = 2.0 * lam + 1.0
         values = []
@@ -579,7 +580,8 @@ class State(ResultProtocol):
             an unknown method.
         """
         if method not in ("auto", "sum_rule", "fit"):
-            raise InputError(f"unknown contact-density method {method!r}; allowed: auto, sum_rule, fit")
+            raise InputError(f"unknown contact-density method {method!r}; allowed: auto, sum_rule, fit",
+                             parameter="method")
         lam = self.origin_exponent
         if abs(lam - 1.0) > 1e-12:
             if lam < 1.0:
@@ -612,7 +614,7 @@ class State(ResultProtocol):
                 fits += [float(P.fit(r, R, deg, w=r / r[-1])(0.0)) for deg in (4, 5)]
             if not fits:
                 raise InputError(f"too few grid points near the origin to extrapolate R(0) "
-                                 f"for the {self.label} level; use method='sum_rule'")
+                                 f"for the {self.label} level; use method='sum_rule'", parameter="method")
             values.append(fits[1] if len(fits) > 1 else fits[0])
             # the spread over fit degrees and windows (doubled) gauges the fit's own error
             fit_spread = 2.0 * (max(fits) - min(fits))
@@ -745,11 +747,11 @@ class State(ResultProtocol):
         numeric = [k for k, s in specs.items() if s.is_numeric]
         if parameter not in specs:
             raise InputError(f"potential {self.potential.name!r} has no parameter {parameter!r}; "
-                             f"its numeric parameters: {', '.join(numeric) or 'none'}")
+                             f"its numeric parameters: {', '.join(numeric) or 'none'}", parameter="parameter")
         spec = specs[parameter]
         if not spec.is_numeric:
             raise InputError(f"parameter {parameter!r} of {self.potential.name} is not a number; "
-                             f"numeric parameters: {', '.join(numeric) or 'none'}")
+                             f"numeric parameters: {', '.join(numeric) or 'none'}", parameter="parameter")
         p0 = float(self.potential.parameters[parameter])
         step = relative_step * abs(p0) if p0 != 0 else relative_step
 
@@ -764,7 +766,8 @@ class State(ResultProtocol):
             step /= 2.0
             if step < 1e-6 * max(abs(p0), 1e-300):
                 raise InputError(f"parameter {parameter!r} = {p0:g} is at the edge of its allowed "
-                                 f"range ({spec.range_text()}); it cannot be varied both ways")
+                                 f"range ({spec.range_text()}); it cannot be varied both ways",
+                                 parameter="parameter")
         lev = self.level
         j = getattr(lev, "j", None)
         extra = {"spin_orbit": True} if j is not None else {}
@@ -992,9 +995,10 @@ def state(potential, n: int, l: int, *, mass=None, tol: float = 1e-10, method: s
     n = _check_positive_int(n, "n")
     l = _check_positive_int(l, "l")
     if l < 0:
-        raise InputError(f"l must be >= 0, got {l}")
+        raise InputError(f"l must be >= 0, got {l}", parameter="l")
     if n < l + 1:
-        raise InputError(f"no level with n = {n} and l = {l}: n must be at least l + 1 = {l + 1}")
+        raise InputError(f"no level with n = {n} and l = {l}: n must be at least l + 1 = {l + 1}",
+                         parameter="n")
     result = solve(potential, l=l, count=n - l, mass=mass, tol=tol, method=method, plugins=plugins)
     label = level_label(n, l)
     for lev in result.levels:

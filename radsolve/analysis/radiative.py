@@ -413,11 +413,19 @@ def radial_dipole(state_a, state_b) -> Estimate:
 
 def _check_nmax(nmax) -> int:
     if isinstance(nmax, bool) or not isinstance(nmax, (int, np.integer)):
-        raise InputError(f"nmax must be a whole number from 1 to {NMAX_LIMIT}, got {nmax!r}")
+        raise InputError(f"nmax must be a whole number from 1 to {NMAX_LIMIT}, got {nmax!r}",
+                         parameter="nmax")
     if not 1 <= nmax <= NMAX_LIMIT:
         raise InputError(f"nmax must be from 1 to {NMAX_LIMIT} (every level's wavefunction on "
-                         f"every grid is kept in memory), got {nmax}")
+                         f"every grid is kept in memory), got {nmax}", parameter="nmax")
     return int(nmax)
+
+
+def _check_dipole_charge(dipole_charge) -> None:
+    if not (isinstance(dipole_charge, (int, float)) and not isinstance(dipole_charge, bool)
+            and math.isfinite(dipole_charge) and dipole_charge > 0):
+        raise InputError(f"dipole_charge must be a positive number, got {dipole_charge!r}",
+                         parameter="dipole_charge")
 
 
 def _degenerate(a, b) -> bool:
@@ -434,7 +442,8 @@ def _occupied_labels(occupied) -> list[str]:
     labels = []
     for item in occupied:
         if not isinstance(item, str) or not item.strip():
-            raise InputError(f"occupied must be level labels such as '1s', got {item!r}")
+            raise InputError(f"occupied must be level labels such as '1s', got {item!r}",
+                             parameter="occupied")
         labels.append(item.strip())
     return labels
 
@@ -460,9 +469,7 @@ def transitions_from(result, nmax: int | None = None, *, dipole_charge: float = 
     """
     from radsolve.core import probe
 
-    if not (isinstance(dipole_charge, (int, float)) and not isinstance(dipole_charge, bool)
-            and math.isfinite(dipole_charge) and dipole_charge > 0):
-        raise InputError(f"dipole_charge must be a positive number, got {dipole_charge!r}")
+    _check_dipole_charge(dipole_charge)
     check_atomic_3d(result, "radiative transitions")
     levels = list(result.levels)
     if not levels:
@@ -478,10 +485,10 @@ def transitions_from(result, nmax: int | None = None, *, dipole_charge: float = 
     unknown = [x for x in filled if x not in known]
     if unknown:
         raise InputError(f"occupied: no computed level {unknown[0]!r}; computed levels: "
-                         + ", ".join(lev.label for lev in levels))
+                         + ", ".join(lev.label for lev in levels), parameter="occupied")
     levels = [lev for lev in levels if lev.label not in filled]
     if not levels:
-        raise InputError("occupied: every computed level is marked occupied")
+        raise InputError("occupied: every computed level is marked occupied", parameter="occupied")
     profiles: dict[int, Any] = {}
     for lev in levels:
         if lev.l not in profiles:
@@ -648,6 +655,8 @@ def transitions(potential, nmax: int, *, mass=None, tol: float = 1e-10, method: 
     from radsolve.core.spectrum import solve
 
     nmax = _check_nmax(nmax)
+    _check_dipole_charge(dipole_charge)  # before anything is solved
+    _occupied_labels(occupied)
     count = nmax
     for attempt in range(3):
         result = solve(potential, l=list(range(nmax)), count=count, mass=mass, tol=tol,

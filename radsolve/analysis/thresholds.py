@@ -60,6 +60,11 @@ MODEL_NOTE = ("model calculation: a critical parameter value of a model potentia
               "ionization or binding condition of a real system; for diagnostics or safety work, "
               "use established data and practice.")
 
+#: The level a threshold is found for unless another is named.
+DEFAULT_LEVEL = "1s"
+#: Largest ``nmax`` of :func:`critical_values`.
+NMAX_LIMIT = 30
+
 #: Step in x of the coarsest grid.
 COARSE_STEP = 0.04
 #: At most this many halvings of COARSE_STEP.
@@ -94,12 +99,16 @@ class LevelKey:
     label: str
 
 
-def parse_level(label: str, units: str = "atomic", what: str = "level") -> LevelKey:
+def parse_level(label: str, units: str = "atomic", what: str = "level",
+                parameter: str | None = None) -> LevelKey:
     """Read a level label: ``"1s"``, ``"2p"``, ``"25[l=23]"``, with j: ``"1p3/2"``.
 
     The letters are s p d f g h i k l m n o q r t u v w x y z (j skipped).  In
     atomic units n = nodes + l + 1 (``2p`` has no node); in nuclear units, as
     is usual there, n = nodes + 1 (``1p3/2`` has no node).
+
+    ``what`` names the label in messages; ``parameter`` is the API argument
+    it came from, set on the errors.
 
     Raises
     ------
@@ -110,7 +119,7 @@ def parse_level(label: str, units: str = "atomic", what: str = "level") -> Level
     if match is None:
         raise InputError(f"{what} {label!r} is not a level label; expected n and the letter of l, "
                          "such as 1s, 2p, 3d, optionally with j as in 1p3/2 (letters "
-                         + " ".join(SPECTROSCOPIC_LETTERS) + ")")
+                         + " ".join(SPECTROSCOPIC_LETTERS) + ")", parameter=parameter)
     n = int(match.group(1))
     if match.group(2) is not None:
         l = int(match.group(2))
@@ -118,7 +127,7 @@ def parse_level(label: str, units: str = "atomic", what: str = "level") -> Level
         letter = match.group(3).lower()
         if letter not in SPECTROSCOPIC_LETTERS:
             raise InputError(f"{what} {label!r}: {letter!r} is not an orbital letter; allowed: "
-                             + " ".join(SPECTROSCOPIC_LETTERS) + " (j is skipped)")
+                             + " ".join(SPECTROSCOPIC_LETTERS) + " (j is skipped)", parameter=parameter)
         l = SPECTROSCOPIC_LETTERS.index(letter)
     j = None
     if match.group(4) is not None:
@@ -126,15 +135,15 @@ def parse_level(label: str, units: str = "atomic", what: str = "level") -> Level
         allowed = (1,) if l == 0 else (2 * l - 1, 2 * l + 1)
         if twice not in allowed:
             raise InputError(f"{what} {label!r}: j = {twice}/2 is not allowed for l = {l}; allowed: "
-                             + ", ".join(f"{a}/2" for a in allowed))
+                             + ", ".join(f"{a}/2" for a in allowed), parameter=parameter)
         j = twice / 2.0
     if units == "nuclear":
         if n < 1:
-            raise InputError(f"{what} {label!r}: n counts from 1 (n = nodes + 1 in nuclear labels)")
+            raise InputError(f"{what} {label!r}: n counts from 1 (n = nodes + 1 in nuclear labels)", parameter=parameter)
         nodes = n - 1
     else:
         if n <= l:
-            raise InputError(f"{what} {label!r}: n must exceed l (n = {n}, l = {l}); e.g. 2p, 3d")
+            raise InputError(f"{what} {label!r}: n must exceed l (n = {n}, l = {l}); e.g. 2p, 3d", parameter=parameter)
         nodes = n - l - 1
     canonical = level_label(n, l) + ("" if j is None else f"{int(round(2 * j))}/2")
     return LevelKey(n=n, l=l, j=j, nodes=nodes, label=canonical)
@@ -576,7 +585,7 @@ def _resolve(potential, fixed, plugins, parameter):
     from radsolve.potentials import as_potential
 
     if not isinstance(parameter, str):
-        raise InputError(f"parameter must be a parameter name, got {parameter!r}")
+        raise InputError(f"parameter must be a parameter name, got {parameter!r}", parameter="parameter")
     base = as_potential(potential, plugins, fixed)
     family = base.family
     if parameter not in family.parameters:
@@ -585,11 +594,11 @@ def _resolve(potential, fixed, plugins, parameter):
         near = difflib.get_close_matches(parameter, list(family.parameters), n=1)
         hint = f" (did you mean {near[0]!r}?)" if near else ""
         raise InputError(f"potential {family.name!r} has no parameter {parameter!r}{hint}; its parameters: "
-                         + (", ".join(family.parameters) or "none"))
+                         + (", ".join(family.parameters) or "none"), parameter="parameter")
     spec = family.parameters[parameter]
     if not spec.is_numeric:
         raise InputError(f"parameter {parameter!r} of {family.name} is a {spec.kind}, not a number; "
-                         "a threshold needs a numeric parameter")
+                         "a threshold needs a numeric parameter", parameter="parameter")
     return base, spec
 
 
@@ -597,11 +606,11 @@ def _parse_bracket(bracket, spec, parameter, family_name) -> tuple[float, float]
     if bracket is None:
         return None
     if isinstance(bracket, str) or not hasattr(bracket, "__len__") or len(bracket) != 2:
-        raise InputError(f"bracket must be two values (a, b), got {bracket!r}")
+        raise InputError(f"bracket must be two values (a, b), got {bracket!r}", parameter="bracket")
     a = spec.parse(bracket[0], parameter, family_name)
     b = spec.parse(bracket[1], parameter, family_name)
     if a == b:
-        raise InputError(f"bracket ({a:g}, {b:g}) is empty; give two different values")
+        raise InputError(f"bracket ({a:g}, {b:g}) is empty; give two different values", parameter="bracket")
     return (min(a, b), max(a, b))
 
 
@@ -703,7 +712,7 @@ def _slope_on(problem: _ZeroEnergy, layout: _Layout, p_c: float, refinement: int
     return float(np.sum(weights * dv * shot.u**2) / norm)
 
 
-def threshold(potential, parameter: str, *, level: str = "1s", bracket=None, fixed=None, mass=None,
+def threshold(potential, parameter: str, *, level: str = DEFAULT_LEVEL, bracket=None, fixed=None, mass=None,
               tol: float = 1e-9, plugins=None, units: str | None = None, dimension: int = 3) -> ThresholdResult:
     """The parameter value at which ``level`` reaches the continuum threshold E = V(inf).
 
@@ -747,26 +756,22 @@ def threshold(potential, parameter: str, *, level: str = "1s", bracket=None, fix
         Unknown or non-numeric parameter, bad label, a bracket that does not
         bracket the threshold (the message gives the bound counts at its ends).
     """
-    from radsolve.units import unit_system
+    from radsolve.core.inputs import validated_dimension
+    from radsolve.units import family_unit_system
 
     base, spec = _resolve(potential, fixed, plugins, parameter)
     family = base.family
-    declared = getattr(family, "units", "atomic")
-    system = unit_system(declared if units is None else units)
-    if system.name != declared:
-        raise InputError(f"potential {family.name!r} is written in {declared} units; unit system "
-                         f"{system.name!r} is not supported for it (allowed: {declared})")
-    key = parse_level(level, system.name, "level")
+    system = family_unit_system(family, units)
+    key = parse_level(level, system.name, "level", parameter="level")
     n, l, j, k = key.n, key.l, key.j, key.nodes
-    if isinstance(dimension, bool) or not isinstance(dimension, (int, np.integer)) or not 2 <= dimension <= 10:
-        raise InputError(f"dimension must be a whole number from 2 to 10, got {dimension!r}")
+    dimension = validated_dimension(dimension)
     if l + (dimension - 3) / 2.0 <= -0.5 and k == 0:
         raise NoThresholdError(f"in {dimension} dimensions the lowest s level (L = -1/2) is bound by any "
                                "net attraction, however weak: there is no threshold to find (the "
                                "higher s levels have one)")
     if j is not None and not getattr(base, "has_spin_orbit", False):
         raise InputError(f"level {level!r} names j, but potential {family.name!r} has no spin-orbit "
-                         "term; give the label without j (e.g. 1p)")
+                         "term; give the label without j (e.g. 1p)", parameter="level")
     mu = system.parse_mass(mass)
     from radsolve.core.targets import THRESHOLD_TOL_RANGE, validated_tol
 
@@ -789,7 +794,8 @@ def threshold(potential, parameter: str, *, level: str = "1s", bracket=None, fix
             raise InputError(
                 f"bracket {lo:.10g}:{hi:.10g} does not bracket the threshold of {level}: {level} is "
                 f"{state} at both ends ({n_lo} and {n_hi} bound levels with {wave} there; the "
-                f"threshold of {level} is where that count changes between {k} and {k + 1})")
+                f"threshold of {level} is where that count changes between {k} and {k + 1})",
+                parameter="bracket")
         outer = (lo, hi)
     lo, hi = _narrow(problem, k, lo, hi, n_lo, n_hi)
     bound_side = "above" if problem.count(hi) > k else "below"
@@ -840,29 +846,41 @@ def _refine(problem: _ZeroEnergy, lo: float, hi: float, outer, tol: float):
     return value, grid_error, box_error, refinement, layout, first_layout
 
 
-def critical_values(potential, parameter: str, *, nmax: int = 2, bracket=None, fixed=None, mass=None,
+def critical_values(potential, parameter: str, *, nmax: int | None = None, bracket=None, fixed=None, mass=None,
                tol: float = 1e-9, plugins=None, levels: Sequence[str] | None = None,
                lmax: int | None = None, spin_orbit: bool = False, units: str | None = None,
                dimension: int = 3) -> "CriticalValues":
     """The critical values of every level with n <= ``nmax``, or of ``levels``.
 
-    Atomic labels: every l < n (and l <= ``lmax`` if given).  Nuclear labels
-    (n = nodes + 1) need ``lmax``.  With ``spin_orbit`` each l > 0 gives both
-    j = l -+ 1/2.  The other parameters are those of :func:`threshold`;
-    ``bracket`` (if given) must contain every threshold asked for.  Results
-    are ordered by n, then l, then j.
+    Give ``nmax`` or ``levels``, not both; with neither, the level is
+    :func:`threshold`'s default, 1s.  Atomic labels: every l < n (and
+    l <= ``lmax`` if given; ``lmax`` goes with ``nmax`` only).  Nuclear
+    labels (n = nodes + 1) need ``lmax``.  With ``spin_orbit`` each l > 0
+    gives both j = l -+ 1/2.  The other parameters are those of
+    :func:`threshold`; ``bracket`` (if given) must contain every threshold
+    asked for.  Results are ordered by n, then l, then j.
     """
     from radsolve.potentials import Potential, get_family
 
     family = potential.family if isinstance(potential, Potential) else get_family(potential, plugins)
     system = units or getattr(family, "units", "atomic")
+    if levels is not None and nmax is not None:
+        raise InputError("levels and nmax: give one or the other (levels names each level; nmax asks "
+                         "for every level with n <= nmax)", parameter="levels")
+    if lmax is not None and nmax is None:
+        raise InputError("lmax goes with nmax (every level with n <= nmax and l <= lmax), not with "
+                         "levels", parameter="lmax")
+    if levels is None and nmax is None:
+        levels = [DEFAULT_LEVEL]
     if levels is None:
-        if isinstance(nmax, bool) or not isinstance(nmax, (int, np.integer)) or not 1 <= nmax <= 30:
-            raise InputError(f"nmax must be a whole number from 1 to 30, got {nmax!r}")
+        if isinstance(nmax, bool) or not isinstance(nmax, (int, np.integer)) or not 1 <= nmax <= NMAX_LIMIT:
+            raise InputError(f"nmax must be a whole number from 1 to {NMAX_LIMIT}, got {nmax!r}",
+                             parameter="nmax")
         if lmax is not None and (isinstance(lmax, bool) or not isinstance(lmax, (int, np.integer)) or lmax < 0):
-            raise InputError(f"lmax must be a whole number >= 0, got {lmax!r}")
+            raise InputError(f"lmax must be a whole number >= 0, got {lmax!r}", parameter="lmax")
         if system == "nuclear" and lmax is None:
-            raise InputError("nuclear labels count n = nodes + 1 for every l: give lmax as well as nmax")
+            raise InputError("lmax is needed: nuclear labels count n = nodes + 1 for every l, so give "
+                             "lmax as well as nmax", parameter="lmax")
         labels = []
         for n in range(1, int(nmax) + 1):
             if system == "nuclear":
@@ -873,11 +891,14 @@ def critical_values(potential, parameter: str, *, nmax: int = 2, bracket=None, f
                 js = ([1] if l == 0 else [2 * l - 1, 2 * l + 1]) if spin_orbit else [None]
                 labels += [level_label(n, l) + ("" if t is None else f"{t}/2") for t in js]
     else:
-        labels = [parse_level(lab, system, "level").label for lab in levels]
+        if isinstance(levels, str):
+            levels = [levels]
+        labels = [parse_level(lab, system, "level", parameter="levels").label for lab in levels]
         if not labels:
-            raise InputError("levels: at least one level label is needed")
+            raise InputError("levels: at least one level label is needed", parameter="levels")
     return CriticalValues([threshold(potential, parameter, level=lab, bracket=bracket, fixed=fixed, mass=mass,
-                      tol=tol, plugins=plugins, units=units, dimension=dimension) for lab in labels])
+                                     tol=tol, plugins=plugins, units=units, dimension=dimension)
+                           for lab in labels])
 
 
 def sweep_crossings(result, tol: float = 1e-9) -> dict[str, ThresholdResult]:

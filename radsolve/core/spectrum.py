@@ -39,7 +39,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass, replace
-from typing import Any, Iterable
+from typing import Any
 
 import numpy as np
 
@@ -52,6 +52,7 @@ from radsolve.core.protocol import Note, Outcome
 from radsolve.core.result import GridSample, Level, SolveResult, level_designation
 from radsolve.core.solvers.base import METHODS, RadialSolver, solver_class
 from radsolve.core.solvers.registry import EVERY_METHOD
+from radsolve.core.inputs import validated_count, validated_dimension, validated_l
 from radsolve.core.targets import Status, Targets, validated_tol
 
 #: Step in xi of the coarsest grid of the refinement sequence.
@@ -81,7 +82,6 @@ _SPLITTING_SETTLED = 0.1
 #: Reduced masses accepted, in each unit system's mass unit: far beyond any
 #: particle pair (1e-6 m_e to ~5e6 u in atomic units; 1 keV/c^2 to 100 TeV/c^2),
 #: and inside what the probed radii can resolve.
-_MASS_RANGE = {"atomic": (1e-6, 1e10), "nuclear": (1e-3, 1e8)}
 
 Key = tuple  # (l, j) with j None without spin-orbit
 
@@ -151,28 +151,8 @@ class _Run:
 
 
 def _validate(l, count, tol, method, dimension) -> tuple[list[int], int, float, list[type[RadialSolver]], int]:
-    if isinstance(l, (int, np.integer)) and not isinstance(l, bool):
-        ls = [int(l)]
-    elif isinstance(l, Iterable) and not isinstance(l, (str, bytes)):
-        ls = []
-        for item in l:
-            if not isinstance(item, (int, np.integer)) or isinstance(item, bool):
-                raise InputError(f"l must be a whole number >= 0 (got {item!r})")
-            ls.append(int(item))
-        if not ls:
-            raise InputError("l: at least one angular momentum is needed")
-    else:
-        raise InputError(f"l must be a whole number >= 0 or a list of them (got {l!r})")
-    for value in ls:
-        if value < 0:
-            raise InputError(f"l must be >= 0 (got {value})")
-        if value > 200:
-            raise InputError(f"l must be <= 200 (got {value})")
-    ls = sorted(set(ls))
-    if not isinstance(count, (int, np.integer)) or isinstance(count, bool) or count < 1:
-        raise InputError(f"count must be a whole number >= 1 (got {count!r})")
-    if count > 1000:
-        raise InputError(f"count must be <= 1000 levels per l (got {count})")
+    ls = validated_l(l)
+    count = validated_count(count)
     tol = validated_tol(tol)
     if isinstance(method, type) and issubclass(method, RadialSolver):
         methods = [method]
@@ -182,24 +162,14 @@ def _validate(l, count, tol, method, dimension) -> tuple[list[int], int, float, 
         methods = [solver_class(method)]
     else:
         raise InputError(f"unknown method {method!r}; allowed: {', '.join(list(METHODS) + [EVERY_METHOD])} "
-                         "or a RadialSolver subclass")
-    if not isinstance(dimension, (int, np.integer)) or isinstance(dimension, bool) or not 2 <= dimension <= 50:
-        raise InputError(f"dimension must be a whole number from 2 to 50 (got {dimension!r})")
-    return ls, int(count), tol, methods, int(dimension)
+                         "(or, from Python, a RadialSolver subclass)", parameter="method")
+    return ls, count, tol, methods, validated_dimension(dimension)
 
 
 def _unit_system(pot, units):
-    from radsolve.units import unit_system
+    from radsolve.units import family_unit_system
 
-    declared = getattr(getattr(getattr(pot, "family", None), "module", None), "UNITS", "atomic")
-    declared = "atomic" if declared is None else str(declared).lower()
-    system = unit_system(declared if units is None else units)
-    if system.name != declared:
-        raise InputError(
-            f"potential {pot.name!r} is written in {declared} units; unit system {system.name!r} "
-            f"is not supported for it (allowed: {declared})"
-        )
-    return system
+    return family_unit_system(getattr(pot, "family", pot), units)
 
 
 def _largest_radius(r_min: float) -> float:
@@ -210,7 +180,7 @@ def _channels(pot, ls, spin_orbit, dimension, mass, targets: Targets) -> list[_C
     if spin_orbit and not getattr(pot, "has_spin_orbit", False):
         raise InputError(
             f"spin_orbit was asked for, but potential {pot.name!r} has no spin-orbit term "
-            "(families with one define spin_orbit(r, ...))"
+            "(families with one define spin_orbit(r, ...))", parameter="spin_orbit"
         )
     shift = (dimension - 3) / 2.0
     out = []
@@ -700,13 +670,7 @@ def solve(
 
     pot = as_potential(potential, plugins)
     system = _unit_system(pot, units)
-    mu = system.parse_mass(mass)
-    low, high = _MASS_RANGE[system.name]
-    if not low <= mu <= high:
-        raise InputError(
-            f"mass {mu:.6g} {system.mass_unit} is outside the range solved here, "
-            f"{low:g} to {high:g} {system.mass_unit}"
-        )
+    mu = system.parse_mass(mass)  # parsed and checked against units.MASS_RANGE
     kinetic = system.kinetic_mass(mu)
     targets = Targets(tol)
     channels = _channels(pot, ls, bool(spin_orbit), dimension, kinetic, targets)

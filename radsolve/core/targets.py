@@ -22,23 +22,35 @@ TOL_RANGE = (1e-14, 0.1)
 #: ... and a threshold search (critical parameter values are found by root
 #: finding on a grid quantity, which cannot promise the last digit).
 THRESHOLD_TOL_RANGE = (1e-13, 1e-2)
+#: ... and the convergence check, which judges levels against its tol: any
+#: 0 < tol < 1 (open at both ends); one the solver refuses makes the check
+#: fail with the solver's reason.
+JUDGED_TOL_RANGE = (0.0, 1.0)
 
 
 def validated_tol(tol, name: str = "tol", limits: tuple[float, float] = TOL_RANGE) -> float:
     """``tol`` as a float inside ``limits``, or an InputError naming ``name`` and the range.
 
-    The one check of every tolerance radsolve accepts (the API, the command
-    line, the convergence check); ``name`` is what the user typed it as.
+    The one check of every tolerance radsolve accepts (solve and everything
+    built on it, thresholds, the convergence check); ``name`` is the API
+    argument, also set as the error's ``parameter``.  The limits are
+    inclusive, except for :data:`JUDGED_TOL_RANGE`, whose ends are open.
     """
     from radsolve.errors import InputError
 
     low, high = limits
+    if limits == JUDGED_TOL_RANGE:
+        allowed, inside = f"a relative tolerance with {low:g} < tol < {high:g}", lambda v: low < v < high
+    else:
+        allowed, inside = f"between {low:g} and {high:g}", lambda v: low <= v <= high
     try:
+        if isinstance(tol, bool):
+            raise TypeError
         value = float(tol)
     except (TypeError, ValueError):
-        raise InputError(f"{name} must be a number between {low:g} and {high:g} (got {tol!r})") from None
-    if not (low <= value <= high):  # NaN fails too
-        raise InputError(f"{name} must be between {low:g} and {high:g} (got {tol!r}), e.g. 1e-10")
+        raise InputError(f"{name} must be a number {allowed} (got {tol!r})", parameter=name) from None
+    if not inside(value):  # NaN fails too
+        raise InputError(f"{name} must be {allowed} (got {tol!r}), e.g. 1e-10", parameter=name)
     return value
 
 

@@ -552,12 +552,12 @@ def _radii(r) -> np.ndarray:
     try:
         radii = np.atleast_1d(np.asarray(r, dtype=float))
     except (TypeError, ValueError):
-        raise InputError(f"r must be radii in bohr (numbers >= 0), got {r!r}") from None
+        raise InputError(f"r must be radii in bohr (numbers >= 0), got {r!r}", parameter="r") from None
     if radii.ndim != 1:
-        raise InputError("r must be a one-dimensional list of radii in bohr")
+        raise InputError("r must be a one-dimensional list of radii in bohr", parameter="r")
     bad = ~np.isfinite(radii) | (radii < 0)
     if bad.any():
-        raise InputError(f"r must be finite radii >= 0 bohr, got {radii[bad][0]!r}")
+        raise InputError(f"r must be finite radii >= 0 bohr, got {float(radii[bad][0])!r}", parameter="r")
     return radii
 
 

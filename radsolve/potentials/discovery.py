@@ -162,7 +162,8 @@ def _folder_files(folder: str, what: str) -> list[Path]:
     if not path.is_dir():
         raise InputError(
             f"{what}: plug-in folder {folder!r} does not exist or is not a folder; "
-            "give a folder holding *.py potential files"
+            "give a folder holding *.py potential files",
+            parameter=None if what == "RADSOLVE_PLUGINS" else "plugins",
         )
     return sorted(p for p in path.glob("*.py") if not p.name.startswith("_") and p.is_file())
 
@@ -246,7 +247,7 @@ def families(plugins: Any = None) -> list[str]:
 
 def _lookup(name: str, found: Mapping[str, PotentialFamily]) -> PotentialFamily:
     if not isinstance(name, str):
-        raise InputError(f"potential name must be a string, got {name!r}")
+        raise InputError(f"potential name must be a string, got {name!r}", parameter="potential")
     if name in found:
         return found[name]
     folded = {k.lower().replace("-", "_"): k for k in found}
@@ -256,7 +257,8 @@ def _lookup(name: str, found: Mapping[str, PotentialFamily]) -> PotentialFamily:
     known = sorted(found)
     near = difflib.get_close_matches(name, known, n=1)
     hint = f" (did you mean {near[0]!r}?)" if near else ""
-    raise InputError(f"unknown potential {name!r}{hint}; known potentials: {', '.join(known)}")
+    raise InputError(f"unknown potential {name!r}{hint}; known potentials: {', '.join(known)}",
+                     parameter="potential")
 
 
 def get_family(name: str | PotentialFamily, plugins: Any = None) -> PotentialFamily:
@@ -315,7 +317,8 @@ def as_potential(potential: Any, plugins: Any = None, fixed: Mapping[str, Any] |
     if isinstance(potential, str):
         return get_family(potential, plugins).bind(**fixed)
     if not callable(potential) or not hasattr(potential, "parameters"):
-        raise InputError(f"potential must be a family name or a radsolve Potential, got {type(potential).__name__}")
+        raise InputError(f"potential must be a family name or a radsolve Potential, got {type(potential).__name__}",
+                         parameter="potential")
     return potential.with_parameters(**fixed) if fixed else potential
 
 

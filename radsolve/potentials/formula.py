@@ -104,7 +104,10 @@ def constant_values(units: str = "atomic") -> dict[str, float]:
 
 
 class FormulaError(InputError):
-    """An expression that is not a valid formula potential."""
+    """An expression that is not a valid formula potential (``parameter="expr"``)."""
+
+    def __init__(self, message: str = "", *, parameter: str | None = "expr", family: str | None = None):
+        super().__init__(message, parameter=parameter, family=family)
 
 
 def _short(expr: str, limit: int = 70) -> str:
@@ -252,7 +255,7 @@ class Formula:
         if not isinstance(expr, str):
             raise FormulaError(f"formula must be text, got {type(expr).__name__}")
         if units not in ("atomic", "nuclear"):
-            raise InputError(f"units {units!r}: allowed: atomic, nuclear")
+            raise InputError(f"units {units!r}: allowed: atomic, nuclear", parameter="units")
         text = expr.strip()
         if not text:
             raise FormulaError("the formula is empty; give V(r) as an expression, e.g. '-Z*exp(-r/D)/r'")
@@ -298,8 +301,8 @@ def _parameter_value(text: Any, name: str, units: str) -> float:
     label = f"parameter {name!r} of the formula"
     if not isinstance(text, str):
         if isinstance(text, bool):
-            raise InputError(f"{label} must be a number, got {text!r}")
-        return parse_quantity_in(text, "dimensionless", units, name=label)
+            raise InputError(f"{label} must be a number, got {text!r}", parameter=name, family="formula")
+        return parse_quantity_in(text, "dimensionless", units, name=label, parameter=name)
     first_error = None
     for kind in ("dimensionless", "length", "energy", "inverse_length"):
         try:
@@ -307,7 +310,8 @@ def _parameter_value(text: Any, name: str, units: str) -> float:
         except InputError as exc:
             first_error = first_error or exc
     raise InputError(f"{label}: cannot read {text!r}; give a number, optionally with a length, "
-                     "energy or inverse-length unit (e.g. 10, 5angstrom, 3eV, 2/nm)") from None
+                     "energy or inverse-length unit (e.g. 10, 5angstrom, 3eV, 2/nm)",
+                     parameter=name, family="formula") from None
 
 
 def formula_family(expr: str, units: str = "atomic", **values: Any):
@@ -325,17 +329,18 @@ def formula_family(expr: str, units: str = "atomic", **values: Any):
             f"formula {_short(expr)} uses parameter(s) {', '.join(missing)} without a value; give them, "
             "e.g. " + " ".join(f"-p {m}=..." for m in missing)
             + f" on the command line, {', '.join(m + '=...' for m in missing)} in Python"
-            + f" (r is the radius; the constants are {', '.join(CONSTANTS)})"
+            + f" (r is the radius; the constants are {', '.join(CONSTANTS)})",
+            parameter=missing[0], family="formula",
         )
     unused = [k for k in values if k not in formula.parameters]
     if unused:
         listing = ", ".join(formula.parameters) if formula.parameters else "none"
         raise InputError(f"parameter(s) {', '.join(unused)} do not appear in formula {_short(expr)}; "
-                         f"its parameters: {listing}")
+                         f"its parameters: {listing}", parameter=unused[0], family="formula")
     reserved = [p for p in formula.parameters if p in ("n", "l", "mass", "plugins")]
     if reserved:
-        raise InputError(f"formula {_short(expr)}: {', '.join(reserved)} cannot be a parameter name "
-                         "(reserved: n, l, mass, plugins); rename it")
+        raise FormulaError(f"formula {_short(expr)}: {', '.join(reserved)} cannot be a parameter name "
+                           "(reserved: n, l, mass, plugins); rename it")
     defaults = {k: Parameter(_parameter_value(values[k], k, units)) for k in formula.parameters}
     length = "fm" if units == "nuclear" else "bohr"
     energy = "MeV" if units == "nuclear" else "hartree"

@@ -164,7 +164,7 @@ class Parameter:
         label = f"parameter {name!r}" + (f" of {family}" if family else "")
         if self.kind == "text":
             if not isinstance(value, str):
-                raise InputError(f"{label} must be text, got {value!r}")
+                raise InputError(f"{label} must be text, got {value!r}", parameter=name, family=family or None)
             return value
         if self.kind == "choice":
             if isinstance(value, str):
@@ -176,23 +176,29 @@ class Parameter:
             near = difflib.get_close_matches(str(value), self.choices, n=1)
             hint = f" (did you mean {near[0]!r}?)" if near else ""
             raise InputError(
-                f"{label} must be one of {', '.join(self.choices)}; got {value!r}{hint}"
+                f"{label} must be one of {', '.join(self.choices)}; got {value!r}{hint}",
+                parameter=name, family=family or None,
             )
 
         from radsolve.units import parse_quantity_in
 
-        number = parse_quantity_in(value, self.kind, self.units, name=label)
+        try:
+            number = parse_quantity_in(value, self.kind, self.units, name=label)
+        except InputError as exc:
+            raise InputError(str(exc), parameter=name, family=family or None) from None
         given = str(value)
         if isinstance(value, str) and _fmt(number) != value.strip():
             given = f"{value.strip()} = {_fmt(number)}{self._unit_suffix}"
         if self.minimum is not None:
             low_bad = number <= self.minimum if self.exclusive_minimum else number < self.minimum
             if low_bad:
-                raise InputError(f"{label} must be {self.range_text()} (got {given})")
+                raise InputError(f"{label} must be {self.range_text()} (got {given})", parameter=name,
+                                 family=family or None)
         if self.maximum is not None:
             high_bad = number >= self.maximum if self.exclusive_maximum else number > self.maximum
             if high_bad:
-                raise InputError(f"{label} must be {self.range_text()} (got {given})")
+                raise InputError(f"{label} must be {self.range_text()} (got {given})", parameter=name,
+                                 family=family or None)
         return number
 
     def default_text(self) -> str:

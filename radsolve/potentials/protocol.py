@@ -115,7 +115,7 @@ class PotentialFamily:
                 listing = ", ".join(known) if known else "none"
                 raise InputError(
                     f"potential {self.name!r} has no parameter {key!r}{hint}; "
-                    f"its parameters: {listing}"
+                    f"its parameters: {listing}", parameter=key, family=self.name
                 )
         values = {}
         for key, spec in self.parameters.items():

@@ -85,18 +85,19 @@ class Rule:
         return f"coulomb:{self.charge:g}" if self.kind == "coulomb" else self.kind
 
 
-def parse_rule(text: Any, option: str, allowed: tuple[str, ...]) -> Rule:
+def parse_rule(text: Any, option: str, allowed: tuple[str, ...], parameter: str | None = None) -> Rule:
     """Read a rule such as ``"zero"``, ``"constant"`` or ``"coulomb:2.5"``.
 
     Raises
     ------
     InputError
-        Naming ``option`` and listing the allowed rules.
+        Naming ``option`` and listing the allowed rules; ``parameter`` is the
+        API argument, set on the error.
     """
     if isinstance(text, Rule):
         return text
     if not isinstance(text, str):
-        raise InputError(f"{option} must be one of {', '.join(allowed)}, got {text!r}")
+        raise InputError(f"{option} must be one of {', '.join(allowed)}, got {text!r}", parameter=parameter)
     key = text.strip().lower()
     if key in allowed and key != "coulomb:z":
         return Rule(key)
@@ -108,10 +109,10 @@ def parse_rule(text: Any, option: str, allowed: tuple[str, ...]) -> Rule:
             z = math.nan
         if not math.isfinite(z):
             raise InputError(f"{option} {text!r}: write coulomb:Z with a number Z, e.g. coulomb:1 "
-                             "for -1/r (atomic units)")
+                             "for -1/r (atomic units)", parameter=parameter)
         return Rule("coulomb", z)
     raise InputError(f"{option} {text!r}: unknown rule; allowed: {', '.join(allowed)} "
-                     "(Z a number, e.g. coulomb:1)")
+                     "(Z a number, e.g. coulomb:1)", parameter=parameter)
 
 
 def read_table(path: str | os.PathLike, option: str = "--file") -> tuple[np.ndarray, np.ndarray]:
@@ -128,11 +129,11 @@ def read_table(path: str | os.PathLike, option: str = "--file") -> tuple[np.ndar
     p = Path(path).expanduser()
     where = f"{option} {str(path)!r}"
     if not p.is_file():
-        raise InputError(f"{where}: no such file")
+        raise InputError(f"{where}: no such file", parameter="source")
     try:
         text = p.read_text(encoding="utf-8-sig")
     except (OSError, UnicodeDecodeError) as exc:
-        raise InputError(f"{where}: cannot read it as text ({exc})") from None
+        raise InputError(f"{where}: cannot read it as text ({exc})", parameter="source") from None
     rs: list[float] = []
     vs: list[float] = []
     lines: list[int] = []
@@ -153,25 +154,29 @@ def read_table(path: str | os.PathLike, option: str = "--file") -> tuple[np.ndar
             if header_allowed and not rs:
                 header_allowed = False
                 continue  # one header line of column names
-            raise InputError(f"{where}, line {number}: cannot read {line!r} as two numbers r and V")
+            raise InputError(f"{where}, line {number}: cannot read {line!r} as two numbers r and V",
+                             parameter="source")
         header_allowed = False
         if len(values) != 2:
-            raise InputError(f"{where}, line {number}: expected 2 columns (r and V), found {len(values)}")
+            raise InputError(f"{where}, line {number}: expected 2 columns (r and V), found {len(values)}",
+                             parameter="source")
         r, v = values
         for name, x in (("r", r), ("V", v)):
             if not math.isfinite(x):
-                raise InputError(f"{where}, line {number}: {name} is {x}; every value must be a finite number")
+                raise InputError(f"{where}, line {number}: {name} is {x}; every value must be a finite number",
+                                 parameter="source")
         if r < 0:
-            raise InputError(f"{where}, line {number}: r = {r:g} is negative; radii must be >= 0")
+            raise InputError(f"{where}, line {number}: r = {r:g} is negative; radii must be >= 0",
+                             parameter="source")
         if rs and r <= rs[-1]:
             raise InputError(f"{where}, line {number}: r = {r:g} does not exceed r = {rs[-1]:g} on line "
-                             f"{lines[-1]}; the radii must increase strictly")
+                             f"{lines[-1]}; the radii must increase strictly", parameter="source")
         rs.append(r)
         vs.append(v)
         lines.append(number)
     if len(rs) < MIN_POINTS:
         raise InputError(f"{where}: {len(rs)} data point{'s' if len(rs) != 1 else ''}; a table needs "
-                         f"at least {MIN_POINTS} (r, V) lines")
+                         f"at least {MIN_POINTS} (r, V) lines", parameter="source")
     return np.array(rs), np.array(vs)
 
 
@@ -180,22 +185,24 @@ def _check_arrays(r: Any, v: Any) -> tuple[np.ndarray, np.ndarray]:
         r = np.asarray(r, dtype=float)
         v = np.asarray(v, dtype=float)
     except (TypeError, ValueError):
-        raise InputError("table: r and V must be sequences of numbers") from None
+        raise InputError("table: r and V must be sequences of numbers", parameter="source") from None
     if r.ndim != 1 or v.shape != r.shape:
-        raise InputError(f"table: r and V must be 1-d of the same length (got shapes {r.shape} and {v.shape})")
+        raise InputError(f"table: r and V must be 1-d of the same length (got shapes {r.shape} and {v.shape})",
+                         parameter="source")
     if r.size < MIN_POINTS:
-        raise InputError(f"table: {r.size} points; a table needs at least {MIN_POINTS}")
+        raise InputError(f"table: {r.size} points; a table needs at least {MIN_POINTS}", parameter="source")
     for name, x in (("r", r), ("V", v)):
         bad = np.flatnonzero(~np.isfinite(x))
         if bad.size:
-            raise InputError(f"table: {name}[{bad[0]}] is {x[bad[0]]}; every value must be a finite number")
+            raise InputError(f"table: {name}[{bad[0]}] is {x[bad[0]]}; every value must be a finite number",
+                             parameter="source")
     if r[0] < 0:
-        raise InputError(f"table: r[0] = {r[0]:g} is negative; radii must be >= 0")
+        raise InputError(f"table: r[0] = {r[0]:g} is negative; radii must be >= 0", parameter="source")
     steps = np.flatnonzero(np.diff(r) <= 0)
     if steps.size:
         i = steps[0] + 1
         raise InputError(f"table: r[{i}] = {r[i]:g} does not exceed r[{i - 1}] = {r[i - 1]:g}; "
-                         "the radii must increase strictly")
+                         "the radii must increase strictly", parameter="source")
     return r, v
 
 
@@ -382,19 +389,19 @@ def tabulated_potential(source: Any, *, r_unit: str | None = None, v_unit: str |
     system = unit_system(units)
     if isinstance(spline_degree, bool) or spline_degree not in SPLINE_DEGREES:
         raise InputError(f"--spline {spline_degree!r}: allowed degrees: "
-                         + ", ".join(map(str, SPLINE_DEGREES)))
-    beyond_rule = parse_rule(beyond, "--beyond", BEYOND_RULES)
-    inside_rule = parse_rule(inside, "--inside", INSIDE_RULES)
+                         + ", ".join(map(str, SPLINE_DEGREES)), parameter="spline_degree")
+    beyond_rule = parse_rule(beyond, "--beyond", BEYOND_RULES, parameter="beyond")
+    inside_rule = parse_rule(inside, "--inside", INSIDE_RULES, parameter="inside")
     r_unit = system.length_unit if r_unit is None else r_unit
     v_unit = system.energy_unit if v_unit is None else v_unit
     try:
         r_factor = length_unit_factor(r_unit) / length_unit_factor(system.length_unit)
     except InputError as exc:
-        raise InputError(f"--r-unit: {exc}") from None
+        raise InputError(f"--r-unit: {exc}", parameter="r_unit") from None
     try:
-        v_factor = energy_unit_factor(v_unit) / energy_unit_factor(system.energy_unit)
+        v_factor = energy_unit_factor(v_unit, None) / energy_unit_factor(system.energy_unit)
     except InputError as exc:
-        raise InputError(f"--v-unit: {exc}") from None
+        raise InputError(f"--v-unit: {exc}", parameter="v_unit") from None
 
     if isinstance(source, (str, os.PathLike)):
         r, v = read_table(source)
@@ -403,7 +410,8 @@ def tabulated_potential(source: Any, *, r_unit: str | None = None, v_unit: str |
         try:
             r_raw, v_raw = source
         except (TypeError, ValueError):
-            raise InputError("table: give a file path or a pair (r, V) of sequences") from None
+            raise InputError("table: give a file path or a pair (r, V) of sequences",
+                             parameter="source") from None
         r, v = _check_arrays(r_raw, v_raw)
         where = f"table of {r.size} points"
     r_sys, v_sys = r * r_factor, v * v_factor

@@ -133,9 +133,14 @@ def sweep(potential, vary: Mapping[str, Sequence], *, fixed: Mapping[str, Any] |
 
     base = as_potential(potential, plugins, fixed)
     axes = axes_of(base, vary)
+    both = sorted(set(axes) & set(fixed or {}))
+    if both:
+        raise InputError(f"parameter {both[0]!r} is given both in vary and in fixed; a swept parameter "
+                         "takes its values from vary only", parameter="fixed")
     if workers is not None and (isinstance(workers, bool) or not isinstance(workers, (int, np.integer))
                                 or workers < 1):
-        raise InputError(f"workers must be a whole number >= 1 (or None for every core), got {workers!r}")
+        raise InputError(f"workers must be a whole number >= 1 (or None for every core), got {workers!r}",
+                         parameter="workers")
     if unit is not None:
         energy_unit_factor(unit)  # checks the unit before anything is solved
     from radsolve.units import unit_system
@@ -145,8 +150,6 @@ def sweep(potential, vary: Mapping[str, Sequence], *, fixed: Mapping[str, Any] |
     options = dict(mass=mass, tol=tol, method=method, spin_orbit=bool(spin_orbit), dimension=dimension,
                    units=units)
 
-    if executor is not None and cluster is not None:
-        raise InputError("executor and cluster: give one or the other")
     path = None if out is None or hasattr(out, "write") else check_out_path(out)
     netcdf = path is not None and path.suffix.lower() == ".nc"
     if netcdf:
@@ -173,7 +176,8 @@ def _check_netcdf_engine(path: Path) -> None:
     import importlib.util
 
     if importlib.util.find_spec("xarray") is None:
-        raise InputError(f"output file {str(path)!r}: NetCDF needs xarray: pip install 'radsolve[xarray]'")
+        raise InputError(f"output file {str(path)!r}: NetCDF needs xarray: pip install 'radsolve[xarray]'",
+                         parameter="out")
 
 
 def _sweep_points(base, axes, l, count, options, backend: Backend, out, unit, progress) -> SweepResult:
@@ -188,6 +192,8 @@ def _sweep_points(base, axes, l, count, options, backend: Backend, out, unit, pr
     try:
         first = solve(base.with_parameters(**dict(zip(keys, first_values))), l=l, count=count, **options)
     except RadsolveError as exc:
+        if isinstance(exc, InputError) and exc.parameter is not None and exc.family is None:
+            raise  # about an argument (tol, count, ...), the same at every point
         raise type(exc)(f"sweep point {describe_point(keys, first_values)}: {exc}") from None
     from radsolve.units import unit_system
 

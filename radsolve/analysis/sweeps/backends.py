@@ -98,7 +98,7 @@ class OwnExecutor:
 
         if not isinstance(executor, Executor) and not callable(getattr(executor, "map", None)):
             raise InputError(f"executor must be a concurrent.futures.Executor or have a map(function, "
-                             f"iterable) method; got {type(executor).__name__}")
+                             f"iterable) method; got {type(executor).__name__}", parameter="executor")
         self.executor = executor
         self.width = int(getattr(executor, "_max_workers", None) or usable_cores())
 
@@ -136,7 +136,7 @@ def backend_for(workers: int | None, cluster, executor, points: int,
     A cluster is connected here, so that an unreachable scheduler is reported before anything is solved.
     """
     if executor is not None and cluster is not None:
-        raise InputError("executor and cluster: give one or the other")
+        raise InputError("executor and cluster: give one or the other", parameter="executor")
     if executor is not None:
         return OwnExecutor(executor)
     if cluster is not None:
@@ -183,7 +183,7 @@ def run_executor(settings, chunks, executor, collect) -> None:
             collect(pairs)
     else:
         raise InputError(f"executor must be a concurrent.futures.Executor or have a map(function, iterable) "
-                         f"method; got {type(executor).__name__}")
+                         f"method; got {type(executor).__name__}", parameter="executor")
 
 
 def _run_windowed(executor, settings, chunks, window: int, collect) -> None:
@@ -214,16 +214,20 @@ def _run_windowed(executor, settings, chunks, window: int, collect) -> None:
 
 def dask_client(cluster, workers: int | None, timeout: float = CLUSTER_TIMEOUT):
     """``(client, close_client, local_cluster)`` for ``cluster``: an address, ``"local"`` or a Client."""
+    # An address that cannot be one is refused before Dask is looked for.
+    if isinstance(cluster, str) and cluster.strip() and cluster.strip() != "local" and "://" not in cluster:
+        raise InputError(f"--cluster {cluster.strip()!r}: expected 'local' or a scheduler address "
+                         "such as tcp://host:8786", parameter="cluster")
     try:
         import distributed
     except ImportError:
         raise InputError("--cluster needs Dask distributed, the optional dependency of "
-                         "radsolve[cluster]: pip install 'radsolve[cluster]'") from None
+                         "radsolve[cluster]: pip install 'radsolve[cluster]'", parameter="cluster") from None
     if isinstance(cluster, distributed.Client):
         return cluster, False, None
     if not isinstance(cluster, str) or not cluster.strip():
         raise InputError(f"cluster must be 'local', a scheduler address such as tcp://host:8786, "
-                         f"or a distributed.Client; got {cluster!r}")
+                         f"or a distributed.Client; got {cluster!r}", parameter="cluster")
     address = cluster.strip()
     import logging
 
@@ -236,9 +240,6 @@ def dask_client(cluster, workers: int | None, timeout: float = CLUSTER_TIMEOUT):
                                          scheduler_kwargs={"dashboard_address": "127.0.0.1:0"},
                                          silence_logs=logging.ERROR)
         return distributed.Client(local), True, local
-    if "://" not in address:
-        raise InputError(f"--cluster {address!r}: expected 'local' or a scheduler address "
-                         "such as tcp://host:8786")
     try:
         client = distributed.Client(address, timeout=timeout)
     except (OSError, TimeoutError, ValueError) as exc:

@@ -67,9 +67,9 @@ def check_out_path(out) -> Path:
     path = Path(out)
     if path.suffix.lower() not in (".csv", ".json", ".nc"):
         raise InputError(f"output file {str(path)!r}: the name must end in .csv or .json (rows written as the "
-                         "points finish) or .nc (NetCDF, written at the end)")
+                         "points finish) or .nc (NetCDF, written at the end)", parameter="out")
     if not (path.parent if str(path.parent) else Path(".")).is_dir():
-        raise InputError(f"output file {str(path)!r}: folder {str(path.parent)!r} does not exist")
+        raise InputError(f"output file {str(path)!r}: folder {str(path.parent)!r} does not exist", parameter="out")
     return path
 
 
@@ -84,6 +84,6 @@ def open_sink(out, columns, unit: str):
     try:
         stream = open(path, "w", encoding="utf-8", newline="")
     except OSError as exc:
-        raise InputError(f"output file {str(path)!r}: cannot write: {exc.strerror}") from None
+        raise InputError(f"output file {str(path)!r}: cannot write: {exc.strerror}", parameter="out") from None
     sink = CsvSink(stream, columns, unit) if suffix == ".csv" else JsonSink(stream, columns, unit)
     return sink, stream

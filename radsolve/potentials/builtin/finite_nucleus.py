@@ -195,7 +195,7 @@ def _fermi_half_density_radius(radius: float, diffuseness: float) -> float:
             f"parameter 'radius' of finite_nucleus: the fermi model with diffuseness "
             f"{diffuseness:.6g} bohr needs an rms radius > sqrt(12)*diffuseness = "
             f"{limit * diffuseness:.6g} bohr (got {radius:.6g} bohr); give a smaller "
-            "diffuseness or use the uniform or gaussian model"
+            "diffuseness or use the uniform or gaussian model", parameter="radius", family="finite_nucleus"
         )
     t_high = math.sqrt(5.0 / 3.0) * radius / diffuseness + 5.0
     t = brentq(lambda s: _fermi_moment_ratio(s) - target, t_low, t_high,
@@ -232,7 +232,7 @@ def _shape(radius: float, model: str, diffuseness: float) -> NuclearShape:
         return NuclearShape(model, radius, half_density_radius=tables.c, diffuseness=diffuseness,
                             v0_over_z=-tables.J1 / tables.J2)
     raise InputError(f"parameter 'model' of finite_nucleus must be one of {', '.join(MODELS)}; "
-                     f"got {model!r}")
+                     f"got {model!r}", parameter="model", family="finite_nucleus")
 
 
 def nuclear_shape(radius: float, model: str = "uniform",

@@ -148,7 +148,7 @@ def validate(depth, A, r0, radius, diffuseness, spin_orbit_strength, coulomb_Z, 
     R = nuclear_radius(A, r0, radius)
     if diffuseness > R:
         raise InputError(f"parameter 'diffuseness' of woods_saxon ({diffuseness:g} fm) exceeds the "
-                         f"radius R = {R:g} fm; allowed: a <= R")
+                         f"radius R = {R:g} fm; allowed: a <= R", parameter="diffuseness", family="woods_saxon")
 
 
 def bohr_mottelson(A, Z, particle="neutron"):
@@ -170,7 +170,7 @@ def bohr_mottelson(A, Z, particle="neutron"):
         MeV (- for neutrons), r0 = 1.27 fm, a = 0.67 fm, lambda_so = 0.44.
     """
     if particle not in ("neutron", "proton"):
-        raise InputError(f"particle {particle!r}: allowed: neutron, proton")
+        raise InputError(f"particle {particle!r}: allowed: neutron, proton", parameter="particle")
     if not (A >= 1 and 0 <= Z <= A):
         raise InputError(f"nucleus A = {A}, Z = {Z}: need A >= 1 and 0 <= Z <= A")
     asymmetry = (A - 2.0 * Z) / A  # (N - Z)/A

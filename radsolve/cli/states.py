@@ -1,0 +1,186 @@
+"""Commands about states: ``wave`` and ``transitions``."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated, Optional
+
+import typer
+
+from radsolve.cli.adapter import (OutputFormat, say, reported_errors, parse_assignments, plugin_dirs,
+                                  with_option, write_output, solver_call, folder_exists)
+from radsolve.cli.options import (FormatOption, OutFileOption, NameArgument, ParamOption, MassOption, PluginsOption, MethodOption,
+                                  TolOption, AtomicOutputUnitOption)
+
+
+def wave_command(
+    name: NameArgument,
+    n: Annotated[int, typer.Option(
+        "--n", "-n", metavar="N", help="principal number n = nodes + l + 1")],
+    l: Annotated[int, typer.Option("--l", "-l", metavar="L", help="orbital angular momentum")],
+    param: ParamOption = None,
+    mass: MassOption = None,
+    tol: TolOption = 1e-10,
+    method: MethodOption = "fd",
+    unit: AtomicOutputUnitOption = "hartree",
+    at: Annotated[Optional[list[str]], typer.Option(
+        "--at", metavar="R",
+        help="radius to interpolate u and R to, repeatable; bohr unless a unit is attached "
+             "(e.g. --at 0.5angstrom) [default: the solver grid]")] = None,
+    moment: Annotated[Optional[list[float]], typer.Option(
+        "--moment", metavar="K", help="also <r^K>, repeatable (e.g. --moment=-3 --moment 4)")] = None,
+    inside: Annotated[Optional[list[str]], typer.Option(
+        "--inside", metavar="R", help="also the probability P(r < R), repeatable; bohr or a length")
+    ] = None,
+    hellmann_feynman: Annotated[Optional[list[str]], typer.Option(
+        "--hellmann-feynman", metavar="P",
+        help="also check dE/dP = <dV/dP> for potential parameter P, repeatable (six more solves)")
+    ] = None,
+    fmt: Annotated[Optional[OutputFormat], typer.Option(
+        "--format", "-f",
+        help="stdout: table (a summary of the state) [default], or csv / json (the wavefunction)")
+    ] = None,
+    out: Annotated[Optional[Path], typer.Option(
+        "--out", "-o", metavar="FILE",
+        help="write the wavefunction to FILE.csv, FILE.json or FILE.npz (the summary stays on stdout)")
+    ] = None,
+    plot: Annotated[Optional[Path], typer.Option(
+        "--plot", metavar="FILE", help="draw u(r) over V(r) and the level energy: FILE.png, .svg or .pdf")
+    ] = None,
+    plugins: PluginsOption = None,
+) -> None:
+    """The wavefunction of level (N, L) of potential NAME, and what it implies.
+
+    The summary gives the energy, <r>, <r^2>, <1/r>, <1/r^2>, <V>, <T>, the
+    energy residual E - <T> - <V>, the most probable radius, the classical
+    turning points, the contact density |psi(0)|^2 and the virial ratio, each
+    with an error estimate from the grid refinement. u(r) and R(r) = u(r)/r
+    are normalized (integral of u^2 dr = 1) with u > 0 as r -> 0. Exit 3
+    when the energy or a quantity shown did not converge.
+    """
+    with reported_errors({"l": "--l", "parameter": "--hellmann-feynman"}):
+        from radsolve.errors import InputError
+
+        params = parse_assignments(param)
+        from radsolve.units import energy_unit_factor, parse_quantity
+
+        energy_unit_factor(unit)  # before anything is solved
+        # Lengths with units become bohr here; their rules (r >= 0, R > 0) are the API's.
+        radii = [parse_quantity(v, "length", name="r", parameter="r") for v in at or []]
+        limits = [parse_quantity(v, "length", name="radius", parameter="radius") for v in inside or []]
+        if out is not None:
+            from radsolve.core.wavefunctions import export_format
+
+            folder_exists(out, "--out")
+            file_format = with_option("--out", export_format, out)
+            if fmt is not None and fmt is not OutputFormat.table and fmt.value != file_format:
+                raise InputError(f"--format {fmt.value} and --out {str(out)!r} disagree; the file's "
+                                 "extension sets its format (.csv, .json, .npz)")
+        if plot is not None:
+            from radsolve.output.plotting import check_plot_path
+
+            with_option("--plot", check_plot_path, plot)
+
+        from radsolve.analysis.observables import state as make_state
+        from radsolve.potentials import potential
+
+        pot = potential(name, plugins=plugin_dirs(plugins), **params)
+        st = solver_call(pot, make_state, pot, n, l, mass=mass, tol=tol, method=method)
+
+        summary = st.summary(moments=moment or [], inside=limits, hellmann_feynman=hellmann_feynman or [])
+        props, extra = summary.properties, summary.extra
+        wave = st.wavefunction(radii if radii else None)
+        wave.properties = summary.to_dict()["properties"]
+
+        from radsolve.output.report import state_table
+
+        stdout_format = (fmt or OutputFormat.table).value
+        if out is not None:
+            wave.save(out)
+            say(f"wrote the {st.label} wavefunction ({wave.r.size} radii, {file_format}) to {out}")
+        if stdout_format == "table" or out is not None:
+            typer.echo(state_table(st, props, unit, extra, wave if radii else None), nl=False)
+        elif stdout_format == "csv":
+            typer.echo(wave.to_csv(), nl=False)
+        else:
+            typer.echo(wave.to_json(), nl=False)
+        if plot is not None:
+            from radsolve.output.plotting import plot_wavefunction
+
+            plot_wavefunction(st, plot, unit)
+            say(f"wrote the plot to {plot}")
+
+        if not summary.success:
+            say("warning: " + summary.message)
+            raise typer.Exit(summary.exit_code)
+
+
+def transitions_command(
+    name: NameArgument,
+    nmax: Annotated[int, typer.Option(
+        "--nmax", metavar="N",
+        help="every bound level with n <= N, for every l < N")],
+    param: ParamOption = None,
+    mass: MassOption = None,
+    tol: TolOption = 1e-10,
+    method: MethodOption = "fd",
+    unit: AtomicOutputUnitOption = "hartree",
+    fmt: FormatOption = OutputFormat.table,
+    out: OutFileOption = None,
+    plot: Annotated[Optional[Path], typer.Option(
+        "--plot", metavar="FILE", help="draw the level diagram with its E1 lines: FILE.png, .svg or .pdf")
+    ] = None,
+    dipole_charge: Annotated[float, typer.Option(
+        "--dipole-charge", metavar="Q",
+        help="factor of the dipole operator -e r (1 for a neutral two-body system)")] = 1.0,
+    occupied: Annotated[Optional[str], typer.Option(
+        "--occupied", metavar="LABELS",
+        help="levels filled by core electrons, comma-separated, left out: no line ends on "
+             "them (e.g. 1s,2s,2p for the sodium core of alkali_model)")] = None,
+    plugins: PluginsOption = None,
+) -> None:
+    """Electric-dipole lines, lifetimes and branching ratios of the levels with n <= N.
+
+    For each line: transition energy, vacuum wavelength, absorption
+    oscillator strength and Einstein A (s^-1); for each level: lifetime
+    1/sum(A) over all lower levels and branching ratios, or 'metastable' when
+    no lower level is reachable by an E1 transition. Model calculation
+    (nonrelativistic, spinless, E1 only). Exit 3 when something did not
+    converge or a lifetime may miss a lower level.
+    """
+    with reported_errors():
+
+        params = parse_assignments(param)
+        from radsolve.units import energy_unit_factor
+
+        energy_unit_factor(unit)  # before anything is solved
+        if out is not None:
+            folder_exists(out, "--out")
+        if plot is not None:
+            from radsolve.output.plotting import check_plot_path
+
+            with_option("--plot", check_plot_path, plot)
+
+        from radsolve.potentials import potential
+        from radsolve.analysis.radiative import transitions
+
+        pot = potential(name, plugins=plugin_dirs(plugins), **params)
+        tr = solver_call(pot, transitions, pot, nmax, mass=mass, tol=tol, method=method,
+                          dipole_charge=dipole_charge, occupied=occupied or ())
+        from radsolve.output.report import render
+
+        text = render(tr, unit, fmt.value)
+        if fmt.value == "csv":
+            say("note: " + tr.short_note)
+        write_output(text, out, f"{len(tr.lines)} lines and {len(tr.states)} levels ({fmt.value})")
+        if plot is not None:
+            from radsolve.output.plotting import plot_level_diagram
+
+            plot_level_diagram(tr, plot, unit)
+            say(f"wrote the level diagram to {plot}")
+        if not tr.success:
+            if out is not None or fmt is not OutputFormat.table:
+                say(tr.message)
+            say("warning: not everything converged or is complete (see the message); "
+                 "the numbers are what was achieved")
+            raise typer.Exit(tr.exit_code)
