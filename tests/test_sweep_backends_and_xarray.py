@@ -114,3 +114,17 @@ def test_netcdf_from_the_command_line(tmp_path):
     back = xr.open_dataset(path)
     assert float(back["energy"].sel(Z=3.0, level="2p")) == pytest.approx(-9.0 / 8.0, rel=1e-8)  # -Z^2/(2 n^2)
     back.close()
+
+
+def test_one_back_end_interface_chosen_from_workers_cluster_executor():
+    from radsolve.analysis.sweeps.backends import OwnExecutor, ProcessPool, Serial, backend_for
+
+    assert isinstance(backend_for(1, None, None, 10), Serial)
+    assert isinstance(backend_for(4, None, None, 2), Serial)  # the first point runs here, one is left
+    pool = backend_for(4, None, None, 10)
+    assert isinstance(pool, ProcessPool) and pool.width == 4
+    with ThreadPoolExecutor(3) as threads:
+        own = backend_for(None, None, threads, 10)
+        assert isinstance(own, OwnExecutor) and own.width == 3
+    for backend in (Serial(), pool, own):
+        assert callable(backend.run) and callable(backend.close)

@@ -52,16 +52,20 @@ def sweep_command(
         "--cluster", metavar="ADDRESS",
         help="run on Dask: tcp://host:port of a running scheduler, or 'local' for a local "
              "Dask cluster (needs radsolve[cluster])")] = None,
+    progress: Annotated[Optional[bool], typer.Option(
+        "--progress/--no-progress",
+        help="progress bar on stderr [default: only when stderr is a terminal]")] = None,
     plugins: PluginsOption = None,
 ) -> None:
     """The K lowest levels of NAME for each l at every point of a parameter grid.
 
     One row per (point, level): point index, the swept parameters (atomic
-    units), l, n, nodes, label, energy, error_estimate, converged, bound and
-    V(inf). A level that is not bound at a point keeps its row (bound false,
-    energy empty). Rows are written as points finish; Ctrl-C stops and keeps
-    the rows finished (exit 130). Exit 3 when some bound level did not
-    converge to --tol.
+    units), l, n, nodes, label, energy, error_estimate, converged, bound,
+    status and V(inf). A level that is not bound at a point keeps its row
+    (bound false, energy empty, status unbound when the count of bound levels
+    proves it, else missing or unknown). Rows are written as points finish;
+    Ctrl-C stops and keeps the rows finished (exit 130). Exit 3 when some
+    bound level did not converge to --tol or some level is not resolved.
     """
     with reported_errors():
         import time
@@ -97,7 +101,7 @@ def sweep_command(
             result = sweep(family.name, vary=axes, fixed=params, count=count, mass=mass, tol=tol,
                            method=method, plugins=plugin_dirs(plugins), workers=workers,
                            cluster=cluster, out=out if out is not None else sys.stdout, unit=unit,
-                           spin_orbit=spin_orbit, dimension=dimension,
+                           spin_orbit=spin_orbit, dimension=dimension, progress=progress,
                            **only_given(l=ls, units=units))
         except SweepInterrupted as stop:
             partial = stop.partial
@@ -129,9 +133,9 @@ def sweep_command(
                          f"+- {res.error_estimate:.1g} {res.parameter_unit}".rstrip())
             plot_sweep(result, plot, unit=unit, thresholds=marks)
             say(f"plot written to {plot}")
-        if result.unconverged:
-            say(f"warning: {result.unconverged} bound level(s) did not converge to tol {tol:g} "
-                 "(converged = False in their rows)")
+        if not result.success:
+            for note in result.notes:
+                say(f"warning: {note.text}")
             raise typer.Exit(result.exit_code)
 
 

@@ -113,6 +113,7 @@ def _plot_line(result, path, unit, factor, thresholds, title) -> None:
         ax.plot(x_all[result.done][finite_vinf], v_inf[finite_vinf], ls="--", color="black", lw=1.0,
                 label="continuum threshold V(\u221e)")
     crossing_drawn = False
+    unresolved_drawn = False
     any_binding = False
     for j, label in enumerate(labels):
         track = result.level(label)
@@ -120,6 +121,8 @@ def _plot_line(result, path, unit, factor, thresholds, title) -> None:
         order = np.argsort(x)
         x, e, bound, conv = x[order], track.energy[order] / factor, track.bound[order], track.converged[order]
         vi = track.v_infinity[order] / factor
+        # Without an energy but not proven unbound: neither "not bound" nor a crossing.
+        unresolved = ~bound & (result.grid(label, "status")[track.points][order] != "unbound")
         ax.plot(x, np.where(bound, e, np.nan), color=colors[j], lw=1.6, label=label)
         binding = np.where(bound & np.isfinite(vi), vi - e, np.nan)
         if np.any(binding > 0):
@@ -129,7 +132,7 @@ def _plot_line(result, path, unit, factor, thresholds, title) -> None:
         if bad.any():
             ax.plot(x[bad], e[bad], ls="none", marker="o", mfc="none", color=colors[j], ms=6)
         # Where the level leaves (or enters) the spectrum between two sweep points.
-        for i in np.nonzero(bound[1:] != bound[:-1])[0]:
+        for i in np.nonzero((bound[1:] != bound[:-1]) & ~unresolved[1:] & ~unresolved[:-1])[0]:
             xm = math.sqrt(x[i] * x[i + 1]) if result.log_spaced.get(key) else 0.5 * (x[i] + x[i + 1])
             if math.isfinite(vi[i]):
                 ax.plot([x[i], x[i + 1]], [vi[i], vi[i + 1]], color="0.45", lw=5, alpha=0.6,
@@ -140,7 +143,11 @@ def _plot_line(result, path, unit, factor, thresholds, title) -> None:
                           color=colors[j], lw=0.8, ls=":")
         row = len(labels) - 1 - j
         strip.plot(x, np.where(bound, row, np.nan), color=colors[j], lw=5, solid_capstyle="butt")
-        strip.plot(x, np.where(bound, np.nan, row), color="0.75", lw=1.2, ls=(0, (2, 2)))
+        strip.plot(x, np.where(bound | unresolved, np.nan, row), color="0.75", lw=1.2, ls=(0, (2, 2)))
+        if unresolved.any():
+            strip.plot(x[unresolved], np.full(np.count_nonzero(unresolved), row), ls="none", marker="x",
+                       color="red", ms=6)
+            unresolved_drawn = True
     marked = []
     for label, value in thresholds.items():
         p_c = getattr(value, "value", value)
@@ -179,10 +186,15 @@ def _plot_line(result, path, unit, factor, thresholds, title) -> None:
     strip.set_yticks(range(len(labels)), labels[::-1], fontsize=7)
     strip.set_ylim(-0.7, len(labels) - 0.3)
     strip.set_xlabel(_axis_label(key, p_unit))
-    strip.set_title("bound (solid) and not bound (dashed) at each sweep point", fontsize=8, loc="left")
+    strip.set_title("bound (solid) and not bound (dashed) at each sweep point"
+                    + ("; red \u00d7: not resolved, not proven unbound" if unresolved_drawn else ""),
+                    fontsize=8, loc="left")
     strip.tick_params(axis="y", length=0)
     if not result.complete:
         ax.text(0.5, 0.5, f"INCOMPLETE: {result.points_done} of {result.points_total} points",
+                transform=ax.transAxes, color="red", fontsize=10, ha="center")
+    elif result.unresolved:
+        ax.text(0.5, 0.5, f"INCOMPLETE: {result.unresolved} level(s) not resolved at some points",
                 transform=ax.transAxes, color="red", fontsize=10, ha="center")
     _save(fig, path)
 

@@ -313,7 +313,7 @@ DEFAULTS = {
                                 "units": "units", "spin_orbit": "spin_orbit", "dimension": "dimension"}),
     "sweep": (sweep, {"count": "count", "tol": "tol", "method": "method", "mass": "mass", "units": "units",
                       "spin_orbit": "spin_orbit", "dimension": "dimension", "workers": "workers",
-                      "unit": "unit", "cluster": "cluster"}),
+                      "unit": "unit", "cluster": "cluster", "progress": "progress"}),
     "threshold": (threshold, {"tol": "tol", "mass": "mass", "units": "units", "dimension": "dimension",
                               "bracket": "bracket"}),
     "fit": (fit, {"tol": "tol", "method": "method", "mass": "mass", "units": "units", "dimension": "dimension",

@@ -11,8 +11,11 @@ same state at every point.  A level that is not bound at a point (fewer than
 ``count`` levels exist there) still has its row, with ``bound = False``, no
 energy (NaN in memory, an empty cell in CSV, ``null`` in JSON) and
 ``converged = False``: nothing is dropped.  "Bound" means that ``solve`` found
-the level below V(inf); a level bound by less than the box resolution that
-``solve`` reports in its message counts as unbound.
+the level below V(inf).  A level without energy is called ``unbound`` (its
+``status``) only when the partial wave's count of bound levels proves it;
+otherwise its status is ``missing`` (bound by the count, not resolved) or
+``unknown`` (the count is uncertain), and the sweep's status is
+``incomplete``, as is that point's solve.
 
 Execution.  The points are independent, so they run
 
@@ -24,6 +27,10 @@ Execution.  The points are independent, so they run
   ``distributed.Client``), with the optional dependency ``radsolve[cluster]``.
   Every worker must be able to import radsolve and, for plug-in potentials,
   read the plug-in file at the same path.
+* on an executor of the caller's (``executor=``: threads, processes, an MPI
+  pool, or any object with ``map(function, iterable)``).
+
+Each is a back end of :mod:`radsolve.analysis.sweeps.backends`, all behind one interface.
 
 Whatever runs the points, the rows are assembled (and written) in point
 order, so the result is identical to the serial run.  The first point is
@@ -46,9 +53,8 @@ from typing import Any, Mapping, Sequence
 import numpy as np
 
 from radsolve.errors import InputError, RadsolveError
-from radsolve.analysis.sweeps.backends import (CLUSTER_TIMEOUT, chunk_size, chunks_of, dask_client, run_dask,
-                                              run_executor, run_pool, usable_cores)
-from radsolve.analysis.sweeps.points import Settings, channel_keys, describe_point, level_block, solve_point
+from radsolve.analysis.sweeps.backends import CLUSTER_TIMEOUT, Backend, backend_for, chunk_size, chunks_of, usable_cores
+from radsolve.analysis.sweeps.points import Settings, channel_keys, describe_point, level_block
 from radsolve.analysis.sweeps.progress import Progress
 from radsolve.analysis.sweeps.ranges import axes_of, looks_geometric, parameter_values, parse_vary
 from radsolve.analysis.sweeps.result import (LEVEL_COLUMNS, LevelTrack, SweepInterrupted, SweepPointFailed,
@@ -144,18 +150,17 @@ def sweep(potential, vary: Mapping[str, Sequence], *, fixed: Mapping[str, Any] |
     options = dict(mass=mass, tol=tol, method=method, spin_orbit=bool(spin_orbit), dimension=dimension,
                    units=units)
 
-    if executor is not None and cluster is not None:
-        raise InputError("executor and cluster: give one or the other", parameter="executor")
     path = None if out is None or hasattr(out, "write") else check_out_path(out)
     netcdf = path is not None and path.suffix.lower() == ".nc"
     if netcdf:
         _check_netcdf_engine(path)
-    # Connect first, so that an unreachable scheduler is reported at once.
-    dask = dask_client(cluster, workers) if cluster is not None else None
+    # Chosen (and a cluster connected) first, so that an unreachable scheduler is reported at once.
+    backend = backend_for(workers, cluster, executor, int(np.prod([len(v) for v in axes.values()])),
+                          timeout=CLUSTER_TIMEOUT)
     try:
         try:
-            result = _sweep_points(base, axes, l, count, options, workers, dask, executor,
-                                   None if netcdf else out, unit, progress)
+            result = _sweep_points(base, axes, l, count, options, backend, None if netcdf else out, unit,
+                                   progress)
         except SweepInterrupted as stop:
             if netcdf:
                 stop.partial.to_netcdf(out, unit=unit)
@@ -164,12 +169,7 @@ def sweep(potential, vary: Mapping[str, Sequence], *, fixed: Mapping[str, Any] |
             result.to_netcdf(out, unit=unit)
         return result
     finally:
-        if dask is not None:
-            client, close_client, local_cluster = dask
-            if close_client:
-                client.close()
-            if local_cluster is not None:
-                local_cluster.close()
+        backend.close()
 
 
 def _check_netcdf_engine(path: Path) -> None:
@@ -180,7 +180,7 @@ def _check_netcdf_engine(path: Path) -> None:
                          parameter="out")
 
 
-def _sweep_points(base, axes, l, count, options, workers, dask, executor, out, unit, progress) -> SweepResult:
+def _sweep_points(base, axes, l, count, options, backend: Backend, out, unit, progress) -> SweepResult:
     from radsolve.core.spectrum import solve
 
     keys = tuple(axes)
@@ -217,6 +217,8 @@ def _sweep_points(base, axes, l, count, options, workers, dask, executor, out, u
         energy=np.full((total, nl, count), np.nan), error_estimate=np.full((total, nl, count), np.nan),
         converged=np.zeros((total, nl, count), dtype=bool), bound=np.zeros((total, nl, count), dtype=bool),
         v_infinity=np.full(total, np.nan), done=np.zeros(total, dtype=bool),
+        level_status=np.full((total, nl, count), None, dtype=object),
+        point_status=np.full(total, None, dtype=object), point_notes=[()] * total,
         log_spaced={k: looks_geometric(axes[k]) for k in keys}, base=base,
     )
 
@@ -228,13 +230,6 @@ def _sweep_points(base, axes, l, count, options, workers, dask, executor, out, u
     waiting: dict[int, tuple] = {}
     state = {"next": 0}
 
-    def store(index: int, block: tuple) -> None:
-        energy, error, converged, bound, v_inf = block
-        result.energy[index], result.error_estimate[index] = energy, error
-        result.converged[index], result.bound[index] = converged, bound
-        result.v_infinity[index] = v_inf
-        result.done[index] = True
-
     def write(index: int, block: tuple) -> None:
         if sink is not None:
             for row in point_rows(result, index, result.point_values(index), block, factor):
@@ -242,7 +237,7 @@ def _sweep_points(base, axes, l, count, options, workers, dask, executor, out, u
 
     def collect(pairs) -> None:
         for index, block in pairs:
-            store(index, block)
+            result.store(index, block)
             waiting[index] = block
         # Rows go out in point order, so the file does not depend on who finished first.
         while state["next"] in waiting:
@@ -258,22 +253,8 @@ def _sweep_points(base, axes, l, count, options, workers, dask, executor, out, u
     try:
         try:
             collect([(0, level_block(first, channels, int(count)))])
-            rest = range(1, total)
-            if executor is not None:
-                run_executor(settings, chunks_of(rest, values_of, chunk_size(total, usable_cores())), executor,
-                             collect)
-            elif dask is not None:
-                client = dask[0]
-                n_threads = max(sum(client.nthreads().values()), 1)
-                run_dask(settings, chunks_of(rest, values_of, chunk_size(total, n_threads)), client, collect)
-            else:
-                n = usable_cores() if workers is None else int(workers)
-                n = min(n, max(total - 1, 1))
-                if n <= 1:
-                    for index in rest:
-                        collect([(index, solve_point(settings, values_of(index)))])
-                else:
-                    run_pool(settings, chunks_of(rest, values_of, chunk_size(total, n)), n, collect)
+            size = 1 if backend.width == 1 else chunk_size(total, backend.width)
+            backend.run(settings, chunks_of(range(1, total), values_of, size), collect)
         except KeyboardInterrupt:
             for index in sorted(waiting):  # finished out of order: keep them too
                 write(index, waiting.pop(index))

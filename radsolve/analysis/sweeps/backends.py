@@ -1,10 +1,18 @@
-"""Where the points run: worker processes, any map-like executor, or a Dask cluster -- behind one interface."""
+"""Where the points run -- this process, worker processes, any map-like executor, a Dask cluster -- behind one interface.
+
+A back end is an object with ``width`` (how many chunks it works on at once, which sets the
+chunk size), ``run(settings, chunks, collect)`` and ``close()``; :func:`backend_for` picks one
+from ``sweep()``'s ``workers``, ``cluster`` and ``executor``.  ``run`` sends each chunk (a list
+of ``(index, values)``) to :func:`points.solve_chunk` somewhere and hands every returned list
+of ``(index, block)`` to ``collect``, in any order (the caller writes rows in point order).
+On Ctrl-C it stops promptly and still hands over the chunks that had finished, then re-raises.
+"""
 
 from __future__ import annotations
 
 import os
 import signal
-from typing import Callable, Iterable
+from typing import Callable, Iterable, Protocol
 
 
 from radsolve.errors import InputError
@@ -44,6 +52,99 @@ def chunk_size(points: int, workers: int) -> int:
     # Small chunks keep Ctrl-C prompt and the load balanced; big enough that the
     # cost of sending a task (~1 ms) is small against a point (~10-300 ms).
     return int(min(max(points // (workers * 32), 1), 16))
+
+
+class Backend(Protocol):
+    """What runs a sweep's chunks (see the module docstring)."""
+
+    width: int
+
+    def run(self, settings, chunks, collect) -> None: ...
+
+    def close(self) -> None: ...
+
+
+class Serial:
+    """Every point in this process, one after the other."""
+
+    width = 1
+
+    def run(self, settings, chunks, collect) -> None:
+        for chunk in chunks:
+            collect(solve_chunk(settings, chunk))
+
+    def close(self) -> None:
+        pass
+
+
+class ProcessPool:
+    """``workers`` local processes, started for the sweep and stopped after it."""
+
+    def __init__(self, workers: int):
+        self.width = workers
+
+    def run(self, settings, chunks, collect) -> None:
+        run_pool(settings, chunks, self.width, collect)
+
+    def close(self) -> None:
+        pass
+
+
+class OwnExecutor:
+    """The caller's executor (left open): a ``concurrent.futures.Executor`` or anything with ``map``."""
+
+    def __init__(self, executor):
+        from concurrent.futures import Executor
+
+        if not isinstance(executor, Executor) and not callable(getattr(executor, "map", None)):
+            raise InputError(f"executor must be a concurrent.futures.Executor or have a map(function, "
+                             f"iterable) method; got {type(executor).__name__}", parameter="executor")
+        self.executor = executor
+        self.width = int(getattr(executor, "_max_workers", None) or usable_cores())
+
+    def run(self, settings, chunks, collect) -> None:
+        run_executor(settings, chunks, self.executor, collect)
+
+    def close(self) -> None:
+        pass
+
+
+class DaskCluster:
+    """A Dask distributed cluster: a scheduler's address, ``"local"`` (started here), or a Client."""
+
+    def __init__(self, cluster, workers: int | None, timeout: float = CLUSTER_TIMEOUT):
+        self.client, self._close_client, self._local = dask_client(cluster, workers, timeout)
+
+    @property
+    def width(self) -> int:
+        return max(sum(self.client.nthreads().values()), 1)
+
+    def run(self, settings, chunks, collect) -> None:
+        run_dask(settings, chunks, self.client, collect)
+
+    def close(self) -> None:
+        if self._close_client:
+            self.client.close()
+        if self._local is not None:
+            self._local.close()
+
+
+def backend_for(workers: int | None, cluster, executor, points: int,
+                timeout: float = CLUSTER_TIMEOUT) -> Backend:
+    """The back end for ``sweep(workers=..., cluster=..., executor=...)`` of ``points`` points.
+
+    A cluster is connected here, so that an unreachable scheduler is reported before anything is solved.
+    """
+    if executor is not None and cluster is not None:
+        raise InputError("executor and cluster: give one or the other", parameter="executor")
+    if executor is not None:
+        return OwnExecutor(executor)
+    if cluster is not None:
+        return DaskCluster(cluster, workers, timeout)
+    # The first point is solved in the calling process, so the others need at most points - 1 workers.
+    n = min(usable_cores() if workers is None else int(workers), max(points - 1, 1))
+    return Serial() if n <= 1 else ProcessPool(n)
+
 
 
 def run_pool(settings, chunks, workers: int, collect) -> None:
@@ -111,7 +212,7 @@ def _run_windowed(executor, settings, chunks, window: int, collect) -> None:
         raise
 
 
-def dask_client(cluster, workers: int | None):
+def dask_client(cluster, workers: int | None, timeout: float = CLUSTER_TIMEOUT):
     """``(client, close_client, local_cluster)`` for ``cluster``: an address, ``"local"`` or a Client."""
     # An address that cannot be one is refused before Dask is looked for.
     if isinstance(cluster, str) and cluster.strip() and cluster.strip() != "local" and "://" not in cluster:
@@ -140,10 +241,10 @@ def dask_client(cluster, workers: int | None):
                                          silence_logs=logging.ERROR)
         return distributed.Client(local), True, local
     try:
-        client = distributed.Client(address, timeout=CLUSTER_TIMEOUT)
+        client = distributed.Client(address, timeout=timeout)
     except (OSError, TimeoutError, ValueError) as exc:
         raise InputError(f"--cluster {address!r}: no Dask scheduler answered there within "
-                         f"{CLUSTER_TIMEOUT:g} s ({type(exc).__name__}: {exc}); start one "
+                         f"{timeout:g} s ({type(exc).__name__}: {exc}); start one "
                          "(dask scheduler) or use --cluster local") from None
     return client, True, None
 

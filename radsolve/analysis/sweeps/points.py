@@ -8,7 +8,7 @@ from typing import Any, Sequence
 import numpy as np
 
 from radsolve.errors import RadsolveError
-from radsolve.analysis.sweeps.result import SweepPointFailed
+from radsolve.analysis.sweeps.result import MISSING, UNBOUND, UNCERTAIN, SweepPointFailed, describe_values
 
 
 @dataclass(frozen=True)
@@ -29,8 +29,7 @@ class Settings:
 
 
 def describe_point(keys, values) -> str:
-    return ", ".join(f"{k} = {v:.10g}" if isinstance(v, float) else f"{k} = {v}"
-                     for k, v in zip(keys, values))
+    return describe_values(keys, values)
 
 
 def solve_point(settings: Settings, values: tuple) -> tuple:
@@ -62,11 +61,19 @@ def channel_keys(ls: Sequence[int], spin_orbit: bool) -> tuple[tuple[int, float 
 
 
 def level_block(result, channels: Sequence[tuple[int, float | None]], count: int) -> tuple:
+    """One point's arrays (shape (len(channels), count)) and what its solve said about itself.
+
+    ``(energy, error, converged, bound, v_inf, state, outcome, notes)``: ``state`` is each level's
+    :data:`LEVEL_STATES` entry -- the refinement status of a level found, else why it has no
+    energy (``unbound`` only when the count of bound levels proves it); ``outcome`` the solve's
+    status and ``notes`` its notes.
+    """
     shape = (len(channels), count)
     energy = np.full(shape, np.nan)
     error = np.full(shape, np.nan)
     converged = np.zeros(shape, dtype=bool)
     bound = np.zeros(shape, dtype=bool)
+    state = np.empty(shape, dtype=object)
     row_of = {key: i for i, key in enumerate(channels)}
     for lev in result.levels:
         i, k = row_of[(lev.l, getattr(lev, "j", None))], lev.nodes
@@ -74,7 +81,26 @@ def level_block(result, channels: Sequence[tuple[int, float | None]], count: int
         error[i, k] = lev.error_estimate
         converged[i, k] = lev.converged
         bound[i, k] = True
-    return energy, error, converged, bound, float(result.v_infinity)
+        state[i, k] = str(lev.status) if lev.status is not None else ("converged" if lev.converged
+                                                                      else "not converged")
+    certificates = getattr(result, "certificates", None) or {}
+    for i, (l, j) in enumerate(channels):
+        cert = certificates.get(l if j is None else f"l={l},j={int(round(2 * j))}/2")
+        for k in range(count):
+            if not bound[i, k]:
+                state[i, k] = _missing_state(cert, k)
+    outcome = str(getattr(result, "status", "success"))
+    return energy, error, converged, bound, float(result.v_infinity), state, outcome, \
+        tuple(getattr(result, "notes", ()))
+
+
+def _missing_state(cert, nodes: int) -> str:
+    """Why the level with ``nodes`` nodes has no energy, from its partial wave's count of bound levels."""
+    if cert is None or not cert.certain:
+        return UNCERTAIN
+    if cert.count is not None and nodes >= cert.count:
+        return UNBOUND  # proven: the count says fewer are bound
+    return MISSING  # bound by the count, but not resolved (too weakly bound for the largest box)
 
 
 def solve_chunk(settings: Settings, chunk: Sequence[tuple[int, tuple]]) -> list[tuple[int, tuple]]:

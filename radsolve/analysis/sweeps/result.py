@@ -19,7 +19,18 @@ from radsolve.analysis.sweeps.sinks import CsvSink, JsonSink
 #: Columns of a sweep row after the parameter columns, in order (``j`` only
 #: with spin-orbit splitting).
 LEVEL_COLUMNS = ("l", "j", "n", "nodes", "label", "energy", "error_estimate", "converged", "bound",
-                 "v_infinity")
+                 "status", "v_infinity")
+
+#: A level's ``status`` when it has no energy at a point.  ``unbound`` is a claim, made only when the
+#: partial wave's count of bound levels (certain) says fewer are bound; ``missing``: bound by that
+#: count but not resolved (too weakly bound for the largest box); ``unknown``: the count is
+#: uncertain, so bound or not is not known.  A level found has its refinement status
+#: (``converged``, ``finest grid``, ..., as :class:`radsolve.core.targets.Status`).
+UNBOUND, MISSING, UNCERTAIN = "unbound", "missing", "unknown"
+
+#: Codes of a point's solve notes that are expected in a sweep (levels crossing the threshold) and are
+#: not repeated in the sweep's notes; ``not_converged`` is summed over the points instead.
+_ROUTINE_CODES = frozenset({"no_bound", "fewer_bound", "not_listed", "not_converged"})
 
 
 class SweepPointFailed(RuntimeError):
@@ -109,16 +120,32 @@ class SweepResult(ResultProtocol):
     energy, error_estimate : ndarray, shape (points, len(channels), count)
         NaN where not bound or not computed.
     converged, bound : ndarray of bool, same shape
+        ``bound``: the level was found below V(inf) at that point.
+    level_status : ndarray of str (object), same shape
+        Each level's status at each point: its refinement status when found
+        (``"converged"``, ``"finest grid"``, ...), else ``"unbound"`` (proven
+        by the count of bound levels), ``"missing"`` (bound by the count but
+        not resolved) or ``"unknown"`` (the count is uncertain); None where
+        the point was not computed.
     v_infinity : ndarray, shape (points,)
         V(inf) at each point (``inf`` for a confining potential).
     done : ndarray of bool, shape (points,)
         Which points were computed (all of them unless interrupted).
+    point_status : ndarray of str (object), shape (points,)
+        The status of the solve at each point (an :class:`Outcome` value; None where not computed).
+    point_notes : list of tuple of Note, length points
+        The notes of the solve at each point.
     status : Outcome
-        ``success`` when every point was computed and every bound level
-        converged; ``incomplete`` when points are missing (an interrupted
-        sweep); ``not converged`` when some bound level did not reach ``tol``.
+        ``success`` when every point was computed and every level is either
+        converged or proven unbound; ``incomplete`` when points are missing (an
+        interrupted sweep) or a point's solve was incomplete (a level the count
+        says is bound not resolved, an uncertain count); ``not converged`` when
+        some bound level did not reach ``tol``.
     notes : tuple of Note
-        Codes ``points_missing``, ``not_converged``.
+        Codes ``points_missing``, ``levels_unresolved``, ``not_converged``, and the codes of the
+        points' own notes that say something is missing or uncertain
+        (``levels_missing``, ``count_uncertain``, ``count_disagreement``, ...),
+        each once with the number of points and the first of them.
     """
 
     potential: str
@@ -142,6 +169,9 @@ class SweepResult(ResultProtocol):
     bound: np.ndarray
     v_infinity: np.ndarray
     done: np.ndarray
+    level_status: np.ndarray
+    point_status: np.ndarray
+    point_notes: list
     log_spaced: dict[str, bool] = field(default_factory=dict)
     base: Any = field(default=None, repr=False)  # the Potential swept (with the fixed values)
 
@@ -179,9 +209,12 @@ class SweepResult(ResultProtocol):
 
     @property
     def status(self) -> Outcome:
-        if not self.complete:
+        outcomes = set(self.point_status[self.done])
+        if not self.complete or self.unresolved or outcomes & {str(Outcome.INCOMPLETE), str(Outcome.FAILED)}:
             return Outcome.INCOMPLETE
-        return Outcome.NOT_CONVERGED if self.unconverged else Outcome.SUCCESS
+        if self.unconverged or str(Outcome.NOT_CONVERGED) in outcomes:
+            return Outcome.NOT_CONVERGED
+        return Outcome.SUCCESS
 
     @property
     def notes(self) -> tuple[Note, ...]:
@@ -189,10 +222,31 @@ class SweepResult(ResultProtocol):
         if not self.complete:
             notes.append(Note("points_missing", f"{self.points_total - self.points_done} of {self.points_total} "
                               "points were not computed (the sweep was interrupted)"))
+        if self.unresolved:
+            notes.append(Note("levels_unresolved", f"{self.unresolved} level row(s) have no energy but are not "
+                              f"proven unbound (status '{MISSING}': bound by the count of bound levels but not "
+                              f"resolved; '{UNCERTAIN}': the count is uncertain)"))
+        notes.extend(self._point_notes())
         if self.unconverged:
             notes.append(Note("not_converged", f"{self.unconverged} bound level(s) did not converge to tol = "
                               f"{self.tol:.1e} (converged = False in their rows)"))
         return tuple(notes)
+
+    def _point_notes(self) -> list[Note]:
+        """Each code of the points' notes that is not routine, once: how many points, and the first one."""
+        first: dict[str, tuple[int, Note]] = {}
+        points: dict[str, int] = {}
+        for index in np.flatnonzero(self.done):
+            for code in {n.code for n in self.point_notes[index]} - _ROUTINE_CODES:
+                points[code] = points.get(code, 0) + 1
+                if code not in first:
+                    first[code] = (int(index), next(n for n in self.point_notes[index] if n.code == code))
+        out = []
+        for code, (index, note) in first.items():
+            where = describe_values(self.parameters, self.point_values(index))
+            out.append(Note(code, f"at {points[code]} of {self.points_total} point(s), first at {where}: "
+                                  f"{note.text}", where))
+        return out
 
     @property
     def message(self) -> str:
@@ -205,7 +259,7 @@ class SweepResult(ResultProtocol):
                 ("levels", len(self.channels) * self.count)]
 
     def _table_columns(self):
-        return ("point", *self.parameters, "label", "energy", "error_estimate", "bound")
+        return ("point", *self.parameters, "label", "energy", "error_estimate", "status")
 
     def records(self, unit: str | None = None) -> list[dict[str, Any]]:
         """One flat dict per (finished point, level): the CSV columns (energies in ``unit``)."""
@@ -221,6 +275,11 @@ class SweepResult(ResultProtocol):
         return {"points_done": self.points_done, "complete": self.complete, "success": self.success,
                 "status": str(self.status), "message": self.message,
                 "notes": [n.to_dict() for n in self.notes]}
+
+    @property
+    def unresolved(self) -> int:
+        """Number of (point, level) rows without an energy that are not proven unbound."""
+        return int(np.count_nonzero((self.level_status == MISSING) | (self.level_status == UNCERTAIN)))
 
     @property
     def unconverged(self) -> int:
@@ -259,13 +318,13 @@ class SweepResult(ResultProtocol):
         )
 
     def grid(self, label: str, what: str = "energy") -> np.ndarray:
-        """``energy`` (or ``error_estimate``, ``bound``, ``converged``) of ``label`` on the grid.
+        """``energy`` (or ``error_estimate``, ``bound``, ``converged``, ``status``) of ``label`` on the grid.
 
-        An array of shape :attr:`shape`; NaN (or False) at points not computed.
+        An array of shape :attr:`shape`; NaN (or False, or None) at points not computed.
         """
         i, k = self._find(label)
         array = {"energy": self.energy, "error_estimate": self.error_estimate,
-                 "bound": self.bound, "converged": self.converged}[what]
+                 "bound": self.bound, "converged": self.converged, "status": self.level_status}[what]
         return array[:, i, k].reshape(self.shape)
 
     # -- rows and export -----------------------------------------------------
@@ -285,10 +344,20 @@ class SweepResult(ResultProtocol):
         ``energy_unit``); NaN where unbound."""
         factor = self.unit_factor(unit)
         for index in np.flatnonzero(self.done):
-            yield from point_rows(self, int(index), self.point_values(int(index)),
-                                   (self.energy[index], self.error_estimate[index],
-                                    self.converged[index], self.bound[index],
-                                    self.v_infinity[index]), factor)
+            yield from point_rows(self, int(index), self.point_values(int(index)), self.block(int(index)), factor)
+
+    def block(self, index: int) -> tuple:
+        """Point ``index``'s arrays, in the form the points are computed in (see :func:`points.level_block`)."""
+        return (self.energy[index], self.error_estimate[index], self.converged[index], self.bound[index],
+                self.v_infinity[index], self.level_status[index], self.point_status[index],
+                self.point_notes[index])
+
+    def store(self, index: int, block: tuple) -> None:
+        """Put one computed point's block in place and mark it done."""
+        (self.energy[index], self.error_estimate[index], self.converged[index], self.bound[index],
+         self.v_infinity[index], self.level_status[index], self.point_status[index],
+         self.point_notes[index]) = block
+        self.done[index] = True
 
     def __len__(self) -> int:
         return self.points_done * len(self.channels) * self.count
@@ -351,8 +420,10 @@ class SweepResult(ResultProtocol):
         (coordinates: the labels, with ``l``, ``j`` -- NaN without spin-orbit
         -- ``n`` and ``nodes`` beside them).  Data variables: ``energy`` and
         ``error_estimate`` (in ``unit``, default ``energy_unit``; NaN where
-        not bound or not computed), ``bound`` and ``converged`` (bool) on
-        (parameters..., level); ``v_infinity`` and ``done`` on the parameters.
+        not bound or not computed), ``bound`` and ``converged`` (bool) and
+        ``status`` (text, as :attr:`level_status`; ``""`` where not computed) on
+        (parameters..., level); ``v_infinity``, ``done`` and ``point_status``
+        on the parameters.
         Attributes: the potential, its fixed parameters (``fixed_<name>``),
         the settings of the solve, and the sweep's status and message.
         """
@@ -384,6 +455,9 @@ class SweepResult(ResultProtocol):
             "converged": per_level(self.converged),
             "v_infinity": (self.parameters, self.v_infinity.reshape(self.shape) / factor),
             "done": (self.parameters, self.done.reshape(self.shape)),
+            # text for NetCDF: "" where a point was not computed
+            "status": per_level(_text(self.level_status)),
+            "point_status": (self.parameters, _text(self.point_status).reshape(self.shape)),
         }
         dataset = xr.Dataset(data, coords=coords)
         for name in ("energy", "error_estimate", "v_infinity"):
@@ -430,8 +504,18 @@ def unit_factor_between(energy_unit: str, unit: str | None) -> float:
     return energy_unit_factor(unit) / energy_unit_factor(energy_unit)
 
 
+def _text(array: np.ndarray) -> np.ndarray:
+    """An object array of str or None as a plain str array ("" for None)."""
+    return np.array(["" if v is None else str(v) for v in array.ravel()], dtype=str).reshape(array.shape)
+
+
+def describe_values(keys, values) -> str:
+    """``Z = 2, screening_length = 1.5``: a point in messages."""
+    return ", ".join(f"{k} = {v:.10g}" if isinstance(v, float) else f"{k} = {v}" for k, v in zip(keys, values))
+
+
 def point_rows(meta: SweepResult, index: int, values: tuple, block: tuple, factor: float) -> list[dict]:
-    energy, error, converged, bound, v_inf = block
+    energy, error, converged, bound, v_inf, state = block[:6]
     rows = []
     for i, (l, j) in enumerate(meta.channels):
         for k in range(meta.count):
@@ -442,7 +526,7 @@ def point_rows(meta: SweepResult, index: int, values: tuple, block: tuple, facto
                 l=l, j=j, n=n, nodes=k, label=label,
                 energy=float(energy[i, k]) / factor if bound[i, k] else math.nan,
                 error_estimate=float(error[i, k]) / factor if bound[i, k] else math.nan,
-                converged=bool(converged[i, k]), bound=bool(bound[i, k]),
+                converged=bool(converged[i, k]), bound=bool(bound[i, k]), status=state[i, k],
                 v_infinity=float(v_inf) / factor,
             )
             rows.append(row)
