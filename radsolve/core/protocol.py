@@ -143,11 +143,16 @@ class ResultProtocol:
         rows = self.records(unit)
         return pd.DataFrame([{k: plain(v) for k, v in row.items()} for row in rows], columns=columns_of(rows))
 
-    def _table(self) -> tuple[list[str], list[list[str]], int]:
+    def _first_records(self, n: int) -> tuple[list[dict[str, Any]], int]:
+        """The first ``n`` records and how many there are (a type with many rows answers without making all)."""
         rows = self.records()
+        return rows[:n], len(rows)
+
+    def _table(self) -> tuple[list[str], list[list[str]], int]:
+        rows, total = self._first_records(REPR_ROWS)
         columns = list(self._table_columns() or columns_of(rows))
-        shown = [[_cell(row.get(c)) for c in columns] for row in rows[:REPR_ROWS]]
-        return columns, shown, len(rows) - len(shown)
+        shown = [[_cell(row.get(c)) for c in columns] for row in rows]
+        return columns, shown, total - len(shown)
 
     def __repr__(self) -> str:
         head = ", ".join(f"{k}={_cell(v, quote=True)}" for k, v in self._header())

@@ -16,6 +16,11 @@ from radsolve.core.protocol import Note, Outcome, ResultProtocol, message_of
 SPECTROSCOPIC_LETTERS = "spdfghiklmnoqrtuvwxyz"  # j is skipped by convention
 
 
+def certificate_key(l: int, j: float | None):
+    """The key of a partial wave in ``SolveResult.certificates`` and ``bound_counts``: l, or ``"l=1,j=3/2"``."""
+    return l if j is None else f"l={l},j={int(round(2 * j))}/2"
+
+
 def orbital_letter(l: int) -> str:
     """Spectroscopic letter of orbital angular momentum ``l`` (s, p, d, f, g, h, i, k, ...)."""
     if l < len(SPECTROSCOPIC_LETTERS):
@@ -296,8 +301,7 @@ class SolveResult(ResultProtocol):
             lev.status is not None for lev in self.levels) else ("label", "energy", "error_estimate", "converged")
 
     def _count_cells(self, lev: Level) -> tuple[Any, Any]:
-        key = lev.l if lev.j is None else f"l={lev.l},j={int(round(2 * lev.j))}/2"
-        cert = (self.certificates or {}).get(key)
+        cert = (self.certificates or {}).get(certificate_key(lev.l, lev.j))
         if cert is None:
             return None, None
         return ("inf" if cert.count is None else cert.count), bool(cert.certain)

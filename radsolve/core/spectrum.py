@@ -49,7 +49,7 @@ from radsolve.errors import InputError
 from radsolve.core.extrapolation import extrapolate
 from radsolve.core.grids import GridSpan, potential_on_grid
 from radsolve.core.protocol import Note, Outcome
-from radsolve.core.result import GridSample, Level, SolveResult, level_designation
+from radsolve.core.result import GridSample, Level, SolveResult, certificate_key, level_designation
 from radsolve.core.solvers.base import METHODS, RadialSolver, solver_class
 from radsolve.core.solvers.registry import EVERY_METHOD
 from radsolve.core.inputs import validated_count, validated_dimension, validated_l
@@ -699,7 +699,7 @@ def solve(
         plan = grown
 
     return _assemble(channels, plan, runs, classes, method_name, count, targets, kinetic, mu, system, pot,
-                     spin_orbit, dimension)
+                     dimension)
 
 
 def _box_short(ch: _Channel, plan: _BoxPlan, run: _Run) -> bool:
@@ -712,7 +712,7 @@ def _box_short(ch: _Channel, plan: _BoxPlan, run: _Run) -> bool:
 
 
 def _assemble(channels, plan, runs, classes, method_name, count, targets, kinetic, mu, system, pot,
-              spin_orbit, dimension) -> SolveResult:
+              dimension) -> SolveResult:
     levels: list[Level] = []
     notes: list[Note] = []
     kept: dict = {}
@@ -800,7 +800,7 @@ def _assemble(channels, plan, runs, classes, method_name, count, targets, kineti
     for ch in channels:
         found = kept[ch.key]
         bound_counts[ch.key] = None if found >= count else found
-    certificates = {_result_key(ch.key, spin_orbit): ch.certificate for ch in channels}
+    certificates = {certificate_key(*ch.key): ch.certificate for ch in channels}
     if not (_complete(channels, kept, count) and not disagreements):
         outcome = Outcome.INCOMPLETE
     elif not all(lev.converged for lev in levels):
@@ -815,7 +815,7 @@ def _assemble(channels, plan, runs, classes, method_name, count, targets, kineti
         mass=mu,
         tol=targets.tol,
         method=method_name,
-        bound_counts={_result_key(ch.key, spin_orbit): bound_counts[ch.key] for ch in channels},
+        bound_counts={certificate_key(*ch.key): bound_counts[ch.key] for ch in channels},
         v_infinity=min(ch.v_inf for ch in channels),
         units=system.name,
         dimension=dimension,
@@ -833,10 +833,6 @@ def _complete(channels, kept, count) -> bool:
         if kept[ch.key] < promised:
             return False
     return True
-
-
-def _result_key(key: Key, spin_orbit: bool):
-    return _key_text(key) if spin_orbit else key[0]
 
 
 def _key_text(key: Key) -> str:

@@ -16,9 +16,7 @@ import math
 import textwrap
 from typing import Any
 
-
 TABLE_WIDTH = 80
-
 
 
 # ---------------------------------------------------------------- helpers
@@ -213,7 +211,7 @@ def certificate_text(result) -> str:
 
 def levels_json(result, unit: str | None = None) -> str:
     """:meth:`SolveResult.to_json`: one JSON document, energies in ``unit`` (None: the result's own)."""
-    return result.to_json(unit=_output_unit(result, unit))
+    return result.to_json(unit=unit)
 
 
 def levels_csv(result, unit: str | None = None) -> str:
@@ -224,7 +222,7 @@ def levels_csv(result, unit: str | None = None) -> str:
     Floats are written with every digit (``repr``); non-finite ones as an
     empty cell.
     """
-    return result.to_csv(unit=_output_unit(result, unit))
+    return result.to_csv(unit=unit)
 
 
 # ---------------------------------------------------------------- families
@@ -371,8 +369,9 @@ def _sci(x: float | None, digits: int = 4) -> str:
     return f"{x:.{digits}e}"
 
 
-def transitions_table(tr, unit: str = "hartree") -> str:
+def transitions_table(tr, unit: str | None = "hartree") -> str:
     """Text tables of a :class:`radsolve.analysis.radiative.TransitionResult`: lines, then states."""
+    unit = unit or "hartree"
     factor = _unit_factor(unit)
     res = tr.result
     pot = res.potential
@@ -417,24 +416,6 @@ def transitions_table(tr, unit: str = "hartree") -> str:
     return "\n".join(lines) + "\n"
 
 
-def transitions_json(tr, unit: str = "hartree") -> str:
-    """:meth:`TransitionResult.to_json` (non-finite numbers as null)."""
-    return tr.to_json(unit=unit)
-
-
-def transitions_csv(tr, unit: str = "hartree") -> str:
-    """:meth:`TransitionResult.to_csv`: one row per line (record 'line'), then one per level (record 'state').
-
-    Line rows fill upper, lower, energy (the transition energy), wavelength_nm
-    (vacuum), oscillator_strength, einstein_A (s^-1) and branching_ratio;
-    state rows fill label, energy (the level), lifetime_s (empty when
-    metastable), metastable (no E1 decay) and ground (the lowest level).
-    The unit column names the energy unit.  A leading ``#`` comment line says
-    that these are model rates; readers skip it.
-    """
-    return tr.to_csv(unit=unit)
-
-
 # ---------------------------------------------------------------- the one writer
 
 #: Output formats of every result type.
@@ -460,16 +441,8 @@ def render(result, unit: str | None = None, fmt: str = "table") -> str:
     if fmt not in FORMATS:
         raise InputError(f"unknown output format {fmt!r}; allowed: " + ", ".join(FORMATS))
     if fmt == "json":
-        return result.to_json(unit=_default_unit(result, unit))
+        return result.to_json(unit=unit)
     if fmt == "csv":
-        return result.to_csv(unit=_default_unit(result, unit))
+        return result.to_csv(unit=unit)
     table = _table_writers().get(type(result).__name__)
-    if table is None:
-        return result.to_table(unit)
-    return table(result, _default_unit(result, unit))
-
-
-def _default_unit(result, unit: str | None) -> str:
-    if unit is not None:
-        return unit
-    return _output_unit(result, None) if hasattr(result, "units") else "hartree"
+    return result.to_table(unit) if table is None else table(result, unit)

@@ -7,6 +7,7 @@ from typing import Any, Sequence
 
 import numpy as np
 
+from radsolve.core.result import certificate_key
 from radsolve.errors import RadsolveError
 from radsolve.analysis.sweeps.result import MISSING, UNBOUND, UNCERTAIN, SweepPointFailed, describe_values
 
@@ -85,7 +86,7 @@ def level_block(result, channels: Sequence[tuple[int, float | None]], count: int
                                                                       else "not converged")
     certificates = getattr(result, "certificates", None) or {}
     for i, (l, j) in enumerate(channels):
-        cert = certificates.get(l if j is None else f"l={l},j={int(round(2 * j))}/2")
+        cert = certificates.get(certificate_key(l, j))
         for k in range(count):
             if not bound[i, k]:
                 state[i, k] = _missing_state(cert, k)

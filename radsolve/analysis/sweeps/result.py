@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import io
+import itertools
 import math
 import os
 from dataclasses import dataclass, field
@@ -263,8 +264,15 @@ class SweepResult(ResultProtocol):
 
     def records(self, unit: str | None = None) -> list[dict[str, Any]]:
         """One flat dict per (finished point, level): the CSV columns (energies in ``unit``)."""
+        return list(self._records(unit))
+
+    def _records(self, unit: str | None = None) -> Iterator[dict[str, Any]]:
         unit = unit or self.energy_unit
-        return [{**{c: row[c] for c in self.columns}, "unit": unit} for row in self.rows(unit)]
+        return ({**{c: row[c] for c in self.columns}, "unit": unit} for row in self.rows(unit))
+
+    def _first_records(self, n: int) -> tuple[list[dict[str, Any]], int]:
+        # a map of millions of points shows its repr without building every row
+        return list(itertools.islice(self._records(), n)), len(self)
 
     def to_dict(self, unit: str | None = None) -> dict[str, Any]:
         """The JSON document: :meth:`metadata`, ``rows``, then how far it got and its status."""
