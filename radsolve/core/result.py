@@ -293,7 +293,10 @@ class SolveResult(ResultProtocol):
 
     def _header(self) -> list[tuple[str, Any]]:
         params = ", ".join(f"{k}={v}" for k, v in self.potential.parameters.items())
-        return [("potential", f"{self.potential.name}({params})"), ("method", self.method), ("tol", self.tol),
+        name = f"{self.potential.name}({params})"
+        if not params and getattr(getattr(self.potential, "family", None), "formula", None):
+            name = self.potential.family.formula  # a formula or table says what it is by its expression
+        return [("potential", name), ("method", self.method), ("tol", self.tol),
                 ("unit", self._unit(None)[0]), ("levels", len(self.levels))]
 
     def _table_columns(self):
