@@ -276,7 +276,8 @@ def _phase_halvings(channels, span: GridSpan, mass, tops: dict, limit: float) ->
 
 
 def _levels_on(cls, grid, ch: _Channel, mass, inner, count, guesses=None, energies_only: bool = False,
-               peaks=None, statistics: EigenStatistics | None = None, noise: list | None = None):
+               peaks=None, statistics: EigenStatistics | None = None, noise: list | None = None,
+               precision=None):
     """The lowest ``count`` levels of one channel on one grid, energies from its reference.
 
     ``energies_only`` (finite differences, for planning): u is None, and no eigenvector is computed.
@@ -287,7 +288,7 @@ def _levels_on(cls, grid, ch: _Channel, mass, inner, count, guesses=None, energi
     if energies_only:
         energies, u = solver.energies(list(range(count)), guesses=guesses), None
     else:
-        energies, u = solver.levels(list(range(count)), guesses=guesses, peaks=peaks)
+        energies, u = solver.levels(list(range(count)), guesses=guesses, peaks=peaks, precision=precision)
     below = None if ch.confining else solver.count_below(0.0)
     if statistics is not None:
         statistics.add(solver.statistics)
@@ -550,8 +551,12 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
             guesses, peaks = _predictions(history[ch.key], ch.reference, cls.error_orders[0],
                                           plan.predicted.get(ch.key))
             noise: list = []
+            # The accuracy each grid energy needs: the level's target (the
+            # solver keeps its noise well below it).
+            precision = None if guesses is None else [
+                targets.energy_target(g + ch.reference, ch.v_inf) for g in guesses]
             energies, u, below, values = _levels_on(cls, grid, ch, mass, inner, want, guesses, peaks=peaks,
-                                                    statistics=statistics, noise=noise)
+                                                    statistics=statistics, noise=noise, precision=precision)
             grid_counts[ch.key].append(below)
             history[ch.key].append([(float(energies[k]) + ch.reference, u[k], grid) for k in range(want)])
             levels = best[ch.key]

@@ -55,6 +55,13 @@ _MAX_RAYLEIGH = 6
 #: previous one no longer converges (cubically): it is rounding noise.
 _NOISE = 1e-10
 _STALLED = 1e-3
+#: A Rayleigh quotient's rounding noise, in units of :func:`rounding_sensitivity`:
+#: measured against bisection on the same matrices (hydrogen, oscillator,
+#: Morse, Yukawa, Lennard-Jones, inverse-square core), the quotients differ by
+#: at most 8 eps * rms |T_ij z_i z_j|, bisection itself by 6.4.
+RAYLEIGH_NOISE_FACTOR = 2.0
+#: A Rayleigh quotient is kept when its noise is below this share of the precision asked.
+_NOISE_SHARE_OF_PRECISION = 0.1
 #: The bisection window around a Rayleigh quotient: at least this wide (relative),
 #: far beyond the quotient's rounding noise.
 _POLISH_WINDOW = 1e-9
@@ -71,13 +78,16 @@ _EDGE_MARGIN = 1e-9
 class EigenStatistics:
     """What the eigenvalue searches of one solve did (a debug statistic).
 
-    ``confirmed``: levels whose predicted window was proven by Sturm counts;
+    ``confirmed``: levels whose predicted window was proven by Sturm counts
+    (``polished`` of them bisected inside it, where the precision asked
+    needed more than a Rayleigh quotient gives);
     ``missed``: levels of windows that were not (found again by bisection);
     ``bisected``: levels found by index bisection without a prediction;
     ``sturm_counts``: single Sturm counts; ``solves``: tridiagonal solves.
     """
 
     confirmed: int = 0
+    polished: int = 0
     missed: int = 0
     bisected: int = 0
     sturm_counts: int = 0
@@ -187,23 +197,24 @@ def _rayleigh(d, e, x: float, row, stats: EigenStatistics):
     return x, rhs, max(rho, tiny * abs(x))
 
 
-def _polished(d, e, lo: int, hi: int, windows: list, stats: EigenStatistics) -> np.ndarray | None:
-    """Eigenvalues lo..hi bisected inside their windows, or None when the windows do not prove them.
+def _proven(d, e, lo: int, hi: int, windows: list, stats: EigenStatistics) -> bool:
+    """The windows prove that the j-th holds eigenvalue number lo + j, at most one each.
 
-    Each window (a Rayleigh quotient +- its widened residual bound) must hold
-    exactly one eigenvalue, the windows must be disjoint and ascending, and
-    the Sturm counts below the first and above the last must differ by their
-    number: then the j-th window holds eigenvalue number lo + j.  Bisection
-    inside a window (LAPACK stebz, ~25 steps instead of the ~130 of a
-    bisection by index) gives the value its full relative accuracy, which a
-    Rayleigh quotient computed with a pivoted solve does not have on this
-    graded matrix.
+    They must be disjoint and ascending, and the Sturm counts below the first
+    and above the last must differ by their number.  Each window holds an
+    eigenvalue (a Rayleigh quotient +- its widened residual bound does), so
+    with k disjoint windows and exactly k eigenvalues between their ends,
+    each holds exactly one, in order.
     """
     for (_, top), (bottom, _) in zip(windows[:-1], windows[1:]):
         if top >= bottom:
-            return None
-    if sturm_count(d, e, windows[0][0], stats) != lo or sturm_count(d, e, windows[-1][1], stats) != hi + 1:
-        return None
+            return False
+    return (sturm_count(d, e, windows[0][0], stats) == lo
+            and sturm_count(d, e, windows[-1][1], stats) == hi + 1)
+
+
+def _bisected_in(d, e, windows: list, stats: EigenStatistics) -> np.ndarray | None:
+    """Each window's eigenvalue by bisection inside it (LAPACK stebz), or None if one holds not exactly one."""
     values = np.empty(len(windows))
     for j, (low, high) in enumerate(windows):
         m, w, *_rest, info = dstebz(d, e, 1, low, high, 1, 1, ABSOLUTE_TOLERANCE, b"E")
@@ -250,38 +261,56 @@ def _stein(d, e, values) -> np.ndarray:
 
 
 def eigenpairs(d: np.ndarray, e: np.ndarray, lo: int, hi: int, predictions=None, *, vectors: bool = True,
-               rows=None, stats: EigenStatistics | None = None):
-    """Eigenvalues number lo..hi of tridiag(e, d, e), and their unit eigenvectors.
+               rows=None, precision=None, stats: EigenStatistics | None = None):
+    """Eigenvalues number lo..hi of tridiag(e, d, e), their unit eigenvectors and rounding noise.
 
     ``predictions`` (hi - lo + 1 values, ascending) start a Rayleigh quotient
-    iteration for each level; the indices are then proven by Sturm counts,
-    and index bisection takes over when they are not.  ``rows``: for each
-    level a row where its state is large (from a coarser grid), or None.
+    iteration for each level; the indices are then proven by two Sturm counts
+    (:func:`_proven`), and index bisection takes over when they are not.
+    ``rows``: for each level a row where its state is large (from a coarser
+    grid), or None.  ``precision``: the absolute accuracy each value needs
+    (None: as accurate as bisection).  A Rayleigh quotient, computed with a
+    pivoted solve, is noisier than bisection on this graded matrix
+    (:data:`RAYLEIGH_NOISE_FACTOR`); where its noise is not well below the
+    precision asked, the value is bisected inside its proven window.
 
-    Returns ``(values, vectors)``; ``vectors`` is (n, hi - lo + 1), or None
-    when not asked for.
+    Returns ``(values, vectors, noise)``: ``vectors`` (n, hi - lo + 1) or
+    None when not asked for; ``noise`` each value's rounding noise
+    (:func:`rounding_sensitivity`), or None without vectors.
     """
     stats = stats if stats is not None else EigenStatistics()
     count = hi - lo + 1
     if predictions is not None and len(predictions) == count and np.all(np.isfinite(predictions)):
-        vecs = np.empty((d.size, count)) if vectors else None
-        windows = []
+        vecs = np.empty((d.size, count))
+        windows, values = [], np.empty(count)
         for j, guess in enumerate(predictions):
             x, z, rho = _rayleigh(d, e, float(guess), None if rows is None else rows[j], stats)
             if z is None:
                 break
             half = max(_RESIDUAL_SAFETY * rho, _POLISH_WINDOW * abs(x))
             windows.append((x - half, x + half))
-            if vectors:
-                vecs[:, j] = z
-        values = _polished(d, e, lo, hi, windows, stats) if len(windows) == count else None
-        if values is not None:
-            stats.confirmed += count
-            if vectors and count > 1 and np.any(np.diff(values) <= CLUSTER_GAP * np.abs(values[1:])):
-                vecs = vectors_at(d, e, values, stats)  # close pairs: orthogonalized together
-            return values, vecs
+            values[j] = x
+            vecs[:, j] = z
+        if len(windows) == count and _proven(d, e, lo, hi, windows, stats):
+            sensitivity = rounding_sensitivity(d, e, vecs)
+            noise = RAYLEIGH_NOISE_FACTOR * sensitivity
+            needed = None if precision is None else np.broadcast_to(np.asarray(precision, dtype=float), (count,))
+            if needed is None or np.any(noise > _NOISE_SHARE_OF_PRECISION * needed):
+                values = _bisected_in(d, e, windows, stats)
+                noise = sensitivity
+                if values is not None:
+                    stats.polished += count
+            if values is not None:
+                stats.confirmed += count
+                if vectors and count > 1 and np.any(np.diff(values) <= CLUSTER_GAP * np.abs(values[1:])):
+                    vecs = vectors_at(d, e, values, stats)  # close pairs: orthogonalized together
+                return values, (vecs if vectors else None), (noise if vectors else None)
         stats.missed += count
     else:
         stats.bisected += count
     values = bisect_by_index(d, e, lo, hi)
-    return values, (vectors_at(d, e, values, stats) if vectors else None)
+    if not vectors:
+        return values, None, None
+    vecs = vectors_at(d, e, values, stats)
+    return values, vecs, rounding_sensitivity(d, e, vecs)
+

@@ -118,14 +118,17 @@ class RadialSolver:
         raise NotImplementedError
 
     def levels(self, indices: Sequence[int], guesses: Sequence[float] | None = None,
-               peaks: Sequence[float] | None = None) -> tuple[np.ndarray, np.ndarray]:
+               peaks: Sequence[float] | None = None,
+               precision: Sequence[float] | None = None) -> tuple[np.ndarray, np.ndarray]:
         """Energies (hartree) and wavefunctions of the levels with these node numbers.
 
         ``guesses`` are predictions of the same levels on this grid from this
         method's coarser grids (hartree; Richardson-extrapolated once two are
         known), which a method may use to start its search; ``peaks`` the
         radii where the states were largest on the previous grid.  Both are
-        None on the first grid.  A method must find the levels by their node
+        None on the first grid.  ``precision``: the absolute accuracy each
+        energy needs on this grid (None: the method's best), which a method
+        may use to stop early.  A method must find the levels by their node
         numbers whatever the guesses are: a guess may speed it up, never
         change which level is returned.
 

@@ -20,7 +20,7 @@ from typing import Sequence
 import numpy as np
 
 from radsolve.core.solvers.base import RadialSolver
-from radsolve.core.tridiagonal import eigenpairs, rounding_sensitivity, sturm_count
+from radsolve.core.tridiagonal import eigenpairs, sturm_count
 
 
 class FiniteDifference(RadialSolver):
@@ -62,21 +62,24 @@ class FiniteDifference(RadialSolver):
         return getattr(self, "_noise", [])
 
     def energies(self, indices: Sequence[int], guesses=None) -> np.ndarray:
-        """The energies of :meth:`levels` alone (planning needs no eigenvectors)."""
-        return self._solve(list(indices), guesses, vectors=False)[0]
+        """The energies of :meth:`levels` alone, as accurate as cheap (planning needs no more)."""
+        return self._solve(list(indices), guesses, vectors=False, precision=np.inf)[0]
 
-    def _solve(self, indices: list[int], guesses, vectors: bool, rows=None):
+    def _solve(self, indices: list[int], guesses, vectors: bool, rows=None, precision=None):
         d, e, b = self._cached_matrix()
         if max(indices) >= d.size:
             raise ValueError(f"level {max(indices)} asked of a matrix of size {d.size}")
         lo, hi = min(indices), max(indices)
         contiguous = indices == list(range(lo, hi + 1))
         predictions = guesses if contiguous and guesses is not None and len(guesses) == len(indices) else None
-        values, z = eigenpairs(d, e, lo, hi, predictions, vectors=vectors, rows=rows, stats=self.statistics)
+        if predictions is None:
+            precision = None
+        values, z, noise = eigenpairs(d, e, lo, hi, predictions, vectors=vectors, rows=rows,
+                                      precision=precision, stats=self.statistics)
         pick = [i - lo for i in indices]
-        return values[pick], (None if z is None else z[:, pick])
+        return values[pick], (None if z is None else z[:, pick]), (None if noise is None else noise[pick])
 
-    def levels(self, indices: Sequence[int], guesses=None, peaks=None) -> tuple[np.ndarray, np.ndarray]:
+    def levels(self, indices: Sequence[int], guesses=None, peaks=None, precision=None) -> tuple[np.ndarray, np.ndarray]:
         indices = list(indices)
         _, _, b = self._cached_matrix()
         rows = None
@@ -84,7 +87,7 @@ class FiniteDifference(RadialSolver):
             # rows of this grid's matrix nearest to the radii where the states peaked before
             r = self.grid.r[self.inner + 1 : self.grid.size - 1]
             rows = [None if p is None else int(min(np.searchsorted(r, p), r.size - 1)) for p in peaks]
-        values, z = self._solve(indices, guesses, vectors=True, rows=rows)
-        self._noise = list(rounding_sensitivity(*self._cached_matrix()[:2], z))
+        values, z, noise = self._solve(indices, guesses, vectors=True, rows=rows, precision=precision)
+        self._noise = list(noise)
         w = (z / np.sqrt(b)[:, None]).T
         return values, self.to_u(w, self.inner + 1)
