@@ -14,7 +14,7 @@ import math
 
 from scipy.linalg.lapack import dtbtrs
 
-_CHUNK = 512
+_CHUNK = 8192
 #: Largest growth (natural log) allowed within one chunk.
 _GROWTH = 600.0
 

@@ -33,6 +33,8 @@ from radsolve.core.recurrence import three_term
 from radsolve.core.solvers.base import RadialSolver
 
 _INWARD_EFOLDS = 45.0
+#: Half-width of the first bracket around a guess, relative to it.
+_GUESS_WIDTH = 1e-5
 
 
 def _sign_changes(y: np.ndarray) -> int:
@@ -133,14 +135,16 @@ class NumerovShooting(RadialSolver):
         """Energies lo < hi with count_below(lo) == k and count_below(hi) == k + 1."""
         floor = self.spectrum_floor
         if guess is not None and np.isfinite(guess):
-            width = 1e-3 * max(abs(guess), 1e-30)
+            # Guesses are the coarser grids' Richardson predictions: a narrow
+            # bracket first (each miss costs one count and widens it fourfold).
+            width = _GUESS_WIDTH * max(abs(guess), 1e-30)
             lo, hi = max(guess - width, floor), guess + width
             n_lo = self.count_below(lo)
             while n_lo > k:
                 width *= 4.0
                 lo = max(guess - width, floor)
                 n_lo = self.count_below(lo)
-            width = 1e-3 * max(abs(guess), 1e-30)
+            width = _GUESS_WIDTH * max(abs(guess), 1e-30)
             n_hi = self.count_below(hi)
             while n_hi <= k:
                 width *= 4.0
