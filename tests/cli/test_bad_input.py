@@ -92,7 +92,7 @@ USAGE_ERRORS = [
     (["levels", "coulomb", "--lmax", "-1"], ["--lmax"]),
     (["levels", "coulomb", "--count", "0"], ["--count"]),
     (["levels", "coulomb", "--count", "two"], ["--count"]),
-    (["levels", "coulomb", "--tol", "small"], ["--tol", "number"]),
+    (["levels", "coulomb", "--tol", "small"], ["--tol", "small", "is not a valid"]),
     (["levels", "coulomb", "--no-such-option"], ["--no-such-option"]),
     (["levels"], ["NAME"]),
     (["no-such-command"], ["no-such-command"]),
