@@ -1,0 +1,418 @@
+"""Continuum states above the threshold: integration outward and matching to free or Coulomb waves.
+
+For an energy E above the threshold V(inf) the regular solution u of
+
+    -1/(2 m) u'' + [V + L(L+1)/(2 m r**2)] u = E u,   u ~ r**lambda at the origin,
+
+is integrated outward with Numerov's method on the mapped grid of
+:mod:`radsolve.core.grids` (every breakpoint a grid point), for all energies of
+one partial wave at once (one column per energy).  Beyond the matching radius
+R_a, where the rest of the potential can change the phase by less than a
+share of ``tol``, u is a combination of the free solutions,
+
+    u = A [J(kr) cos(delta) - Y(kr) sin(delta)],   A > 0,
+
+with J, Y the Riccati-Bessel functions x j_L(x), x y_L(x) (scipy.special) for
+a short-range tail, or the Coulomb functions F_L(eta, kr), -G_L(eta, kr) for
+a tail C/r (eta = m C / k; mpmath, since scipy has none).  Two points give
+A cos(delta) and A sin(delta), hence delta modulo 2 pi; u is positive near
+the origin, and its zeros on (0, r] fix the branch: with the phases
+J = M sin(theta), Y = -M cos(theta), u = A M sin(theta + delta) and theta +
+delta crosses each multiple of pi upward exactly once at each zero of u
+(the variable-phase picture, textbook: Calogero 1967).  So delta is absolute:
+continuous in E without unwrapping, tending to 0 as E -> inf for potentials
+regular at the origin, and equal to N pi at E -> 0 for N bound levels
+(Levinson's theorem).
+
+Error estimate: the same energies on nested grids of halving step
+(Richardson with Numerov's h**4, h**6 series; the estimate is the change of
+the extrapolated value), plus the change of delta between matching at R_a and
+at the end of the grid (about 1.6 R_a), plus a rounding floor.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from radsolve.core import probe as probing
+from radsolve.core.grids import GridSpan, potential_on_grid
+from radsolve.errors import InputError
+
+#: Phase of the fastest wave per step of the coarsest grid.
+PHASE_PER_STEP = 0.4
+#: At most this many halvings beyond the coarsest grid.
+MAX_HALVINGS = 6
+#: Never more points than this on one grid.
+MAX_POINTS = 300_000
+#: The potential beyond the matching radius may change delta by this share of tol.
+TAIL_SHARE = 0.02
+#: The grid ends this many times the matching radius out.
+END_FACTOR = 1.6
+#: Largest matching radius, in units of the potential's inner length.
+LARGEST_MATCH = 1e7
+#: Rows of Numerov coefficients computed at once.
+_BLOCK = 256
+
+
+@dataclass(frozen=True)
+class Tail:
+    """How a channel's potential is matched far out: ``kind`` is ``"short"`` or ``"coulomb"``.
+
+    ``coefficient`` is C of V - V(inf) ~ C/r (0 for short range); ``radius``
+    the matching radius R_a; ``limited`` is True when R_a had to stop at
+    :data:`LARGEST_MATCH` inner lengths before the tail's share of the error
+    fell below its target (then the radius term of the estimate shows it).
+    """
+
+    kind: str
+    coefficient: float
+    radius: float
+    limited: bool = False
+
+
+@dataclass
+class ChannelPhases:
+    """Phase shifts of one partial wave at the energies asked (all arrays over energies)."""
+
+    phase: np.ndarray
+    error: np.ndarray
+    grid_error: np.ndarray
+    radius_error: np.ndarray
+    converged: np.ndarray
+    grids: int
+    points: int
+    tail: Tail
+    coulomb_phase: np.ndarray | None = None  # sigma_L = arg Gamma(L + 1 + i eta) for a Coulomb tail
+    notes: list = field(default_factory=list)
+
+
+def channel_tail(potential, profile, mass: float, k_min: float, k_max: float, tol: float,
+                 start: float) -> Tail:
+    """The matching rule and radius of one channel; InputError when there is none.
+
+    Confining potentials have no continuum; tails of 1/r**2 or of a power
+    between 1 and 2 (or none recognizable) have no matching rule here.
+    """
+    tail = profile.tail
+    if profile.confining:
+        raise InputError("the potential confines (V -> inf as r -> inf): there is no continuum, every "
+                         "level is bound; continuum quantities need a potential with a limit at infinity",
+                         parameter="potential")
+    if tail.kind == "short":
+        coefficient = 0.0
+        kind = "short"
+    elif tail.kind == "long" and tail.power == 1.0:
+        coefficient = float(tail.coefficient)
+        kind = "coulomb"
+    elif tail.kind == "inverse_square":
+        raise InputError(f"V - V(inf) falls off like {tail.coefficient:.4g}/r**2: the phase shift of an "
+                         "inverse-square tail needs Bessel functions of non-integer order, not implemented; "
+                         "allowed: tails faster than 1/r**2 (matched to free waves) or exactly C/r "
+                         "(matched to Coulomb waves)", parameter="potential")
+    elif tail.kind == "long":
+        raise InputError(f"V - V(inf) falls off like r**-{tail.power:.3g}, more slowly than 1/r**2 but not as "
+                         "1/r: no matching rule (allowed: tails faster than 1/r**2, or exactly C/r)",
+                         parameter="potential")
+    else:
+        raise InputError("V - V(inf) has no recognizable law at large r (it oscillates or changes sign "
+                         "far out): the phase shift cannot be matched to free waves", parameter="potential")
+    r = probing.PROBE_RADII
+    with np.errstate(all="ignore"):
+        rest = np.abs(probing._raw(potential, r) - profile.v_infinity - coefficient / r)
+    rest = np.where(np.isfinite(rest), rest, np.inf)
+    # |change of delta| from V beyond R <= 2 m int_R^inf |V| J(kr)**2 / k dr, |J(x)| <= min(1, x):
+    # the weight max over the energies of min(1/k, k r**2).
+    weight = np.where(r * k_max <= 1.0, k_max * r**2, np.where(r * k_min >= 1.0, 1.0 / k_min, r))
+    f = 2.0 * mass * rest * weight * r  # integrand in ln r
+    dlog = math.log(r[1] / r[0])
+    seg = 0.5 * (f[1:] + f[:-1]) * dlog
+    beyond = np.concatenate((np.cumsum(seg[::-1])[::-1], [0.0]))
+    ok = np.nonzero((beyond <= TAIL_SHARE * tol) & (r > start))[0]
+    lowest = max(start * 4.0, 2.0 * max(profile.breakpoints, default=0.0))
+    if math.isfinite(profile.inner_length):
+        lowest = max(lowest, 4.0 * profile.inner_length)
+    largest = LARGEST_MATCH * (profile.inner_length if math.isfinite(profile.inner_length) else start)
+    limited = False
+    if ok.size:
+        radius = max(float(r[ok[0]]), lowest)
+    else:
+        radius = largest
+        limited = True
+    if radius > largest:
+        radius, limited = largest, True
+    return Tail(kind, coefficient, radius, limited)
+
+
+def _riccati(L: int, x: np.ndarray):
+    """(J, Y) = (x j_L(x), x y_L(x)) from scipy.special."""
+    from scipy.special import spherical_jn, spherical_yn
+
+    return x * spherical_jn(L, x), x * spherical_yn(L, x)
+
+
+def _coulomb(L: int, eta: np.ndarray, x: np.ndarray):
+    """(J, Y) = (F_L(eta, x), -G_L(eta, x)) from mpmath (scipy has no Coulomb wave functions)."""
+    import mpmath
+
+    J = np.empty(x.shape)
+    Y = np.empty(x.shape)
+    with mpmath.workdps(20):
+        for i, (e, xx) in enumerate(zip(np.broadcast_to(eta, x.shape).flat, x.flat)):
+            J.flat[i] = float(mpmath.coulombf(L, e, xx))
+            Y.flat[i] = -float(mpmath.coulombg(L, e, xx))
+    return J, Y
+
+
+def coulomb_phase(L: int, eta) -> np.ndarray:
+    """sigma_L = arg Gamma(L + 1 + i eta) (scipy.special.loggamma, the continuous branch)."""
+    from scipy.special import loggamma
+
+    return np.imag(loggamma(L + 1.0 + 1j * np.asarray(eta, dtype=float)))
+
+
+def _reference_phase(L: int, x: np.ndarray, eta: np.ndarray | None) -> np.ndarray:
+    """The WKB (Langer) phase of the free or Coulomb wave at x: within pi/2 of the true one."""
+    nu = L + 0.5
+    if eta is None:
+        with np.errstate(all="ignore"):
+            inside = np.sqrt(np.maximum(x**2 - nu**2, 0.0)) - nu * np.arccos(np.minimum(nu / x, 1.0))
+        return np.where(x > nu, inside + 0.25 * math.pi, 0.0)
+    from scipy.integrate import quad
+
+    out = np.zeros(x.shape)
+    for i, (xx, e) in enumerate(zip(x.flat, np.broadcast_to(eta, x.shape).flat)):
+        turn = e + math.sqrt(e * e + nu * nu)
+        if xx > turn:
+            val, _ = quad(lambda s: math.sqrt(max(1.0 - 2.0 * e / s - nu * nu / (s * s), 0.0)), turn, xx,
+                          limit=200)
+            out.flat[i] = val + 0.25 * math.pi
+    return out
+
+
+def _basis_phase(J: np.ndarray, Y: np.ndarray, reference: np.ndarray) -> np.ndarray:
+    """theta with J = M sin(theta), Y = -M cos(theta), on the branch nearest ``reference``."""
+    angle = np.arctan2(J, -Y)
+    return angle + 2.0 * math.pi * np.round((reference - angle) / (2.0 * math.pi))
+
+
+def _shoot(grid, values: np.ndarray, centrifugal: float, mass: float, energies: np.ndarray, start: int,
+           exponent: float, hard_core: bool, keep_from: int, mark: int):
+    """Numerov outward for every energy at once.
+
+    Returns u on grid points keep_from ... end (rows) for each energy
+    (columns), the number of zeros of u on (0, r[mark]] and on (0, r[end]].
+    """
+    _, q = grid.liouville_coefficients(values, 0, mass, centrifugal=centrifugal)
+    b = grid.jacobian**2
+    h2 = grid.step**2
+    n = grid.size
+    ne = energies.size
+
+    def t_rows(lo, hi):
+        t = h2 * 2.0 * mass * (q[lo:hi, None] - energies[None, :] * b[lo:hi, None]) / 12.0
+        return np.minimum(t, 0.9)  # deep in a forbidden region only the growth matters
+
+    # y = (1 - t) w; w = e**-(lambda - 1/2) h at the first point against 1 at the next
+    # (u ~ r**lambda, as the solvers impose it), or w = 0 there at a hard core
+    t0 = t_rows(start, start + 2)
+    ghost = 0.0 if hard_core else math.exp(-(exponent - 0.5) * grid.step)
+    y_prev = ghost * (1.0 - t0[0])
+    y_cur = 1.0 - t0[1]
+    zeros = np.zeros(ne, dtype=np.int64)
+    zeros_mark = zeros.copy()
+    kept = np.empty((n - keep_from, ne))
+    if start >= keep_from:
+        kept[start - keep_from] = y_prev
+    if start + 1 >= keep_from:
+        kept[start + 1 - keep_from] = y_cur
+    for lo in range(start + 1, n - 1, _BLOCK):
+        hi = min(lo + _BLOCK, n - 1)
+        t = t_rows(lo, hi)
+        d = 2.0 + 12.0 * t / (1.0 - t)
+        for i in range(lo, hi):  # y[i + 1] = d[i] y[i] - y[i - 1]
+            y_new = d[i - lo] * y_cur - y_prev
+            zeros += (y_new * y_cur < 0.0)
+            y_prev, y_cur = y_cur, y_new
+            if i + 1 >= keep_from:
+                kept[i + 1 - keep_from] = y_cur
+            if i + 1 == mark:
+                zeros_mark = zeros.copy()
+        if hi + 1 < keep_from:
+            big = np.maximum(np.abs(y_cur), np.abs(y_prev))
+            scale = np.where(big > 1e100, 1.0 / big, 1.0)
+            y_cur, y_prev = y_cur * scale, y_prev * scale
+    kept_t = t_rows(keep_from, n)
+    u = np.sqrt(grid.jacobian[keep_from:, None]) * kept / (1.0 - kept_t)
+    return u, zeros_mark, zeros
+
+
+def _match(u, r, rows1, row2, k, L, eta, zeros):
+    """delta (absolute) from u at rows ``rows1`` (per energy) and ``row2`` (common) of the kept block."""
+    cols = np.arange(k.size)
+    r1 = r[rows1]
+    r2 = np.full(k.size, r[row2])
+    u1 = u[rows1, cols]
+    u2 = u[row2, cols]
+    if eta is None:
+        J1, Y1 = _riccati(L, k * r1)
+        J2, Y2 = _riccati(L, k * r2)
+    else:
+        J1, Y1 = _coulomb(L, eta, k * r1)
+        J2, Y2 = _coulomb(L, eta, k * r2)
+    det = J1 * Y2 - J2 * Y1
+    s = (u1 * J2 - u2 * J1) / det
+    c = (u1 * Y2 - u2 * Y1) / det
+    delta0 = np.arctan2(s, c)
+    theta2 = _basis_phase(J2, Y2, _reference_phase(L, k * r2, eta))
+    phi = theta2 + delta0
+    # u has `zeros` zeros on (0, r2]: theta + delta lies in (N pi, (N + 1) pi) there
+    m = np.round((zeros * math.pi + 0.5 * math.pi - phi) / (2.0 * math.pi))
+    return delta0 + 2.0 * math.pi * m
+
+
+def _richardson(values: list, orders: tuple) -> tuple[np.ndarray, np.ndarray]:
+    """Richardson table over grids of halving step (arrays over energies): (best, estimate).
+
+    The best value eliminates as many orders as the grids allow but one; the
+    estimate is its change between the last two grids.
+    """
+    table = [np.asarray(v, dtype=float) for v in values]
+    n = len(table)
+    depth = min(n - 2, len(orders))
+    for j in range(depth):
+        factor = 2.0 ** orders[j] - 1.0
+        table = [table[i] + (table[i] - table[i - 1]) / factor for i in range(1, len(table))]
+    return table[-1], np.abs(table[-1] - table[-2])
+
+
+def _span(r_min: float, r_max: float, step: float, anchors) -> GridSpan:
+    scale = r_max / max(math.log(r_max / r_min), 1.0)
+    return GridSpan.covering(r_min, r_max, step, scale, anchors)
+
+
+def _coarse_step(potential, profile, span_probe: GridSpan, L: float, mass: float, e_max: float) -> float:
+    """The step in xi after which the fastest wave turns by PHASE_PER_STEP per step."""
+    grid = span_probe.grid(0)
+    with np.errstate(all="ignore"):
+        v = probing._raw(potential, grid.r) - profile.v_infinity + L * (L + 1.0) / (2.0 * mass * grid.r**2)
+        k = np.sqrt(np.maximum(2.0 * mass * (e_max - v), 0.0))
+    phase = float(np.max(np.where(np.isfinite(k), k, 0.0) * grid.jacobian))
+    return min(0.1, PHASE_PER_STEP / phase) if phase > 0 else 0.1
+
+
+def channel_phases(potential, profile, L: float, l: int, mass: float, energies: np.ndarray, tol: float,
+                   hard_core: float | None = None, boundary_share: float = 1e-3) -> ChannelPhases:
+    """Phase shifts of one partial wave at ``energies`` (measured from V(inf), all > 0).
+
+    ``L`` is the effective angular momentum (an integer in three dimensions);
+    ``hard_core`` a radius inside which u = 0 (a hard sphere).
+    """
+    energies = np.asarray(energies, dtype=float)
+    k = np.sqrt(2.0 * mass * energies)
+    e_max = float(energies.max())
+    Lint = int(round(L))
+    if abs(L - Lint) > 1e-12:
+        raise InputError("phase shifts are matched to Riccati-Bessel functions of whole order: the "
+                         "space dimension must be odd (3, 5, ...)", parameter="dimension")
+    exponent = profile.origin_exponent(L, mass)
+    if hard_core is not None:
+        r_min = float(hard_core)
+    else:
+        r_min = profile.inner_cutoff(L, mass, boundary_share * tol)
+        if math.isfinite(profile.inner_length) and not profile.scale_free:
+            hi = max(profile.inner_length, r_min) * 1e6
+            lo = max(r_min, profile.origin.finite_from * 10.0, 1e-28)
+            if profile.origin.kind == "core":
+                lo = max(profile.origin.finite_from * 10.0, 1e-28)
+            nepers = 0.5 * math.log(1.0 / (boundary_share * tol)) + 6.0
+            wkb = probing.wkb_inner_radius(potential, L, mass, e_max + profile.v_infinity, nepers, lo, hi)
+            r_min = max(r_min, wkb) if profile.origin.kind != "core" else max(wkb, lo)
+        elif not math.isfinite(profile.inner_length):
+            # nothing but a constant (or c/r**2): start where the wave is still a power law
+            r_min = max(r_min, 1e-8 / max(float(k.max()), 1e-300))
+    tail = channel_tail(potential, profile, mass, float(k.min()), float(k.max()), tol, r_min)
+    eta = mass * tail.coefficient / k if tail.kind == "coulomb" else None
+    r_end = END_FACTOR * tail.radius
+    anchors = [b for b in profile.breakpoints if r_min < b < r_end]
+    if hard_core is not None:
+        anchors = sorted(set(anchors) | {r_min})
+        span_min = r_min * (1.0 - 1e-3)
+    else:
+        span_min = r_min
+    probe_span = _span(span_min, r_end, 0.1, anchors)
+    step = _coarse_step(potential, profile, probe_span, L, mass, e_max)
+    span = _span(span_min, r_end, step, anchors)
+
+    # Numerov's error is a series in h**4, h**6, ...; a jump of V at a grid point adds every
+    # whole power from h**2 on (as for the levels, radsolve.core.extrapolation)
+    jumps = [b for b in span.anchors if hard_core is None or b != r_min]
+    orders = (2, 3, 4, 5, 6, 7) if jumps else (4, 6, 8, 10)
+    phase = np.full(energies.size, np.nan)
+    grid_error = np.full(energies.size, np.inf)
+    radius_error = np.full(energies.size, np.inf)
+    active = np.arange(energies.size)
+    history: list[tuple[np.ndarray, np.ndarray]] = []  # (outer, inner) on every grid, all energies
+    grids_used = 0
+    points = 0
+    for g in range(MAX_HALVINGS + 1):
+        if span.intervals(g) + 1 > MAX_POINTS:
+            break
+        grid = span.grid(g)
+        values = potential_on_grid(potential, grid.r, span.anchors) - profile.v_infinity
+        start = 0
+        if hard_core is not None:
+            start = int(np.argmin(np.abs(grid.r - r_min)))
+        ra_row = int(np.searchsorted(grid.r, tail.radius))
+        keep_from = ra_row
+        last = grid.size - 1
+        sub = active
+        u, zeros_a, zeros_b = _shoot(grid, values, L * (L + 1.0), mass, energies[sub], start, exponent,
+                                     hard_core is not None, keep_from, ra_row)
+        r = grid.r[keep_from:]
+        kk = k[sub]
+        # partners a quarter wavelength (at most 0.3 R_a) outside R_a and inside the end: every
+        # point used lies beyond the matching radius
+        spacing = np.minimum(0.5 * math.pi / kk, 0.3 * tail.radius)
+        row_a = 0
+        row_b = last - keep_from
+        rows_a = np.clip(np.searchsorted(r, r[row_a] + spacing), 1, row_b)
+        rows_b = np.clip(np.searchsorted(r, r[row_b] - spacing), 0, row_b - 1)
+        e_sub = None if eta is None else eta[sub]
+        outer = _match(u, r, rows_b, row_b, kk, Lint, e_sub, zeros_b)
+        inner = _match(u, r, rows_a, row_a, kk, Lint, e_sub, zeros_a)
+        full_o = np.full(energies.size, np.nan)
+        full_i = np.full(energies.size, np.nan)
+        full_o[sub], full_i[sub] = outer, inner
+        history.append((full_o, full_i))
+        grids_used = g + 1
+        points = grid.size
+        if len(history) >= 3:
+            best, est = _richardson([h[0] for h in history], orders)
+            best_inner, _ = _richardson([h[1] for h in history], orders)
+            rounding = 64.0 * np.finfo(float).eps * math.sqrt(grid.size) * np.maximum(np.abs(best), 1.0)
+            est = est + rounding
+            rad = np.abs(best - best_inner)
+            ok = np.isfinite(best[sub])
+            phase[sub] = np.where(ok, best[sub], phase[sub])
+            grid_error[sub] = est[sub]
+            radius_error[sub] = rad[sub]
+            done = (est[sub] + rad[sub]) <= tol
+            active = sub[~done]
+            if active.size == 0:
+                break
+    if grids_used < 3:
+        # too few grids for an estimate: keep the finest value, flagged
+        phase = history[-1][0]
+    error = grid_error + radius_error
+    converged = error <= tol
+    notes = []
+    if tail.limited:
+        notes.append(f"the tail of V is long: matching stopped at r = {tail.radius:.4g}; its share of the "
+                     "error is in the estimate")
+    coul = coulomb_phase(Lint, eta) if eta is not None else None
+    return ChannelPhases(phase=phase, error=error, grid_error=grid_error, radius_error=radius_error,
+                         converged=converged, grids=grids_used, points=points, tail=tail,
+                         coulomb_phase=coul, notes=notes)
