@@ -16,6 +16,9 @@ The public API (imported on first use, so that the command line starts fast):
   with an error estimate (:func:`expectation` for any observable);
 - :func:`wavefunction` — u(r) and R(r) on the grid or at given radii, with
   CSV / JSON / ``.npz`` export;
+- :func:`phase_shifts`, :func:`scattering` — above the threshold: phase shifts
+  delta_l(E) with error estimates, scattering lengths, effective ranges and the
+  Levinson check;
 - :func:`transitions` — E1 lines, oscillator strengths, Einstein A
   coefficients, lifetimes and branching ratios of the levels with n <= nmax.
 
@@ -54,6 +57,12 @@ _EXPORTS = {
     "transitions_from": ("radsolve.analysis.radiative", "transitions_from"),
     "radial_dipole": ("radsolve.analysis.radiative", "radial_dipole"),
     "TransitionResult": ("radsolve.analysis.radiative", "TransitionResult"),
+    # above the threshold (continuum)
+    "phase_shifts": ("radsolve.analysis.scattering", "phase_shifts"),
+    "scattering": ("radsolve.analysis.scattering", "scattering"),
+    "energy_grid": ("radsolve.analysis.scattering", "energy_grid"),
+    "PhaseShiftResult": ("radsolve.analysis.scattering", "PhaseShiftResult"),
+    "ScatteringResult": ("radsolve.analysis.scattering", "ScatteringResult"),
     # every result type, and the protocol they share
     "ResultProtocol": ("radsolve.core.protocol", "ResultProtocol"),
     "Outcome": ("radsolve.core.protocol", "Outcome"),

@@ -64,7 +64,17 @@ def _check():
     return radsolve.check(tol=1e-8, charges=(1,), masses=(1.0,), nmax=2)
 
 
+def _phase_shifts():
+    # hard sphere of radius 1 in a zero potential, s and p waves
+    return radsolve.phase_shifts(radsolve.formula_potential("0*r"), [0.5, 2.0], l=[0, 1], hard_core=1.0, tol=1e-9)
+
+
+def _scattering():
+    return radsolve.scattering(radsolve.formula_potential("0*r"), l=0, hard_core=1.0, tol=1e-8)
+
+
 CASES = {
+    "phase_shifts": _phase_shifts, "scattering": _scattering,
     "solve": _solve_ok, "solve_not_converged": _solve_rounding, "state": _state, "summary": _summary,
     "transitions": _transitions, "threshold": _threshold, "critical_values": _critical_values,
     "fit": _fit, "check": _check, "sweep": _sweep,
@@ -73,6 +83,7 @@ CASES = {
 
 #: The type each case returns (checked in test_status_success_and_exit_code_agree).
 CASE_TYPES = {
+    "phase_shifts": "PhaseShiftResult", "scattering": "ScatteringResult",
     "solve": "SolveResult", "solve_not_converged": "SolveResult", "state": "State", "summary": "StateSummary",
     "transitions": "TransitionResult", "threshold": "ThresholdResult", "critical_values": "CriticalValues",
     "fit": "FitResult", "check": "CheckReport", "sweep": "SweepResult",
@@ -178,6 +189,16 @@ def test_outside_facts(result):
         assert res.success and len(res.records()) == 2 * 2 * 2
         for row in res.records():  # textbook formula -Z^2/(2 n^2)
             assert row["energy"] == pytest.approx(-row["Z"] ** 2 / (2 * row["n"] ** 2), rel=1e-8)
+    elif name == "phase_shifts":
+        # hard sphere: delta_0 = -k a (textbook formula), k = sqrt(2 E)
+        for row in res.records():
+            if row["l"] == 0:
+                assert row["phase_shift"] == pytest.approx(-(2 * row["energy"]) ** 0.5, abs=1e-8)
+    elif name == "scattering":
+        # hard sphere: a = a_hard, r_0 = 2 a / 3 (textbook formulas)
+        row = res.records()[0]
+        assert row["scattering_length"] == pytest.approx(1.0, abs=1e-7)
+        assert row["effective_range"] == pytest.approx(2.0 / 3.0, abs=1e-6)
     elif name == "check":
         assert res.success and len(res.records()) == len(res.rows) * len(res.methods)
     elif name in ("threshold", "critical_values"):
@@ -205,7 +226,7 @@ def test_every_result_type_is_exported_and_covered():
 
     for module in ("radsolve.core.result", "radsolve.analysis.observables", "radsolve.analysis.radiative",
                    "radsolve.analysis.thresholds", "radsolve.analysis.fitting", "radsolve.analysis.convergence",
-                   "radsolve.analysis.sweeps"):
+                   "radsolve.analysis.sweeps", "radsolve.analysis.scattering"):
         importlib.import_module(module)
 
     def subclasses(cls):

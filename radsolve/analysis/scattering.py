@@ -277,3 +277,235 @@ def phase_shifts(potential, energies, l=0, *, mass=None, tol: float = 1e-8, hard
                             v_infinity=v_inf, energies=e, ls=[c[0] for c in channels], phase=np.array(phase),
                             error=np.array(error), converged=np.array(conv), tail=tail_kind,
                             coulomb_phase=np.array(coul) if coul else None, hard_core=hard_core, notes=notes)
+
+
+# --------------------------------------------------------------------------- scattering parameters
+
+
+#: Low energies of the effective-range fit: k**2 at Chebyshev points of (0, k_fit**2].
+_FIT_POINTS = 14
+#: k_fit times the size of the potential.
+_FIT_REACH = 0.3
+
+
+@dataclass(frozen=True)
+class PartialWaveScattering:
+    """Low-energy scattering of one partial wave (lengths in the unit system's length unit).
+
+    ``levinson`` is ``"agrees"``, ``"disagrees"``, ``"uncertain"`` (the bound
+    count is uncertain or a level sits at the threshold) or
+    ``"not applicable"`` (hard core, repulsive core or c/r**2 at the origin:
+    delta(inf) is not 0 there); ``levinson_count`` is (delta(0) - delta(inf))/pi
+    rounded, ``bound_levels`` the count of :func:`radsolve.core.counting.count_bound`.
+    """
+
+    l: int
+    scattering_length: float
+    scattering_length_error: float
+    effective_range: float | None
+    effective_range_error: float | None
+    bound_levels: int | None
+    bound_count_certain: bool
+    delta_low: float
+    energy_low: float
+    delta_high: float
+    energy_high: float
+    levinson_count: float | None
+    levinson: str
+    converged: bool
+    why_no_range: str | None = None
+
+
+@dataclass(repr=False)
+class ScatteringResult(ResultProtocol):
+    """Scattering lengths, effective ranges and Levinson's theorem per partial wave (the result protocol).
+
+    Note codes: ``levinson_failed`` (delta(0) - delta(inf) is not pi times the
+    bound count: one of the two is wrong; status ``failed``),
+    ``levinson_uncertain`` (status ``incomplete``), ``not_converged``,
+    ``no_effective_range`` (the tail is too long for r_l, or the fit failed).
+    """
+
+    potential: str
+    parameters: dict
+    units: str
+    mass: float
+    tol: float
+    v_infinity: float
+    waves: list
+    hard_core: float | None
+    notes: list = field(default_factory=list)
+
+    @property
+    def status(self) -> Outcome:
+        outs = [Outcome.SUCCESS]
+        for w in self.waves:
+            if w.levinson == "disagrees":
+                outs.append(Outcome.FAILED)
+            elif w.levinson == "uncertain":
+                outs.append(Outcome.INCOMPLETE)
+            if not w.converged:
+                outs.append(Outcome.NOT_CONVERGED)
+        return worst(outs)
+
+    @property
+    def message(self) -> str:
+        return message_of(self.notes, "scattering lengths and effective ranges converged; Levinson's theorem holds")
+
+    def records(self, unit: str | None = None) -> list[dict[str, Any]]:
+        factor = _energy_factor(self.units, unit)
+        rows = []
+        for w in self.waves:
+            rows.append({"l": w.l, "scattering_length": w.scattering_length,
+                         "scattering_length_error": w.scattering_length_error,
+                         "effective_range": w.effective_range, "effective_range_error": w.effective_range_error,
+                         "bound_levels": w.bound_levels, "levinson_count": w.levinson_count,
+                         "levinson": w.levinson, "delta_low": w.delta_low, "energy_low": w.energy_low / factor,
+                         "delta_high": w.delta_high, "energy_high": w.energy_high / factor,
+                         "converged": w.converged})
+        return rows
+
+    def to_dict(self, unit: str | None = None) -> dict[str, Any]:
+        length = "bohr" if self.units == "atomic" else "fm"
+        return {"kind": "scattering", "status": str(self.status), "success": self.success,
+                "message": self.message, "notes": [n.to_dict() for n in self.notes],
+                "potential": self.potential, "parameters": self.parameters, "units": self.units,
+                "length_unit": length, "energy_unit": _unit_name(self.units, unit), "mass": self.mass,
+                "tol": self.tol, "hard_core": self.hard_core,
+                "convention": "k**(2l+1) cot(delta_l) = -1/a_l + r_l k**2/2; a_l in length**(2l+1), "
+                              "r_l in length**(1-2l)", "note": MODEL_NOTE, "rows": self.records(unit)}
+
+    def _header(self):
+        return [("potential", self.potential), ("l", [w.l for w in self.waves]), ("tol", self.tol)]
+
+    def _table_columns(self):
+        return ["l", "scattering_length", "scattering_length_error", "effective_range", "effective_range_error",
+                "bound_levels", "levinson_count", "levinson"]
+
+
+def _effective_range(cpot, prof, L, l, kinetic, size, a_l, tol, hard_core):
+    """r_l from a fit of k**(2l+1) cot(delta) in k**2 (two degrees; their spread and the phases' errors)."""
+    from radsolve.core.continuum import channel_phases
+
+    k_fit = _FIT_REACH / size
+    x = 0.5 * (1.0 - np.cos(np.pi * (np.arange(_FIT_POINTS) + 0.5) / _FIT_POINTS))  # (0, 1)
+    k = k_fit * np.sqrt(x)
+    energies = k**2 / (2.0 * kinetic)
+    ch = channel_phases(cpot, prof, L, l, kinetic, energies, min(tol, 1e-10), hard_core=hard_core)
+    y = k ** (2 * l + 1) / np.tan(ch.phase)
+    dy = k ** (2 * l + 1) * ch.error / np.sin(ch.phase) ** 2
+    fits = []
+    for degree in (5, 6):
+        V = np.vander(x * k_fit**2, degree + 1, increasing=True)
+        pinv = np.linalg.pinv(V)
+        coeffs = pinv @ y
+        spread = np.abs(pinv) @ dy
+        fits.append((coeffs, spread))
+    (c5, s5), (c6, s6) = fits
+    r_l = 2.0 * c6[1]
+    error = 2.0 * (abs(c6[1] - c5[1]) + s6[1])
+    # the fit's own intercept is -1/a_l: a check on both
+    intercept_gap = abs(c6[0] + 1.0 / a_l) if a_l not in (0.0,) else math.inf
+    return r_l, error, intercept_gap, bool(np.all(ch.converged))
+
+
+def scattering(potential, l=0, *, mass=None, tol: float = 1e-8, hard_core: float | None = None, plugins=None,
+               units: str | None = None, dimension: int = 3) -> ScatteringResult:
+    """Scattering length, effective range and the Levinson check of each partial wave ``l``.
+
+    ``tol`` is the target relative error of a_l and r_l (1e-12 ... 0.1).
+    Lengths are in the unit system's length unit (bohr or fm).  See the
+    module docstring for the conventions and :class:`ScatteringResult` for
+    what is reported.
+    """
+    from radsolve.core.continuum import channel_phases, channel_tail, scattering_length, strength_radius
+    from radsolve.core.counting import count_bound
+
+    tol = _validated_phase_tol(tol)
+    pot, system, mu, kinetic, channels, hard_core = _setup(potential, l, mass, plugins, units, dimension,
+                                                          hard_core)
+    waves = []
+    notes: list[Note] = []
+    v_inf = channels[0][3].v_infinity
+    for li, L, cpot, prof in channels:
+        if prof.confining:
+            channel_tail(cpot, prof, kinetic, 1.0, 1.0, tol, 1.0)  # raises: no continuum
+        tail = prof.tail
+        if tail.kind == "long" and tail.power == 1.0:
+            raise InputError("a Coulomb tail has no scattering length, and binds infinitely many levels "
+                             "(Levinson's theorem does not apply); the Coulomb-modified effective-range "
+                             "expansion is not implemented: use phase_shifts()", parameter="potential")
+        q = tail.power if tail.kind == "short" else 2.0
+        if tail.kind in ("inverse_square", "long", "irregular") or q <= 2 * L + 3:
+            raise InputError(f"l = {li}: V - V(inf) falls off like r**-{q:.3g}; a scattering length exists "
+                             f"only for tails faster than r**-{2 * L + 3:g} (textbook threshold law)",
+                             parameter="l")
+        zero = scattering_length(cpot, prof, L, kinetic, tol, hard_core=hard_core)
+        a_l = zero.length
+        size = max(strength_radius(cpot, prof, kinetic), hard_core or 0.0)
+        r_l = r_err = None
+        why = None
+        ok = zero.error <= tol * abs(a_l)
+        if q <= 2 * L + 5:
+            why = f"the tail r**-{q:.3g} is too long for an effective range (needs faster than r**-{2 * L + 5:g})"
+        elif zero.effective_range is not None:
+            r_l, r_err = zero.effective_range, zero.effective_range_error
+            ok = ok and r_err <= tol * max(abs(r_l), size)
+        else:
+            r_l, r_err, gap, phases_ok = _effective_range(cpot, prof, L, li, kinetic, size, a_l, tol, hard_core)
+            if not math.isfinite(r_l) or not math.isfinite(r_err):
+                why, r_l, r_err = "the low-energy fit of k**(2l+1) cot(delta) failed (a_l near 0?)", None, None
+            else:
+                ok = ok and r_err <= tol * max(abs(r_l), size ** (1 - 2 * L))
+        if why is not None:
+            notes.append(Note("no_effective_range", f"l = {li}: {why}", f"l={li}"))
+        if not ok:
+            notes.append(Note("not_converged", f"l = {li}: a_l or r_l did not reach tol {tol:g} "
+                                               f"(estimates {zero.error:.2g}, {r_err if r_err is None else f'{r_err:.2g}'})",
+                              f"l={li}"))
+        # Levinson: delta(0+) - delta(inf) against the bound count
+        length = max(size, abs(a_l) ** (1.0 / (2 * L + 1)) if math.isfinite(a_l) else size)
+        k_low = 1e-3 / length
+        r_in = prof.inner_length if math.isfinite(prof.inner_length) else size
+        r_grid = np.geomspace(max(r_in * 1e-3, 1e-12), size * 4.0, 4000)
+        with np.errstate(all="ignore"):
+            vv = np.abs(cpot(r_grid) - prof.v_infinity)
+        born = 2.0 * kinetic * float(np.trapezoid(vv, r_grid))
+        k_high = max(min(20.0 * born, 300.0 / size), 10.0 / size, 4.0 * k_low)
+        e_pair = np.array([k_low, k_high]) ** 2 / (2.0 * kinetic)
+        ch = channel_phases(cpot, prof, L, li, kinetic, e_pair, 1e-6, hard_core=hard_core)
+        d_low, d_high = float(ch.phase[0]), float(ch.phase[1])
+        inner = prof.inner_cutoff(L, kinetic, 1e-3 * tol) if hard_core is None else hard_core
+        cert = count_bound(cpot, prof, L, kinetic, inner, 1e30)
+        # delta(inf) = 0 by construction (the phase is fixed by the zeros of u, see
+        # radsolve.core.continuum); d_high checks that it is small at a high energy
+        n_lev = round(d_low / math.pi)
+        applicable = hard_core is None and prof.origin.kind == "regular"
+        if not applicable:
+            verdict = "not applicable"
+        elif cert.count is None or not cert.certain:
+            verdict = "uncertain"
+            notes.append(Note("levinson_uncertain", f"l = {li}: the bound count is uncertain ({cert.note})", f"l={li}"))
+        elif abs(d_low - math.pi * n_lev) > 0.25 or abs(d_high) > 0.5 * math.pi:
+            verdict = "uncertain"
+            notes.append(Note("levinson_uncertain",
+                              f"l = {li}: delta(0) = {d_low / math.pi:.3f} pi is not close to a whole multiple of "
+                              f"pi, or delta = {d_high:.3g} at E = {e_pair[1]:.4g} is not small (a level at the "
+                              "threshold, or energies not low or high enough)", f"l={li}"))
+        elif n_lev != cert.count:
+            verdict = "disagrees"
+            notes.append(Note("levinson_failed",
+                              f"l = {li}: LEVINSON'S THEOREM FAILS: delta(0) - delta(inf) = {n_lev} pi but "
+                              f"{cert.count} bound level(s) counted: the phase shifts or the count are wrong",
+                              f"l={li}"))
+        else:
+            verdict = "agrees"
+        waves.append(PartialWaveScattering(
+            l=li, scattering_length=a_l, scattering_length_error=zero.error, effective_range=r_l,
+            effective_range_error=r_err, bound_levels=cert.count, bound_count_certain=cert.certain,
+            delta_low=d_low, energy_low=float(e_pair[0] + prof.v_infinity), delta_high=d_high,
+            energy_high=float(e_pair[1] + prof.v_infinity),
+            levinson_count=float(n_lev) if applicable else None, levinson=verdict, converged=ok,
+            why_no_range=why))
+    return ScatteringResult(potential=pot.name, parameters=_params(pot), units=system.name, mass=mu, tol=tol,
+                            v_infinity=v_inf, waves=waves, hard_core=hard_core, notes=notes)

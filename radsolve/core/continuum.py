@@ -53,6 +53,8 @@ TAIL_SHARE = 0.02
 END_FACTOR = 1.6
 #: Largest matching radius, in units of the potential's inner length.
 LARGEST_MATCH = 1e7
+#: At most this many halvings for the zero-energy solution (a banded solve: cheap).
+ZERO_ENERGY_HALVINGS = 6
 #: Rows of Numerov coefficients computed at once.
 _BLOCK = 256
 
@@ -403,7 +405,9 @@ def channel_phases(potential, profile, L: float, l: int, mass: float, energies: 
             active = sub[~done]
             if active.size == 0:
                 break
-    if grids_used < 3:
+    if not history:
+        phase = np.full(energies.size, np.nan)  # not even the coarsest grid fits: reported unconverged
+    elif grids_used < 3:
         # too few grids for an estimate: keep the finest value, flagged
         phase = history[-1][0]
     error = grid_error + radius_error
@@ -416,3 +420,130 @@ def channel_phases(potential, profile, L: float, l: int, mass: float, energies: 
     return ChannelPhases(phase=phase, error=error, grid_error=grid_error, radius_error=radius_error,
                          converged=converged, grids=grids_used, points=points, tail=tail,
                          coulomb_phase=coul, notes=notes)
+
+
+# --------------------------------------------------------------------------- zero energy
+
+
+@dataclass
+class ZeroEnergy:
+    """The scattering length of one partial wave from its zero-energy solution."""
+
+    length: float  # a_l, length**(2L+1)
+    error: float
+    effective_range: float | None  # r_0 = 2 int (psi0**2 - u0**2) dr for L = 0, else None
+    effective_range_error: float | None
+    grid_error: float
+    radius_error: float
+    radius: float
+    grids: int
+
+
+def _double_factorial(n: int) -> float:
+    return float(math.prod(range(n, 0, -2))) if n > 0 else 1.0
+
+
+def strength_radius(potential, profile, mass: float, level: float = 1e-2) -> float:
+    """The radius beyond which 2 m r**2 |V - V(inf)| stays below ``level``: the size of the potential."""
+    r = probing.PROBE_RADII
+    with np.errstate(all="ignore"):
+        s = 2.0 * mass * r**2 * np.abs(probing._raw(potential, r) - profile.v_infinity)
+    s = np.where(np.isfinite(s), s, np.inf)
+    strong = np.nonzero(s >= level)[0]
+    if strong.size == 0:
+        return float(profile.inner_length) if math.isfinite(profile.inner_length) else 1.0
+    return float(r[min(strong[-1] + 1, r.size - 1)])
+
+
+def scattering_length(potential, profile, L: float, mass: float, tol: float,
+                      hard_core: float | None = None, boundary_share: float = 1e-3) -> ZeroEnergy:
+    """a_L = -B / (A (2L+1)!! (2L-1)!!) of u0 = A r**(L+1) + B r**(-L) (textbook), refined on grids and radii.
+
+    u0 is the regular zero-energy solution (:func:`radsolve.core.counting.zero_energy_solution`),
+    integrated on halving grids (Richardson) to a radius R and to 2 R; the
+    estimate is the sum of the last grid change and the change with R.
+    ``tol`` is relative to |a_L|.
+    """
+    from radsolve.core.counting import zero_energy_solution
+    from radsolve.core.grids import RadialGrid
+
+    Lint = int(round(L))
+    size = strength_radius(potential, profile, mass)
+    if hard_core is not None:
+        r_min = float(hard_core)
+        exponent = 1e6  # w = 0 at the first point: the ghost value exp(-(lambda - 1/2) h) underflows
+    else:
+        r_min = profile.inner_cutoff(L, mass, boundary_share * tol)
+        exponent = profile.origin_exponent(L, mass)
+    k_scale = 1.0 / max(size, r_min)
+    tail = channel_tail(potential, profile, mass, k_scale, k_scale, tol * max(size, 1e-300), r_min)
+    if tail.kind != "short":
+        raise InputError("a Coulomb tail has no scattering length (the Coulomb-modified effective-range "
+                         "expansion is not implemented)", parameter="potential")
+    nu = (L + 1.0, -L)
+    norm = _double_factorial(2 * Lint + 1) * _double_factorial(2 * Lint - 1)
+    # V beyond R changes B/A by about 2 m int_R^inf |V| r**(2L+2) dr (first order in V; textbook):
+    # below a share of tol times the natural size**(2L+1)
+    r = probing.PROBE_RADII
+    with np.errstate(all="ignore"):
+        f = 2.0 * mass * np.abs(probing._raw(potential, r) - profile.v_infinity) * r ** (2 * L + 3)
+    f = np.where(np.isfinite(f), f, np.inf)
+    seg = 0.5 * (f[1:] + f[:-1]) * math.log(r[1] / r[0])
+    beyond = np.concatenate((np.cumsum(seg[::-1])[::-1], [0.0]))
+    ok = np.nonzero((beyond <= TAIL_SHARE * tol * size ** (2 * L + 1)) & (r > r_min))[0]
+    far = float(r[ok[0]]) if ok.size else LARGEST_MATCH * size
+    # zero_energy_solution reads A and B off u0 at R/2 and R: both beyond the matching radius
+    radius = 2.0 * max(tail.radius, 2.0 * size, min(far, LARGEST_MATCH * size))
+    values_at = []
+    best = est = np.array([math.nan, math.nan])
+    grids = 0
+    for attempt in range(2):
+        r_end = radius * (2.0 ** attempt)
+        anchors = [b for b in profile.breakpoints if r_min < b < r_end]
+        if hard_core is not None:
+            anchors = sorted(set(anchors) | {r_min})
+        span = _span(r_min * (1.0 - 1e-3) if hard_core is not None else r_min, r_end, 0.1, anchors)
+        step = _coarse_step(potential, profile, span, L, mass, 0.0)
+        span = _span(r_min * (1.0 - 1e-3) if hard_core is not None else r_min, r_end, step, anchors)
+        jumps = [b for b in span.anchors if hard_core is None or b != r_min]
+        orders = (2, 3, 4, 5, 6, 7) if jumps else (4, 6, 8, 10)
+        history = []
+        for g in range(ZERO_ENERGY_HALVINGS + 1):
+            if span.intervals(g) + 1 > MAX_POINTS:
+                break
+            grid = span.grid(g)
+            if hard_core is not None:
+                i0 = int(np.argmin(np.abs(grid.r - r_min)))
+                grid = RadialGrid(step=grid.step, scale=grid.scale, x=grid.x[i0:], r=grid.r[i0:],
+                                  jacobian=grid.jacobian[i0:], schwarzian=grid.schwarzian[i0:], mapping=grid.mapping)
+            values = potential_on_grid(potential, grid.r, span.anchors) - profile.v_infinity
+            shot = zero_energy_solution(values, grid, L, mass, exponent, nu)
+            R = float(grid.r[-1])
+            a_l = -(shot.decaying / shot.growing) * R ** (2 * L + 1) / norm if shot.growing != 0 else math.inf
+            r_0 = math.nan
+            if Lint == 0 and shot.growing != 0 and a_l != 0:
+                # r_0 = 2 int (psi0**2 - u0**2) dr, u0 scaled to psi0 = 1 - r/a beyond the potential
+                # (textbook: Bethe 1949); below the first point psi0 ~ 1 and u0 ~ 0
+                u0 = -shot.u * R / (shot.growing * a_l)
+                psi = 1.0 - shot.r / a_l
+                r1 = float(shot.r[0])
+                below = r1 - r1**2 / a_l + r1**3 / (3.0 * a_l**2)  # int_0^r1 psi0**2 dr, u0 ~ 0 there
+                r_0 = 2.0 * (float(np.sum(shot.weights * (psi**2 - u0**2))) - 0.5 * float(shot.weights[0])
+                             * (psi[0] ** 2 - u0[0] ** 2) + below)
+            history.append(np.array([a_l, r_0]))
+            grids = max(grids, g + 1)
+            if len(history) >= 3:
+                # the sums are trapezoid rules in xi: h**2 terms besides Numerov's
+                b_, e_ = _richardson(history, tuple(sorted({2, *orders})) if Lint == 0 else orders)
+                best, est = b_, e_
+                if est[0] <= 0.1 * tol * abs(best[0]) and (Lint > 0 or est[1] <= 0.1 * tol * max(abs(best[1]), size)):
+                    break
+        values_at.append((best, est))
+    (v1, e1), (v2, e2) = values_at
+    rounding = 1e-14 * np.abs(v2)
+    err = e2 + np.abs(v2 - v1) + rounding
+    r_e = float(v2[1]) if Lint == 0 and math.isfinite(v2[1]) else None
+    return ZeroEnergy(length=float(v2[0]), error=float(err[0]), effective_range=r_e,
+                      effective_range_error=float(err[1]) if r_e is not None else None,
+                      grid_error=float(e2[0]), radius_error=float(abs(v2[0] - v1[0])), radius=2.0 * radius,
+                      grids=grids)
