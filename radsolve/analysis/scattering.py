@@ -196,9 +196,33 @@ class PhaseShiftResult(ResultProtocol):
         return [("potential", self.potential), ("l", self.ls), ("energies", int(self.energies.size)),
                 ("tail", self.tail), ("tol", self.tol)]
 
+    def to_table(self, unit: str | None = None) -> str:
+        """Every phase shift, one line each, under a header; the message and the caveat below."""
+        name = _unit_name(self.units, unit)
+        head = [f"phase shifts of {self.potential} {_param_text(self.parameters)}".rstrip(),
+                f"  mass {self.mass:.10g}, {self.units} units, tail: {self.tail}"
+                + (f", hard core r < {self.hard_core:.10g}" if self.hard_core is not None else "")
+                + f", tol {self.tol:g} rad"]
+        cols = f"{'l':>3}  {'E (' + name + ')':>16}  {'k':>12}  {'delta (rad)':>18}  {'estimate':>8}"
+        if self.coulomb_phase is not None:
+            cols += f"  {'sigma_l (rad)':>16}"
+        lines = head + ["", cols]
+        for row in self.records(unit):
+            text = (f"{row['l']:>3}  {row['energy']:>16.10g}  {row['k']:>12.8g}  {row['phase_shift']:>18.12f}  "
+                    f"{row['error_estimate']:>8.1e}")
+            if "coulomb_phase" in row:
+                text += f"  {row['coulomb_phase']:>16.12f}"
+            lines.append(text + ("" if row["converged"] else "  not converged"))
+        lines += ["", f"status: {self.status}; {self.message}", f"note: {MODEL_NOTE}"]
+        return "\n".join(lines) + "\n"
+
     def _table_columns(self):
         cols = ["l", "energy", "k", "phase_shift", "error_estimate", "converged"]
         return cols + (["coulomb_phase"] if self.coulomb_phase is not None else [])
+
+
+def _param_text(parameters: dict) -> str:
+    return " ".join(f"{k}={v:.10g}" if isinstance(v, float) else f"{k}={v}" for k, v in parameters.items())
 
 
 def _energy_factor(system: str, unit: str | None) -> float:
@@ -377,6 +401,24 @@ class ScatteringResult(ResultProtocol):
 
     def _header(self):
         return [("potential", self.potential), ("l", [w.l for w in self.waves]), ("tol", self.tol)]
+
+    def to_table(self, unit: str | None = None) -> str:
+        """One line per partial wave under a header; the message and the caveat below."""
+        length = "bohr" if self.units == "atomic" else "fm"
+        lines = [f"low-energy scattering of {self.potential} {_param_text(self.parameters)}".rstrip(),
+                 f"  mass {self.mass:.10g}, {self.units} units, tol {self.tol:g}"
+                 + (f", hard core r < {self.hard_core:.10g}" if self.hard_core is not None else ""),
+                 f"  k^(2l+1) cot(delta_l) = -1/a_l + r_l k^2/2;  a_l in {length}^(2l+1), r_l in {length}^(1-2l)",
+                 "", f"{'l':>3}  {'a_l':>18}  {'estimate':>8}  {'r_l':>18}  {'estimate':>8}  {'bound':>5}  "
+                     f"{'delta(0)/pi':>11}  Levinson"]
+        for w in self.waves:
+            r_text = f"{w.effective_range:>18.12g}" if w.effective_range is not None else f"{'-':>18}"
+            re_text = f"{w.effective_range_error:>8.1e}" if w.effective_range_error is not None else f"{'-':>8}"
+            bound = "inf" if w.bound_levels is None else str(w.bound_levels)
+            lines.append(f"{w.l:>3}  {w.scattering_length:>18.12g}  {w.scattering_length_error:>8.1e}  {r_text}  "
+                         f"{re_text}  {bound:>5}  {w.delta_low / math.pi:>11.4f}  {w.levinson}")
+        lines += ["", f"status: {self.status}; {self.message}", f"note: {MODEL_NOTE}"]
+        return "\n".join(lines) + "\n"
 
     def _table_columns(self):
         return ["l", "scattering_length", "scattering_length_error", "effective_range", "effective_range_error",

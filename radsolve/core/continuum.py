@@ -492,58 +492,77 @@ def scattering_length(potential, profile, L: float, mass: float, tol: float,
     beyond = np.concatenate((np.cumsum(seg[::-1])[::-1], [0.0]))
     ok = np.nonzero((beyond <= TAIL_SHARE * tol * size ** (2 * L + 1)) & (r > r_min))[0]
     far = float(r[ok[0]]) if ok.size else LARGEST_MATCH * size
-    # zero_energy_solution reads A and B off u0 at R/2 and R: both beyond the matching radius
-    radius = 2.0 * max(tail.radius, 2.0 * size, min(far, LARGEST_MATCH * size))
-    values_at = []
-    best = est = np.array([math.nan, math.nan])
+    # A and B are read off u0 at two radii beyond the matching radius R_a, (R_a, 1.5 R_a) and again at
+    # (1.5 R_a, 2 R_a): the change is the radius part of the estimate.  Near radii keep B, which is
+    # smaller than A r**(2L+1) by a_l / r**(2L+1), to more digits.
+    radius = max(tail.radius, 2.0 * size, min(far, LARGEST_MATCH * size))
+    r_end = 2.0 * radius
+    anchors = [b for b in profile.breakpoints if r_min < b < r_end]
+    if hard_core is not None:
+        anchors = sorted(set(anchors) | {r_min})
+    span_min = r_min * (1.0 - 1e-3) if hard_core is not None else r_min
+    span = _span(span_min, r_end, 0.1, anchors)
+    step = _coarse_step(potential, profile, span, L, mass, 0.0)
+    span = _span(span_min, r_end, step, anchors)
+    jumps = [b for b in span.anchors if hard_core is None or b != r_min]
+    orders = (2, 3, 4, 5, 6, 7) if jumps else (4, 6, 8, 10)
+    coarse = span.grid(0)
+    picks = [min(int(np.searchsorted(coarse.r, f * radius)), coarse.size - 1) for f in (1.0, 1.5, 2.0)]
+    history = []
+    best = est = np.full(3, math.nan)
     grids = 0
-    for attempt in range(2):
-        r_end = radius * (2.0 ** attempt)
-        anchors = [b for b in profile.breakpoints if r_min < b < r_end]
+    for g in range(ZERO_ENERGY_HALVINGS + 1):
+        if span.intervals(g) + 1 > MAX_POINTS:
+            break
+        grid = span.grid(g)
+        i0 = 0
         if hard_core is not None:
-            anchors = sorted(set(anchors) | {r_min})
-        span = _span(r_min * (1.0 - 1e-3) if hard_core is not None else r_min, r_end, 0.1, anchors)
-        step = _coarse_step(potential, profile, span, L, mass, 0.0)
-        span = _span(r_min * (1.0 - 1e-3) if hard_core is not None else r_min, r_end, step, anchors)
-        jumps = [b for b in span.anchors if hard_core is None or b != r_min]
-        orders = (2, 3, 4, 5, 6, 7) if jumps else (4, 6, 8, 10)
-        history = []
-        for g in range(ZERO_ENERGY_HALVINGS + 1):
-            if span.intervals(g) + 1 > MAX_POINTS:
-                break
-            grid = span.grid(g)
-            if hard_core is not None:
-                i0 = int(np.argmin(np.abs(grid.r - r_min)))
-                grid = RadialGrid(step=grid.step, scale=grid.scale, x=grid.x[i0:], r=grid.r[i0:],
-                                  jacobian=grid.jacobian[i0:], schwarzian=grid.schwarzian[i0:], mapping=grid.mapping)
-            values = potential_on_grid(potential, grid.r, span.anchors) - profile.v_infinity
-            shot = zero_energy_solution(values, grid, L, mass, exponent, nu)
-            R = float(grid.r[-1])
-            a_l = -(shot.decaying / shot.growing) * R ** (2 * L + 1) / norm if shot.growing != 0 else math.inf
-            r_0 = math.nan
-            if Lint == 0 and shot.growing != 0 and a_l != 0:
-                # r_0 = 2 int (psi0**2 - u0**2) dr, u0 scaled to psi0 = 1 - r/a beyond the potential
-                # (textbook: Bethe 1949); below the first point psi0 ~ 1 and u0 ~ 0
-                u0 = -shot.u * R / (shot.growing * a_l)
-                psi = 1.0 - shot.r / a_l
-                r1 = float(shot.r[0])
-                below = r1 - r1**2 / a_l + r1**3 / (3.0 * a_l**2)  # int_0^r1 psi0**2 dr, u0 ~ 0 there
-                r_0 = 2.0 * (float(np.sum(shot.weights * (psi**2 - u0**2))) - 0.5 * float(shot.weights[0])
-                             * (psi[0] ** 2 - u0[0] ** 2) + below)
-            history.append(np.array([a_l, r_0]))
-            grids = max(grids, g + 1)
-            if len(history) >= 3:
-                # the sums are trapezoid rules in xi: h**2 terms besides Numerov's
-                b_, e_ = _richardson(history, tuple(sorted({2, *orders})) if Lint == 0 else orders)
+            i0 = int(np.argmin(np.abs(grid.r - r_min)))
+            grid = RadialGrid(step=grid.step, scale=grid.scale, x=grid.x[i0:], r=grid.r[i0:],
+                              jacobian=grid.jacobian[i0:], schwarzian=grid.schwarzian[i0:], mapping=grid.mapping)
+        values = potential_on_grid(potential, grid.r, span.anchors) - profile.v_infinity
+        shot = zero_energy_solution(values, grid, L, mass, exponent, nu)
+        # shot.r is grid.r[1:]: the coarse point p is index p * 2**g - i0 - 1 there
+        rows = [p * 2**g - i0 - 1 for p in picks]
+        ab = []
+        for j1, j2 in ((rows[0], rows[1]), (rows[1], rows[2])):
+            r1, r2 = shot.r[j1], shot.r[j2]
+            m = np.array([[r1 ** (L + 1), r1 ** (-L)], [r2 ** (L + 1), r2 ** (-L)]])
+            ab.append(np.linalg.solve(m, np.array([shot.u[j1], shot.u[j2]])))
+        (A_in, B_in), (A, B) = ab
+        a_in = -B_in / (A_in * norm) if A_in != 0 else math.inf
+        a_l = -B / (A * norm) if A != 0 else math.inf
+        r_0 = math.nan
+        if Lint == 0 and A != 0 and a_l != 0:
+            # r_0 = 2 int (psi0**2 - u0**2) dr, u0 scaled to psi0 = 1 - r/a beyond the potential
+            # (textbook: Bethe 1949); below the first point u0 ~ 0
+            u0 = -shot.u / (A * a_l)
+            psi = 1.0 - shot.r / a_l
+            r1 = float(shot.r[0])
+            below = r1 - r1**2 / a_l + r1**3 / (3.0 * a_l**2)  # int_0^r1 psi0**2 dr
+            r_0 = 2.0 * (float(np.sum(shot.weights * (psi**2 - u0**2))) - 0.5 * float(shot.weights[0])
+                         * (psi[0] ** 2 - u0[0] ** 2) + below)
+        history.append(np.array([a_l, r_0, a_in]))
+        grids = g + 1
+        if len(history) >= 3:
+            # the sums are trapezoid rules in xi: h**2 terms besides Numerov's
+            b_, e_ = _richardson(history, tuple(sorted({2, *orders})) if Lint == 0 else orders)
+            # past the rounding floor finer grids only add noise (B/A is read off where B r**-L is
+            # small beside A r**(L+1)): keep the grid whose estimate was smallest
+            def badness(values, errors):
+                return max(errors[0] / max(abs(values[0]), 1e-300),
+                           errors[1] / max(abs(values[1]), size) if Lint == 0 else 0.0)
+
+            if not np.isfinite(est[0]) or badness(b_, e_) <= badness(best, est):
                 best, est = b_, e_
-                if est[0] <= 0.1 * tol * abs(best[0]) and (Lint > 0 or est[1] <= 0.1 * tol * max(abs(best[1]), size)):
-                    break
-        values_at.append((best, est))
-    (v1, e1), (v2, e2) = values_at
-    rounding = 1e-14 * np.abs(v2)
-    err = e2 + np.abs(v2 - v1) + rounding
-    r_e = float(v2[1]) if Lint == 0 and math.isfinite(v2[1]) else None
-    return ZeroEnergy(length=float(v2[0]), error=float(err[0]), effective_range=r_e,
+            else:  # the noise seen beyond the chosen grid belongs in its estimate
+                est = np.maximum(est, np.abs(b_ - best))
+            if est[0] <= 0.1 * tol * abs(best[0]) and (Lint > 0 or est[1] <= 0.1 * tol * max(abs(best[1]), size)):
+                break
+    rounding = 1e-14 * np.abs(best)
+    radius_error = abs(best[0] - best[2])
+    err = est + rounding
+    r_e = float(best[1]) if Lint == 0 and math.isfinite(best[1]) else None
+    return ZeroEnergy(length=float(best[0]), error=float(err[0] + radius_error), effective_range=r_e,
                       effective_range_error=float(err[1]) if r_e is not None else None,
-                      grid_error=float(e2[0]), radius_error=float(abs(v2[0] - v1[0])), radius=2.0 * radius,
-                      grids=grids)
+                      grid_error=float(est[0]), radius_error=float(radius_error), radius=radius, grids=grids)

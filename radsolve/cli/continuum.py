@@ -1,0 +1,167 @@
+"""Commands above the threshold: ``phases`` (phase shifts on an energy grid) and ``scattering``."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Annotated, Optional
+
+import typer
+
+from radsolve.cli.adapter import (OutputFormat, plugin_dirs, parse_assignments, reported_errors, say,
+                                  solver_call, with_option, write_output, folder_exists, l_values)
+from radsolve.cli.options import (FormatOption, LOption, LmaxOption, MassOption, OutFileOption, OutputUnitOption,
+                                  ParamOption, PluginsOption, UnitsOption)
+
+PHASE_TOL_HELP = "target absolute error of each phase shift, radians (1e-12 ... 0.1)"
+
+ExprOption = Annotated[Optional[str], typer.Option(
+    "--expr", metavar="EXPR",
+    help="with NAME 'formula': V(r) as an expression in r and parameters, e.g. '-V0*step(R-r)' -p V0=1 -p R=2")]
+
+HardCoreOption = Annotated[Optional[float], typer.Option(
+    "--hard-core", metavar="R",
+    help="a hard sphere: the wave vanishes for r < R (length unit of the potential: bohr or fm)")]
+
+
+def _potential(name, params, plugins, units, expr):
+    """A family, or a formula (NAME 'formula' with --expr), as ``radsolve levels`` makes them."""
+    from radsolve.cli.levels import _levels_potential
+
+    return _levels_potential(name, params, plugin_dirs(plugins), units, expr, None, None, None, None, None, None)
+
+
+def _energies(text: str, log: bool, unit: Optional[str], pot, units: Optional[str]):
+    """--energies START:STOP:NUM or E1,E2,... in the output unit, as the API's energies (its unit system)."""
+    from radsolve.analysis.scattering import energy_grid
+    from radsolve.errors import InputError
+    from radsolve.units import energy_unit_factor, family_unit_system, unit_system
+
+    system = family_unit_system(pot.family, units)
+    factor = 1.0
+    if unit is not None:
+        factor = energy_unit_factor(unit)
+        if system.name != "atomic":
+            factor /= unit_system(system.name).energy_factor()
+    parts = text.split(":")
+    try:
+        if len(parts) == 3:
+            start, stop, num = float(parts[0]), float(parts[1]), int(parts[2])
+        elif len(parts) == 1:
+            values = [float(x) for x in text.split(",") if x.strip()]
+        else:
+            raise ValueError
+    except ValueError:
+        raise InputError(f"--energies {text!r}: expected START:STOP:NUM (e.g. 0.01:2:200) or E1,E2,... "
+                         "(numbers in --unit)") from None
+    if len(parts) == 3:
+        values = energy_grid(start, stop, num, log=log)  # the API's rules of a range
+    return [v * factor for v in values]
+
+
+def phases_command(
+    name: Annotated[str, typer.Argument(metavar="NAME", help="potential family, e.g. yukawa (list: radsolve potentials)")],
+    energies: Annotated[str, typer.Option(
+        "--energies", "-e", metavar="START:STOP:NUM",
+        help="energies above the threshold V(inf), in --unit: NUM values from START to STOP, or E1,E2,...")],
+    log: Annotated[bool, typer.Option("--log", help="space START:STOP:NUM geometrically")] = False,
+    param: ParamOption = None,
+    l: LOption = None,
+    lmax: LmaxOption = None,
+    mass: MassOption = None,
+    tol: Annotated[float, typer.Option("--tol", metavar="T", help=PHASE_TOL_HELP)] = 1e-8,
+    hard_core: HardCoreOption = None,
+    expr: ExprOption = None,
+    unit: OutputUnitOption = None,
+    units: UnitsOption = None,
+    fmt: FormatOption = OutputFormat.table,
+    out: OutFileOption = None,
+    plot: Annotated[Optional[Path], typer.Option(
+        "--plot", metavar="FILE", help="draw delta_l(E)/pi: FILE.png, .svg or .pdf")] = None,
+    plugins: PluginsOption = None,
+) -> None:
+    """Phase shifts delta_l(E) of NAME at energies above the threshold.
+
+    Each phase shift is continuous in E (no jumps of pi), tends to 0 at high
+    energy for potentials regular at the origin, and carries an error
+    estimate (halving grids, two matching radii). For a Coulomb tail the
+    phase is relative to Coulomb waves and the Coulomb phase sigma_l is
+    printed beside it. Exit 3 when some phase shift did not reach --tol.
+    """
+    with reported_errors({"energies": "--energies", "hard_core": "--hard-core"}):
+        params = parse_assignments(param)
+        from radsolve.units import energy_unit_factor
+
+        if unit is not None:
+            energy_unit_factor(unit)
+        if out is not None:
+            folder_exists(out, "--out")
+        if plot is not None:
+            from radsolve.output.plotting import check_plot_path
+
+            with_option("--plot", check_plot_path, plot)
+        from radsolve.analysis.scattering import phase_shifts
+        pot = _potential(name, params, plugins, units, expr)
+        values = _energies(energies, log, unit, pot, units)
+        ls = l_values(l, lmax)
+        result = solver_call(pot, phase_shifts, pot, values, **({"l": ls} if ls is not None else {}), mass=mass,
+                             tol=tol, hard_core=hard_core, units=units)
+        from radsolve.output.report import render
+
+        write_output(render(result, unit, fmt.value), out, f"{result.phase.size} phase shifts ({fmt.value})")
+        if plot is not None:
+            from radsolve.output.continuum_plotting import plot_phase_shifts
+
+            plot_phase_shifts(result, plot, unit)
+            say(f"wrote the phase shifts to {plot}")
+        if not result.success:
+            if out is not None or fmt is not OutputFormat.table:
+                say(result.message)
+            raise typer.Exit(result.exit_code)
+
+
+def scattering_command(
+    name: Annotated[str, typer.Argument(metavar="NAME", help="potential family, e.g. yukawa (list: radsolve potentials)")],
+    param: ParamOption = None,
+    l: LOption = None,
+    lmax: LmaxOption = None,
+    mass: MassOption = None,
+    tol: Annotated[float, typer.Option("--tol", metavar="T",
+                                       help="target relative error of a_l and r_l (1e-12 ... 0.1)")] = 1e-8,
+    hard_core: HardCoreOption = None,
+    expr: ExprOption = None,
+    unit: OutputUnitOption = None,
+    units: UnitsOption = None,
+    fmt: FormatOption = OutputFormat.table,
+    out: OutFileOption = None,
+    plugins: PluginsOption = None,
+) -> None:
+    """Scattering length a_l, effective range r_l and Levinson's theorem for each l of NAME.
+
+    k^(2l+1) cot(delta_l) = -1/a_l + r_l k^2/2. Levinson's theorem
+    (delta_l(0) - delta_l(inf) = pi times the number of bound levels of l,
+    counted independently) is checked for every l: exit 1 when it fails, 3
+    when something did not converge or the check is undecided.
+    """
+    with reported_errors({"hard_core": "--hard-core"}):
+        params = parse_assignments(param)
+        from radsolve.units import energy_unit_factor
+
+        if unit is not None:
+            energy_unit_factor(unit)
+        if out is not None:
+            folder_exists(out, "--out")
+        from radsolve.analysis.scattering import scattering
+        pot = _potential(name, params, plugins, units, expr)
+        ls = l_values(l, lmax)
+        result = solver_call(pot, scattering, pot, **({"l": ls} if ls is not None else {}), mass=mass, tol=tol,
+                             hard_core=hard_core, units=units)
+        from radsolve.output.report import render
+
+        write_output(render(result, unit, fmt.value), out, f"{len(result.waves)} partial waves ({fmt.value})")
+        if not result.success:
+            if any(w.levinson == "disagrees" for w in result.waves):
+                say("LEVINSON'S THEOREM FAILS for some l: the phase shifts or the bound count are wrong "
+                    "(see the message)")
+            if out is not None or fmt is not OutputFormat.table:
+                say(result.message)
+            raise typer.Exit(result.exit_code)

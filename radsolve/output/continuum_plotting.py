@@ -1,0 +1,58 @@
+"""Pictures of phase shifts (PNG, SVG or PDF through matplotlib's Agg renderer; no pyplot).
+
+:func:`plot_phase_shifts` draws delta_l(E) / pi of a
+:class:`radsolve.analysis.scattering.PhaseShiftResult` (read through its
+attributes: this layer does not import the analysis layer), one curve per l,
+with the phase shifts that did not converge marked by crosses, and dotted
+lines at the whole multiples of pi that Levinson's theorem ties to the bound
+levels.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from radsolve.output.sweep_plotting import _colors, _figure, _save
+
+
+def plot_phase_shifts(result, path, unit: str | None = None, title: str | None = None) -> None:
+    """delta_l(E)/pi against E for every l of ``result``, written to ``path``."""
+    from radsolve.units import energy_unit_factor, unit_system
+
+    system = result.units
+    if unit is None:
+        unit = "hartree" if system == "atomic" else "MeV"
+        factor = 1.0
+    else:
+        factor = energy_unit_factor(unit)
+        if system != "atomic":
+            factor /= unit_system(system).energy_factor()
+    e = np.asarray(result.energies) / factor
+    fig, axes = _figure(7.0, 4.2)
+    ax = axes[0][0]
+    colors = _colors(len(result.ls))
+    lo, hi = 0.0, 0.0
+    for i, l in enumerate(result.ls):
+        y = np.asarray(result.phase[i]) / math.pi
+        ax.plot(e, y, color=colors[i], lw=1.4, label=f"l = {l}")
+        bad = ~np.asarray(result.converged[i])
+        if bad.any():
+            ax.plot(e[bad], y[bad], "x", color=colors[i], ms=5)
+        finite = y[np.isfinite(y)]
+        if finite.size:
+            lo, hi = min(lo, float(finite.min())), max(hi, float(finite.max()))
+    for m in range(math.floor(lo), math.ceil(hi) + 1):
+        ax.axhline(m, color="0.6", lw=0.6, ls=":")
+    ax.set_xlabel(f"E ({unit})")
+    what = "phase shift relative to Coulomb waves" if result.tail == "coulomb" else "phase shift"
+    ax.set_ylabel(f"{what} / pi")
+    if any(not np.all(c) for c in result.converged):
+        ax.plot([], [], "x", color="0.3", label="not converged")
+    ax.legend(loc="best", fontsize=8)
+    params = " ".join(f"{k}={v:.6g}" if isinstance(v, float) else f"{k}={v}" for k, v in result.parameters.items())
+    import textwrap
+
+    ax.set_title(title or "\n".join(textwrap.wrap(f"{result.potential} {params}".strip(), 100)), fontsize=9)
+    _save(fig, path)

@@ -1,0 +1,76 @@
+"""The `radsolve phases` and `radsolve scattering` commands.
+
+Physics references, beside each check:
+- hard sphere: delta_0 = -k a, a_0 = a, r_0 = 2a/3 (textbook formulas);
+- square well: a_0 = R - tan(K R)/K (textbook formula).
+"""
+
+from __future__ import annotations
+
+import csv
+import io
+import json
+import math
+
+import numpy as np
+import pytest
+
+from helpers import invoke
+
+
+def test_phases_table_csv_json_agree_with_hard_sphere(tmp_path):
+    args = ["phases", "formula", "--expr", "0*r", "--hard-core", "1.5", "--energies", "0.1:2:5", "--l", "0"]
+    table = invoke(*args)
+    assert table.exit_code == 0, table.stderr
+    assert "phase shifts of formula" in table.stdout and "model calculation" in table.stdout
+    rows = list(csv.DictReader(io.StringIO(invoke(*args, "--format", "csv").stdout)))
+    doc = json.loads(invoke(*args, "--format", "json").stdout)
+    assert len(rows) == len(doc["rows"]) == 5
+    for row in rows:
+        k = math.sqrt(2 * float(row["energy"]))
+        assert float(row["phase_shift"]) == pytest.approx(-k * 1.5, abs=1e-8)  # textbook: delta_0 = -k a
+    assert doc["status"] == "success" and doc["hard_core"] == 1.5
+
+
+def test_phases_in_electronvolts_and_plot(tmp_path):
+    plot = tmp_path / "d.png"
+    result = invoke("phases", "yukawa", "-p", "screening_length=1", "--energies", "1:20:4", "--unit", "eV",
+                    "--lmax", "1", "--format", "json", "--plot", plot)
+    assert result.exit_code == 0, result.stderr
+    doc = json.loads(result.stdout)
+    assert doc["energy_unit"] == "eV"
+    assert [r["energy"] for r in doc["rows"][:4]] == pytest.approx([1.0, 7.333333333, 13.66666667, 20.0])
+    assert plot.stat().st_size > 1000
+
+
+def test_scattering_table_and_json():
+    # square well V0 = 1.7, R = 2: a_0 = R - tan(KR)/K, K = sqrt(2 V0) (textbook formula)
+    args = ["scattering", "formula", "--expr", "-V0*step(R-r)", "-p", "V0=1.7", "-p", "R=2", "--tol", "1e-8"]
+    result = invoke(*args, "--format", "json")
+    assert result.exit_code in (0, 3), result.stderr
+    doc = json.loads(result.stdout)
+    K = math.sqrt(3.4)
+    a0 = 2 - math.tan(2 * K) / K
+    assert doc["rows"][0]["scattering_length"] == pytest.approx(a0, rel=1e-8)
+    assert doc["rows"][0]["levinson"] == "agrees" and doc["rows"][0]["bound_levels"] == 1
+    table = invoke(*args)
+    assert "Levinson" in table.stdout and "agrees" in table.stdout
+
+
+@pytest.mark.parametrize("args, words", [
+    (["phases", "yukawa", "--energies", "-1:1:3"], ["--energies", "above the threshold"]),
+    (["phases", "yukawa", "--energies", "2:1:3"], ["--energies", "inverted"]),
+    (["phases", "yukawa", "--energies", "1:1:3"], ["--energies", "empty"]),
+    (["phases", "harmonic", "--energies", "1"], ["no continuum"]),
+    (["phases", "linear", "--energies", "1"], ["no continuum"]),
+    (["phases", "formula", "--expr", "-1/r**1.5", "--energies", "1"], ["no matching rule"]),
+    (["phases", "formula", "--expr", "1 - exp(-r)/r - 1/sqrt(r)", "--energies", "2"], ["no matching rule"]),
+    (["phases", "formula", "--expr", "1/r**2", "--energies", "2"], ["inverse-square"]),
+    (["scattering", "coulomb"], ["Coulomb tail"]),
+])
+def test_bad_input_exits_2_naming_it(args, words):
+    result = invoke(*args)
+    assert result.exit_code == 2, (result.stdout, result.stderr)
+    assert "Traceback" not in result.stderr
+    for word in words:
+        assert word in result.stderr, result.stderr
