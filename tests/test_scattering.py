@@ -194,3 +194,17 @@ def test_levinson_holds_for_built_in_families(name, params):
     assert all(w.levinson == "agrees" for w in res.waves), res.message
     assert any(w.bound_levels > 0 for w in res.waves)
     assert res.status is not radsolve.Outcome.FAILED
+
+
+def test_levinson_along_a_yukawa_sweep_through_the_critical_screening():
+    # The 1s level of -exp(-r/D)/r binds for D > 0.8399 bohr (Rogers, Graboske & Harwood, Phys.
+    # Rev. A 1, 1577 (1970); from memory, 4 digits): delta_0(0) jumps from 0 to pi there and the
+    # scattering length passes through infinity, large negative just below and large positive just
+    # above (textbook: zero-energy bound state), while Levinson holds on both sides.
+    below = [scattering(radsolve.potential("yukawa", Z=1.0, screening_length=d), l=0, tol=1e-6).waves[0]
+             for d in (0.6, 0.8)]
+    above = [scattering(radsolve.potential("yukawa", Z=1.0, screening_length=d), l=0, tol=1e-6).waves[0]
+             for d in (0.88, 1.5)]
+    assert all(w.levinson == "agrees" and w.bound_levels == 0 for w in below)
+    assert all(w.levinson == "agrees" and w.bound_levels == 1 for w in above)
+    assert below[-1].scattering_length < -5 and above[0].scattering_length > 5
