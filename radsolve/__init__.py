@@ -18,7 +18,7 @@ The public API (imported on first use, so that the command line starts fast):
   CSV / JSON / ``.npz`` export;
 - :func:`phase_shifts`, :func:`scattering` — above the threshold: phase shifts
   delta_l(E) with error estimates, scattering lengths, effective ranges and the
-  Levinson check;
+  Levinson check; :func:`photoionization` — bound-free cross sections;
 - :func:`transitions` — E1 lines, oscillator strengths, Einstein A
   coefficients, lifetimes and branching ratios of the levels with n <= nmax.
 
@@ -61,6 +61,8 @@ _EXPORTS = {
     "phase_shifts": ("radsolve.analysis.scattering", "phase_shifts"),
     "scattering": ("radsolve.analysis.scattering", "scattering"),
     "energy_grid": ("radsolve.analysis.scattering", "energy_grid"),
+    "photoionization": ("radsolve.analysis.scattering", "photoionization"),
+    "PhotoionizationResult": ("radsolve.analysis.scattering", "PhotoionizationResult"),
     "PhaseShiftResult": ("radsolve.analysis.scattering", "PhaseShiftResult"),
     "ScatteringResult": ("radsolve.analysis.scattering", "ScatteringResult"),
     # every result type, and the protocol they share

@@ -73,8 +73,12 @@ def _scattering():
     return radsolve.scattering(radsolve.formula_potential("0*r"), l=0, hard_core=1.0, tol=1e-8)
 
 
+def _photoionization():
+    return radsolve.photoionization("coulomb", "1s", [0.6, 1.0], tol=1e-8)
+
+
 CASES = {
-    "phase_shifts": _phase_shifts, "scattering": _scattering,
+    "phase_shifts": _phase_shifts, "scattering": _scattering, "photoionization": _photoionization,
     "solve": _solve_ok, "solve_not_converged": _solve_rounding, "state": _state, "summary": _summary,
     "transitions": _transitions, "threshold": _threshold, "critical_values": _critical_values,
     "fit": _fit, "check": _check, "sweep": _sweep,
@@ -84,6 +88,7 @@ CASES = {
 #: The type each case returns (checked in test_status_success_and_exit_code_agree).
 CASE_TYPES = {
     "phase_shifts": "PhaseShiftResult", "scattering": "ScatteringResult",
+    "photoionization": "PhotoionizationResult",
     "solve": "SolveResult", "solve_not_converged": "SolveResult", "state": "State", "summary": "StateSummary",
     "transitions": "TransitionResult", "threshold": "ThresholdResult", "critical_values": "CriticalValues",
     "fit": "FitResult", "check": "CheckReport", "sweep": "SweepResult",
@@ -194,6 +199,9 @@ def test_outside_facts(result):
         for row in res.records():
             if row["l"] == 0:
                 assert row["phase_shift"] == pytest.approx(-(2 * row["energy"]) ** 0.5, abs=1e-8)
+    elif name == "photoionization":
+        # hydrogen 1s at threshold: 6.30e-18 cm^2 (textbook value, Bethe & Salpeter 1957; from memory)
+        assert res.threshold_cross_section == pytest.approx(6.30e-18, rel=1e-3)
     elif name == "scattering":
         # hard sphere: a = a_hard, r_0 = 2 a / 3 (textbook formulas)
         row = res.records()[0]

@@ -57,7 +57,7 @@ OPTION_OF = {
     "n": "--n", "k": "--moment", "radius": "--inside", "r": "--at",
     "dipole_charge": "--dipole-charge", "occupied": "--occupied",
     # above the threshold (cli/continuum.py)
-    "energies": "--energies", "hard_core": "--hard-core",
+    "energies": "--energies", "hard_core": "--hard-core", "photon_energies": "--photons",
 }
 
 

@@ -1,4 +1,4 @@
-"""Commands above the threshold: ``phases`` (phase shifts on an energy grid) and ``scattering``."""
+"""Commands above the threshold: ``phases`` (phase shifts on an energy grid), ``scattering``, ``photoionization``."""
 
 from __future__ import annotations
 
@@ -30,7 +30,7 @@ def _potential(name, params, plugins, units, expr):
     return _levels_potential(name, params, plugin_dirs(plugins), units, expr, None, None, None, None, None, None)
 
 
-def _energies(text: str, log: bool, unit: Optional[str], pot, units: Optional[str]):
+def _energies(text: str, log: bool, unit: Optional[str], pot, units: Optional[str], option: str = "--energies"):
     """--energies START:STOP:NUM or E1,E2,... in the output unit, as the API's energies (its unit system)."""
     from radsolve.analysis.scattering import energy_grid
     from radsolve.errors import InputError
@@ -51,10 +51,11 @@ def _energies(text: str, log: bool, unit: Optional[str], pot, units: Optional[st
         else:
             raise ValueError
     except ValueError:
-        raise InputError(f"--energies {text!r}: expected START:STOP:NUM (e.g. 0.01:2:200) or E1,E2,... "
+        raise InputError(f"{option} {text!r}: expected START:STOP:NUM (e.g. 0.01:2:200) or E1,E2,... "
                          "(numbers in --unit)") from None
     if len(parts) == 3:
-        values = energy_grid(start, stop, num, log=log)  # the API's rules of a range
+        values = energy_grid(start, stop, num, log=log,  # the API's rules of a range
+                             parameter="energies" if option == "--energies" else "photon_energies")
     return [v * factor for v in values]
 
 
@@ -162,6 +163,65 @@ def scattering_command(
             if any(w.levinson == "disagrees" for w in result.waves):
                 say("LEVINSON'S THEOREM FAILS for some l: the phase shifts or the bound count are wrong "
                     "(see the message)")
+            if out is not None or fmt is not OutputFormat.table:
+                say(result.message)
+            raise typer.Exit(result.exit_code)
+
+
+def photoionization_command(
+    name: Annotated[str, typer.Argument(metavar="NAME", help="potential family, e.g. yukawa (list: radsolve potentials)")],
+    photons: Annotated[str, typer.Option(
+        "--photons", metavar="START:STOP:NUM",
+        help="photon energies in --unit, above the level's ionization energy: NUM values from START to STOP, "
+             "or E1,E2,...")],
+    level: Annotated[str, typer.Option("--level", metavar="LABEL", help="the bound level ionized, e.g. 1s, 2p")] = "1s",
+    log: Annotated[bool, typer.Option("--log", help="space START:STOP:NUM geometrically")] = False,
+    param: ParamOption = None,
+    mass: MassOption = None,
+    tol: Annotated[float, typer.Option("--tol", metavar="T",
+                                       help="target relative error of the radial integrals (1e-12 ... 0.1)")] = 1e-8,
+    expr: ExprOption = None,
+    unit: OutputUnitOption = None,
+    fmt: FormatOption = OutputFormat.table,
+    out: OutFileOption = None,
+    plot: Annotated[Optional[Path], typer.Option(
+        "--plot", metavar="FILE", help="draw sigma against the photon energy: FILE.png, .svg or .pdf")] = None,
+    plugins: PluginsOption = None,
+) -> None:
+    """Photoionization cross sections of one bound level of NAME (atomic units).
+
+    Length form, per final l and total, in cm^2 and Mb, with the velocity form
+    beside it as a check, and the value at the threshold. Model calculation
+    (one electron, E1, nonrelativistic): not a substitute for evaluated data.
+    Exit 3 when something did not converge.
+    """
+    with reported_errors({"photon_energies": "--photons", "level": "--level"}):
+        params = parse_assignments(param)
+        from radsolve.units import energy_unit_factor
+
+        if unit is not None:
+            energy_unit_factor(unit)
+        if out is not None:
+            folder_exists(out, "--out")
+        if plot is not None:
+            from radsolve.output.plotting import check_plot_path
+
+            with_option("--plot", check_plot_path, plot)
+        from radsolve.analysis.scattering import photoionization
+
+        pot = _potential(name, params, plugins, None, expr)
+        values = _energies(photons, log, unit, pot, None, option="--photons")
+        result = solver_call(pot, photoionization, pot, level, values, mass=mass, tol=tol)
+        from radsolve.output.report import render
+
+        write_output(render(result, unit, fmt.value), out,
+                     f"{result.photon_energies.size} cross sections ({fmt.value})")
+        if plot is not None:
+            from radsolve.output.continuum_plotting import plot_photoionization
+
+            plot_photoionization(result, plot, unit)
+            say(f"wrote the cross sections to {plot}")
+        if not result.success:
             if out is not None or fmt is not OutputFormat.table:
                 say(result.message)
             raise typer.Exit(result.exit_code)

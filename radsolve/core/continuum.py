@@ -89,6 +89,8 @@ class ChannelPhases:
     tail: Tail
     coulomb_phase: np.ndarray | None = None  # sigma_L = arg Gamma(L + 1 + i eta) for a Coulomb tail
     notes: list = field(default_factory=list)
+    integrals: np.ndarray | None = None  # (m, energies): int f_j u_E dr, u_E normalized per unit energy
+    integral_error: np.ndarray | None = None
 
 
 def channel_tail(potential, profile, mass: float, k_min: float, k_max: float, tol: float,
@@ -201,11 +203,13 @@ def _basis_phase(J: np.ndarray, Y: np.ndarray, reference: np.ndarray) -> np.ndar
 
 
 def _shoot(grid, values: np.ndarray, centrifugal: float, mass: float, energies: np.ndarray, start: int,
-           exponent: float, hard_core: bool, keep_from: int, mark: int):
+           exponent: float, hard_core: bool, keep_from: int, mark: int, weights: np.ndarray | None = None):
     """Numerov outward for every energy at once.
 
     Returns u on grid points keep_from ... end (rows) for each energy
-    (columns), the number of zeros of u on (0, r[mark]] and on (0, r[end]].
+    (columns), the number of zeros of u on (0, r[mark]] and on (0, r[end]],
+    and, with ``weights`` (m rows over the grid points), the sums
+    sum_i weights[j, i] u_i for each row j and energy (on u's scale).
     """
     _, q = grid.liouville_coefficients(values, 0, mass, centrifugal=centrifugal)
     b = grid.jacobian**2
@@ -230,14 +234,24 @@ def _shoot(grid, values: np.ndarray, centrifugal: float, mass: float, energies: 
         kept[start - keep_from] = y_prev
     if start + 1 >= keep_from:
         kept[start + 1 - keep_from] = y_cur
+    sums = None
+    if weights is not None:
+        # u = sqrt(r') y / (1 - t): the weights take sqrt(r'), the loop 1/(1 - t) (energy-dependent)
+        wj = weights * np.sqrt(grid.jacobian)[None, :]
+        sums = np.zeros((weights.shape[0], ne))
+        sums += wj[:, start, None] * (y_prev / (1.0 - t0[0]))[None, :] + wj[:, start + 1, None] * (y_cur / (1.0 - t0[1]))[None, :]
     for lo in range(start + 1, n - 1, _BLOCK):
         hi = min(lo + _BLOCK, n - 1)
         t = t_rows(lo, hi)
         d = 2.0 + 12.0 * t / (1.0 - t)
+        if sums is not None:
+            inv_next = 1.0 / (1.0 - t_rows(lo + 1, hi + 1))
         for i in range(lo, hi):  # y[i + 1] = d[i] y[i] - y[i - 1]
             y_new = d[i - lo] * y_cur - y_prev
             zeros += (y_new * y_cur < 0.0)
             y_prev, y_cur = y_cur, y_new
+            if sums is not None:
+                sums += wj[:, i + 1, None] * (y_cur * inv_next[i - lo])[None, :]
             if i + 1 >= keep_from:
                 kept[i + 1 - keep_from] = y_cur
             if i + 1 == mark:
@@ -246,33 +260,39 @@ def _shoot(grid, values: np.ndarray, centrifugal: float, mass: float, energies: 
             big = np.maximum(np.abs(y_cur), np.abs(y_prev))
             scale = np.where(big > 1e100, 1.0 / big, 1.0)
             y_cur, y_prev = y_cur * scale, y_prev * scale
+            if sums is not None:
+                sums *= scale[None, :]
     kept_t = t_rows(keep_from, n)
     u = np.sqrt(grid.jacobian[keep_from:, None]) * kept / (1.0 - kept_t)
+    if weights is not None:
+        return u, zeros_mark, zeros, sums
     return u, zeros_mark, zeros
 
 
-def _match(u, r, rows1, row2, k, L, eta, zeros):
-    """delta (absolute) from u at rows ``rows1`` (per energy) and ``row2`` (common) of the kept block."""
-    cols = np.arange(k.size)
-    r1 = r[rows1]
-    r2 = np.full(k.size, r[row2])
-    u1 = u[rows1, cols]
-    u2 = u[row2, cols]
+def _basis(L: int, k: np.ndarray, eta, r1: np.ndarray, r2: np.ndarray):
+    """(J1, Y1, J2, Y2, theta2): the free or Coulomb waves at r1, r2 and the phase theta at r2."""
     if eta is None:
         J1, Y1 = _riccati(L, k * r1)
         J2, Y2 = _riccati(L, k * r2)
     else:
         J1, Y1 = _coulomb(L, eta, k * r1)
         J2, Y2 = _coulomb(L, eta, k * r2)
+    theta2 = _basis_phase(J2, Y2, _reference_phase(L, k * r2, eta))
+    return J1, Y1, J2, Y2, theta2
+
+
+def _phase_from(u1, u2, J1, Y1, J2, Y2, theta2, zeros):
+    """(delta, A): u = A (J cos(delta) - Y sin(delta)) through u1, u2, A > 0, delta placed by the zeros of u.
+
+    u has ``zeros`` zeros on (0, r2]: theta + delta lies in (N pi, (N + 1) pi) there.
+    """
     det = J1 * Y2 - J2 * Y1
     s = (u1 * J2 - u2 * J1) / det
     c = (u1 * Y2 - u2 * Y1) / det
     delta0 = np.arctan2(s, c)
-    theta2 = _basis_phase(J2, Y2, _reference_phase(L, k * r2, eta))
     phi = theta2 + delta0
-    # u has `zeros` zeros on (0, r2]: theta + delta lies in (N pi, (N + 1) pi) there
     m = np.round((zeros * math.pi + 0.5 * math.pi - phi) / (2.0 * math.pi))
-    return delta0 + 2.0 * math.pi * m
+    return delta0 + 2.0 * math.pi * m, np.hypot(s, c)
 
 
 def _richardson(values: list, orders: tuple) -> tuple[np.ndarray, np.ndarray]:
@@ -306,11 +326,17 @@ def _coarse_step(potential, profile, span_probe: GridSpan, L: float, mass: float
 
 
 def channel_phases(potential, profile, L: float, l: int, mass: float, energies: np.ndarray, tol: float,
-                   hard_core: float | None = None, boundary_share: float = 1e-3) -> ChannelPhases:
+                   hard_core: float | None = None, boundary_share: float = 1e-3, integrand=None,
+                   min_radius: float = 0.0) -> ChannelPhases:
     """Phase shifts of one partial wave at ``energies`` (measured from V(inf), all > 0).
 
     ``L`` is the effective angular momentum (an integer in three dimensions);
-    ``hard_core`` a radius inside which u = 0 (a hard sphere).
+    ``hard_core`` a radius inside which u = 0 (a hard sphere).  With
+    ``integrand`` (a grid -> array (m, grid points) of f_j(r)), also the integrals
+    int f_j(r) u_E(r) dr of the continuum state normalized per unit energy,
+    u_E ~ sqrt(2 m / (pi k)) sin(theta + delta) (``integrals``, relative
+    target ``tol``); the grid then reaches at least ``min_radius`` (where the
+    f_j have died out).
     """
     energies = np.asarray(energies, dtype=float)
     k = np.sqrt(2.0 * mass * energies)
@@ -336,6 +362,8 @@ def channel_phases(potential, profile, L: float, l: int, mass: float, energies: 
             # nothing but a constant (or c/r**2): start where the wave is still a power law
             r_min = max(r_min, 1e-8 / max(float(k.max()), 1e-300))
     tail = channel_tail(potential, profile, mass, float(k.min()), float(k.max()), tol, r_min)
+    if min_radius > tail.radius:
+        tail = Tail(tail.kind, tail.coefficient, float(min_radius), tail.limited)
     eta = mass * tail.coefficient / k if tail.kind == "coulomb" else None
     r_end = END_FACTOR * tail.radius
     anchors = [b for b in profile.breakpoints if r_min < b < r_end]
@@ -352,6 +380,8 @@ def channel_phases(potential, profile, L: float, l: int, mass: float, energies: 
     # whole power from h**2 on (as for the levels, radsolve.core.extrapolation)
     jumps = [b for b in span.anchors if hard_core is None or b != r_min]
     orders = (2, 3, 4, 5, 6, 7) if jumps else (4, 6, 8, 10)
+    int_history: list[np.ndarray] = []
+    integrals = integral_error = None
     phase = np.full(energies.size, np.nan)
     grid_error = np.full(energies.size, np.inf)
     radius_error = np.full(energies.size, np.inf)
@@ -359,6 +389,16 @@ def channel_phases(potential, profile, L: float, l: int, mass: float, energies: 
     history: list[tuple[np.ndarray, np.ndarray]] = []  # (outer, inner) on every grid, all energies
     grids_used = 0
     points = 0
+    coarse_r = span.grid(0).r
+    ra_coarse = min(int(np.searchsorted(coarse_r, tail.radius)), coarse_r.size - 3)
+    last_coarse = coarse_r.size - 1
+    # partners a quarter wavelength (at most 0.3 R_a) outside R_a and inside the end: every point
+    # used lies beyond the matching radius
+    spacing = np.minimum(0.5 * math.pi / k, 0.3 * tail.radius)
+    rows_a0 = np.clip(np.searchsorted(coarse_r, coarse_r[ra_coarse] + spacing), ra_coarse + 1, last_coarse)
+    rows_b0 = np.clip(np.searchsorted(coarse_r, coarse_r[last_coarse] - spacing), ra_coarse, last_coarse - 1)
+    basis_a = _basis(Lint, k, eta, coarse_r[rows_a0], np.full(k.size, coarse_r[ra_coarse]))
+    basis_b = _basis(Lint, k, eta, coarse_r[rows_b0], np.full(k.size, coarse_r[last_coarse]))
     for g in range(MAX_HALVINGS + 1):
         if span.intervals(g) + 1 > MAX_POINTS:
             break
@@ -367,28 +407,42 @@ def channel_phases(potential, profile, L: float, l: int, mass: float, energies: 
         start = 0
         if hard_core is not None:
             start = int(np.argmin(np.abs(grid.r - r_min)))
-        ra_row = int(np.searchsorted(grid.r, tail.radius))
+        # the matching points are points of the coarsest grid, so the same radii on every grid
+        # (the free or Coulomb waves there are computed once)
+        step_g = 2**g
+        ra_row = ra_coarse * step_g
         keep_from = ra_row
         last = grid.size - 1
         sub = active
-        u, zeros_a, zeros_b = _shoot(grid, values, L * (L + 1.0), mass, energies[sub], start, exponent,
-                                     hard_core is not None, keep_from, ra_row)
-        r = grid.r[keep_from:]
-        kk = k[sub]
-        # partners a quarter wavelength (at most 0.3 R_a) outside R_a and inside the end: every
-        # point used lies beyond the matching radius
-        spacing = np.minimum(0.5 * math.pi / kk, 0.3 * tail.radius)
-        row_a = 0
+        weights = None
+        if integrand is not None:
+            with np.errstate(all="ignore"):
+                f = np.atleast_2d(integrand(grid))
+            weights = np.where(np.isfinite(f), f, 0.0) * grid.weights[None, :]
+            weights[:, :start] = 0.0
+            if integrals is None:
+                integrals = np.full((weights.shape[0], energies.size), np.nan)
+                integral_error = np.full((weights.shape[0], energies.size), np.inf)
+        shot = _shoot(grid, values, L * (L + 1.0), mass, energies[sub], start, exponent,
+                      hard_core is not None, keep_from, ra_row, weights)
+        u, zeros_a, zeros_b = shot[:3]
         row_b = last - keep_from
-        rows_a = np.clip(np.searchsorted(r, r[row_a] + spacing), 1, row_b)
-        rows_b = np.clip(np.searchsorted(r, r[row_b] - spacing), 0, row_b - 1)
-        e_sub = None if eta is None else eta[sub]
-        outer = _match(u, r, rows_b, row_b, kk, Lint, e_sub, zeros_b)
-        inner = _match(u, r, rows_a, row_a, kk, Lint, e_sub, zeros_a)
+        cols = np.arange(sub.size)
+        u_a1, u_a2 = u[(rows_a0[sub] - ra_coarse) * step_g, cols], u[0, cols]
+        u_b1, u_b2 = u[(rows_b0[sub] - ra_coarse) * step_g, cols], u[row_b, cols]
+        outer, amp_o = _phase_from(u_b1, u_b2, *[b[sub] for b in basis_b], zeros_b)
+        inner, amp_i = _phase_from(u_a1, u_a2, *[b[sub] for b in basis_a], zeros_a)
         full_o = np.full(energies.size, np.nan)
         full_i = np.full(energies.size, np.nan)
         full_o[sub], full_i[sub] = outer, inner
         history.append((full_o, full_i))
+        if integrand is not None:
+            norm = np.sqrt(2.0 * mass / (math.pi * k[sub])) / amp_o
+            full = np.full((weights.shape[0], energies.size), np.nan)
+            full[:, sub] = shot[3] * norm[None, :]
+            int_history.append(full)
+            amp_change = np.full(energies.size, np.nan)
+            amp_change[sub] = np.abs(amp_o / amp_i - 1.0)
         grids_used = g + 1
         points = grid.size
         if len(history) >= 3:
@@ -402,6 +456,14 @@ def channel_phases(potential, profile, L: float, l: int, mass: float, energies: 
             grid_error[sub] = est[sub]
             radius_error[sub] = rad[sub]
             done = (est[sub] + rad[sub]) <= tol
+            if integrand is not None:
+                ibest, iest = _richardson(int_history, orders)
+                iest = iest + np.abs(ibest) * amp_change[None, :] + 64.0 * np.finfo(float).eps * \
+                    math.sqrt(grid.size) * np.abs(ibest)
+                integrals[:, sub] = ibest[:, sub]
+                integral_error[:, sub] = iest[:, sub]
+                scale_i = np.maximum(np.abs(ibest[:, sub]), 1e-300)
+                done = done & np.all(iest[:, sub] <= tol * scale_i, axis=0)
             active = sub[~done]
             if active.size == 0:
                 break
@@ -412,6 +474,10 @@ def channel_phases(potential, profile, L: float, l: int, mass: float, energies: 
         phase = history[-1][0]
     error = grid_error + radius_error
     converged = error <= tol
+    if integrand is not None:
+        if int_history and grids_used < 3:
+            integrals = int_history[-1]
+        converged = converged & np.all(integral_error <= tol * np.maximum(np.abs(integrals), 1e-300), axis=0)
     notes = []
     if tail.limited:
         notes.append(f"the tail of V is long: matching stopped at r = {tail.radius:.4g}; its share of the "
@@ -419,7 +485,7 @@ def channel_phases(potential, profile, L: float, l: int, mass: float, energies: 
     coul = coulomb_phase(Lint, eta) if eta is not None else None
     return ChannelPhases(phase=phase, error=error, grid_error=grid_error, radius_error=radius_error,
                          converged=converged, grids=grids_used, points=points, tail=tail,
-                         coulomb_phase=coul, notes=notes)
+                         coulomb_phase=coul, notes=notes, integrals=integrals, integral_error=integral_error)
 
 
 # --------------------------------------------------------------------------- zero energy

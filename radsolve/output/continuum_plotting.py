@@ -1,6 +1,7 @@
 """Pictures of phase shifts (PNG, SVG or PDF through matplotlib's Agg renderer; no pyplot).
 
-:func:`plot_phase_shifts` draws delta_l(E) / pi of a
+:func:`plot_photoionization` draws sigma(omega) in Mb (length form, per final l,
+and the velocity form dashed).  :func:`plot_phase_shifts` draws delta_l(E) / pi of a
 :class:`radsolve.analysis.scattering.PhaseShiftResult` (read through its
 attributes: this layer does not import the analysis layer), one curve per l,
 with the phase shifts that did not converge marked by crosses, and dotted
@@ -55,4 +56,32 @@ def plot_phase_shifts(result, path, unit: str | None = None, title: str | None =
     import textwrap
 
     ax.set_title(title or "\n".join(textwrap.wrap(f"{result.potential} {params}".strip(), 100)), fontsize=9)
+    _save(fig, path)
+
+
+def plot_photoionization(result, path, unit: str | None = None, title: str | None = None) -> None:
+    """sigma(omega) of a :class:`radsolve.analysis.scattering.PhotoionizationResult` (Mb, log scale)."""
+    import textwrap
+
+    from radsolve.units import energy_unit_factor
+
+    unit = unit or "hartree"
+    w = np.asarray(result.photon_energies) / energy_unit_factor(unit)
+    fig, axes = _figure(7.0, 4.2)
+    ax = axes[0][0]
+    colors = _colors(len(result.final_ls) + 2)
+    ax.plot(w, np.asarray(result.sigma) / 1e-18, color=colors[0], lw=1.8, label="total (length form)")
+    ax.plot(w, np.asarray(result.sigma_velocity) / 1e-18, color="0.2", lw=0.9, ls="--", label="total (velocity form)")
+    for i, lf in enumerate(result.final_ls):
+        ax.plot(w, np.asarray(result.sigma_l[i]) / 1e-18, color=colors[i + 1], lw=1.0, label=f"to l = {lf}")
+    bad = ~np.asarray(result.converged)
+    if bad.any():
+        ax.plot(w[bad], np.asarray(result.sigma)[bad] / 1e-18, "x", color="0.3", label="not converged")
+    ax.set_yscale("log")
+    ax.set_xlabel(f"photon energy ({unit})")
+    ax.set_ylabel("cross section (Mb)")
+    ax.legend(loc="best", fontsize=8)
+    params = " ".join(f"{k}={v:.6g}" if isinstance(v, float) else f"{k}={v}" for k, v in result.parameters.items())
+    ax.set_title(title or "\n".join(textwrap.wrap(f"{result.level} of {result.potential} {params}".strip(), 100)),
+                 fontsize=9)
     _save(fig, path)

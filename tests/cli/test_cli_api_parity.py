@@ -35,7 +35,7 @@ from typer.testing import CliRunner
 import radsolve
 from radsolve.analysis.fitting import fit, parse_free
 from radsolve.analysis.radiative import transitions
-from radsolve.analysis.scattering import energy_grid, phase_shifts, scattering
+from radsolve.analysis.scattering import energy_grid, phase_shifts, photoionization, scattering
 from radsolve.analysis.sweeps import parse_vary, sweep
 from radsolve.analysis.thresholds import NoThresholdError, critical_values, threshold
 from radsolve.cli import app
@@ -226,6 +226,12 @@ CASES = [
     Case(["scattering", "coulomb"], lambda: scattering("coulomb"), "potential", "NAME"),
     Case(["scattering", "harmonic"], lambda: scattering("harmonic"), "potential", "NAME"),
     Case(["scattering", "yukawa", "--tol", "1"], lambda: scattering("yukawa", tol=1.0), "tol", "--tol"),
+    Case(["photoionization", "coulomb", "--photons", "0.3,1"], lambda: photoionization("coulomb", "1s", [0.3, 1.0]),
+         "photon_energies", "--photons"),
+    Case(["photoionization", "coulomb", "--photons", "1", "--level", "1p"],
+         lambda: photoionization("coulomb", "1p", [1.0]), "level", "--level"),
+    Case(["photoionization", "coulomb", "--photons", "2:1:3"],
+         lambda: energy_grid(2.0, 1.0, 3, parameter="photon_energies"), "photon_energies", "--photons"),
 ]
 
 #: Refused by the command line with no API call to compare: (args, words its message holds, why).
@@ -344,6 +350,7 @@ DEFAULTS = {
     "check": (radsolve.check, {"tol": "tol", "quick": "quick"}),
     "phases": (phase_shifts, {"tol": "tol", "hard_core": "hard_core", "mass": "mass", "units": "units"}),
     "scattering": (scattering, {"tol": "tol", "hard_core": "hard_core", "mass": "mass", "units": "units"}),
+    "photoionization": (photoionization, {"tol": "tol", "level": "level", "mass": "mass"}),
 }
 
 

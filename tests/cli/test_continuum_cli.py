@@ -74,3 +74,21 @@ def test_bad_input_exits_2_naming_it(args, words):
     assert "Traceback" not in result.stderr
     for word in words:
         assert word in result.stderr, result.stderr
+
+
+def test_photoionization_command_in_ev_and_megabarn(tmp_path):
+    # hydrogen 1s at threshold: 6.30e-18 cm^2 = 6.30 Mb (textbook value, Bethe and Salpeter 1957;
+    # from memory)
+    plot = tmp_path / "s.png"
+    result = invoke("photoionization", "coulomb", "--photons", "14:40:3", "--unit", "eV", "--format", "json",
+                    "--plot", plot)
+    assert result.exit_code == 0, result.stderr
+    doc = json.loads(result.stdout)
+    assert doc["threshold_cross_section_cm2"] == pytest.approx(6.30e-18, rel=1e-3)
+    assert doc["ionization_energy"] == pytest.approx(13.6057, rel=1e-5)  # hartree/2 in eV (CODATA)
+    for row in doc["rows"]:
+        assert row["sigma_Mb"] == pytest.approx(row["sigma_cm2"] / 1e-18)
+        assert row["sigma_velocity_cm2"] == pytest.approx(row["sigma_cm2"], rel=1e-6)
+    assert plot.stat().st_size > 1000
+    below = invoke("photoionization", "coulomb", "--photons", "10", "--unit", "eV")
+    assert below.exit_code == 2 and "--photons" in below.stderr and "ionization energy" in below.stderr
