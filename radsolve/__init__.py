@@ -19,6 +19,7 @@ The public API (imported on first use, so that the command line starts fast):
 - :func:`phase_shifts`, :func:`scattering` — above the threshold: phase shifts
   delta_l(E) with error estimates, scattering lengths, effective ranges and the
   Levinson check; :func:`photoionization` — bound-free cross sections;
+  :func:`log_derivatives` — u'/u at a radius, a model beside a reference, ghost states;
 - :func:`transitions` — E1 lines, oscillator strengths, Einstein A
   coefficients, lifetimes and branching ratios of the levels with n <= nmax.
 
@@ -62,6 +63,8 @@ _EXPORTS = {
     "scattering": ("radsolve.analysis.scattering", "scattering"),
     "energy_grid": ("radsolve.analysis.scattering", "energy_grid"),
     "photoionization": ("radsolve.analysis.scattering", "photoionization"),
+    "log_derivatives": ("radsolve.analysis.scattering", "log_derivatives"),
+    "LogDerivativeResult": ("radsolve.analysis.scattering", "LogDerivativeResult"),
     "PhotoionizationResult": ("radsolve.analysis.scattering", "PhotoionizationResult"),
     "PhaseShiftResult": ("radsolve.analysis.scattering", "PhaseShiftResult"),
     "ScatteringResult": ("radsolve.analysis.scattering", "ScatteringResult"),

@@ -77,7 +77,12 @@ def _photoionization():
     return radsolve.photoionization("coulomb", "1s", [0.6, 1.0], tol=1e-8)
 
 
+def _log_derivatives():
+    return radsolve.log_derivatives("coulomb", [-0.5, 0.2], l=0, radius=2.0, reference="yukawa", tol=1e-8)
+
+
 CASES = {
+    "log_derivatives": _log_derivatives,
     "phase_shifts": _phase_shifts, "scattering": _scattering, "photoionization": _photoionization,
     "solve": _solve_ok, "solve_not_converged": _solve_rounding, "state": _state, "summary": _summary,
     "transitions": _transitions, "threshold": _threshold, "critical_values": _critical_values,
@@ -88,7 +93,7 @@ CASES = {
 #: The type each case returns (checked in test_status_success_and_exit_code_agree).
 CASE_TYPES = {
     "phase_shifts": "PhaseShiftResult", "scattering": "ScatteringResult",
-    "photoionization": "PhotoionizationResult",
+    "photoionization": "PhotoionizationResult", "log_derivatives": "LogDerivativeResult",
     "solve": "SolveResult", "solve_not_converged": "SolveResult", "state": "State", "summary": "StateSummary",
     "transitions": "TransitionResult", "threshold": "ThresholdResult", "critical_values": "CriticalValues",
     "fit": "FitResult", "check": "CheckReport", "sweep": "SweepResult",
@@ -199,6 +204,9 @@ def test_outside_facts(result):
         for row in res.records():
             if row["l"] == 0:
                 assert row["phase_shift"] == pytest.approx(-(2 * row["energy"]) ** 0.5, abs=1e-8)
+    elif name == "log_derivatives":
+        # hydrogen 1s, u = 2 r exp(-r): u'/u = 1/r - 1 = -1/2 at r = 2 (textbook formula)
+        assert res.records()[0]["log_derivative"] == pytest.approx(-0.5, abs=1e-8)
     elif name == "photoionization":
         # hydrogen 1s at threshold: 6.30e-18 cm^2 (textbook value, Bethe & Salpeter 1957; from memory)
         assert res.threshold_cross_section == pytest.approx(6.30e-18, rel=1e-3)

@@ -274,3 +274,42 @@ def test_photoionization_refuses_photons_below_the_threshold():
     with pytest.raises(InputError) as info:
         photoionization("coulomb", "1s", [0.4])
     assert info.value.parameter == "photon_energies" and "ionization energy" in str(info.value)
+
+
+# --------------------------------------------------------------------------- logarithmic derivatives
+
+from radsolve.analysis.scattering import log_derivatives  # noqa: E402
+
+
+def test_log_derivative_inside_a_square_well_and_of_hydrogen_1s():
+    # Inside a square well u = r j_l(K r): u'/u = 1/r + K j_l'(K r)/j_l(K r), K**2 = 2 (E + V0)
+    # (textbook formula), below and above the threshold alike.
+    V0, rc = 1.7, 1.5
+    well = radsolve.formula_potential("-V0*step(2-r)", V0=V0)
+    energies = np.linspace(-1.5, 3.0, 10)
+    res = log_derivatives(well, energies, l=[0, 1, 2], radius=rc, tol=1e-10)
+    K = np.sqrt(2 * (energies + V0))
+    for i, l in enumerate(res.ls):
+        exact = 1 / rc + K * spherical_jn(l, K * rc, True) / spherical_jn(l, K * rc)
+        assert np.max(np.abs(res.model[i] / exact - 1)) < 1e-9
+    # hydrogen 1s, u = 2 r exp(-r): u'/u = 1/r - 1 at E = -1/2 (textbook formula)
+    h = log_derivatives("coulomb", [-0.5], l=0, radius=2.0, tol=1e-10)
+    assert h.model[0, 0] == pytest.approx(-0.5, abs=1e-9)
+
+
+def test_ghost_state_is_found_whatever_the_energy_spacing():
+    # Model: a deeper square well than the reference.  Inside r_c, L has a pole where j_0(K r_c) = 0,
+    # K r_c = pi (textbook): at E = (pi/r_c)**2/2 - V0, i.e. -0.807 for the model (V0 = 3) and
+    # +0.493 for the reference (V0 = 1.7).  Between -1.5 and 0 only the model has one: a ghost.
+    rc = 1.5
+    model = radsolve.formula_potential("-V0*step(2-r)", V0=3.0)
+    ref = radsolve.formula_potential("-V0*step(2-r)", V0=1.7)
+    energies = np.linspace(-1.5, 0.0, 4)  # coarse on purpose: node counts, not sampling, find it
+    res = log_derivatives(model, energies, l=0, radius=rc, reference=ref, tol=1e-8)
+    pole = (math.pi / rc) ** 2 / 2 - 3.0
+    assert len(res.ghosts) == 1
+    l, lo, hi, kind = res.ghosts[0]
+    assert kind == "ghost" and lo < pole < hi
+    assert res.status is radsolve.Outcome.FAILED and any(n.code == "ghost_state" for n in res.notes)
+    same = log_derivatives(ref, energies, l=0, radius=rc, reference=ref, tol=1e-8)
+    assert not same.ghosts and np.max(np.abs(same.model - same.ref)) < 1e-12

@@ -41,8 +41,9 @@ from radsolve.core.protocol import Note, Outcome, ResultProtocol, message_of, wo
 from radsolve.errors import InputError
 
 #: The one-line caveat carried by the results.
-MODEL_NOTE = ("model calculation: phase shifts and scattering parameters of a model potential, not "
-              "measured data; for safety or dosimetry work use established data and practice.")
+MODEL_NOTE = ("model calculation: continuum quantities of a model potential (phase shifts, scattering "
+              "parameters, cross sections, logarithmic derivatives), not measured data; for safety or "
+              "dosimetry work use established data and practice.")
 #: Most energies of one call.
 ENERGIES_MAX = 1_000_000
 #: Tolerance range of phase shifts (absolute, radians).
@@ -779,3 +780,189 @@ def photoionization(potential, level: str = "1s", photon_energies=None, *, mass=
                                  sigma_l_error=sig_err[:, :-1], sigma_velocity=sig_v[:-1],
                                  converged=converged[:-1], threshold_cross_section=float(total[-1]),
                                  threshold_error=float(sig_err[:, -1].sum()), notes=notes)
+
+
+# --------------------------------------------------------------------------- logarithmic derivatives
+
+
+@dataclass(repr=False)
+class LogDerivativeResult(ResultProtocol):
+    """L_l(E) = u'/u at a radius r_c, for a model potential and optionally a reference (the result protocol).
+
+    ``nodes`` counts the zeros of u on (0, r_c]: each pole of L_l(E) below E
+    adds one (oscillation theory, textbook).  A model whose count changes
+    between two energies where the reference's does not has a pole the
+    reference lacks: a ghost state (note ``ghost_state``); the other way round,
+    a missing state (``missing_state``).  A constant offset of the counts is
+    no defect (a pseudopotential drops the core's nodes).  A ghost or missing
+    state makes the status ``failed`` (the model's verdict).  Note codes also:
+    ``not_converged``, ``differs`` (|L_model - L_ref| above ``tolerance`` at
+    some energies, with the largest gap).
+    """
+
+    potential: str
+    parameters: dict
+    reference: str | None
+    reference_parameters: dict | None
+    units: str
+    mass: float
+    tol: float
+    radius: float
+    energies: np.ndarray
+    ls: list
+    model: np.ndarray  # (l, E)
+    model_error: np.ndarray
+    model_nodes: np.ndarray
+    ref: np.ndarray | None
+    ref_error: np.ndarray | None
+    ref_nodes: np.ndarray | None
+    converged: np.ndarray
+    ghosts: list  # (l, E_low, E_high, "ghost" | "missing")
+    notes: list = field(default_factory=list)
+
+    @property
+    def status(self) -> Outcome:
+        if self.ghosts:
+            return Outcome.FAILED  # the model fails the comparison: a pole too many or too few
+        return Outcome.SUCCESS if bool(np.all(self.converged)) else Outcome.NOT_CONVERGED
+
+    @property
+    def message(self) -> str:
+        return message_of(self.notes, f"{self.model.size} logarithmic derivatives converged"
+                                      + ("; no ghost state between the energies" if self.ref is not None else ""))
+
+    def records(self, unit: str | None = None) -> list[dict[str, Any]]:
+        factor = _energy_factor(self.units, unit)
+        rows = []
+        for i, l in enumerate(self.ls):
+            for j, e in enumerate(self.energies):
+                row = {"l": l, "energy": float(e) / factor, "log_derivative": float(self.model[i, j]),
+                       "error_estimate": float(self.model_error[i, j]), "nodes": int(self.model_nodes[i, j])}
+                if self.ref is not None:
+                    row.update({"reference": float(self.ref[i, j]), "reference_error": float(self.ref_error[i, j]),
+                                "reference_nodes": int(self.ref_nodes[i, j]),
+                                "difference": float(self.model[i, j] - self.ref[i, j])})
+                row["converged"] = bool(self.converged[i, j])
+                rows.append(row)
+        return rows
+
+    def to_dict(self, unit: str | None = None) -> dict[str, Any]:
+        factor = _energy_factor(self.units, unit)
+        return {"kind": "log_derivatives", "status": str(self.status), "success": self.success,
+                "message": self.message, "notes": [n.to_dict() for n in self.notes],
+                "potential": self.potential, "parameters": self.parameters, "reference": self.reference,
+                "reference_parameters": self.reference_parameters, "units": self.units,
+                "energy_unit": _unit_name(self.units, unit), "mass": self.mass, "tol": self.tol,
+                "radius": self.radius,
+                "ghosts": [{"l": g[0], "from": g[1] / factor, "to": g[2] / factor, "kind": g[3]} for g in self.ghosts],
+                "note": MODEL_NOTE, "rows": self.records(unit)}
+
+    def _header(self):
+        return [("potential", self.potential), ("reference", self.reference), ("radius", self.radius),
+                ("l", self.ls), ("ghosts", len(self.ghosts))]
+
+    def _table_columns(self):
+        cols = ["l", "energy", "log_derivative", "error_estimate", "nodes"]
+        return cols + (["reference", "reference_nodes", "difference"] if self.ref is not None else [])
+
+    def to_table(self, unit: str | None = None) -> str:
+        name = _unit_name(self.units, unit)
+        length = "bohr" if self.units == "atomic" else "fm"
+        lines = [f"logarithmic derivative u'/u at r_c = {self.radius:.10g} {length}",
+                 f"  model: {self.potential} {_param_text(self.parameters)}".rstrip()]
+        if self.reference is not None:
+            lines.append(f"  reference: {self.reference} {_param_text(self.reference_parameters or {})}".rstrip())
+        head = f"{'l':>3}  {'E (' + name + ')':>16}  {'L model':>16}  {'estimate':>8}  {'nodes':>5}"
+        if self.ref is not None:
+            head += f"  {'L reference':>16}  {'nodes':>5}  {'difference':>12}"
+        lines += ["", head]
+        for row in self.records(unit):
+            text = (f"{row['l']:>3}  {row['energy']:>16.10g}  {row['log_derivative']:>16.10g}  "
+                    f"{row['error_estimate']:>8.1e}  {row['nodes']:>5}")
+            if self.ref is not None:
+                text += f"  {row['reference']:>16.10g}  {row['reference_nodes']:>5}  {row['difference']:>12.4e}"
+            lines.append(text + ("" if row["converged"] else "  not converged"))
+        lines += ["", f"status: {self.status}; {self.message}", f"note: {MODEL_NOTE}"]
+        return "\n".join(lines) + "\n"
+
+
+def log_derivatives(potential, energies, l=0, *, radius: float, reference=None, mass=None, tol: float = 1e-8,
+                    tolerance: float | None = None, plugins=None, units: str | None = None) -> LogDerivativeResult:
+    """L_l(E) = u'(r_c)/u(r_c) of ``potential`` (and of ``reference``, when given) at ``energies``.
+
+    Energies are absolute (any finite values: below and above the threshold).
+    ``radius`` is r_c in the length unit of the unit system; ``tolerance``
+    (default 10 ``tol``, relative to max(|L|, 1/r_c)) is the gap between model
+    and reference reported as a difference.  Ghost states are found from the
+    node counts (see :class:`LogDerivativeResult`), which do not depend on how
+    fine the energy grid is between two energies.
+    """
+    from radsolve.core.continuum import log_derivatives as channel_log_derivatives
+
+    tol = _validated_phase_tol(tol)
+    if not (isinstance(radius, (int, float)) and not isinstance(radius, bool) and math.isfinite(radius) and radius > 0):
+        raise InputError(f"radius must be a radius > 0 (got {radius!r})", parameter="radius")
+    pot, system, mu, kinetic, channels, _ = _setup(potential, l, mass, plugins, units, 3, None)
+    try:
+        e = np.atleast_1d(np.asarray(energies, dtype=float))
+    except (TypeError, ValueError):
+        raise InputError(f"energies must be numbers (got {energies!r})", parameter="energies") from None
+    if e.ndim != 1 or e.size == 0 or not np.all(np.isfinite(e)):
+        raise InputError("energies: at least one energy is needed, all finite", parameter="energies")
+    order = np.argsort(e, kind="stable")
+    if np.any(order != np.arange(e.size)):
+        raise InputError("energies must be in increasing order (the ghost-state search follows them)",
+                         parameter="energies")
+    gap = 10.0 * tol if tolerance is None else float(tolerance)
+    ref_channels = None
+    ref_pot = None
+    if reference is not None:
+        ref_pot, ref_system, _, _, ref_channels, _ = _setup(reference, l, mass, plugins, units, 3, None)
+        if ref_system.name != system.name:
+            raise InputError(f"the reference is in {ref_system.name} units, the model in {system.name}: "
+                             "both must use one unit system", parameter="reference")
+
+    def run(chs):
+        vals, errs, nods, convs = [], [], [], []
+        for li, L, cpot, prof in chs:
+            ref_e = 0.0 if prof.confining else prof.v_infinity
+            ld = channel_log_derivatives(cpot, prof, L, kinetic, e - ref_e, float(radius), tol)
+            vals.append(ld.value)
+            errs.append(ld.error)
+            nods.append(ld.nodes)
+            convs.append(ld.converged)
+        return np.array(vals), np.array(errs), np.array(nods), np.array(convs)
+
+    model, model_err, model_nodes, conv = run(channels)
+    ref = ref_err = ref_nodes = None
+    notes: list[Note] = []
+    ghosts = []
+    ls = [c[0] for c in channels]
+    if ref_channels is not None:
+        ref, ref_err, ref_nodes, ref_conv = run(ref_channels)
+        conv = conv & ref_conv
+        for i, li in enumerate(ls):
+            d = model_nodes[i] - ref_nodes[i]
+            for j in np.nonzero(np.diff(d))[0]:
+                kind = "ghost" if d[j + 1] > d[j] else "missing"
+                ghosts.append((li, float(e[j]), float(e[j + 1]), kind))
+                what = ("a GHOST STATE: the model's L has a pole the reference lacks"
+                        if kind == "ghost" else "a MISSING STATE: the reference's L has a pole the model lacks")
+                notes.append(Note(f"{kind}_state", f"l = {li}: {what} between E = {e[j]:.6g} and {e[j + 1]:.6g}",
+                                  f"l={li}"))
+            scale = np.maximum(np.maximum(np.abs(model[i]), np.abs(ref[i])), 1.0 / radius)
+            off = np.abs(model[i] - ref[i]) > gap * scale
+            if off.any():
+                worst_j = int(np.argmax(np.abs(model[i] - ref[i]) / scale))
+                notes.append(Note("differs", f"l = {li}: model and reference differ beyond {gap:g} (relative) at "
+                                             f"{int(off.sum())} of {e.size} energies, most at E = {e[worst_j]:.6g}",
+                                  f"l={li}"))
+    bad = int(np.count_nonzero(~conv))
+    if bad:
+        notes.append(Note("not_converged", f"{bad} logarithmic derivatives did not reach tol {tol:g}"))
+    return LogDerivativeResult(potential=pot.name, parameters=_params(pot),
+                               reference=None if ref_pot is None else ref_pot.name,
+                               reference_parameters=None if ref_pot is None else _params(ref_pot),
+                               units=system.name, mass=mu, tol=tol, radius=float(radius), energies=e, ls=ls,
+                               model=model, model_error=model_err, model_nodes=model_nodes, ref=ref,
+                               ref_error=ref_err, ref_nodes=ref_nodes, converged=conv, ghosts=ghosts, notes=notes)

@@ -58,6 +58,7 @@ OPTION_OF = {
     "dipole_charge": "--dipole-charge", "occupied": "--occupied",
     # above the threshold (cli/continuum.py)
     "energies": "--energies", "hard_core": "--hard-core", "photon_energies": "--photons",
+    "reference": "--reference",
 }
 
 

@@ -1,4 +1,5 @@
-"""Commands above the threshold: ``phases`` (phase shifts on an energy grid), ``scattering``, ``photoionization``."""
+"""Commands above the threshold: ``phases`` (phase shifts on an energy grid), ``scattering``, ``photoionization``,
+``logderiv`` (logarithmic derivatives of a model beside a reference)."""
 
 from __future__ import annotations
 
@@ -221,6 +222,88 @@ def photoionization_command(
 
             plot_photoionization(result, plot, unit)
             say(f"wrote the cross sections to {plot}")
+        if not result.success:
+            if out is not None or fmt is not OutputFormat.table:
+                say(result.message)
+            raise typer.Exit(result.exit_code)
+
+
+def logderiv_command(
+    name: Annotated[str, typer.Argument(metavar="NAME", help="the model potential family (list: radsolve potentials)")],
+    energies: Annotated[str, typer.Option(
+        "--energies", "-e", metavar="START:STOP:NUM",
+        help="energies in --unit (below and above the threshold alike), increasing: NUM values from START to "
+             "STOP, or E1,E2,...")],
+    radius: Annotated[float, typer.Option("--radius", metavar="R",
+                                          help="r_c where u'/u is taken (bohr or fm)")],
+    reference: Annotated[Optional[str], typer.Option(
+        "--reference", metavar="NAME", help="the reference potential family to compare with")] = None,
+    ref_param: Annotated[Optional[list[str]], typer.Option(
+        "--ref-param", "-q", metavar="KEY=VALUE", help="a parameter of the reference, repeatable")] = None,
+    ref_expr: Annotated[Optional[str], typer.Option(
+        "--ref-expr", metavar="EXPR", help="with --reference formula: the reference's expression")] = None,
+    log: Annotated[bool, typer.Option("--log", help="space START:STOP:NUM geometrically")] = False,
+    param: ParamOption = None,
+    l: LOption = None,
+    lmax: LmaxOption = None,
+    mass: MassOption = None,
+    tol: Annotated[float, typer.Option("--tol", metavar="T",
+                                       help="target relative error of each u'/u (1e-12 ... 0.1)")] = 1e-8,
+    expr: ExprOption = None,
+    unit: OutputUnitOption = None,
+    units: UnitsOption = None,
+    fmt: FormatOption = OutputFormat.table,
+    out: OutFileOption = None,
+    plot: Annotated[Optional[Path], typer.Option(
+        "--plot", metavar="FILE", help="draw arctan(r_c u'/u) of model and reference: FILE.png, .svg or .pdf")
+    ] = None,
+    plugins: PluginsOption = None,
+) -> None:
+    """Logarithmic derivatives u'/u at r_c of NAME, beside a --reference.
+
+    For testing a model potential (a pseudopotential) against a reference:
+    the table shows both and their difference; a pole of the model's u'/u
+    that the reference lacks is a ghost state (found from the zeros of u
+    inside r_c, whatever the spacing of the energies) and fails the command
+    (exit 1).
+    """
+    with reported_errors({"energies": "--energies", "radius": "--radius", "reference": "--reference"}):
+        params = parse_assignments(param)
+        ref_params = parse_assignments(ref_param, "--ref-param")
+        from radsolve.units import energy_unit_factor
+
+        if unit is not None:
+            energy_unit_factor(unit)
+        if out is not None:
+            folder_exists(out, "--out")
+        if plot is not None:
+            from radsolve.output.plotting import check_plot_path
+
+            with_option("--plot", check_plot_path, plot)
+        from radsolve.analysis.scattering import log_derivatives
+
+        pot = _potential(name, params, plugins, units, expr)
+        ref = None
+        if reference is not None:
+            ref = _potential(reference, ref_params, plugins, units, ref_expr)
+        elif ref_params or ref_expr:
+            from radsolve.errors import InputError
+
+            raise InputError("--ref-param and --ref-expr need --reference NAME")
+        values = _energies(energies, log, unit, pot, units)
+        ls = l_values(l, lmax)
+        result = solver_call(pot, log_derivatives, pot, values, **({"l": ls} if ls is not None else {}),
+                             radius=radius, reference=ref, mass=mass, tol=tol, units=units)
+        from radsolve.output.report import render
+
+        write_output(render(result, unit, fmt.value), out, f"{result.model.size} logarithmic derivatives ({fmt.value})")
+        if plot is not None:
+            from radsolve.output.continuum_plotting import plot_log_derivatives
+
+            plot_log_derivatives(result, plot, unit)
+            say(f"wrote the logarithmic derivatives to {plot}")
+        if result.ghosts:
+            say("warning: " + "; ".join(n.text for n in result.notes if n.code in ("ghost_state", "missing_state")))
         if not result.success:
             if out is not None or fmt is not OutputFormat.table:
                 say(result.message)

@@ -632,3 +632,79 @@ def scattering_length(potential, profile, L: float, mass: float, tol: float,
     return ZeroEnergy(length=float(best[0]), error=float(err[0] + radius_error), effective_range=r_e,
                       effective_range_error=float(err[1]) if r_e is not None else None,
                       grid_error=float(est[0]), radius_error=float(radius_error), radius=radius, grids=grids)
+
+
+# --------------------------------------------------------------------------- logarithmic derivatives
+
+
+@dataclass
+class LogDerivatives:
+    """u'/u at one radius for a set of energies (arrays over energies)."""
+
+    value: np.ndarray
+    error: np.ndarray
+    nodes: np.ndarray  # zeros of u on (0, r_c): poles of L(E) passed below E
+    converged: np.ndarray
+    radius: float
+    grids: int
+
+
+def log_derivatives(potential, profile, L: float, mass: float, energies: np.ndarray, radius: float, tol: float,
+                    boundary_share: float = 1e-3) -> LogDerivatives:
+    """L(E) = u'(r_c)/u(r_c) of the regular solution at ``energies`` (measured from V(inf) when finite).
+
+    Any energies, above or below the threshold.  ``radius`` r_c is a point of every
+    grid; u' there comes from fourth-order differences in xi (an h**4, h**6 series,
+    as Numerov's), extrapolated over halving grids.  ``tol`` is relative to
+    max(|L|, 1/r_c).
+    """
+    energies = np.asarray(energies, dtype=float)
+    e_max = float(energies.max())
+    reference = 0.0 if profile.confining else profile.v_infinity
+    exponent = profile.origin_exponent(L, mass)
+    r_min = profile.inner_cutoff(L, mass, boundary_share * tol)
+    if math.isfinite(profile.inner_length) and not profile.scale_free:
+        lo = max(r_min, profile.origin.finite_from * 10.0, 1e-28)
+        if profile.origin.kind == "core":
+            lo = max(profile.origin.finite_from * 10.0, 1e-28)
+        nepers = 0.5 * math.log(1.0 / (boundary_share * tol)) + 6.0
+        wkb = probing.wkb_inner_radius(potential, L, mass, e_max + reference, nepers, lo,
+                                       max(profile.inner_length, r_min) * 1e6)
+        r_min = max(r_min, wkb) if profile.origin.kind != "core" else max(wkb, lo)
+    if not r_min < 0.5 * radius:
+        raise InputError(f"radius {radius:.6g} lies inside the region where the wave is negligible or the "
+                         f"potential's origin law is imposed (r < {r_min:.3g}); choose a larger radius",
+                         parameter="radius")
+    anchors = sorted({b for b in profile.breakpoints if r_min < b < radius} | {radius})
+    span_probe = _span(r_min, radius * 1.05, 0.1, anchors)
+    step = _coarse_step(potential, profile, span_probe, L, mass, e_max)
+    span = _span(r_min, radius * 1.05, step, anchors)
+    jumps = [b for b in span.anchors if b != radius] + ([radius] if radius in profile.breakpoints else [])
+    orders = (2, 3, 4, 5, 6, 7) if jumps else (4, 6, 8, 10)
+    history = []
+    value = np.full(energies.size, np.nan)
+    error = np.full(energies.size, np.inf)
+    nodes = np.zeros(energies.size, dtype=np.int64)
+    grids = 0
+    scale = 1.0 / radius
+    for g in range(MAX_HALVINGS + 1):
+        if span.intervals(g) + 1 > MAX_POINTS:
+            break
+        grid = span.grid(g)
+        values = potential_on_grid(potential, grid.r, span.anchors) - reference
+        ic = int(np.argmin(np.abs(grid.r - radius)))
+        u, zeros_c, _ = _shoot(grid, values, L * (L + 1.0), mass, energies, 0, exponent, False, ic - 2, ic)
+        du = (u[0] - 8.0 * u[1] + 8.0 * u[3] - u[4]) / (12.0 * grid.step * grid.jacobian[ic])
+        history.append(du / u[2])
+        nodes = zeros_c
+        grids = g + 1
+        if len(history) >= 3:
+            best, est = _richardson(history, orders)
+            value, error = best, est + 64.0 * np.finfo(float).eps * math.sqrt(grid.size) * np.abs(best)
+            if np.all(error <= tol * np.maximum(np.abs(value), scale)):
+                break
+    if grids < 3 and history:
+        value = history[-1]
+    converged = error <= tol * np.maximum(np.abs(value), scale)
+    return LogDerivatives(value=value, error=error, nodes=nodes, converged=converged, radius=radius, grids=grids)
+

@@ -35,7 +35,7 @@ from typer.testing import CliRunner
 import radsolve
 from radsolve.analysis.fitting import fit, parse_free
 from radsolve.analysis.radiative import transitions
-from radsolve.analysis.scattering import energy_grid, phase_shifts, photoionization, scattering
+from radsolve.analysis.scattering import energy_grid, log_derivatives, phase_shifts, photoionization, scattering
 from radsolve.analysis.sweeps import parse_vary, sweep
 from radsolve.analysis.thresholds import NoThresholdError, critical_values, threshold
 from radsolve.cli import app
@@ -232,6 +232,16 @@ CASES = [
          lambda: photoionization("coulomb", "1p", [1.0]), "level", "--level"),
     Case(["photoionization", "coulomb", "--photons", "2:1:3"],
          lambda: energy_grid(2.0, 1.0, 3, parameter="photon_energies"), "photon_energies", "--photons"),
+    Case(["logderiv", "coulomb", "--energies", "0.2,0.1", "--radius", "2"],
+         lambda: log_derivatives("coulomb", [0.2, 0.1], radius=2.0), "energies", "--energies"),
+    Case(["logderiv", "coulomb", "--energies", "0.1", "--radius=-2"],
+         lambda: log_derivatives("coulomb", [0.1], radius=-2.0), "radius", "--radius"),
+    Case(["logderiv", "coulomb", "--energies", "0.1", "--radius", "1e-40"],
+         lambda: log_derivatives("coulomb", [0.1], radius=1e-40), "radius", "--radius"),
+    Case(["logderiv", "coulomb", "--energies", "0.1", "--radius", "2", "--reference", "woods_saxon",
+          "--mass", "1"],
+         lambda: log_derivatives("coulomb", [0.1], radius=2.0, reference="woods_saxon", mass=1.0),
+         "reference", "--reference"),
 ]
 
 #: Refused by the command line with no API call to compare: (args, words its message holds, why).
@@ -351,6 +361,7 @@ DEFAULTS = {
     "phases": (phase_shifts, {"tol": "tol", "hard_core": "hard_core", "mass": "mass", "units": "units"}),
     "scattering": (scattering, {"tol": "tol", "hard_core": "hard_core", "mass": "mass", "units": "units"}),
     "photoionization": (photoionization, {"tol": "tol", "level": "level", "mass": "mass"}),
+    "logderiv": (log_derivatives, {"tol": "tol", "mass": "mass", "units": "units", "reference": "reference"}),
 }
 
 

@@ -92,3 +92,15 @@ def test_photoionization_command_in_ev_and_megabarn(tmp_path):
     assert plot.stat().st_size > 1000
     below = invoke("photoionization", "coulomb", "--photons", "10", "--unit", "eV")
     assert below.exit_code == 2 and "--photons" in below.stderr and "ionization energy" in below.stderr
+
+
+def test_logderiv_command_warns_of_a_ghost_state(tmp_path):
+    # deeper square well (V0 = 3) against V0 = 1.7: the model's u'/u at r_c = 1.5 has a pole at
+    # E = (pi/1.5)**2/2 - 3 = -0.807 that the reference lacks (textbook: zero of j_0 at pi)
+    plot = tmp_path / "ld.png"
+    result = invoke("logderiv", "formula", "--expr", "-V0*step(2-r)", "-p", "V0=3", "--reference", "formula",
+                    "--ref-expr", "-V0*step(2-r)", "--ref-param", "V0=1.7", "--energies=-1.5:0:7", "--radius", "1.5",
+                    "--plot", plot)
+    assert result.exit_code == 1, result.stderr
+    assert "GHOST STATE" in result.stderr and "reference: formula" in result.stdout
+    assert plot.stat().st_size > 1000
