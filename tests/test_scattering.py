@@ -313,3 +313,15 @@ def test_ghost_state_is_found_whatever_the_energy_spacing():
     assert res.status is radsolve.Outcome.FAILED and any(n.code == "ghost_state" for n in res.notes)
     same = log_derivatives(ref, energies, l=0, radius=rc, reference=ref, tol=1e-8)
     assert not same.ghosts and np.max(np.abs(same.model - same.ref)) < 1e-12
+
+
+def test_elastic_cross_section_of_a_hard_sphere_at_low_energy():
+    # Hard sphere: sigma -> 4 pi a**2 as k -> 0 (textbook formula: four times the geometric cross
+    # section), and sigma_0 = 4 pi sin(ka)**2 / k**2 exactly.
+    a = 1.2
+    res = phase_shifts(radsolve.formula_potential("0*r"), [1e-8, 0.5], l=[0, 1], hard_core=a, tol=1e-11)
+    sigma, error = res.cross_sections()
+    k = res.wavenumbers
+    assert sigma[:, 0].sum() == pytest.approx(4 * math.pi * a**2, rel=1e-6)
+    assert sigma[0, 1] == pytest.approx(4 * math.pi * math.sin(k[1] * a) ** 2 / k[1] ** 2, rel=1e-10)
+    assert np.all(error >= 0)

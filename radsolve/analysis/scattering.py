@@ -172,9 +172,26 @@ class PhaseShiftResult(ResultProtocol):
 
         return np.sqrt(2.0 * unit_system(self.units).kinetic_mass(self.mass) * (self.energies - self.v_infinity))
 
+    def cross_sections(self) -> tuple[np.ndarray, np.ndarray]:
+        """Elastic partial cross sections sigma_l = 4 pi (2l+1) sin(delta_l)**2 / k**2 (textbook) and their
+        estimates (length**2 of the unit system: bohr**2 or fm**2), arrays l x energy.
+
+        Their sum over the l computed is the total only when the higher l no longer
+        contribute.  Not defined for a Coulomb tail (InputError).
+        """
+        if self.coulomb_phase is not None:
+            raise InputError("elastic cross sections of a Coulomb tail diverge (Rutherford scattering); "
+                             "only the phase shifts are given", parameter="potential")
+        k = self.wavenumbers
+        two_l = np.array([2 * l + 1 for l in self.ls], dtype=float)[:, None]
+        sigma = 4.0 * math.pi * two_l * np.sin(self.phase) ** 2 / k[None, :] ** 2
+        error = 4.0 * math.pi * two_l * np.abs(np.sin(2.0 * self.phase)) * self.error / k[None, :] ** 2
+        return sigma, error
+
     def records(self, unit: str | None = None) -> list[dict[str, Any]]:
         factor = _energy_factor(self.units, unit)
         k = self.wavenumbers
+        partial = self.cross_sections()[0] if self.coulomb_phase is None else None
         rows = []
         for i, l in enumerate(self.ls):
             for j, e in enumerate(self.energies):
@@ -182,6 +199,8 @@ class PhaseShiftResult(ResultProtocol):
                        "error_estimate": float(self.error[i, j]), "converged": bool(self.converged[i, j])}
                 if self.coulomb_phase is not None:
                     row["coulomb_phase"] = float(self.coulomb_phase[i, j])
+                else:
+                    row["cross_section"] = float(partial[i, j])
                 rows.append(row)
         return rows
 
@@ -205,14 +224,19 @@ class PhaseShiftResult(ResultProtocol):
                 + (f", hard core r < {self.hard_core:.10g}" if self.hard_core is not None else "")
                 + f", tol {self.tol:g} rad"]
         cols = f"{'l':>3}  {'E (' + name + ')':>16}  {'k':>12}  {'delta (rad)':>18}  {'estimate':>8}"
+        length = "bohr" if self.units == "atomic" else "fm"
         if self.coulomb_phase is not None:
             cols += f"  {'sigma_l (rad)':>16}"
+        else:
+            cols += f"  {'cross section (' + length + '^2)':>22}"
         lines = head + ["", cols]
         for row in self.records(unit):
             text = (f"{row['l']:>3}  {row['energy']:>16.10g}  {row['k']:>12.8g}  {row['phase_shift']:>18.12f}  "
                     f"{row['error_estimate']:>8.1e}")
             if "coulomb_phase" in row:
                 text += f"  {row['coulomb_phase']:>16.12f}"
+            else:
+                text += f"  {row['cross_section']:>22.10g}"
             lines.append(text + ("" if row["converged"] else "  not converged"))
         lines += ["", f"status: {self.status}; {self.message}", f"note: {MODEL_NOTE}"]
         return "\n".join(lines) + "\n"
