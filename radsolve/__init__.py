@@ -20,6 +20,7 @@ The public API (imported on first use, so that the command line starts fast):
   delta_l(E) with error estimates, scattering lengths, effective ranges and the
   Levinson check; :func:`photoionization` — bound-free cross sections;
   :func:`log_derivatives` — u'/u at a radius, a model beside a reference, ghost states;
+  :func:`resonances` — positions and widths from the phase shift and from the pole;
 - :func:`transitions` — E1 lines, oscillator strengths, Einstein A
   coefficients, lifetimes and branching ratios of the levels with n <= nmax.
 
@@ -64,6 +65,8 @@ _EXPORTS = {
     "energy_grid": ("radsolve.analysis.scattering", "energy_grid"),
     "photoionization": ("radsolve.analysis.scattering", "photoionization"),
     "log_derivatives": ("radsolve.analysis.scattering", "log_derivatives"),
+    "resonances": ("radsolve.analysis.scattering", "resonances"),
+    "ResonanceResult": ("radsolve.analysis.scattering", "ResonanceResult"),
     "LogDerivativeResult": ("radsolve.analysis.scattering", "LogDerivativeResult"),
     "PhotoionizationResult": ("radsolve.analysis.scattering", "PhotoionizationResult"),
     "PhaseShiftResult": ("radsolve.analysis.scattering", "PhaseShiftResult"),

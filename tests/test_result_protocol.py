@@ -81,8 +81,12 @@ def _log_derivatives():
     return radsolve.log_derivatives("coulomb", [-0.5, 0.2], l=0, radius=2.0, reference="yukawa", tol=1e-8)
 
 
+def _resonances():
+    return radsolve.resonances(radsolve.formula_potential("-V0*step(1-r)", V0=9.8), l=2, window=(0.05, 1.0))
+
+
 CASES = {
-    "log_derivatives": _log_derivatives,
+    "log_derivatives": _log_derivatives, "resonances": _resonances,
     "phase_shifts": _phase_shifts, "scattering": _scattering, "photoionization": _photoionization,
     "solve": _solve_ok, "solve_not_converged": _solve_rounding, "state": _state, "summary": _summary,
     "transitions": _transitions, "threshold": _threshold, "critical_values": _critical_values,
@@ -94,6 +98,7 @@ CASES = {
 CASE_TYPES = {
     "phase_shifts": "PhaseShiftResult", "scattering": "ScatteringResult",
     "photoionization": "PhotoionizationResult", "log_derivatives": "LogDerivativeResult",
+    "resonances": "ResonanceResult",
     "solve": "SolveResult", "solve_not_converged": "SolveResult", "state": "State", "summary": "StateSummary",
     "transitions": "TransitionResult", "threshold": "ThresholdResult", "critical_values": "CriticalValues",
     "fit": "FitResult", "check": "CheckReport", "sweep": "SweepResult",
@@ -204,6 +209,10 @@ def test_outside_facts(result):
         for row in res.records():
             if row["l"] == 0:
                 assert row["phase_shift"] == pytest.approx(-(2 * row["energy"]) ** 0.5, abs=1e-8)
+    elif name == "resonances":
+        # the d-wave pole of a square well V0 = 9.8, R = 1 at E = 0.169804... (mpmath root of the
+        # textbook matching condition, tests/test_scattering.py)
+        assert res.records()[0]["energy_pole"] == pytest.approx(0.1698040547, abs=1e-8)
     elif name == "log_derivatives":
         # hydrogen 1s, u = 2 r exp(-r): u'/u = 1/r - 1 = -1/2 at r = 2 (textbook formula)
         assert res.records()[0]["log_derivative"] == pytest.approx(-0.5, abs=1e-8)

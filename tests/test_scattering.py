@@ -325,3 +325,42 @@ def test_elastic_cross_section_of_a_hard_sphere_at_low_energy():
     assert sigma[:, 0].sum() == pytest.approx(4 * math.pi * a**2, rel=1e-6)
     assert sigma[0, 1] == pytest.approx(4 * math.pi * math.sin(k[1] * a) ** 2 / k[1] ** 2, rel=1e-10)
     assert np.all(error >= 0)
+
+
+# --------------------------------------------------------------------------- resonances
+
+from radsolve.analysis.scattering import resonances  # noqa: E402
+
+
+def _square_well_pole(V0, R, l, guess):
+    """The Siegert pole of a square well: K j_l'(KR)/j_l(KR) = k h_l'(kR)/h_l(kR), h = j + i y outgoing
+    (textbook matching condition), solved with mpmath.findroot: an independent reference."""
+    mpmath = pytest.importorskip("mpmath")
+    with mpmath.workdps(30):
+        def j(z):
+            return mpmath.sqrt(mpmath.pi / (2 * z)) * mpmath.besselj(l + 0.5, z)
+
+        def h(z):
+            return mpmath.sqrt(mpmath.pi / (2 * z)) * (mpmath.besselj(l + 0.5, z) + 1j * mpmath.bessely(l + 0.5, z))
+
+        def f(E):
+            k, K = mpmath.sqrt(2 * E), mpmath.sqrt(2 * (E + V0))
+            return K * mpmath.diff(j, K * R) / j(K * R) - k * mpmath.diff(h, k * R) / h(k * R)
+
+        return complex(mpmath.findroot(f, mpmath.mpc(guess)))
+
+
+@pytest.mark.parametrize("V0", [9.0, 9.8])
+def test_square_well_d_resonance_two_methods_and_mpmath(V0):
+    # A d-wave resonance behind the centrifugal barrier of a square well (R = 1): the pole from the
+    # outgoing-wave condition agrees with mpmath's root of the closed-form matching condition, and
+    # the Breit-Wigner fit to the phase shift agrees with the pole within its estimates.
+    well = radsolve.formula_potential("-V0*step(1-r)", V0=V0)
+    res = resonances(well, l=[1, 2], window=(0.01, 3.0))
+    assert res.success, res.message
+    assert [r.l for r in res.resonances] == [2]
+    r = res.resonances[0]
+    exact = _square_well_pole(V0, 1.0, 2, complex(r.pole_energy, -0.5 * r.pole_width))
+    assert abs(r.pole_energy - exact.real) < 1e-9 and abs(r.pole_width + 2 * exact.imag) < 2e-9
+    assert abs(r.pole_energy - exact.real) <= 3 * r.pole_error
+    assert r.agree and abs(r.phase_energy - exact.real) <= 3 * (r.phase_energy_error + r.pole_error)

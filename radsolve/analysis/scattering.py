@@ -990,3 +990,144 @@ def log_derivatives(potential, energies, l=0, *, radius: float, reference=None, 
                                units=system.name, mass=mu, tol=tol, radius=float(radius), energies=e, ls=ls,
                                model=model, model_error=model_err, model_nodes=model_nodes, ref=ref,
                                ref_error=ref_err, ref_nodes=ref_nodes, converged=conv, ghosts=ghosts, notes=notes)
+
+
+# --------------------------------------------------------------------------- resonances
+
+
+@dataclass(frozen=True)
+class Resonance:
+    """One resonance of one partial wave, found two ways (energies from the unit system's energy unit).
+
+    ``phase_*``: Breit-Wigner with a linear background fitted to delta_l(E)
+    (position and width, each with the spread of two fit windows as estimate);
+    ``pole_*``: the Siegert pole E_r - i Gamma/2 of the outgoing-wave condition
+    (Richardson over grids).  ``agree``: the two within three times their summed
+    estimates.
+    """
+
+    l: int
+    phase_energy: float
+    phase_energy_error: float
+    phase_width: float
+    phase_width_error: float
+    pole_energy: float
+    pole_width: float
+    pole_error: float
+    agree: bool
+
+
+@dataclass(repr=False)
+class ResonanceResult(ResultProtocol):
+    """Resonances (quasi-bound levels) in an energy window (the result protocol).
+
+    Note codes: ``methods_disagree`` (status ``incomplete``: the phase-shift
+    fit and the pole differ beyond their estimates), ``none_found`` (no
+    resonance in the window: a statement about the scan, whose spacing is
+    given, not a proof).
+    """
+
+    potential: str
+    parameters: dict
+    units: str
+    mass: float
+    tol: float
+    window: tuple
+    scan_points: int
+    resonances: list
+    notes: list = field(default_factory=list)
+
+    @property
+    def status(self) -> Outcome:
+        return Outcome.SUCCESS if all(r.agree for r in self.resonances) else Outcome.INCOMPLETE
+
+    @property
+    def message(self) -> str:
+        return message_of(self.notes, f"{len(self.resonances)} resonance(s); phase-shift fit and pole agree")
+
+    def records(self, unit: str | None = None) -> list[dict[str, Any]]:
+        f = _energy_factor(self.units, unit)
+        return [{"l": r.l, "energy_pole": r.pole_energy / f, "width_pole": r.pole_width / f,
+                 "pole_error": r.pole_error / f, "energy_phase": r.phase_energy / f,
+                 "energy_phase_error": r.phase_energy_error / f, "width_phase": r.phase_width / f,
+                 "width_phase_error": r.phase_width_error / f, "agree": r.agree} for r in self.resonances]
+
+    def to_dict(self, unit: str | None = None) -> dict[str, Any]:
+        f = _energy_factor(self.units, unit)
+        return {"kind": "resonances", "status": str(self.status), "success": self.success, "message": self.message,
+                "notes": [n.to_dict() for n in self.notes], "potential": self.potential,
+                "parameters": self.parameters, "units": self.units, "energy_unit": _unit_name(self.units, unit),
+                "mass": self.mass, "tol": self.tol, "window": [self.window[0] / f, self.window[1] / f],
+                "scan_points": self.scan_points, "note": MODEL_NOTE, "rows": self.records(unit)}
+
+    def _header(self):
+        return [("potential", self.potential), ("window", list(self.window)), ("found", len(self.resonances))]
+
+
+def _breit_wigner_fit(energies, phase):
+    """E_r, Gamma of delta = a + b (E - E_r) + atan2(Gamma/2, E_r - E) fitted to (energies, phase)."""
+    from scipy.optimize import least_squares
+
+    j = int(np.argmax(np.gradient(phase, energies)))
+    slope = np.gradient(phase, energies)[j]
+    e0, g0 = energies[j], 2.0 / max(slope, 1e-300)
+
+    def residual(p):
+        e_r, gamma, a, b = p
+        return a + b * (energies - e_r) + np.arctan2(0.5 * gamma, e_r - energies) - phase
+
+    a0 = phase[j] - 0.5 * math.pi
+    fit = least_squares(residual, [e0, g0, a0, 0.0], x_scale=[g0, g0, 1.0, 1.0 / g0])
+    return float(fit.x[0]), abs(float(fit.x[1]))
+
+
+def resonances(potential, l=0, *, window, mass=None, tol: float = 1e-8, scan_points: int = 400, plugins=None,
+               units: str | None = None) -> ResonanceResult:
+    """Resonances of each partial wave ``l`` with positions in ``window`` = (E_low, E_high) above V(inf).
+
+    Found where delta_l(E) rises fastest on a scan of ``scan_points`` energies,
+    then located two ways (see :class:`Resonance`).  A resonance narrower than
+    the scan spacing can be missed: the scan spacing is reported.
+    """
+    from radsolve.core.continuum import channel_phases, siegert_pole
+
+    tol = _validated_phase_tol(tol)
+    pot, system, mu, kinetic, channels, _ = _setup(potential, l, mass, plugins, units, 3, None)
+    v_inf = channels[0][3].v_infinity
+    try:
+        lo, hi = (float(x) for x in window)
+    except (TypeError, ValueError):
+        raise InputError(f"window must be two energies (E_low, E_high) (got {window!r})", parameter="window") from None
+    grid = energy_grid(lo, hi, int(scan_points), parameter="window")
+    validated_energies(grid, v_inf, parameter="window")
+    found = []
+    notes: list[Note] = []
+    for li, L, cpot, prof in channels:
+        scan = channel_phases(cpot, prof, L, li, kinetic, grid - v_inf, max(tol, 1e-8))
+        slope = np.gradient(scan.phase, grid)
+        typical = float(np.median(np.abs(slope)))
+        peaks = [j for j in range(1, grid.size - 1) if slope[j] >= slope[j - 1] and slope[j] > slope[j + 1]
+                 and slope[j] > 5.0 * typical and slope[j] > 2.0 / (hi - lo)]
+        for j in peaks:
+            gamma0 = 2.0 / slope[j]
+            fits = []
+            for half in (3.0, 1.5):
+                e_fit = np.linspace(max(grid[j] - half * gamma0, v_inf + 1e-3 * gamma0), grid[j] + half * gamma0, 41)
+                ph = channel_phases(cpot, prof, L, li, kinetic, e_fit - v_inf, min(tol, 1e-10)).phase
+                fits.append(_breit_wigner_fit(e_fit, ph))
+            (e_a, g_a), (e_b, g_b) = fits
+            pole, pole_err, _ = siegert_pole(cpot, prof, L, kinetic, complex(e_b - v_inf, -0.5 * g_b), tol)
+            e_pole, g_pole = pole.real + v_inf, -2.0 * pole.imag
+            e_err, g_err = abs(e_a - e_b), abs(g_a - g_b)
+            agree = abs(e_pole - e_b) <= 3.0 * (e_err + pole_err) and abs(g_pole - g_b) <= 3.0 * (g_err + 2 * pole_err)
+            found.append(Resonance(li, e_b, e_err, g_b, g_err, e_pole, g_pole, pole_err, agree))
+            if not agree:
+                notes.append(Note("methods_disagree", f"l = {li}: the phase-shift fit (E = {e_b:.8g}, Gamma = "
+                                                      f"{g_b:.4g}) and the pole (E = {e_pole:.8g}, Gamma = "
+                                                      f"{g_pole:.4g}) differ beyond their estimates", f"l={li}"))
+    if not found:
+        notes.append(Note("none_found", f"no resonance found between {lo:.6g} and {hi:.6g} on a scan of "
+                                        f"{grid.size} energies (spacing {(hi - lo) / max(grid.size - 1, 1):.3g}); "
+                                        "a narrower one may have been missed"))
+    return ResonanceResult(potential=pot.name, parameters=_params(pot), units=system.name, mass=mu, tol=tol,
+                           window=(lo, hi), scan_points=grid.size, resonances=found, notes=notes)

@@ -1,5 +1,5 @@
 """Commands above the threshold: ``phases`` (phase shifts on an energy grid), ``scattering``, ``photoionization``,
-``logderiv`` (logarithmic derivatives of a model beside a reference)."""
+``logderiv`` (logarithmic derivatives of a model beside a reference), ``resonances``."""
 
 from __future__ import annotations
 
@@ -304,6 +304,60 @@ def logderiv_command(
             say(f"wrote the logarithmic derivatives to {plot}")
         if result.ghosts:
             say("warning: " + "; ".join(n.text for n in result.notes if n.code in ("ghost_state", "missing_state")))
+        if not result.success:
+            if out is not None or fmt is not OutputFormat.table:
+                say(result.message)
+            raise typer.Exit(result.exit_code)
+
+
+def resonances_command(
+    name: Annotated[str, typer.Argument(metavar="NAME", help="potential family, e.g. woods_saxon (list: radsolve potentials)")],
+    window: Annotated[str, typer.Option(
+        "--window", metavar="E1:E2", help="look for resonances with positions from E1 to E2 (in --unit), above V(inf)")],
+    points: Annotated[int, typer.Option("--points", metavar="N", help="energies of the scan for candidates")] = 400,
+    param: ParamOption = None,
+    l: LOption = None,
+    lmax: LmaxOption = None,
+    mass: MassOption = None,
+    tol: Annotated[float, typer.Option("--tol", metavar="T",
+                                       help="target relative error of each pole (1e-12 ... 0.1)")] = 1e-8,
+    expr: ExprOption = None,
+    unit: OutputUnitOption = None,
+    units: UnitsOption = None,
+    fmt: FormatOption = OutputFormat.table,
+    out: OutFileOption = None,
+    plugins: PluginsOption = None,
+) -> None:
+    """Resonances (quasi-bound levels) of NAME: position and width, found two ways.
+
+    From a Breit-Wigner fit to the phase shift where it rises fastest, and
+    from the pole of the outgoing-wave condition at complex energy; the two
+    must agree within their estimates (exit 3 when they do not).
+    """
+    with reported_errors({"window": "--window", "scan_points": "--points"}):
+        params = parse_assignments(param)
+        from radsolve.errors import InputError
+        from radsolve.units import energy_unit_factor
+
+        if unit is not None:
+            energy_unit_factor(unit)
+        if out is not None:
+            folder_exists(out, "--out")
+        parts = window.split(":")
+        try:
+            lo, hi = (float(x) for x in parts)
+        except ValueError:
+            raise InputError(f"--window {window!r}: expected E1:E2 (numbers in --unit)") from None
+        from radsolve.analysis.scattering import resonances
+
+        pot = _potential(name, params, plugins, units, expr)
+        lo_e, hi_e = _energies(f"{lo!r},{hi!r}", False, unit, pot, units, option="--window")
+        ls = l_values(l, lmax)
+        result = solver_call(pot, resonances, pot, **({"l": ls} if ls is not None else {}), window=(lo_e, hi_e),
+                             mass=mass, tol=tol, scan_points=points, units=units)
+        from radsolve.output.report import render
+
+        write_output(render(result, unit, fmt.value), out, f"{len(result.resonances)} resonances ({fmt.value})")
         if not result.success:
             if out is not None or fmt is not OutputFormat.table:
                 say(result.message)

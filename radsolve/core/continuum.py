@@ -708,3 +708,105 @@ def log_derivatives(potential, profile, L: float, mass: float, energies: np.ndar
     converged = error <= tol * np.maximum(np.abs(value), scale)
     return LogDerivatives(value=value, error=error, nodes=nodes, converged=converged, radius=radius, grids=grids)
 
+
+
+# --------------------------------------------------------------------------- resonances (outgoing waves)
+
+
+def _outgoing(L: int, z):
+    """The Riccati-Hankel function -x y_L(x) + i x j_L(x) ~ exp(i (x - L pi/2)) at complex z (scipy)."""
+    from scipy.special import spherical_jn, spherical_yn
+
+    return z * (-spherical_yn(L, z) + 1j * spherical_jn(L, z))
+
+
+def siegert_mismatch(grid, values, L: float, mass: float, energy: complex, exponent: float, rows) -> complex:
+    """Wronskian-type mismatch of u with the outgoing wave at two radii (zero at a resonance pole).
+
+    u is integrated outward with Numerov at the complex ``energy`` (measured from
+    V(inf)); the outgoing wave exp(ikr) with Im k < 0 is the Siegert condition.
+    """
+    _, q = grid.liouville_coefficients(values, 0, mass, centrifugal=L * (L + 1.0))
+    b = grid.jacobian**2
+    t = grid.step**2 * 2.0 * mass * (q - energy * b) / 12.0
+    big = t.real > 0.9  # deep forbidden region: growth only (as the real solver does)
+    t = np.where(big, 0.9 + 1j * t.imag, t)
+    d = 2.0 + 12.0 * t / (1.0 - t)
+    i1, i2 = rows
+    y_prev = math.exp(-(exponent - 0.5) * grid.step) * (1.0 - t[0])
+    y_cur = 1.0 - t[1]
+    ys = {}
+    dd = d.tolist()
+    for i in range(1, i2):
+        y_prev, y_cur = y_cur, dd[i] * y_cur - y_prev
+        if i + 1 == i1:
+            ys[i1] = y_cur
+        if abs(y_cur) > 1e200:
+            y_prev, y_cur = y_prev * 1e-200, y_cur * 1e-200
+            ys = {key: v * 1e-200 for key, v in ys.items()}
+    ys[i2] = y_cur
+    u1 = math.sqrt(grid.jacobian[i1]) * ys[i1] / (1.0 - t[i1])
+    u2 = math.sqrt(grid.jacobian[i2]) * ys[i2] / (1.0 - t[i2])
+    k = np.sqrt(2.0 * mass * complex(energy))
+    if k.imag > 0:
+        k = -k
+    Lint = int(round(L))
+    h1, h2 = _outgoing(Lint, k * grid.r[i1]), _outgoing(Lint, k * grid.r[i2])
+    return complex((u1 * h2 - u2 * h1) / (abs(u1) * abs(h2) + abs(u2) * abs(h1)))
+
+
+def siegert_pole(potential, profile, L: float, mass: float, guess: complex, tol: float,
+                 boundary_share: float = 1e-3) -> tuple[complex, float, int]:
+    """The complex energy E_r - i Gamma/2 (from V(inf)) of a resonance pole near ``guess``.
+
+    Secant iterations on :func:`siegert_mismatch` on halving grids, Richardson
+    over the grids; returns (pole, estimate, grids).  Short-range tails only.
+    """
+    exponent = profile.origin_exponent(L, mass)
+    e_max = abs(guess) * 2.0
+    r_min = profile.inner_cutoff(L, mass, boundary_share * tol)
+    k_scale = math.sqrt(2.0 * mass * abs(guess))
+    tail = channel_tail(potential, profile, mass, k_scale, k_scale, tol, r_min)
+    if tail.kind != "short":
+        raise InputError("resonance poles are found for tails faster than 1/r**2 only (outgoing Coulomb "
+                         "waves at complex energy are not implemented)", parameter="potential")
+    r_end = END_FACTOR * tail.radius
+    anchors = [b for b in profile.breakpoints if r_min < b < r_end]
+    span = _span(r_min, r_end, 0.1, anchors)
+    step = _coarse_step(potential, profile, span, L, mass, e_max)
+    span = _span(r_min, r_end, step, anchors)
+    orders = (2, 3, 4, 5, 6, 7) if span.anchors else (4, 6, 8, 10)
+    coarse = span.grid(0)
+    ia = min(int(np.searchsorted(coarse.r, tail.radius)), coarse.size - 2)
+    spacing = min(0.5 * math.pi / max(k_scale, 1e-300), 0.3 * tail.radius)
+    ib = min(max(int(np.searchsorted(coarse.r, coarse.r[ia] + spacing)), ia + 1), coarse.size - 1)
+    history = []
+    pole = complex(guess)
+    best, est = np.array([pole]), np.array([math.inf])
+    for g in range(MAX_HALVINGS + 1):
+        if span.intervals(g) + 1 > MAX_POINTS:
+            break
+        grid = span.grid(g)
+        values = potential_on_grid(potential, grid.r, span.anchors) - profile.v_infinity
+        rows = (ia * 2**g, ib * 2**g)
+        e0, e1 = pole, pole * (1.0 + 1e-4) + 1e-6j * abs(pole)
+        f0 = siegert_mismatch(grid, values, L, mass, e0, exponent, rows)
+        f1 = siegert_mismatch(grid, values, L, mass, e1, exponent, rows)
+        for _ in range(60):
+            if f1 == f0:
+                break
+            e2 = e1 - f1 * (e1 - e0) / (f1 - f0)
+            e0, f0 = e1, f1
+            e1, f1 = e2, siegert_mismatch(grid, values, L, mass, e2, exponent, rows)
+            if abs(e1 - e0) <= 1e-15 * abs(e1):
+                break
+        pole = e1
+        history.append(np.array([pole]))
+        if len(history) >= 3:
+            best, est = _richardson([h.real for h in history], orders)
+            best_i, est_i = _richardson([h.imag for h in history], orders)
+            best = best + 1j * best_i
+            est = np.hypot(est, est_i) + 64.0 * np.finfo(float).eps * math.sqrt(grid.size) * abs(best[0])
+            if est[0] <= tol * abs(best[0]):
+                break
+    return complex(best[0]), float(est[0]), len(history)

@@ -35,7 +35,8 @@ from typer.testing import CliRunner
 import radsolve
 from radsolve.analysis.fitting import fit, parse_free
 from radsolve.analysis.radiative import transitions
-from radsolve.analysis.scattering import energy_grid, log_derivatives, phase_shifts, photoionization, scattering
+from radsolve.analysis.scattering import (energy_grid, log_derivatives, phase_shifts, photoionization, resonances,
+                                         scattering)
 from radsolve.analysis.sweeps import parse_vary, sweep
 from radsolve.analysis.thresholds import NoThresholdError, critical_values, threshold
 from radsolve.cli import app
@@ -242,6 +243,10 @@ CASES = [
           "--mass", "1"],
          lambda: log_derivatives("coulomb", [0.1], radius=2.0, reference="woods_saxon", mass=1.0),
          "reference", "--reference"),
+    Case(["resonances", "yukawa", "--window", "2:1"], lambda: resonances("yukawa", window=(2.0, 1.0)), "window",
+         "--window"),
+    Case(["resonances", "yukawa", "--window=-1:1"], lambda: resonances("yukawa", window=(-1.0, 1.0)), "window",
+         "--window"),
 ]
 
 #: Refused by the command line with no API call to compare: (args, words its message holds, why).
@@ -361,6 +366,7 @@ DEFAULTS = {
     "phases": (phase_shifts, {"tol": "tol", "hard_core": "hard_core", "mass": "mass", "units": "units"}),
     "scattering": (scattering, {"tol": "tol", "hard_core": "hard_core", "mass": "mass", "units": "units"}),
     "photoionization": (photoionization, {"tol": "tol", "level": "level", "mass": "mass"}),
+    "resonances": (resonances, {"tol": "tol", "mass": "mass", "units": "units", "points": "scan_points"}),
     "logderiv": (log_derivatives, {"tol": "tol", "mass": "mass", "units": "units", "reference": "reference"}),
 }
 

@@ -104,3 +104,14 @@ def test_logderiv_command_warns_of_a_ghost_state(tmp_path):
     assert result.exit_code == 1, result.stderr
     assert "GHOST STATE" in result.stderr and "reference: formula" in result.stdout
     assert plot.stat().st_size > 1000
+
+
+def test_resonances_command_finds_the_square_well_d_resonance():
+    # pole at E = 0.1698040547 hartree (mpmath root of the textbook matching condition; see
+    # tests/test_scattering.py)
+    result = invoke("resonances", "formula", "--expr", "-V0*step(1-r)", "-p", "V0=9.8", "--lmax", "3",
+                    "--window", "0.01:3", "--format", "json")
+    assert result.exit_code == 0, result.stderr
+    rows = json.loads(result.stdout)["rows"]
+    assert len(rows) == 1 and rows[0]["l"] == 2 and rows[0]["agree"]
+    assert rows[0]["energy_pole"] == pytest.approx(0.1698040547, abs=1e-8)
