@@ -139,6 +139,7 @@ class PhaseShiftResult(ResultProtocol):
     (``"short"`` or ``"coulomb"``), ``v_infinity``.  Note codes:
     ``not_converged`` (some phase did not reach ``tol``), ``tail_limited``
     (matching radius capped, the tail's share is in the estimate),
+    ``grid_limited`` (energies too high for the grids allowed),
     ``coulomb`` (the phases are relative to Coulomb waves).
     """
 
@@ -312,8 +313,9 @@ def phase_shifts(potential, energies, l=0, *, mass=None, tol: float = 1e-8, hard
         tail_kind = ch.tail.kind
         if ch.coulomb_phase is not None:
             coul.append(ch.coulomb_phase)
-        if ch.tail.limited:
-            notes.append(Note("tail_limited", f"l = {li}: {ch.notes[0]}", f"l={li}"))
+        for text in ch.notes:
+            code = "tail_limited" if text.startswith("the tail") else "grid_limited"
+            notes.append(Note(code, f"l = {li}: {text}", f"l={li}"))
         bad = int(np.count_nonzero(~ch.converged))
         if bad:
             notes.append(Note("not_converged", f"l = {li}: {bad} of {e.size} phase shifts did not reach tol "
@@ -543,7 +545,8 @@ def scattering(potential, l=0, *, mass=None, tol: float = 1e-8, hard_core: float
         ch = channel_phases(cpot, prof, L, li, kinetic, e_pair, 1e-6, hard_core=hard_core)
         d_low, d_high = float(ch.phase[0]), float(ch.phase[1])
         inner = prof.inner_cutoff(L, kinetic, 1e-3 * tol) if hard_core is None else hard_core
-        cert = count_bound(cpot, prof, L, kinetic, inner, 1e30)
+        with np.errstate(all="ignore"):
+            cert = count_bound(cpot, prof, L, kinetic, inner, 1e30)
         # delta(inf) = 0 by construction (the phase is fixed by the zeros of u, see
         # radsolve.core.continuum); d_high checks that it is small at a high energy
         n_lev = round(d_low / math.pi)

@@ -55,6 +55,8 @@ END_FACTOR = 1.6
 LARGEST_MATCH = 1e7
 #: At most this many halvings for the zero-energy solution (a banded solve: cheap).
 ZERO_ENERGY_HALVINGS = 6
+#: Energies whose wavenumbers span more than this ratio are split into bands with grids of their own.
+BAND_RATIO = 32.0
 #: Rows of Numerov coefficients computed at once.
 _BLOCK = 256
 
@@ -91,6 +93,27 @@ class ChannelPhases:
     notes: list = field(default_factory=list)
     integrals: np.ndarray | None = None  # (m, energies): int f_j u_E dr, u_E normalized per unit energy
     integral_error: np.ndarray | None = None
+
+
+def _joined(parts: list, masks: list, size: int) -> ChannelPhases:
+    """One ChannelPhases from the bands of :func:`channel_phases` (energies in their original order)."""
+    def merge(name):
+        values = [getattr(p, name) for p in parts]
+        if values[0] is None:
+            return None
+        out = np.empty(values[0].shape[:-1] + (size,), dtype=values[0].dtype)
+        for v, m in zip(values, masks):
+            out[..., m] = v
+        return out
+
+    tails = [p.tail for p in parts]
+    tail = max(tails, key=lambda t: t.radius)
+    notes = [n for p in parts for n in p.notes]
+    return ChannelPhases(phase=merge("phase"), error=merge("error"), grid_error=merge("grid_error"),
+                         radius_error=merge("radius_error"), converged=merge("converged"),
+                         grids=max(p.grids for p in parts), points=max(p.points for p in parts), tail=tail,
+                         coulomb_phase=merge("coulomb_phase"), notes=list(dict.fromkeys(notes)),
+                         integrals=merge("integrals"), integral_error=merge("integral_error"))
 
 
 def channel_tail(potential, profile, mass: float, k_min: float, k_max: float, tol: float,
@@ -130,7 +153,9 @@ def channel_tail(potential, profile, mass: float, k_min: float, k_max: float, to
     # |change of delta| from V beyond R <= 2 m int_R^inf |V| J(kr)**2 / k dr, |J(x)| <= min(1, x):
     # the weight max over the energies of min(1/k, k r**2).
     weight = np.where(r * k_max <= 1.0, k_max * r**2, np.where(r * k_min >= 1.0, 1.0 / k_min, r))
-    f = 2.0 * mass * rest * weight * r  # integrand in ln r
+    with np.errstate(all="ignore"):
+        f = 2.0 * mass * rest * weight * r  # integrand in ln r
+    f = np.where(np.isfinite(f), f, np.inf)
     dlog = math.log(r[1] / r[0])
     seg = 0.5 * (f[1:] + f[:-1]) * dlog
     beyond = np.concatenate((np.cumsum(seg[::-1])[::-1], [0.0]))
@@ -340,6 +365,13 @@ def channel_phases(potential, profile, L: float, l: int, mass: float, energies: 
     """
     energies = np.asarray(energies, dtype=float)
     k = np.sqrt(2.0 * mass * energies)
+    if energies.size > 1 and float(k.max()) > BAND_RATIO * float(k.min()):
+        # the fastest wave sets the step for every energy on one grid: bands of k, each its own grid
+        cut = math.sqrt(float(k.max()) * float(k.min()))
+        low = k <= cut
+        parts = [channel_phases(potential, profile, L, l, mass, energies[sel], tol, hard_core, boundary_share,
+                                integrand, min_radius) for sel in (low, ~low)]
+        return _joined(parts, [low, ~low], energies.size)
     e_max = float(energies.max())
     Lint = int(round(L))
     if abs(L - Lint) > 1e-12:
@@ -375,6 +407,12 @@ def channel_phases(potential, profile, L: float, l: int, mass: float, energies: 
     probe_span = _span(span_min, r_end, 0.1, anchors)
     step = _coarse_step(potential, profile, probe_span, L, mass, e_max)
     span = _span(span_min, r_end, step, anchors)
+    if energies.size > 1 and span.intervals(2) + 1 > MAX_POINTS and float(k.max()) > 1.5 * float(k.min()):
+        # too fine a grid for the fastest waves to refine: the slower ones get a band of their own
+        low = k <= math.sqrt(float(k.max()) * float(k.min()))
+        parts = [channel_phases(potential, profile, L, l, mass, energies[sel], tol, hard_core, boundary_share,
+                                integrand, min_radius) for sel in (low, ~low)]
+        return _joined(parts, [low, ~low], energies.size)
 
     # Numerov's error is a series in h**4, h**6, ...; a jump of V at a grid point adds every
     # whole power from h**2 on (as for the levels, radsolve.core.extrapolation)
@@ -382,6 +420,7 @@ def channel_phases(potential, profile, L: float, l: int, mass: float, energies: 
     orders = (2, 3, 4, 5, 6, 7) if jumps else (4, 6, 8, 10)
     int_history: list[np.ndarray] = []
     integrals = integral_error = None
+    notes: list[str] = []
     phase = np.full(energies.size, np.nan)
     grid_error = np.full(energies.size, np.inf)
     radius_error = np.full(energies.size, np.inf)
@@ -469,6 +508,10 @@ def channel_phases(potential, profile, L: float, l: int, mass: float, energies: 
                 break
     if not history:
         phase = np.full(energies.size, np.nan)  # not even the coarsest grid fits: reported unconverged
+        notes.append(f"energies up to {e_max:.4g} need more than {MAX_POINTS} grid points: not computed")
+    elif len(history) < 3:
+        notes.append(f"only {len(history)} grid(s) fit in {MAX_POINTS} points for energies up to {e_max:.4g}: "
+                     "no error estimate")
     elif grids_used < 3:
         # too few grids for an estimate: keep the finest value, flagged
         phase = history[-1][0]
@@ -477,8 +520,10 @@ def channel_phases(potential, profile, L: float, l: int, mass: float, energies: 
     if integrand is not None:
         if int_history and grids_used < 3:
             integrals = int_history[-1]
+        if integrals is None:
+            integrals = np.full((1, energies.size), np.nan)
+            integral_error = np.full((1, energies.size), np.inf)
         converged = converged & np.all(integral_error <= tol * np.maximum(np.abs(integrals), 1e-300), axis=0)
-    notes = []
     if tail.limited:
         notes.append(f"the tail of V is long: matching stopped at r = {tail.radius:.4g}; its share of the "
                      "error is in the estimate")
