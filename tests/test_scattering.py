@@ -364,3 +364,25 @@ def test_square_well_d_resonance_two_methods_and_mpmath(V0):
     assert abs(r.pole_energy - exact.real) < 1e-9 and abs(r.pole_width + 2 * exact.imag) < 2e-9
     assert abs(r.pole_energy - exact.real) <= 3 * r.pole_error
     assert r.agree and abs(r.phase_energy - exact.real) <= 3 * (r.phase_energy_error + r.pole_error)
+
+
+def test_coulomb_waves_by_continued_fractions_match_mpmath():
+    # Steed's method (radsolve.core.continuum.coulomb_waves) against mpmath's coulombf/coulombg
+    # (reference library) over attractive and repulsive eta, l = 0 ... 5, rho up to 150; the points it
+    # does not trust are left to mpmath by the caller, so only trusted points are compared.
+    mpmath = pytest.importorskip("mpmath")
+    from radsolve.core.continuum import coulomb_waves
+
+    rng = np.random.default_rng(7)
+    compared = 0
+    for l in range(6):
+        eta = rng.uniform(-20.0, 10.0, 40)
+        rho = rng.uniform(0.5, 150.0, 40)
+        F, G, ok = coulomb_waves(l, eta, rho)
+        assert ok.mean() > 0.8
+        for i in np.nonzero(ok)[0][:12]:
+            Fm, Gm = float(mpmath.coulombf(l, eta[i], rho[i])), float(mpmath.coulombg(l, eta[i], rho[i]))
+            scale = math.hypot(Fm, Gm)
+            assert abs(F[i] - Fm) < 1e-11 * scale and abs(G[i] - Gm) < 1e-11 * scale, (l, eta[i], rho[i])
+            compared += 1
+    assert compared > 50

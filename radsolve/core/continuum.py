@@ -183,16 +183,88 @@ def _riccati(L: int, x: np.ndarray):
 
 
 def _coulomb(L: int, eta: np.ndarray, x: np.ndarray):
-    """(J, Y) = (F_L(eta, x), -G_L(eta, x)) from mpmath (scipy has no Coulomb wave functions)."""
-    import mpmath
+    """(J, Y) = (F_L(eta, x), -G_L(eta, x)): Steed's continued fractions, mpmath where they do not serve.
 
-    J = np.empty(x.shape)
-    Y = np.empty(x.shape)
-    with mpmath.workdps(20):
-        for i, (e, xx) in enumerate(zip(np.broadcast_to(eta, x.shape).flat, x.flat)):
-            J.flat[i] = float(mpmath.coulombf(L, e, xx))
-            Y.flat[i] = -float(mpmath.coulombg(L, e, xx))
-    return J, Y
+    scipy has no Coulomb wave functions.  :func:`coulomb_waves` evaluates them for
+    all points at once; the points it cannot settle (below the turning point, or a
+    branch of the phase that the WKB reference does not fix) go to mpmath.
+    """
+    x = np.asarray(x, dtype=float)
+    eta = np.broadcast_to(np.asarray(eta, dtype=float), x.shape)
+    F, G, ok = coulomb_waves(L, eta, x)
+    if not ok.all():
+        import mpmath
+
+        with mpmath.workdps(20):
+            for i in np.nonzero(~ok.ravel())[0]:
+                F.flat[i] = float(mpmath.coulombf(L, eta.flat[i], x.flat[i]))
+                G.flat[i] = float(mpmath.coulombg(L, eta.flat[i], x.flat[i]))
+    return F, -G
+
+
+def coulomb_waves(L: int, eta: np.ndarray, rho: np.ndarray, iterations: int = 4000):
+    """F_L(eta, rho), G_L(eta, rho) by Steed's method, and where the result is trusted.
+
+    CF1 gives F'/F (A&S 14.2 recurrences as a continued fraction), CF2 gives
+    (G' + iF')/(G + iF) = p + iq (Thompson and Barnett, J. Comput. Phys. 64, 490,
+    1986), both summed by the modified Lentz method; the Wronskian F'G - FG' = 1
+    then gives M = sqrt(F**2 + G**2) = 1/sqrt(q) and G/F.  The signs come from the
+    phase theta (F = M sin(theta), G = M cos(theta)) taken on the branch nearest
+    the WKB phase; points where that is not clear by a margin, where CF2 did not
+    converge, or below 0.7 of the turning point are marked untrusted.
+    """
+    eta = np.asarray(eta, dtype=float)
+    rho = np.asarray(rho, dtype=float)
+    tiny = 1e-300
+
+    def s_(m):
+        return m / rho + eta / m
+
+    f = s_(L + 1.0) + 0.0 * rho
+    c = np.where(f == 0.0, tiny, f)
+    d = np.zeros_like(f)
+    for n in range(1, iterations):
+        m = L + n
+        a = -(1.0 + (eta / m) ** 2)
+        b = s_(m) + s_(m + 1.0)
+        d = b + a * d
+        d = 1.0 / np.where(d == 0.0, tiny, d)
+        c = b + a / c
+        c = np.where(c == 0.0, tiny, c)
+        step = c * d
+        f = f * step
+        if n > 2 and np.all(np.abs(step - 1.0) < 1e-16):
+            break
+    a0, b0 = 1.0 + L + 1j * eta, -L + 1j * eta
+    fr = np.full(rho.shape, tiny, dtype=complex)
+    cc = fr.copy()
+    dc = np.zeros_like(fr)
+    settled = np.zeros(rho.shape, dtype=bool)
+    for n in range(1, iterations):
+        a = (a0 + n - 1) * (b0 + n - 1)
+        b = 2.0 * (rho - eta + 1j * n)
+        dc = b + a * dc
+        dc = 1.0 / np.where(dc == 0.0, tiny, dc)
+        cc = b + a / cc
+        cc = np.where(cc == 0.0, tiny, cc)
+        step = cc * dc
+        fr = fr * step
+        settled = np.abs(step - 1.0) < 1e-15
+        if n > 2 and settled.all():
+            break
+    pq = 1j * (1.0 - eta / rho) + (1j / rho) * fr
+    p, q = pq.real, pq.imag
+    with np.errstate(all="ignore"):
+        gamma = (f - p) / q
+        modulus = 1.0 / np.sqrt(q)
+        base = np.arctan(1.0 / gamma)  # theta modulo pi
+    reference = _reference_phase(L, rho, eta)
+    turns = np.round((reference - base) / math.pi)
+    theta = base + math.pi * turns
+    clear = np.abs(theta - reference) < 0.35 * math.pi
+    turning = eta + np.sqrt(eta**2 + L * (L + 1.0))
+    ok = settled & clear & (q > 0) & np.isfinite(modulus) & (rho > 0.7 * turning)
+    return modulus * np.sin(theta), modulus * np.cos(theta), ok
 
 
 def coulomb_phase(L: int, eta) -> np.ndarray:
