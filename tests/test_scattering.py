@@ -386,3 +386,21 @@ def test_coulomb_waves_by_continued_fractions_match_mpmath():
             assert abs(F[i] - Fm) < 1e-11 * scale and abs(G[i] - Gm) < 1e-11 * scale, (l, eta[i], rho[i])
             compared += 1
     assert compared > 50
+
+
+def test_spin_orbit_channels_reduce_to_the_spinless_phase_without_the_term():
+    # With V_so = 0 the l.s term vanishes: both j = l -+ 1/2 phases equal the spinless delta_l, and the
+    # spin-averaged cross section 4 pi sum_j (2j+1)/2 sin**2 / k**2 equals 4 pi (2l+1) sin**2 / k**2
+    # (textbook: sum over j of (2j+1) = 2 (2l+1)).  With the term on, j = l + 1/2 is the more attracted
+    # (the nuclear spin-orbit sign; textbook shell model), so its phase lies above.
+    e = [1.0, 5.0]
+    off = radsolve.potential("woods_saxon", spin_orbit_strength=0.0)
+    plain = phase_shifts(off, e, l=[1, 2], mass="neutron")
+    split = phase_shifts(off, e, l=[1, 2], mass="neutron", spin_orbit=True)
+    assert split.js == [0.5, 1.5, 1.5, 2.5]
+    assert np.max(np.abs(split.phase - np.repeat(plain.phase, 2, axis=0))) < 1e-8
+    s_plain, _ = plain.cross_sections()
+    s_split, _ = split.cross_sections()
+    assert np.allclose(s_split[0::2] + s_split[1::2], s_plain, rtol=1e-8)
+    on = phase_shifts("woods_saxon", [1.0], l=[3], mass="neutron", spin_orbit=True)
+    assert on.phase[1, 0] > on.phase[0, 0]

@@ -92,7 +92,7 @@ def _validated_phase_tol(tol) -> float:
     return validated_tol(tol, limits=PHASE_TOL_RANGE)
 
 
-def _setup(potential, l, mass, plugins, units, dimension, hard_core):
+def _setup(potential, l, mass, plugins, units, dimension, hard_core, spin_orbit: bool = False):
     from radsolve.core import probe as probing
     from radsolve.core.inputs import validated_dimension, validated_l
     from radsolve.potentials import as_potential
@@ -111,15 +111,28 @@ def _setup(potential, l, mass, plugins, units, dimension, hard_core):
         if not (isinstance(hard_core, (int, float)) and math.isfinite(hard_core) and hard_core > 0):
             raise InputError(f"hard_core must be a radius > 0 (got {hard_core!r})", parameter="hard_core")
         hard_core = float(hard_core)
+    if spin_orbit and not getattr(pot, "has_spin_orbit", False):
+        raise InputError(f"spin_orbit was asked for, but potential {pot.name!r} has no spin-orbit term "
+                         "(families with one define spin_orbit(r, ...))", parameter="spin_orbit")
     channels = []
     shift = (dimension - 3) // 2
     for li in ls:
-        cpot = pot.channel(li, None) if hasattr(pot, "channel") else pot
-        prof = probing.profile(cpot, kinetic)
-        if hard_core is None:
-            prof.check_bounded_below(li + shift, kinetic)
-        channels.append((li, li + shift, cpot, prof))
+        for j in (([0.5] if li == 0 else [li - 0.5, li + 0.5]) if spin_orbit else [None]):
+            cpot = pot.channel(li, j) if hasattr(pot, "channel") else pot
+            prof = probing.profile(cpot, kinetic)
+            if hard_core is None:
+                prof.check_bounded_below(li + shift, kinetic)
+            channels.append((li, li + shift, cpot, prof) if j is None else _JChannel(li, li + shift, cpot, prof, j))
     return pot, system, mu, kinetic, channels, hard_core
+
+
+class _JChannel(tuple):
+    """(l, L, potential, profile) of one (l, j) channel, with ``j`` as an attribute."""
+
+    def __new__(cls, l, L, cpot, prof, j):
+        out = super().__new__(cls, (l, L, cpot, prof))
+        out.j = j
+        return out
 
 
 def _params(pot) -> dict:
@@ -158,6 +171,7 @@ class PhaseShiftResult(ResultProtocol):
     coulomb_phase: np.ndarray | None
     hard_core: float | None
     notes: list = field(default_factory=list)
+    js: list | None = None  # j of each row of ``phase`` with spin-orbit, else None
 
     @property
     def status(self) -> Outcome:
@@ -174,7 +188,8 @@ class PhaseShiftResult(ResultProtocol):
         return np.sqrt(2.0 * unit_system(self.units).kinetic_mass(self.mass) * (self.energies - self.v_infinity))
 
     def cross_sections(self) -> tuple[np.ndarray, np.ndarray]:
-        """Elastic partial cross sections sigma_l = 4 pi (2l+1) sin(delta_l)**2 / k**2 (textbook) and their
+        """Elastic partial cross sections sigma_l = 4 pi (2l+1) sin(delta_l)**2 / k**2 (textbook; with
+        spin-orbit, 4 pi (2j+1)/2 sin(delta_lj)**2 / k**2, spin-averaged) and their
         estimates (length**2 of the unit system: bohr**2 or fm**2), arrays l x energy.
 
         Their sum over the l computed is the total only when the higher l no longer
@@ -184,7 +199,9 @@ class PhaseShiftResult(ResultProtocol):
             raise InputError("elastic cross sections of a Coulomb tail diverge (Rutherford scattering); "
                              "only the phase shifts are given", parameter="potential")
         k = self.wavenumbers
-        two_l = np.array([2 * l + 1 for l in self.ls], dtype=float)[:, None]
+        # spin 1/2 with a spin-orbit term: (2j + 1)/2 per (l, j), summing to 2l + 1 over j (textbook)
+        two_l = np.array([2 * l + 1 for l in self.ls] if self.js is None else [j + 0.5 for j in self.js],
+                         dtype=float)[:, None]
         sigma = 4.0 * math.pi * two_l * np.sin(self.phase) ** 2 / k[None, :] ** 2
         error = 4.0 * math.pi * two_l * np.abs(np.sin(2.0 * self.phase)) * self.error / k[None, :] ** 2
         return sigma, error
@@ -196,7 +213,8 @@ class PhaseShiftResult(ResultProtocol):
         rows = []
         for i, l in enumerate(self.ls):
             for j, e in enumerate(self.energies):
-                row = {"l": l, "energy": float(e) / factor, "k": float(k[j]), "phase_shift": float(self.phase[i, j]),
+                row = {"l": l} if self.js is None else {"l": l, "j": self.js[i]}
+                row |= {"energy": float(e) / factor, "k": float(k[j]), "phase_shift": float(self.phase[i, j]),
                        "error_estimate": float(self.error[i, j]), "converged": bool(self.converged[i, j])}
                 if self.coulomb_phase is not None:
                     row["coulomb_phase"] = float(self.coulomb_phase[i, j])
@@ -224,7 +242,7 @@ class PhaseShiftResult(ResultProtocol):
                 f"  mass {self.mass:.10g}, {self.units} units, tail: {self.tail}"
                 + (f", hard core r < {self.hard_core:.10g}" if self.hard_core is not None else "")
                 + f", tol {self.tol:g} rad"]
-        cols = f"{'l':>3}  {'E (' + name + ')':>16}  {'k':>12}  {'delta (rad)':>18}  {'estimate':>8}"
+        cols = f"{'l':>3}  " + ("" if self.js is None else f"{'j':>4}  ") + f"{'E (' + name + ')':>16}  {'k':>12}  {'delta (rad)':>18}  {'estimate':>8}"
         length = "bohr" if self.units == "atomic" else "fm"
         if self.coulomb_phase is not None:
             cols += f"  {'sigma_l (rad)':>16}"
@@ -232,7 +250,8 @@ class PhaseShiftResult(ResultProtocol):
             cols += f"  {'cross section (' + length + '^2)':>22}"
         lines = head + ["", cols]
         for row in self.records(unit):
-            text = (f"{row['l']:>3}  {row['energy']:>16.10g}  {row['k']:>12.8g}  {row['phase_shift']:>18.12f}  "
+            text = (f"{row['l']:>3}  " + ("" if self.js is None else f"{row['j']:>4g}  ")
+                    + f"{row['energy']:>16.10g}  {row['k']:>12.8g}  {row['phase_shift']:>18.12f}  "
                     f"{row['error_estimate']:>8.1e}")
             if "coulomb_phase" in row:
                 text += f"  {row['coulomb_phase']:>16.12f}"
@@ -243,7 +262,7 @@ class PhaseShiftResult(ResultProtocol):
         return "\n".join(lines) + "\n"
 
     def _table_columns(self):
-        cols = ["l", "energy", "k", "phase_shift", "error_estimate", "converged"]
+        cols = ["l"] + ([] if self.js is None else ["j"]) + ["energy", "k", "phase_shift", "error_estimate", "converged"]
         return cols + (["coulomb_phase"] if self.coulomb_phase is not None else [])
 
 
@@ -266,7 +285,8 @@ def _unit_name(system: str, unit: str | None) -> str:
 
 
 def phase_shifts(potential, energies, l=0, *, mass=None, tol: float = 1e-8, hard_core: float | None = None,
-                 plugins=None, units: str | None = None, dimension: int = 3) -> PhaseShiftResult:
+                 plugins=None, units: str | None = None, dimension: int = 3,
+                 spin_orbit: bool = False) -> PhaseShiftResult:
     """Phase shifts delta_l(E) at ``energies`` (the unit system's energy unit, each above V(inf)).
 
     Parameters
@@ -281,6 +301,8 @@ def phase_shifts(potential, energies, l=0, *, mass=None, tol: float = 1e-8, hard
         Target absolute error of each phase shift, radians (1e-12 ... 0.1).
     hard_core : float, optional
         A radius inside which the wave vanishes (a hard sphere), added to V.
+    spin_orbit : bool
+        One phase shift per (l, j = l -+ 1/2) with the family's V_so(r) <l.s>.
     units, plugins, dimension
         As for :func:`radsolve.solve` (odd dimensions only).
 
@@ -295,7 +317,7 @@ def phase_shifts(potential, energies, l=0, *, mass=None, tol: float = 1e-8, hard
 
     tol = _validated_phase_tol(tol)
     pot, system, mu, kinetic, channels, hard_core = _setup(potential, l, mass, plugins, units, dimension,
-                                                          hard_core)
+                                                          hard_core, bool(spin_orbit))
     v_inf = channels[0][3].v_infinity
     if math.isinf(v_inf):
         from radsolve.core.continuum import channel_tail
@@ -327,7 +349,8 @@ def phase_shifts(potential, energies, l=0, *, mass=None, tol: float = 1e-8, hard
     return PhaseShiftResult(potential=pot.name, parameters=_params(pot), units=system.name, mass=mu, tol=tol,
                             v_infinity=v_inf, energies=e, ls=[c[0] for c in channels], phase=np.array(phase),
                             error=np.array(error), converged=np.array(conv), tail=tail_kind,
-                            coulomb_phase=np.array(coul) if coul else None, hard_core=hard_core, notes=notes)
+                            coulomb_phase=np.array(coul) if coul else None, hard_core=hard_core, notes=notes,
+                            js=[c.j for c in channels] if spin_orbit else None)
 
 
 # --------------------------------------------------------------------------- scattering parameters

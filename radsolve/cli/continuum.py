@@ -11,7 +11,7 @@ import typer
 from radsolve.cli.adapter import (OutputFormat, plugin_dirs, parse_assignments, reported_errors, say,
                                   solver_call, with_option, write_output, folder_exists, l_values)
 from radsolve.cli.options import (FormatOption, LOption, LmaxOption, MassOption, OutFileOption, OutputUnitOption,
-                                  ParamOption, PluginsOption, UnitsOption)
+                                  ParamOption, PluginsOption, SpinOrbitOption, UnitsOption)
 
 PHASE_TOL_HELP = "target absolute error of each phase shift, radians (1e-12 ... 0.1)"
 
@@ -72,6 +72,7 @@ def phases_command(
     mass: MassOption = None,
     tol: Annotated[float, typer.Option("--tol", metavar="T", help=PHASE_TOL_HELP)] = 1e-8,
     hard_core: HardCoreOption = None,
+    spin_orbit: SpinOrbitOption = False,
     expr: ExprOption = None,
     unit: OutputUnitOption = None,
     units: UnitsOption = None,
@@ -106,7 +107,7 @@ def phases_command(
         values = _energies(energies, log, unit, pot, units)
         ls = l_values(l, lmax)
         result = solver_call(pot, phase_shifts, pot, values, **({"l": ls} if ls is not None else {}), mass=mass,
-                             tol=tol, hard_core=hard_core, units=units)
+                             tol=tol, hard_core=hard_core, units=units, spin_orbit=spin_orbit)
         from radsolve.output.report import render
 
         write_output(render(result, unit, fmt.value), out, f"{result.phase.size} phase shifts ({fmt.value})")

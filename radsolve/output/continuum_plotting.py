@@ -38,7 +38,9 @@ def plot_phase_shifts(result, path, unit: str | None = None, title: str | None =
     lo, hi = 0.0, 0.0
     for i, l in enumerate(result.ls):
         y = np.asarray(result.phase[i]) / math.pi
-        ax.plot(e, y, color=colors[i], lw=1.4, label=f"l = {l}")
+        js = getattr(result, "js", None)
+        label = f"l = {l}" if js is None else f"l = {l}, j = {js[i]:g}"
+        ax.plot(e, y, color=colors[i], lw=1.4, label=label)
         bad = ~np.asarray(result.converged[i])
         if bad.any():
             ax.plot(e[bad], y[bad], "x", color=colors[i], ms=5)
