@@ -404,3 +404,30 @@ def test_spin_orbit_channels_reduce_to_the_spinless_phase_without_the_term():
     assert np.allclose(s_split[0::2] + s_split[1::2], s_plain, rtol=1e-8)
     on = phase_shifts("woods_saxon", [1.0], l=[3], mass="neutron", spin_orbit=True)
     assert on.phase[1, 0] > on.phase[0, 0]
+
+
+def test_thomas_reiche_kuhn_sum_rule_for_hydrogen_1s():
+    # Thomas-Reiche-Kuhn (textbook): sum of f over all final states of 1s = 1 (one electron).
+    # Bound part from the closed form f(1s -> np) = 2**8 n**5 (n-1)**(2n-4) / (3 (n+1)**(2n+4))
+    # (Bethe and Salpeter 1957, sec. 63; from memory; f(2p) = 2**13/3**9 checks it), about 0.5650
+    # (textbook value, from memory); continuum part = int df/dE dE with df/dE = sigma / (2 pi**2
+    # alpha a0**2), from radsolve's photoionization, Gauss-Legendre in k (E = k**2/2) and a k**-6 tail.
+    from scipy.constants import alpha, physical_constants
+
+    n = np.arange(2, 200001, dtype=float)
+    f = np.exp(8 * math.log(2) + 5 * np.log(n) + (2 * n - 4) * np.log(n - 1) - math.log(3) - (2 * n + 4) * np.log(n + 1))
+    assert f[0] == pytest.approx(2**13 / 3**9, rel=1e-12)
+    bound = float(f.sum())
+    assert bound == pytest.approx(0.5650, abs=1e-4)
+    ks, ws = [], []
+    for a, b, m in ((0.0, 1.5, 32), (1.5, 5.0, 32), (5.0, 15.0, 24), (15.0, 40.0, 20)):
+        x, w = np.polynomial.legendre.leggauss(m)
+        ks.append(0.5 * (b - a) * x + 0.5 * (a + b))
+        ws.append(0.5 * (b - a) * w)
+    k, w = np.concatenate(ks), np.concatenate(ws)
+    res = photoionization("coulomb", "1s", 0.5 + k**2 / 2, tol=1e-8)
+    a0 = physical_constants["Bohr radius"][0] * 100.0
+    df_de = res.sigma / (2 * math.pi**2 * alpha * a0**2)
+    continuum = float(np.sum(w * k * df_de))
+    tail = float(k[-1] * df_de[-1] * k[-1] ** 6 * k[-1] ** -5 / 5)  # int_K^inf of c k**-6
+    assert abs(bound + continuum + tail - 1.0) < 1e-6
