@@ -431,3 +431,34 @@ def test_thomas_reiche_kuhn_sum_rule_for_hydrogen_1s():
     continuum = float(np.sum(w * k * df_de))
     tail = float(k[-1] * df_de[-1] * k[-1] ** 6 * k[-1] ** -5 / 5)  # int_K^inf of c k**-6
     assert abs(bound + continuum + tail - 1.0) < 1e-6
+
+
+@pytest.mark.parametrize("level", ["2s", "2p"])
+def test_hydrogen_2s_2p_photoionization_against_mpmath_quadrature(level):
+    # Exact hydrogen states (textbook: u_2s = r (1 - r/2) e**(-r/2) / sqrt(2), u_2p = r**2 e**(-r/2) / (2 sqrt(6)))
+    # and energy-normalized Coulomb functions sqrt(2/(pi k)) F_l(-1/k, k r) (mpmath), integrated by
+    # mpmath.quad: an independent reference; sigma = (4 pi**2 alpha omega / 3) sum (l_>/(2l+1)) R**2 a0**2.
+    mpmath = pytest.importorskip("mpmath")
+    from scipy.constants import alpha, physical_constants
+
+    a0 = physical_constants["Bohr radius"][0] * 100.0
+    photons = [0.13, 1.0]
+    res = photoionization("coulomb", level, photons, tol=1e-8)
+    for j, w in enumerate(photons):
+        k = math.sqrt(2 * (w - 0.125))
+        if level == "2s":
+            def ub(r):
+                return r * (1 - r / 2) * mpmath.exp(-r / 2) / mpmath.sqrt(2)
+            finals = [(1, 1.0)]
+        else:
+            def ub(r):
+                return r**2 * mpmath.exp(-r / 2) / (2 * mpmath.sqrt(6))
+            finals = [(0, 1 / 3), (2, 2 / 3)]
+        exact = 0.0
+        with mpmath.workdps(20):
+            for lf, share in finals:
+                R = float(mpmath.quad(lambda r: mpmath.sqrt(2 / (mpmath.pi * k)) * mpmath.coulombf(lf, -1 / k, k * r)
+                                      * r * ub(r), [0, 5, 15, 40, 80, 140]))
+                exact += 4 * math.pi**2 * alpha * w / 3 * share * R**2 * a0**2
+        assert res.sigma[j] == pytest.approx(exact, rel=1e-6)
+        assert res.sigma_velocity[j] == pytest.approx(exact, rel=1e-6)
