@@ -462,3 +462,28 @@ def test_hydrogen_2s_2p_photoionization_against_mpmath_quadrature(level):
                 exact += 4 * math.pi**2 * alpha * w / 3 * share * R**2 * a0**2
         assert res.sigma[j] == pytest.approx(exact, rel=1e-6)
         assert res.sigma_velocity[j] == pytest.approx(exact, rel=1e-6)
+
+
+def test_square_well_p_wave_effective_range_against_mpmath():
+    # r_1 = 2 d(k**3 cot(delta_1))/d(k**2) at k = 0, with tan(delta_1) from the closed-form matching of a
+    # square well (textbook formula), differentiated by mpmath at 40 digits: an independent reference.
+    mpmath = pytest.importorskip("mpmath")
+    V0, R, l = 1.7, 2.0, 1
+    with mpmath.workdps(40):
+        def j(n, z):
+            return mpmath.sqrt(mpmath.pi / (2 * z)) * mpmath.besselj(n + 0.5, z)
+
+        def y(n, z):
+            return mpmath.sqrt(mpmath.pi / (2 * z)) * mpmath.bessely(n + 0.5, z)
+
+        def kcot(k2):
+            k, K = mpmath.sqrt(k2), mpmath.sqrt(k2 + 2 * V0)
+            g = K * mpmath.diff(lambda z: j(l, z), K * R) / j(l, K * R)
+            t = (k * mpmath.diff(lambda z: j(l, z), k * R) - g * j(l, k * R)) / \
+                (k * mpmath.diff(lambda z: y(l, z), k * R) - g * y(l, k * R))
+            return k ** (2 * l + 1) / t
+
+        r_ref = float(2 * mpmath.diff(kcot, mpmath.mpf("1e-12")))
+    w = scattering(radsolve.formula_potential("-V0*step(R-r)", V0=V0, R=R), l=1, tol=1e-8).waves[0]
+    assert abs(w.effective_range - r_ref) <= w.effective_range_error
+    assert abs(w.effective_range - r_ref) < 1e-5 * abs(r_ref)

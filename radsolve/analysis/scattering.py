@@ -475,30 +475,32 @@ class ScatteringResult(ResultProtocol):
                 "bound_levels", "levinson_count", "levinson"]
 
 
-def _effective_range(cpot, prof, L, l, kinetic, size, a_l, tol, hard_core):
-    """r_l from a fit of k**(2l+1) cot(delta) in k**2 (two degrees; their spread and the phases' errors)."""
+def _effective_range(cpot, prof, L, l, kinetic, size, a_l, a_error, tol, hard_core):
+    """r_l from k**(2l+1) cot(delta) at low energies, with the intercept -1/a_l known from zero energy.
+
+    z = (k**(2l+1) cot(delta) + 1/a_l) / k**2 = r_l/2 + c k**2 + ... is fitted in k**2 on
+    Chebyshev points of [0.1, 1] k_fit**2 with two degrees; the estimate is their spread
+    plus the effect of the phases' errors and of a_l's error (largest at the lowest k).
+    """
     from radsolve.core.continuum import channel_phases
 
     k_fit = _FIT_REACH / size
-    x = 0.5 * (1.0 - np.cos(np.pi * (np.arange(_FIT_POINTS) + 0.5) / _FIT_POINTS))  # (0, 1)
+    x = 0.1 + 0.9 * 0.5 * (1.0 - np.cos(np.pi * (np.arange(_FIT_POINTS) + 0.5) / _FIT_POINTS))
     k = k_fit * np.sqrt(x)
     energies = k**2 / (2.0 * kinetic)
-    ch = channel_phases(cpot, prof, L, l, kinetic, energies, min(tol, 1e-10), hard_core=hard_core)
+    ch = channel_phases(cpot, prof, L, l, kinetic, energies, min(tol, 1e-11), hard_core=hard_core)
     y = k ** (2 * l + 1) / np.tan(ch.phase)
-    dy = k ** (2 * l + 1) * ch.error / np.sin(ch.phase) ** 2
+    z = (y + 1.0 / a_l) / k**2
+    dz = (k ** (2 * l + 1) * ch.error / np.sin(ch.phase) ** 2 + a_error / a_l**2) / k**2
     fits = []
-    for degree in (5, 6):
+    for degree in (4, 5):
         V = np.vander(x * k_fit**2, degree + 1, increasing=True)
         pinv = np.linalg.pinv(V)
-        coeffs = pinv @ y
-        spread = np.abs(pinv) @ dy
-        fits.append((coeffs, spread))
-    (c5, s5), (c6, s6) = fits
-    r_l = 2.0 * c6[1]
-    error = 2.0 * (abs(c6[1] - c5[1]) + s6[1])
-    # the fit's own intercept is -1/a_l: a check on both
-    intercept_gap = abs(c6[0] + 1.0 / a_l) if a_l not in (0.0,) else math.inf
-    return r_l, error, intercept_gap, bool(np.all(ch.converged))
+        fits.append((pinv @ z, np.abs(pinv) @ dz))
+    (c4, _), (c5, s5) = fits
+    r_l = 2.0 * float(c5[0])
+    error = 2.0 * (abs(float(c5[0] - c4[0])) + float(s5[0]))
+    return r_l, error, 0.0, bool(np.all(ch.converged))
 
 
 def scattering(potential, l=0, *, mass=None, tol: float = 1e-8, hard_core: float | None = None, plugins=None,
@@ -544,7 +546,8 @@ def scattering(potential, l=0, *, mass=None, tol: float = 1e-8, hard_core: float
             r_l, r_err = zero.effective_range, zero.effective_range_error
             ok = ok and r_err <= tol * max(abs(r_l), size)
         else:
-            r_l, r_err, gap, phases_ok = _effective_range(cpot, prof, L, li, kinetic, size, a_l, tol, hard_core)
+            r_l, r_err, gap, phases_ok = _effective_range(cpot, prof, L, li, kinetic, size, a_l, zero.error, tol,
+                                                          hard_core)
             if not math.isfinite(r_l) or not math.isfinite(r_err):
                 why, r_l, r_err = "the low-energy fit of k**(2l+1) cot(delta) failed (a_l near 0?)", None, None
             else:
