@@ -737,7 +737,16 @@ def photoionization(potential, level: str = "1s", photon_energies=None, *, mass=
                                                    None)
     if system.name != "atomic":
         raise InputError("photoionization is computed in atomic units only (units 'atomic')", parameter="units")
-    st = state(pot, n, l, mass=mass, tol=max(min(0.01 * tol, 1e-10), 1e-12))
+    if channels[0][3].confining:
+        from radsolve.core.continuum import channel_tail
+
+        channel_tail(channels[0][2], channels[0][3], kinetic, 1.0, 1.0, tol, 1.0)  # raises: no continuum
+    try:
+        st = state(pot, n, l, mass=mass, tol=max(min(0.01 * tol, 1e-10), 1e-12))
+    except InputError as exc:
+        if exc.parameter is not None:
+            raise
+        raise InputError(str(exc), parameter="level") from None  # e.g. the level is not bound
     e_b = float(st.energy.value)
     v_inf = channels[0][3].v_infinity
     ionization = v_inf - e_b
@@ -1127,8 +1136,8 @@ def resonances(potential, l=0, *, window, mass=None, tol: float = 1e-8, scan_poi
         lo, hi = (float(x) for x in window)
     except (TypeError, ValueError):
         raise InputError(f"window must be two energies (E_low, E_high) (got {window!r})", parameter="window") from None
+    validated_energies([lo, hi], v_inf, parameter="window")
     grid = energy_grid(lo, hi, int(scan_points), parameter="window")
-    validated_energies(grid, v_inf, parameter="window")
     found = []
     notes: list[Note] = []
     for li, L, cpot, prof in channels:

@@ -115,3 +115,19 @@ def test_resonances_command_finds_the_square_well_d_resonance():
     rows = json.loads(result.stdout)["rows"]
     assert len(rows) == 1 and rows[0]["l"] == 2 and rows[0]["agree"]
     assert rows[0]["energy_pole"] == pytest.approx(0.1698040547, abs=1e-8)
+
+
+@pytest.mark.parametrize("args, words", [
+    (["photoionization", "harmonic", "--photons", "5"], ["no continuum"]),
+    (["photoionization", "yukawa", "--level", "3d", "--photons", "1"], ["--level", "not bound"]),
+    (["photoionization", "coulomb", "--level", "xx", "--photons", "1"], ["--level", "not a level label"]),
+    (["resonances", "yukawa", "--window=-1:1"], ["--window", "above the threshold"]),
+    (["resonances", "yukawa", "--window", "1"], ["--window", "E1:E2"]),
+    (["logderiv", "yukawa", "--energies", "0.1", "--radius", "1", "--ref-param", "Z=2"], ["--reference"]),
+])
+def test_more_bad_input_exits_2(args, words):
+    result = invoke(*args)
+    assert result.exit_code == 2, (result.stdout, result.stderr)
+    assert "Traceback" not in result.stderr
+    for word in words:
+        assert word in result.stderr, result.stderr
