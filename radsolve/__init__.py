@@ -66,6 +66,8 @@ _EXPORTS = {
     "photoionization": ("radsolve.analysis.scattering", "photoionization"),
     "log_derivatives": ("radsolve.analysis.scattering", "log_derivatives"),
     "resonances": ("radsolve.analysis.scattering", "resonances"),
+    "scattering_sweep": ("radsolve.analysis.scattering", "scattering_sweep"),
+    "ScatteringSweepResult": ("radsolve.analysis.scattering", "ScatteringSweepResult"),
     "ResonanceResult": ("radsolve.analysis.scattering", "ResonanceResult"),
     "LogDerivativeResult": ("radsolve.analysis.scattering", "LogDerivativeResult"),
     "PhotoionizationResult": ("radsolve.analysis.scattering", "PhotoionizationResult"),

@@ -85,8 +85,12 @@ def _resonances():
     return radsolve.resonances(radsolve.formula_potential("-V0*step(1-r)", V0=9.8), l=2, window=(0.05, 1.0))
 
 
+def _scattering_sweep():
+    return radsolve.scattering_sweep("yukawa", "screening_length", [0.8, 0.9], l=0, tol=1e-6)
+
+
 CASES = {
-    "log_derivatives": _log_derivatives, "resonances": _resonances,
+    "log_derivatives": _log_derivatives, "resonances": _resonances, "scattering_sweep": _scattering_sweep,
     "phase_shifts": _phase_shifts, "scattering": _scattering, "photoionization": _photoionization,
     "solve": _solve_ok, "solve_not_converged": _solve_rounding, "state": _state, "summary": _summary,
     "transitions": _transitions, "threshold": _threshold, "critical_values": _critical_values,
@@ -98,7 +102,7 @@ CASES = {
 CASE_TYPES = {
     "phase_shifts": "PhaseShiftResult", "scattering": "ScatteringResult",
     "photoionization": "PhotoionizationResult", "log_derivatives": "LogDerivativeResult",
-    "resonances": "ResonanceResult",
+    "resonances": "ResonanceResult", "scattering_sweep": "ScatteringSweepResult",
     "solve": "SolveResult", "solve_not_converged": "SolveResult", "state": "State", "summary": "StateSummary",
     "transitions": "TransitionResult", "threshold": "ThresholdResult", "critical_values": "CriticalValues",
     "fit": "FitResult", "check": "CheckReport", "sweep": "SweepResult",
@@ -209,6 +213,12 @@ def test_outside_facts(result):
         for row in res.records():
             if row["l"] == 0:
                 assert row["phase_shift"] == pytest.approx(-(2 * row["energy"]) ** 0.5, abs=1e-8)
+    elif name == "scattering_sweep":
+        # the 1s level of the Yukawa potential binds at screening length 0.8399 (Rogers, Graboske &
+        # Harwood, Phys. Rev. A 1, 1577 (1970); from memory): a_0 < 0 below it, > 0 above, one level
+        rows = res.records()
+        assert rows[0]["scattering_length"] < 0 < rows[1]["scattering_length"]
+        assert [r["bound_levels"] for r in rows] == [0, 1]
     elif name == "resonances":
         # the d-wave pole of a square well V0 = 9.8, R = 1 at E = 0.169804... (mpmath root of the
         # textbook matching condition, tests/test_scattering.py)

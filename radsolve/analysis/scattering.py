@@ -1169,3 +1169,87 @@ def resonances(potential, l=0, *, window, mass=None, tol: float = 1e-8, scan_poi
                                         "a narrower one may have been missed"))
     return ResonanceResult(potential=pot.name, parameters=_params(pot), units=system.name, mass=mu, tol=tol,
                            window=(lo, hi), scan_points=grid.size, resonances=found, notes=notes)
+
+
+# --------------------------------------------------------------------------- along a parameter
+
+
+@dataclass(repr=False)
+class ScatteringSweepResult(ResultProtocol):
+    """:func:`scattering` at every value of one parameter (the result protocol).
+
+    ``points`` holds one :class:`ScatteringResult` per value.  a_l passes
+    through infinity where a level of l crosses the threshold (the critical
+    values :func:`radsolve.threshold` finds), and Levinson's count steps
+    there.  The status is the worst of the points'; each note of a point
+    appears once, with the first value it concerns.
+    """
+
+    potential: str
+    parameter: str
+    values: np.ndarray
+    points: list
+
+    @property
+    def status(self) -> Outcome:
+        return worst([p.status for p in self.points])
+
+    @property
+    def notes(self) -> list:
+        seen, out = set(), []
+        for value, point in zip(self.values, self.points):
+            for note in point.notes:
+                if note.code not in seen:
+                    seen.add(note.code)
+                    count = sum(any(n.code == note.code for n in p.notes) for p in self.points)
+                    out.append(Note(note.code, f"{note.text} (at {self.parameter} = {value:.6g}; "
+                                               f"{count} of {len(self.points)} points)", note.subject))
+        return out
+
+    @property
+    def message(self) -> str:
+        return message_of(self.notes, f"{len(self.points)} points: scattering lengths converged; "
+                                      "Levinson's theorem holds at every point")
+
+    def records(self, unit: str | None = None) -> list[dict[str, Any]]:
+        return [{self.parameter: float(v), **row} for v, p in zip(self.values, self.points) for row in p.records(unit)]
+
+    def to_dict(self, unit: str | None = None) -> dict[str, Any]:
+        first = self.points[0]
+        return {"kind": "scattering_sweep", "status": str(self.status), "success": self.success,
+                "message": self.message, "notes": [n.to_dict() for n in self.notes], "potential": self.potential,
+                "parameter": self.parameter, "units": first.units,
+                "length_unit": "bohr" if first.units == "atomic" else "fm", "mass": first.mass, "tol": first.tol,
+                "note": MODEL_NOTE, "rows": self.records(unit)}
+
+    def _header(self):
+        return [("potential", self.potential), ("parameter", self.parameter), ("points", len(self.points))]
+
+    def _table_columns(self):
+        return [self.parameter, "l", "scattering_length", "scattering_length_error", "bound_levels", "levinson"]
+
+
+def scattering_sweep(potential, parameter: str, values, l=0, *, fixed=None, mass=None, tol: float = 1e-8,
+                     hard_core: float | None = None, plugins=None, units: str | None = None) -> ScatteringSweepResult:
+    """:func:`scattering` of ``potential`` (a family name or Potential) at each of ``values`` of ``parameter``.
+
+    ``fixed`` sets other parameters.  Values in the family's units.
+    """
+    from radsolve.potentials import as_potential
+
+    base = as_potential(potential, plugins)
+    params = {**base.parameters, **(fixed or {})}
+    if parameter not in params:
+        raise InputError(f"potential {base.name!r} has no parameter {parameter!r}; its parameters: "
+                         + ", ".join(params), parameter="parameter")
+    try:
+        vals = np.atleast_1d(np.asarray(values, dtype=float))
+    except (TypeError, ValueError):
+        raise InputError(f"values must be numbers (got {values!r})", parameter="values") from None
+    if vals.ndim != 1 or vals.size == 0 or not np.all(np.isfinite(vals)):
+        raise InputError("values: at least one finite value is needed", parameter="values")
+    points = []
+    for v in vals:
+        pot = base.family.bind(**{**params, parameter: float(v)})
+        points.append(scattering(pot, l, mass=mass, tol=tol, hard_core=hard_core, units=units))
+    return ScatteringSweepResult(potential=base.name, parameter=parameter, values=vals, points=points)

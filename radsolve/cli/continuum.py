@@ -131,6 +131,11 @@ def scattering_command(
     tol: Annotated[float, typer.Option("--tol", metavar="T",
                                        help="target relative error of a_l and r_l (1e-12 ... 0.1)")] = 1e-8,
     hard_core: HardCoreOption = None,
+    vary: Annotated[Optional[str], typer.Option(
+        "--vary", "-v", metavar="KEY=START:STOP:NUM",
+        help="repeat at every value of one parameter (units allowed, or KEY=V1,V2,...): a_l passes through "
+             "infinity where a level crosses the threshold")] = None,
+    log: Annotated[bool, typer.Option("--log", help="space --vary's START:STOP:NUM geometrically")] = False,
     expr: ExprOption = None,
     unit: OutputUnitOption = None,
     units: UnitsOption = None,
@@ -156,13 +161,25 @@ def scattering_command(
         from radsolve.analysis.scattering import scattering
         pot = _potential(name, params, plugins, units, expr)
         ls = l_values(l, lmax)
-        result = solver_call(pot, scattering, pot, **({"l": ls} if ls is not None else {}), mass=mass, tol=tol,
-                             hard_core=hard_core, units=units)
+        if vary is None:
+            result = solver_call(pot, scattering, pot, **({"l": ls} if ls is not None else {}), mass=mass, tol=tol,
+                                 hard_core=hard_core, units=units)
+            waves = result.waves
+            what = f"{len(waves)} partial waves"
+        else:
+            from radsolve.analysis.scattering import scattering_sweep
+            from radsolve.analysis.sweeps import parse_vary
+
+            key, values = parse_vary(vary, pot.family, log)
+            result = solver_call(pot, scattering_sweep, pot, key, values, **({"l": ls} if ls is not None else {}),
+                                 mass=mass, tol=tol, hard_core=hard_core, units=units)
+            waves = [w for p in result.points for w in p.waves]
+            what = f"{len(result.points)} points"
         from radsolve.output.report import render
 
-        write_output(render(result, unit, fmt.value), out, f"{len(result.waves)} partial waves ({fmt.value})")
+        write_output(render(result, unit, fmt.value), out, f"{what} ({fmt.value})")
         if not result.success:
-            if any(w.levinson == "disagrees" for w in result.waves):
+            if any(w.levinson == "disagrees" for w in waves):
                 say("LEVINSON'S THEOREM FAILS for some l: the phase shifts or the bound count are wrong "
                     "(see the message)")
             if out is not None or fmt is not OutputFormat.table:

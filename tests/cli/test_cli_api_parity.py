@@ -229,6 +229,8 @@ CASES = [
     Case(["scattering", "coulomb"], lambda: scattering("coulomb"), "potential", "NAME"),
     Case(["scattering", "harmonic"], lambda: scattering("harmonic"), "potential", "NAME"),
     Case(["scattering", "yukawa", "--tol", "1"], lambda: scattering("yukawa", tol=1.0), "tol", "--tol"),
+    Case(["scattering", "yukawa", "--vary", "depth=1:2:3"],
+         lambda: parse_vary("depth=1:2:3", get_family("yukawa")), None, None),
     Case(["photoionization", "coulomb", "--photons", "0.3,1"], lambda: photoionization("coulomb", "1s", [0.3, 1.0]),
          "photon_energies", "--photons"),
     Case(["photoionization", "coulomb", "--photons", "1", "--level", "1p"],

@@ -131,3 +131,15 @@ def test_more_bad_input_exits_2(args, words):
     assert "Traceback" not in result.stderr
     for word in words:
         assert word in result.stderr, result.stderr
+
+
+def test_scattering_along_the_screening_length():
+    # a_0 of -exp(-r/D)/r changes sign through infinity where the 1s level binds, D = 0.8399 bohr
+    # (Rogers, Graboske & Harwood, Phys. Rev. A 1, 1577 (1970); from memory)
+    result = invoke("scattering", "yukawa", "--vary", "screening_length=0.8,0.83,0.85,0.9", "--l", "0",
+                    "--tol", "1e-6", "--format", "json")
+    assert result.exit_code == 0, result.stderr
+    rows = json.loads(result.stdout)["rows"]
+    a = [r["scattering_length"] for r in rows]
+    assert a[1] < a[0] < 0 < a[3] < a[2]
+    assert [r["bound_levels"] for r in rows] == [0, 0, 1, 1] and all(r["levinson"] == "agrees" for r in rows)
