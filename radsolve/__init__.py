@@ -21,6 +21,7 @@ The public API (imported on first use, so that the command line starts fast):
   Levinson check; :func:`photoionization` — bound-free cross sections;
   :func:`log_derivatives` — u'/u at a radius, a model beside a reference, ghost states;
   :func:`resonances` — positions and widths from the phase shift and from the pole;
+  :func:`continuum_wave` — u_E(r) normalized per unit energy;
 - :func:`transitions` — E1 lines, oscillator strengths, Einstein A
   coefficients, lifetimes and branching ratios of the levels with n <= nmax.
 
@@ -67,6 +68,8 @@ _EXPORTS = {
     "log_derivatives": ("radsolve.analysis.scattering", "log_derivatives"),
     "resonances": ("radsolve.analysis.scattering", "resonances"),
     "scattering_sweep": ("radsolve.analysis.scattering", "scattering_sweep"),
+    "continuum_wave": ("radsolve.analysis.scattering", "continuum_wave"),
+    "ContinuumWave": ("radsolve.analysis.scattering", "ContinuumWave"),
     "ScatteringSweepResult": ("radsolve.analysis.scattering", "ScatteringSweepResult"),
     "ResonanceResult": ("radsolve.analysis.scattering", "ResonanceResult"),
     "LogDerivativeResult": ("radsolve.analysis.scattering", "LogDerivativeResult"),

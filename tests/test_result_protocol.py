@@ -14,6 +14,7 @@ from __future__ import annotations
 import csv
 import io
 import json
+import math
 
 import pytest
 
@@ -89,7 +90,12 @@ def _scattering_sweep():
     return radsolve.scattering_sweep("yukawa", "screening_length", [0.8, 0.9], l=0, tol=1e-6)
 
 
+def _continuum_wave():
+    return radsolve.continuum_wave(radsolve.formula_potential("0*r"), 0.5, 0, r=[1.0, 2.0, 3.0], tol=1e-9)
+
+
 CASES = {
+    "continuum_wave": _continuum_wave,
     "log_derivatives": _log_derivatives, "resonances": _resonances, "scattering_sweep": _scattering_sweep,
     "phase_shifts": _phase_shifts, "scattering": _scattering, "photoionization": _photoionization,
     "solve": _solve_ok, "solve_not_converged": _solve_rounding, "state": _state, "summary": _summary,
@@ -103,6 +109,7 @@ CASE_TYPES = {
     "phase_shifts": "PhaseShiftResult", "scattering": "ScatteringResult",
     "photoionization": "PhotoionizationResult", "log_derivatives": "LogDerivativeResult",
     "resonances": "ResonanceResult", "scattering_sweep": "ScatteringSweepResult",
+    "continuum_wave": "ContinuumWave",
     "solve": "SolveResult", "solve_not_converged": "SolveResult", "state": "State", "summary": "StateSummary",
     "transitions": "TransitionResult", "threshold": "ThresholdResult", "critical_values": "CriticalValues",
     "fit": "FitResult", "check": "CheckReport", "sweep": "SweepResult",
@@ -213,6 +220,10 @@ def test_outside_facts(result):
         for row in res.records():
             if row["l"] == 0:
                 assert row["phase_shift"] == pytest.approx(-(2 * row["energy"]) ** 0.5, abs=1e-8)
+    elif name == "continuum_wave":
+        # free s wave per unit energy: sqrt(2/(pi k)) sin(k r), k = 1 (textbook formula)
+        for row in res.records():
+            assert row["u"] == pytest.approx(math.sqrt(2 / math.pi) * math.sin(row["r"]), abs=1e-7)
     elif name == "scattering_sweep":
         # the 1s level of the Yukawa potential binds at screening length 0.8399 (Rogers, Graboske &
         # Harwood, Phys. Rev. A 1, 1577 (1970); from memory): a_0 < 0 below it, > 0 above, one level

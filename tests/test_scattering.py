@@ -487,3 +487,20 @@ def test_square_well_p_wave_effective_range_against_mpmath():
     w = scattering(radsolve.formula_potential("-V0*step(R-r)", V0=V0, R=R), l=1, tol=1e-8).waves[0]
     assert abs(w.effective_range - r_ref) <= w.effective_range_error
     assert abs(w.effective_range - r_ref) < 1e-5 * abs(r_ref)
+
+
+def test_continuum_wave_is_normalized_per_unit_energy():
+    # energy normalization (textbook): u_E -> sqrt(2m/(pi k)) sin(k r - l pi/2 + delta); a hard sphere's
+    # s wave is exactly sqrt(2/(pi k)) sin(k (r - a)), and the pure Coulomb p wave is
+    # sqrt(2/(pi k)) F_1(-1/k, k r) (mpmath's Coulomb function).
+    mpmath = pytest.importorskip("mpmath")
+    from radsolve.analysis.scattering import continuum_wave
+
+    r = np.array([1.5, 3.0, 7.0, 12.0])
+    w = continuum_wave(radsolve.formula_potential("0*r"), 0.5, 0, hard_core=1.0, r=r, tol=1e-10)
+    exact = math.sqrt(2 / math.pi) * np.sin(r - 1.0)
+    assert np.max(np.abs(w.u - exact)) < 1e-7
+    assert np.all(np.abs(w.u - exact) <= w.u_error + 1e-9)
+    c = continuum_wave("coulomb", 0.5, 1, r=r, tol=1e-10)
+    exact = [float(mpmath.sqrt(2 / mpmath.pi) * mpmath.coulombf(1, -1, x)) for x in r]
+    assert np.max(np.abs(c.u - exact)) < 1e-7

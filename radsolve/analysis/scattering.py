@@ -1253,3 +1253,102 @@ def scattering_sweep(potential, parameter: str, values, l=0, *, fixed=None, mass
         pot = base.family.bind(**{**params, parameter: float(v)})
         points.append(scattering(pot, l, mass=mass, tol=tol, hard_core=hard_core, units=units))
     return ScatteringSweepResult(potential=base.name, parameter=parameter, values=vals, points=points)
+
+
+# --------------------------------------------------------------------------- one continuum state
+
+
+@dataclass(repr=False)
+class ContinuumWave(ResultProtocol):
+    """u_E,l(r) of one continuum state, normalized per unit energy (the result protocol).
+
+    u ~ sqrt(2 m / (pi k)) sin(k r - l pi/2 + delta) far out (free waves), or
+    sqrt(2 m / (pi k)) (F cos(delta) + G sin(delta)) for a Coulomb tail, so that
+    int u_E u_E' dr = delta(E - E') (textbook).  ``u`` is the finest grid's
+    value and ``u_error`` its change from the grid before (at ``r``, the
+    radii asked, by cubic interpolation).  Note codes: ``not_converged``.
+    """
+
+    potential: str
+    parameters: dict
+    units: str
+    mass: float
+    tol: float
+    energy: float
+    l: int
+    phase_shift: float
+    phase_error: float
+    r: np.ndarray
+    u: np.ndarray
+    u_error: np.ndarray
+    converged: bool
+    notes: list = field(default_factory=list)
+
+    @property
+    def status(self) -> Outcome:
+        return Outcome.SUCCESS if self.converged else Outcome.NOT_CONVERGED
+
+    @property
+    def message(self) -> str:
+        return message_of(self.notes, f"continuum state at E = {self.energy:.8g}, l = {self.l}: converged")
+
+    def records(self, unit: str | None = None) -> list[dict[str, Any]]:
+        return [{"r": float(r), "u": float(u), "u_error": float(e)} for r, u, e in zip(self.r, self.u, self.u_error)]
+
+    def to_dict(self, unit: str | None = None) -> dict[str, Any]:
+        factor = _energy_factor(self.units, unit)
+        return {"kind": "continuum_wave", "status": str(self.status), "success": self.success, "message": self.message,
+                "notes": [n.to_dict() for n in self.notes], "potential": self.potential, "parameters": self.parameters,
+                "units": self.units, "energy": self.energy / factor, "energy_unit": _unit_name(self.units, unit),
+                "l": self.l, "phase_shift": self.phase_shift, "phase_error": self.phase_error, "mass": self.mass,
+                "normalization": "per unit energy", "note": MODEL_NOTE, "rows": self.records(unit)}
+
+    def _header(self):
+        return [("potential", self.potential), ("energy", self.energy), ("l", self.l),
+                ("phase_shift", self.phase_shift), ("points", int(self.r.size))]
+
+
+def continuum_wave(potential, energy: float, l: int = 0, *, r=None, mass=None, tol: float = 1e-8,
+                   hard_core: float | None = None, plugins=None, units: str | None = None) -> ContinuumWave:
+    """The continuum state u_E,l(r) per unit energy at ``energy`` (above V(inf)), on the grid or at radii ``r``."""
+    from radsolve.core.continuum import channel_phases
+
+    tol = _validated_phase_tol(tol)
+    pot, system, mu, kinetic, channels, hard_core = _setup(potential, l, mass, plugins, units, 3, hard_core)
+    (li, L, cpot, prof), = channels
+    if prof.confining:
+        from radsolve.core.continuum import channel_tail
+
+        channel_tail(cpot, prof, kinetic, 1.0, 1.0, tol, 1.0)  # raises: no continuum
+    e = validated_energies([energy], prof.v_infinity, parameter="energy")
+    radii = None
+    if r is not None:
+        radii = np.atleast_1d(np.asarray(r, dtype=float))
+        if radii.size == 0 or not np.all(np.isfinite(radii)) or np.any(radii < 0):
+            raise InputError("r must be radii >= 0", parameter="r")
+    ch = channel_phases(cpot, prof, L, li, kinetic, e - prof.v_infinity, tol, hard_core=hard_core, keep_waves=True,
+                        min_radius=0.0 if radii is None else float(radii.max()) / 1.6)
+    r_f, u_f, _ = ch.waves[-1]
+    u_f = u_f[:, 0]
+    if len(ch.waves) >= 2:
+        r_c, u_c, _ = ch.waves[-2]
+        diff = np.abs(u_f[::2][: u_c.shape[0]] - u_c[:, 0])
+        err = np.interp(r_f, r_c[: diff.size], diff)
+    else:
+        err = np.full(u_f.shape, np.inf)
+    if radii is not None:
+        from scipy.interpolate import CubicSpline
+
+        inside = radii >= r_f[0]
+        u_at = np.zeros(radii.shape)  # below the first point the wave is negligible (origin law)
+        u_at[inside] = CubicSpline(r_f, u_f)(radii[inside])
+        err_at = np.interp(radii, r_f, err)
+        r_out, u_out, e_out = radii, u_at, err_at
+    else:
+        r_out, u_out, e_out = r_f, u_f, err
+    notes = []
+    if not bool(ch.converged[0]):
+        notes.append(Note("not_converged", f"the phase shift did not reach tol {tol:g} (estimate {ch.error[0]:.2g})"))
+    return ContinuumWave(potential=pot.name, parameters=_params(pot), units=system.name, mass=mu, tol=tol,
+                         energy=float(e[0]), l=li, phase_shift=float(ch.phase[0]), phase_error=float(ch.error[0]),
+                         r=r_out, u=u_out, u_error=e_out, converged=bool(ch.converged[0]), notes=notes)

@@ -93,6 +93,7 @@ class ChannelPhases:
     notes: list = field(default_factory=list)
     integrals: np.ndarray | None = None  # (m, energies): int f_j u_E dr, u_E normalized per unit energy
     integral_error: np.ndarray | None = None
+    waves: list = field(default_factory=list)  # with keep_waves: (r, u per unit energy, energy indices) per grid
 
 
 def _joined(parts: list, masks: list, size: int) -> ChannelPhases:
@@ -424,7 +425,7 @@ def _coarse_step(potential, profile, span_probe: GridSpan, L: float, mass: float
 
 def channel_phases(potential, profile, L: float, l: int, mass: float, energies: np.ndarray, tol: float,
                    hard_core: float | None = None, boundary_share: float = 1e-3, integrand=None,
-                   min_radius: float = 0.0) -> ChannelPhases:
+                   min_radius: float = 0.0, keep_waves: bool = False) -> ChannelPhases:
     """Phase shifts of one partial wave at ``energies`` (measured from V(inf), all > 0).
 
     ``L`` is the effective angular momentum (an integer in three dimensions);
@@ -433,7 +434,8 @@ def channel_phases(potential, profile, L: float, l: int, mass: float, energies: 
     int f_j(r) u_E(r) dr of the continuum state normalized per unit energy,
     u_E ~ sqrt(2 m / (pi k)) sin(theta + delta) (``integrals``, relative
     target ``tol``); the grid then reaches at least ``min_radius`` (where the
-    f_j have died out).
+    f_j have died out).  With ``keep_waves``, ``waves`` holds (r, u_E per unit
+    energy, energy indices) on every grid (one energy, or a few: memory).
     """
     energies = np.asarray(energies, dtype=float)
     k = np.sqrt(2.0 * mass * energies)
@@ -442,7 +444,7 @@ def channel_phases(potential, profile, L: float, l: int, mass: float, energies: 
         cut = math.sqrt(float(k.max()) * float(k.min()))
         low = k <= cut
         parts = [channel_phases(potential, profile, L, l, mass, energies[sel], tol, hard_core, boundary_share,
-                                integrand, min_radius) for sel in (low, ~low)]
+                                integrand, min_radius, keep_waves) for sel in (low, ~low)]
         return _joined(parts, [low, ~low], energies.size)
     e_max = float(energies.max())
     Lint = int(round(L))
@@ -483,7 +485,7 @@ def channel_phases(potential, profile, L: float, l: int, mass: float, energies: 
         # too fine a grid for the fastest waves to refine: the slower ones get a band of their own
         low = k <= math.sqrt(float(k.max()) * float(k.min()))
         parts = [channel_phases(potential, profile, L, l, mass, energies[sel], tol, hard_core, boundary_share,
-                                integrand, min_radius) for sel in (low, ~low)]
+                                integrand, min_radius, keep_waves) for sel in (low, ~low)]
         return _joined(parts, [low, ~low], energies.size)
 
     # Numerov's error is a series in h**4, h**6, ...; a jump of V at a grid point adds every
@@ -493,6 +495,7 @@ def channel_phases(potential, profile, L: float, l: int, mass: float, energies: 
     int_history: list[np.ndarray] = []
     integrals = integral_error = None
     notes: list[str] = []
+    waves: list = []
     phase = np.full(energies.size, np.nan)
     grid_error = np.full(energies.size, np.inf)
     radius_error = np.full(energies.size, np.inf)
@@ -522,7 +525,7 @@ def channel_phases(potential, profile, L: float, l: int, mass: float, energies: 
         # (the free or Coulomb waves there are computed once)
         step_g = 2**g
         ra_row = ra_coarse * step_g
-        keep_from = ra_row
+        keep_from = start if keep_waves else ra_row
         last = grid.size - 1
         sub = active
         weights = None
@@ -539,10 +542,13 @@ def channel_phases(potential, profile, L: float, l: int, mass: float, energies: 
         u, zeros_a, zeros_b = shot[:3]
         row_b = last - keep_from
         cols = np.arange(sub.size)
-        u_a1, u_a2 = u[(rows_a0[sub] - ra_coarse) * step_g, cols], u[0, cols]
-        u_b1, u_b2 = u[(rows_b0[sub] - ra_coarse) * step_g, cols], u[row_b, cols]
+        u_a1, u_a2 = u[rows_a0[sub] * step_g - keep_from, cols], u[ra_row - keep_from, cols]
+        u_b1, u_b2 = u[rows_b0[sub] * step_g - keep_from, cols], u[row_b, cols]
         outer, amp_o = _phase_from(u_b1, u_b2, *[b[sub] for b in basis_b], zeros_b)
         inner, amp_i = _phase_from(u_a1, u_a2, *[b[sub] for b in basis_a], zeros_a)
+        if keep_waves:
+            # u per unit energy on this grid (every energy, refined or not: they share the grids)
+            waves.append((grid.r[keep_from:], u * (np.sqrt(2.0 * mass / (math.pi * k[sub])) / amp_o)[None, :], sub))
         full_o = np.full(energies.size, np.nan)
         full_i = np.full(energies.size, np.nan)
         full_o[sub], full_i[sub] = outer, inner
@@ -602,7 +608,8 @@ def channel_phases(potential, profile, L: float, l: int, mass: float, energies: 
     coul = coulomb_phase(Lint, eta) if eta is not None else None
     return ChannelPhases(phase=phase, error=error, grid_error=grid_error, radius_error=radius_error,
                          converged=converged, grids=grids_used, points=points, tail=tail,
-                         coulomb_phase=coul, notes=notes, integrals=integrals, integral_error=integral_error)
+                         coulomb_phase=coul, notes=notes, integrals=integrals, integral_error=integral_error,
+                         waves=waves)
 
 
 # --------------------------------------------------------------------------- zero energy
