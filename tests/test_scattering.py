@@ -504,3 +504,12 @@ def test_continuum_wave_is_normalized_per_unit_energy():
     c = continuum_wave("coulomb", 0.5, 1, r=r, tol=1e-10)
     exact = [float(mpmath.sqrt(2 / mpmath.pi) * mpmath.coulombf(1, -1, x)) for x in r]
     assert np.max(np.abs(c.u - exact)) < 1e-7
+
+
+def test_hard_sphere_in_five_dimensions_uses_the_effective_angular_momentum():
+    # In d dimensions the radial equation has L = l + (d-3)/2 in place of l (textbook), so a hard sphere's
+    # s wave in d = 5 has tan(delta) = j_1(ka)/y_1(ka).
+    a = 1.1
+    res = phase_shifts(radsolve.formula_potential("0*r"), ENERGIES[:10], l=0, hard_core=a, tol=1e-10, dimension=5)
+    exact = np.arctan(spherical_jn(1, K[:10] * a) / spherical_yn(1, K[:10] * a))
+    assert np.max(np.abs(_mod_pi(res.phase[0] - exact))) < 1e-9
