@@ -481,7 +481,7 @@ def channel_phases(potential, profile, L: float, l: int, mass: float, energies: 
     probe_span = _span(span_min, r_end, 0.1, anchors)
     step = _coarse_step(potential, profile, probe_span, L, mass, e_max)
     span = _span(span_min, r_end, step, anchors)
-    if energies.size > 1 and span.intervals(2) + 1 > MAX_POINTS and float(k.max()) > 1.5 * float(k.min()):
+    if energies.size > 1 and span.intervals(3) + 1 > MAX_POINTS and float(k.max()) > 1.5 * float(k.min()):
         # too fine a grid for the fastest waves to refine: the slower ones get a band of their own
         low = k <= math.sqrt(float(k.max()) * float(k.min()))
         parts = [channel_phases(potential, profile, L, l, mass, energies[sel], tol, hard_core, boundary_share,
