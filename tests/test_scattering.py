@@ -513,3 +513,12 @@ def test_hard_sphere_in_five_dimensions_uses_the_effective_angular_momentum():
     res = phase_shifts(radsolve.formula_potential("0*r"), ENERGIES[:10], l=0, hard_core=a, tol=1e-10, dimension=5)
     exact = np.arctan(spherical_jn(1, K[:10] * a) / spherical_yn(1, K[:10] * a))
     assert np.max(np.abs(_mod_pi(res.phase[0] - exact))) < 1e-9
+
+
+def test_a_resonance_keeps_the_label_of_the_level_it_was_while_bound():
+    # Deepening the square well (R = 1) binds the d resonance: the bound level's label (radsolve.solve,
+    # node count) and the resonance's label (nodes inside the barrier) are the same level (textbook:
+    # a quasi-bound state continues the bound state across the threshold).
+    bound = radsolve.solve(radsolve.formula_potential("-V0*step(1-r)", V0=10.5), l=2, count=1)
+    res = resonances(radsolve.formula_potential("-V0*step(1-r)", V0=9.8), l=2, window=(0.01, 3.0))
+    assert bound.levels[0].label == res.resonances[0].label == "3d"

@@ -1041,7 +1041,8 @@ class Resonance:
     (position and width, each with the spread of two fit windows as estimate);
     ``pole_*``: the Siegert pole E_r - i Gamma/2 of the outgoing-wave condition
     (Richardson over grids).  ``agree``: the two within three times their summed
-    estimates.
+    estimates.  ``label``: the label the level had while bound (from the nodes of
+    u at E_r inside the barrier), or None.
     """
 
     l: int
@@ -1053,6 +1054,36 @@ class Resonance:
     pole_width: float
     pole_error: float
     agree: bool
+    label: str | None = None
+
+
+def _resonance_label(cpot, prof, L, l, kinetic, energy, units, tol):
+    """The label of a quasi-bound level: from the zeros of u at E_r inside the barrier.
+
+    Inside the barrier's inner edge the quasi-bound state looks like the bound level
+    it continues (oscillation theory), so n from its node count there gives the same
+    label as the level had while bound (a level followed through a sweep keeps it).
+    None when no well-then-barrier shape is seen at E_r.
+    """
+    from radsolve.core import probe as probing
+    from radsolve.core.continuum import log_derivatives as channel_log_derivatives
+    from radsolve.core.result import level_designation
+
+    r = np.geomspace(max(prof.inner_length, 1e-12) * 1e-3, max(prof.inner_length, 1e-12) * 1e4, 6000)
+    with np.errstate(all="ignore"):
+        above = probing.effective_potential(cpot, L, kinetic, r) - prof.v_infinity > energy
+    allowed = np.nonzero(~above)[0]
+    if allowed.size == 0:
+        return None
+    barrier = np.nonzero(above[allowed[0]:])[0]
+    if barrier.size == 0:
+        return None
+    edge = float(r[allowed[0] + barrier[0]])
+    try:
+        ld = channel_log_derivatives(cpot, prof, L, kinetic, np.array([energy]), edge, max(tol, 1e-8))
+    except InputError:
+        return None
+    return level_designation(int(ld.nodes[0]), l, None, units)[1]
 
 
 @dataclass(repr=False)
@@ -1085,7 +1116,7 @@ class ResonanceResult(ResultProtocol):
 
     def records(self, unit: str | None = None) -> list[dict[str, Any]]:
         f = _energy_factor(self.units, unit)
-        return [{"l": r.l, "energy_pole": r.pole_energy / f, "width_pole": r.pole_width / f,
+        return [{"l": r.l, "label": r.label, "energy_pole": r.pole_energy / f, "width_pole": r.pole_width / f,
                  "pole_error": r.pole_error / f, "energy_phase": r.phase_energy / f,
                  "energy_phase_error": r.phase_energy_error / f, "width_phase": r.phase_width / f,
                  "width_phase_error": r.phase_width_error / f, "agree": r.agree} for r in self.resonances]
@@ -1158,7 +1189,8 @@ def resonances(potential, l=0, *, window, mass=None, tol: float = 1e-8, scan_poi
             e_pole, g_pole = pole.real + v_inf, -2.0 * pole.imag
             e_err, g_err = abs(e_a - e_b), abs(g_a - g_b)
             agree = abs(e_pole - e_b) <= 3.0 * (e_err + pole_err) and abs(g_pole - g_b) <= 3.0 * (g_err + 2 * pole_err)
-            found.append(Resonance(li, e_b, e_err, g_b, g_err, e_pole, g_pole, pole_err, agree))
+            label = _resonance_label(cpot, prof, L, li, kinetic, e_pole - v_inf, system.name, tol)
+            found.append(Resonance(li, e_b, e_err, g_b, g_err, e_pole, g_pole, pole_err, agree, label))
             if not agree:
                 notes.append(Note("methods_disagree", f"l = {li}: the phase-shift fit (E = {e_b:.8g}, Gamma = "
                                                       f"{g_b:.4g}) and the pole (E = {e_pole:.8g}, Gamma = "
