@@ -16,6 +16,12 @@ The public API (imported on first use, so that the command line starts fast):
   with an error estimate (:func:`expectation` for any observable);
 - :func:`wavefunction` — u(r) and R(r) on the grid or at given radii, with
   CSV / JSON / ``.npz`` export;
+- :func:`phase_shifts`, :func:`scattering` — above the threshold: phase shifts
+  delta_l(E) with error estimates, scattering lengths, effective ranges and the
+  Levinson check; :func:`photoionization` — bound-free cross sections;
+  :func:`log_derivatives` — u'/u at a radius, a model beside a reference, ghost states;
+  :func:`resonances` — positions and widths from the phase shift and from the pole;
+  :func:`continuum_wave` — u_E(r) normalized per unit energy;
 - :func:`transitions` — E1 lines, oscillator strengths, Einstein A
   coefficients, lifetimes and branching ratios of the levels with n <= nmax.
 
@@ -54,6 +60,22 @@ _EXPORTS = {
     "transitions_from": ("radsolve.analysis.radiative", "transitions_from"),
     "radial_dipole": ("radsolve.analysis.radiative", "radial_dipole"),
     "TransitionResult": ("radsolve.analysis.radiative", "TransitionResult"),
+    # above the threshold (continuum)
+    "phase_shifts": ("radsolve.analysis.scattering", "phase_shifts"),
+    "scattering": ("radsolve.analysis.scattering", "scattering"),
+    "energy_grid": ("radsolve.analysis.scattering", "energy_grid"),
+    "photoionization": ("radsolve.analysis.scattering", "photoionization"),
+    "log_derivatives": ("radsolve.analysis.scattering", "log_derivatives"),
+    "resonances": ("radsolve.analysis.scattering", "resonances"),
+    "scattering_sweep": ("radsolve.analysis.scattering", "scattering_sweep"),
+    "continuum_wave": ("radsolve.analysis.scattering", "continuum_wave"),
+    "ContinuumWave": ("radsolve.analysis.scattering", "ContinuumWave"),
+    "ScatteringSweepResult": ("radsolve.analysis.scattering", "ScatteringSweepResult"),
+    "ResonanceResult": ("radsolve.analysis.scattering", "ResonanceResult"),
+    "LogDerivativeResult": ("radsolve.analysis.scattering", "LogDerivativeResult"),
+    "PhotoionizationResult": ("radsolve.analysis.scattering", "PhotoionizationResult"),
+    "PhaseShiftResult": ("radsolve.analysis.scattering", "PhaseShiftResult"),
+    "ScatteringResult": ("radsolve.analysis.scattering", "ScatteringResult"),
     # every result type, and the protocol they share
     "ResultProtocol": ("radsolve.core.protocol", "ResultProtocol"),
     "Outcome": ("radsolve.core.protocol", "Outcome"),

@@ -14,6 +14,7 @@ from __future__ import annotations
 import csv
 import io
 import json
+import math
 
 import pytest
 
@@ -64,7 +65,39 @@ def _check():
     return radsolve.check(tol=1e-8, charges=(1,), masses=(1.0,), nmax=2)
 
 
+def _phase_shifts():
+    # hard sphere of radius 1 in a zero potential, s and p waves
+    return radsolve.phase_shifts(radsolve.formula_potential("0*r"), [0.5, 2.0], l=[0, 1], hard_core=1.0, tol=1e-9)
+
+
+def _scattering():
+    return radsolve.scattering(radsolve.formula_potential("0*r"), l=0, hard_core=1.0, tol=1e-8)
+
+
+def _photoionization():
+    return radsolve.photoionization("coulomb", "1s", [0.6, 1.0], tol=1e-8)
+
+
+def _log_derivatives():
+    return radsolve.log_derivatives("coulomb", [-0.5, 0.2], l=0, radius=2.0, reference="yukawa", tol=1e-8)
+
+
+def _resonances():
+    return radsolve.resonances(radsolve.formula_potential("-V0*step(1-r)", V0=9.8), l=2, window=(0.05, 1.0))
+
+
+def _scattering_sweep():
+    return radsolve.scattering_sweep("yukawa", "screening_length", [0.8, 0.9], l=0, tol=1e-6)
+
+
+def _continuum_wave():
+    return radsolve.continuum_wave(radsolve.formula_potential("0*r"), 0.5, 0, r=[1.0, 2.0, 3.0], tol=1e-9)
+
+
 CASES = {
+    "continuum_wave": _continuum_wave,
+    "log_derivatives": _log_derivatives, "resonances": _resonances, "scattering_sweep": _scattering_sweep,
+    "phase_shifts": _phase_shifts, "scattering": _scattering, "photoionization": _photoionization,
     "solve": _solve_ok, "solve_not_converged": _solve_rounding, "state": _state, "summary": _summary,
     "transitions": _transitions, "threshold": _threshold, "critical_values": _critical_values,
     "fit": _fit, "check": _check, "sweep": _sweep,
@@ -73,6 +106,10 @@ CASES = {
 
 #: The type each case returns (checked in test_status_success_and_exit_code_agree).
 CASE_TYPES = {
+    "phase_shifts": "PhaseShiftResult", "scattering": "ScatteringResult",
+    "photoionization": "PhotoionizationResult", "log_derivatives": "LogDerivativeResult",
+    "resonances": "ResonanceResult", "scattering_sweep": "ScatteringSweepResult",
+    "continuum_wave": "ContinuumWave",
     "solve": "SolveResult", "solve_not_converged": "SolveResult", "state": "State", "summary": "StateSummary",
     "transitions": "TransitionResult", "threshold": "ThresholdResult", "critical_values": "CriticalValues",
     "fit": "FitResult", "check": "CheckReport", "sweep": "SweepResult",
@@ -178,6 +215,36 @@ def test_outside_facts(result):
         assert res.success and len(res.records()) == 2 * 2 * 2
         for row in res.records():  # textbook formula -Z^2/(2 n^2)
             assert row["energy"] == pytest.approx(-row["Z"] ** 2 / (2 * row["n"] ** 2), rel=1e-8)
+    elif name == "phase_shifts":
+        # hard sphere: delta_0 = -k a (textbook formula), k = sqrt(2 E)
+        for row in res.records():
+            if row["l"] == 0:
+                assert row["phase_shift"] == pytest.approx(-(2 * row["energy"]) ** 0.5, abs=1e-8)
+    elif name == "continuum_wave":
+        # free s wave per unit energy: sqrt(2/(pi k)) sin(k r), k = 1 (textbook formula)
+        for row in res.records():
+            assert row["u"] == pytest.approx(math.sqrt(2 / math.pi) * math.sin(row["r"]), abs=1e-7)
+    elif name == "scattering_sweep":
+        # the 1s level of the Yukawa potential binds at screening length 0.8399 (Rogers, Graboske &
+        # Harwood, Phys. Rev. A 1, 1577 (1970); from memory): a_0 < 0 below it, > 0 above, one level
+        rows = res.records()
+        assert rows[0]["scattering_length"] < 0 < rows[1]["scattering_length"]
+        assert [r["bound_levels"] for r in rows] == [0, 1]
+    elif name == "resonances":
+        # the d-wave pole of a square well V0 = 9.8, R = 1 at E = 0.169804... (mpmath root of the
+        # textbook matching condition, tests/test_scattering.py)
+        assert res.records()[0]["energy_pole"] == pytest.approx(0.1698040547, abs=1e-8)
+    elif name == "log_derivatives":
+        # hydrogen 1s, u = 2 r exp(-r): u'/u = 1/r - 1 = -1/2 at r = 2 (textbook formula)
+        assert res.records()[0]["log_derivative"] == pytest.approx(-0.5, abs=1e-8)
+    elif name == "photoionization":
+        # hydrogen 1s at threshold: 6.30e-18 cm^2 (textbook value, Bethe & Salpeter 1957; from memory)
+        assert res.threshold_cross_section == pytest.approx(6.30e-18, rel=1e-3)
+    elif name == "scattering":
+        # hard sphere: a = a_hard, r_0 = 2 a / 3 (textbook formulas)
+        row = res.records()[0]
+        assert row["scattering_length"] == pytest.approx(1.0, abs=1e-7)
+        assert row["effective_range"] == pytest.approx(2.0 / 3.0, abs=1e-6)
     elif name == "check":
         assert res.success and len(res.records()) == len(res.rows) * len(res.methods)
     elif name in ("threshold", "critical_values"):
@@ -205,7 +272,7 @@ def test_every_result_type_is_exported_and_covered():
 
     for module in ("radsolve.core.result", "radsolve.analysis.observables", "radsolve.analysis.radiative",
                    "radsolve.analysis.thresholds", "radsolve.analysis.fitting", "radsolve.analysis.convergence",
-                   "radsolve.analysis.sweeps"):
+                   "radsolve.analysis.sweeps", "radsolve.analysis.scattering"):
         importlib.import_module(module)
 
     def subclasses(cls):

@@ -56,6 +56,9 @@ OPTION_OF = {
     "targets": "--targets", "free": "--free", "bounds": "--free", "max_evaluations": "--max-evaluations",
     "n": "--n", "k": "--moment", "radius": "--inside", "r": "--at",
     "dipole_charge": "--dipole-charge", "occupied": "--occupied",
+    # above the threshold (cli/continuum.py)
+    "energies": "--energies", "hard_core": "--hard-core", "photon_energies": "--photons",
+    "reference": "--reference",
 }
 
 

@@ -9,7 +9,8 @@ errors name the option through ``adapter.OPTION_OF``.  The package:
 - ``adapter.py``: exit codes, the error handler, output writing;
 - ``options.py``: the shared options (one definition per concept);
 - ``levels.py`` (``levels``, ``check``, ``potentials``), ``scans.py``
-  (``sweep``, ``threshold``, ``fit``), ``states.py`` (``wave``, ``transitions``).
+  (``sweep``, ``threshold``, ``fit``), ``states.py`` (``wave``, ``transitions``),
+  ``continuum.py`` (``phases``, ``scattering``, ``photoionization``, ``logderiv``, ``resonances``).
 
 Only typer, the standard library and radsolve's light modules (the ranges
 shown in the help) are imported at module level so that ``radsolve --help``
@@ -33,6 +34,8 @@ import typer
 from radsolve.cli.levels import check_command, levels_command, potentials_command
 from radsolve.cli.scans import fit_command, sweep_command, threshold_command
 from radsolve.cli.states import transitions_command, wave_command
+from radsolve.cli.continuum import (logderiv_command, phases_command, photoionization_command, resonances_command,
+                                   scattering_command)
 
 app = typer.Typer(
     name="radsolve",
@@ -56,6 +59,8 @@ COMMANDS = {
     "levels": levels_command, "check": check_command, "potentials": potentials_command,
     "sweep": sweep_command, "threshold": threshold_command, "fit": fit_command,
     "wave": wave_command, "transitions": transitions_command,
+    "phases": phases_command, "scattering": scattering_command, "photoionization": photoionization_command,
+    "logderiv": logderiv_command, "resonances": resonances_command,
 }
 for _name, _command in COMMANDS.items():
     app.command(_name)(_command)

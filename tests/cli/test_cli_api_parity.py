@@ -35,6 +35,8 @@ from typer.testing import CliRunner
 import radsolve
 from radsolve.analysis.fitting import fit, parse_free
 from radsolve.analysis.radiative import transitions
+from radsolve.analysis.scattering import (energy_grid, log_derivatives, phase_shifts, photoionization, resonances,
+                                         scattering)
 from radsolve.analysis.sweeps import parse_vary, sweep
 from radsolve.analysis.thresholds import NoThresholdError, critical_values, threshold
 from radsolve.cli import app
@@ -209,6 +211,46 @@ CASES = [
     *[Case(["fit", "yukawa", "--targets", str(FILES / f"{key}.csv"), "--free", "Z"],
            lambda key=key: fit("yukawa", str(FILES / f"{key}.csv"), free=["Z"]), "targets", "--targets")
       for key in TARGETS],
+    # test_continuum_cli: phases and scattering
+    Case(["phases", "yukawa", "--energies", "-0.1,0.2"], lambda: phase_shifts("yukawa", [-0.1, 0.2]),
+         "energies", "--energies"),
+    Case(["phases", "yukawa", "--energies", "2:1:10"], lambda: energy_grid(2.0, 1.0, 10), "energies",
+         "--energies"),
+    Case(["phases", "yukawa", "--energies", "1:2:0"], lambda: energy_grid(1.0, 2.0, 0), "energies", "--energies"),
+    Case(["phases", "harmonic", "--energies", "1"], lambda: phase_shifts("harmonic", [1.0]), "potential", "NAME"),
+    Case(["phases", "formula", "--expr", "-1/r**1.5", "--energies", "1"],
+         lambda: phase_shifts(formula_potential("-1/r**1.5"), [1.0]), "potential", "NAME"),
+    Case(["phases", "yukawa", "--energies", "1", "--tol", "0"], lambda: phase_shifts("yukawa", [1.0], tol=0.0),
+         "tol", "--tol"),
+    Case(["phases", "yukawa", "--energies", "1", "--hard-core=-1"],
+         lambda: phase_shifts("yukawa", [1.0], hard_core=-1.0), "hard_core", "--hard-core"),
+    Case(["phases", "yukawa", "--energies", "1", "--spin-orbit"],
+         lambda: phase_shifts("yukawa", [1.0], spin_orbit=True), "spin_orbit", "--spin-orbit"),
+    Case(["scattering", "coulomb"], lambda: scattering("coulomb"), "potential", "NAME"),
+    Case(["scattering", "harmonic"], lambda: scattering("harmonic"), "potential", "NAME"),
+    Case(["scattering", "yukawa", "--tol", "1"], lambda: scattering("yukawa", tol=1.0), "tol", "--tol"),
+    Case(["scattering", "yukawa", "--vary", "depth=1:2:3"],
+         lambda: parse_vary("depth=1:2:3", get_family("yukawa")), None, None),
+    Case(["photoionization", "coulomb", "--photons", "0.3,1"], lambda: photoionization("coulomb", "1s", [0.3, 1.0]),
+         "photon_energies", "--photons"),
+    Case(["photoionization", "coulomb", "--photons", "1", "--level", "1p"],
+         lambda: photoionization("coulomb", "1p", [1.0]), "level", "--level"),
+    Case(["photoionization", "coulomb", "--photons", "2:1:3"],
+         lambda: energy_grid(2.0, 1.0, 3, parameter="photon_energies"), "photon_energies", "--photons"),
+    Case(["logderiv", "coulomb", "--energies", "0.2,0.1", "--radius", "2"],
+         lambda: log_derivatives("coulomb", [0.2, 0.1], radius=2.0), "energies", "--energies"),
+    Case(["logderiv", "coulomb", "--energies", "0.1", "--radius=-2"],
+         lambda: log_derivatives("coulomb", [0.1], radius=-2.0), "radius", "--radius"),
+    Case(["logderiv", "coulomb", "--energies", "0.1", "--radius", "1e-40"],
+         lambda: log_derivatives("coulomb", [0.1], radius=1e-40), "radius", "--radius"),
+    Case(["logderiv", "coulomb", "--energies", "0.1", "--radius", "2", "--reference", "woods_saxon",
+          "--mass", "1"],
+         lambda: log_derivatives("coulomb", [0.1], radius=2.0, reference="woods_saxon", mass=1.0),
+         "reference", "--reference"),
+    Case(["resonances", "yukawa", "--window", "2:1"], lambda: resonances("yukawa", window=(2.0, 1.0)), "window",
+         "--window"),
+    Case(["resonances", "yukawa", "--window=-1:1"], lambda: resonances("yukawa", window=(-1.0, 1.0)), "window",
+         "--window"),
 ]
 
 #: Refused by the command line with no API call to compare: (args, words its message holds, why).
@@ -238,6 +280,9 @@ CLI_ONLY = [
      "plot_sweep does not check its path; the command line writes PNG only"),
     (["threshold", "yukawa", "--vary", "screening_length", "--bracket", "1"], ["--bracket", "A:B"],
      "--bracket syntax: the text A:B"),
+    (["phases", "yukawa", "--energies", "1:2"], ["--energies", "START:STOP:NUM"],
+     "--energies syntax: the text START:STOP:NUM or E1,E2,..."),
+    (["phases", "yukawa", "--energies", "a,b"], ["--energies"], "--energies syntax: numbers"),
 ]
 
 
@@ -325,6 +370,12 @@ DEFAULTS = {
     "transitions": (transitions, {"tol": "tol", "method": "method", "mass": "mass",
                                   "dipole_charge": "dipole_charge"}),
     "check": (radsolve.check, {"tol": "tol", "quick": "quick"}),
+    "phases": (phase_shifts, {"tol": "tol", "hard_core": "hard_core", "mass": "mass", "units": "units",
+                              "spin_orbit": "spin_orbit"}),
+    "scattering": (scattering, {"tol": "tol", "hard_core": "hard_core", "mass": "mass", "units": "units"}),
+    "photoionization": (photoionization, {"tol": "tol", "level": "level", "mass": "mass"}),
+    "resonances": (resonances, {"tol": "tol", "mass": "mass", "units": "units", "points": "scan_points"}),
+    "logderiv": (log_derivatives, {"tol": "tol", "mass": "mass", "units": "units", "reference": "reference"}),
 }
 
 
