@@ -156,6 +156,9 @@ def _validate(l, count, tol, method, dimension) -> tuple[list[int], int, float, 
     tol = validated_tol(tol)
     if isinstance(method, type) and issubclass(method, RadialSolver):
         methods = [method]
+    elif isinstance(method, (list, tuple)) and method and all(
+            isinstance(m, type) and issubclass(m, RadialSolver) for m in method):
+        methods = list(method)  # several solver classes, as "both" (the relativistic branch uses this)
     elif method == EVERY_METHOD:
         methods = [solver_class(name) for name in METHODS]
     elif method in METHODS:
@@ -621,6 +624,8 @@ def solve(
     spin_orbit: bool = False,
     dimension: int = 3,
     units: str | None = None,
+    equation: str = "schrodinger",
+    scalar: bool = False,
 ) -> SolveResult:
     """Bound levels of a particle in a central potential.
 
@@ -657,6 +662,13 @@ def solve(
     units : {"atomic", "nuclear"}, optional
         The unit system; by default the one the family is written in.
         Atomic: hartree, bohr, electron masses.  Nuclear: MeV, fm, MeV/c**2.
+    equation : {"schrodinger", "dirac", "klein-gordon"}
+        The wave equation.  Dirac: levels n l j (kappa), V the time component
+        of a vector potential; Klein-Gordon: spin 0.  Both report E - mu c**2
+        with mu the reduced mass (see :mod:`radsolve.core.relativistic`).
+    scalar : bool
+        Dirac and Klein-Gordon only: add the family's Lorentz-scalar
+        potential ``scalar_potential(r, ...)``.
 
     Returns
     -------
@@ -671,6 +683,18 @@ def solve(
     InputError, PluginError, UnboundedBelowError
         For bad input or a potential that collapses into the origin.
     """
+    from radsolve.core.relativistic import SCHRODINGER, validated_equation
+
+    equation = validated_equation(equation)
+    if equation != SCHRODINGER:
+        from radsolve.core.relativistic.front import solve_relativistic
+
+        return solve_relativistic(equation, potential, l, count=count, mass=mass, tol=tol, method=method,
+                                  plugins=plugins, spin_orbit=spin_orbit, dimension=dimension, units=units,
+                                  scalar=scalar)
+    if scalar:
+        raise InputError("scalar (a Lorentz-scalar potential) needs equation='dirac' or 'klein-gordon'; "
+                         "the Schrodinger equation has one potential", parameter="scalar")
     ls, count, tol, classes, dimension = _validate(l, count, tol, method, dimension)
     method_name = method if isinstance(method, str) else getattr(method, "name", "custom")
     from radsolve.potentials import as_potential
