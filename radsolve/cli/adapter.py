@@ -56,6 +56,7 @@ OPTION_OF = {
     "targets": "--targets", "free": "--free", "bounds": "--free", "max_evaluations": "--max-evaluations",
     "n": "--n", "k": "--moment", "radius": "--inside", "r": "--at",
     "dipole_charge": "--dipole-charge", "occupied": "--occupied",
+    "equation": "--equation", "scalar": "--scalar",
 }
 
 

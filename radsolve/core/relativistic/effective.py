@@ -44,7 +44,7 @@ import numpy as np
 #: truncation error (~8 h^4 for 1/r) against rounding (~eps / h^2) in P''.
 DERIVATIVE_STEP = 2e-3
 #: Points closer than this many steps to a breakpoint use one-sided stencils.
-_NEAR = 4.5
+_NEAR = 2.5
 
 
 @dataclass(frozen=True)
@@ -97,17 +97,18 @@ class RelativisticChannel:
         if self.dirac:
             delta = DERIVATIVE_STEP if step is None else step
             # Richardson in the step: the central formulas err by O(h^4), the one-sided P'' by O(h^3)
-            d1, d2, one_sided = self._derivatives(r, side, delta)
-            e1, e2, _ = self._derivatives(r, side, 2.0 * delta)
+            d1, d2, one_sided = self._derivatives(r, side, delta, 2.0 * delta)
+            e1, e2, _ = self._derivatives(r, side, 2.0 * delta, 2.0 * delta)
             out["dP"] = (16.0 * d1 - e1) / 15.0
             out["d2P"] = np.where(one_sided, (8.0 * d2 - e2) / 7.0, (16.0 * d2 - e2) / 15.0)
+            out["one_sided"] = one_sided
         return out
 
     def _p(self, r: np.ndarray) -> np.ndarray:
         v = np.asarray(self.vector(r), dtype=float)
         return v if self.scalar is None else v - np.asarray(self.scalar(r), dtype=float)
 
-    def _derivatives(self, r: np.ndarray, side: int, delta: float):
+    def _derivatives(self, r: np.ndarray, side: int, delta: float, widest: float):
         h = delta * r
         offsets = np.arange(-2, 3)
         f = self._p(r[None, :] + offsets[:, None] * h[None, :])
@@ -117,8 +118,8 @@ class RelativisticChannel:
             left = np.zeros(r.shape, dtype=bool)
             right = np.zeros(r.shape, dtype=bool)
             for b in self.breakpoints:
-                # the widest stencil (4 steps of 2 delta) must stay on one side
-                near = np.abs(r - b) < _NEAR * 2.0 * DERIVATIVE_STEP * 4.0 * r
+                # the widest central stencil (2 steps of ``widest``) must not reach across b
+                near = np.abs(r - b) < _NEAR * widest * r
                 left |= near & (r <= b)
                 right |= near & (r > b)
         else:
@@ -135,14 +136,18 @@ class RelativisticChannel:
     def derivative_error(self, w: float, r: np.ndarray, weights: np.ndarray, u: np.ndarray) -> float:
         """An estimate of the error of W caused by the numerical P', P'' (Dirac; 0 for Klein-Gordon).
 
-        The extrapolated derivatives err by O(delta^6): the same with twice the step differ by ~63 times
-        that; the expectation value of the change of V_eff in the level, with a safety factor 2.
+        The extrapolated derivatives err by O(delta^6) (O(delta^4) one-sided): the same with twice the
+        step differ by ~63 (15) times that; the expectation value of the change of V_eff in the level,
+        with a safety factor 2.
         """
         if not self.dirac:
             return 0.0
-        fine = self.effective(w, self.parts(r), r)
+        parts = self.parts(r)
+        fine = self.effective(w, parts, r)
         coarse = self.effective(w, self.parts(r, step=2.0 * DERIVATIVE_STEP), r)
         change = np.where(np.isfinite(fine - coarse), fine - coarse, 0.0)
+        one_sided = parts["one_sided"] | self.parts(r, step=2.0 * DERIVATIVE_STEP)["one_sided"]
+        change = change / np.where(one_sided, 15.0, 63.0) * 63.0
         return 2.0 * abs(float(np.sum(weights * u * u * change))) / 63.0
 
     # -------------------------------------------------------------- V_eff(W)

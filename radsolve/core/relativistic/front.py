@@ -194,6 +194,13 @@ def _joined(equation, pot, results, system_name, mu, tol, method_name, rest) -> 
         if _OUTCOME_RANK[res.status] > _OUTCOME_RANK[outcome]:
             outcome = res.status
         v_inf = min(v_inf, res.v_infinity)
+    limited = [lev.label for lev in levels if lev.convergence.get("status") == "converged" and not lev.converged]
+    if limited:
+        notes.append(Note("potential_accuracy", "the numerical derivatives of V that the Dirac equation's "
+                          "second-order form needs limit " + ", ".join(limited[:8]) + " to above tol (their "
+                          "estimates include that error)", ", ".join(limited)))
+        if outcome is Outcome.SUCCESS:
+            outcome = Outcome.NOT_CONVERGED
     return SolveResult(levels=levels, potential=pot, mass=mu, tol=tol, method=method_name,
                        bound_counts=bound_counts, v_infinity=v_inf, units=system_name, dimension=3,
                        certificates=certificates, status=outcome, notes=tuple(notes), equation=equation)
