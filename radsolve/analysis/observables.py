@@ -956,6 +956,11 @@ def check_atomic_3d(result, what: str) -> None:
     if units != "atomic" or dimension != 3:
         raise InputError(f"{what} are implemented for atomic units in three dimensions; this "
                          f"result is in {units} units with dimension {dimension}")
+    equation = getattr(result, "equation", "schrodinger")
+    if equation != "schrodinger":
+        # a relativistic level's samples are u of the second-order form, not (G, F)
+        raise InputError(f"{what} of {equation} levels are not implemented yet; only their energies are",
+                         parameter="equation")
 
 
 def plain_properties(props: dict[str, Any]) -> dict[str, Any]:
