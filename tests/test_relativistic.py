@@ -285,3 +285,22 @@ def test_levels_command_refuses(args, words):
     out = invoke("levels", "coulomb", *args)
     assert out.exit_code == 2
     assert words in out.stderr and "Traceback" not in out.stderr
+
+
+def test_check_has_a_relativistic_section():
+    # radsolve.check's Dirac and Klein-Gordon rows: exact values as this file's mpmath formulas
+    # (textbook), and every level within tol with an honest estimate, for a muonic reduced mass.
+    mp = physical_constants["proton-electron mass ratio"][0]
+    mmu = physical_constants["muon-electron mass ratio"][0]
+    mu = mmu * mp / (mmu + mp)
+    report = radsolve.check(tol=1e-10, charges=(60,), masses=("muon+proton",), nmax=3,
+                            equations=("dirac", "klein-gordon"))
+    assert report.passed, report.failures
+    dirac = [row for row in report.rows if row.equation == "dirac"]
+    kg = [row for row in report.rows if row.equation == "klein-gordon"]
+    assert len(dirac) == 3 + 2 * 2 + 2 * 1 and len(kg) == 6  # (n, l, j) and (n, l) with n <= 3
+    for row in dirac:
+        assert row.exact == pytest.approx(sommerfeld(row.n, _kappa(row.l, row.j), 60, mu), rel=1e-12)
+    for row in kg:
+        assert row.exact == pytest.approx(klein_gordon(row.n, row.l, 60, mu), rel=1e-12)
+    assert "dirac" in report.to_table() and report.records()[0]["equation"] == "dirac"
