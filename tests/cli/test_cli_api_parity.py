@@ -78,6 +78,15 @@ def S(**kwargs):
 
 
 CASES = [
+    # relativistic levels (issue 11)
+    Case(["levels", "coulomb", "--equation", "pauli"], S(equation="pauli"), "equation", "--equation"),
+    Case(["levels", "coulomb", "--equation", "dirac", "--spin-orbit"], S(equation="dirac", spin_orbit=True),
+         "spin_orbit", "--spin-orbit"),
+    Case(["levels", "coulomb", "--equation", "dirac", "--scalar"], S(equation="dirac", scalar=True),
+         "scalar", "--scalar"),
+    Case(["levels", "coulomb", "--scalar"], S(scalar=True), "scalar", "--scalar"),
+    Case(["levels", "coulomb", "--equation", "dirac", "-d", "2"], S(equation="dirac", dimension=2),
+         "dimension", "--dimension"),
     # test_bad_input: values a potential parameter does not accept (the message names it)
     Case(["levels", "coulomb", "-p", "Z=abc"], lambda: potential("coulomb", Z="abc"), "Z", None),
     Case(["levels", "coulomb", "-p", "Z=nan"], lambda: potential("coulomb", Z="nan"), "Z", None),
@@ -310,7 +319,8 @@ def test_no_option_carries_a_range_of_its_own():
 # gives an API argument with a default must default to that same value.
 DEFAULTS = {
     "levels": (radsolve.solve, {"count": "count", "tol": "tol", "method": "method", "mass": "mass",
-                                "units": "units", "spin_orbit": "spin_orbit", "dimension": "dimension"}),
+                                "units": "units", "spin_orbit": "spin_orbit", "dimension": "dimension",
+                                "equation": "equation", "scalar": "scalar"}),
     "sweep": (sweep, {"count": "count", "tol": "tol", "method": "method", "mass": "mass", "units": "units",
                       "spin_orbit": "spin_orbit", "dimension": "dimension", "workers": "workers",
                       "unit": "unit", "cluster": "cluster", "progress": "progress"}),
