@@ -304,3 +304,19 @@ def test_check_has_a_relativistic_section():
     for row in kg:
         assert row.exact == pytest.approx(klein_gordon(row.n, row.l, 60, mu), rel=1e-12)
     assert "dirac" in report.to_table() and report.records()[0]["equation"] == "dirac"
+
+
+def test_steps_and_kinks_are_refused_by_dirac_but_smooth_shapes_pass():
+    # A step (flat_core's default depth) or a kink (A = Z_v / R_M) in V: refused with a message; the
+    # uniform sphere (V' continuous, V'' jumps) is solved (see the finite-nucleus test above).
+    with pytest.raises(InputError) as err:
+        radsolve.solve(radsolve.potential("flat_core", well_depth=0.3), equation="dirac")
+    assert "jumps" in str(err.value) and "continuous" in str(err.value)
+    with pytest.raises(InputError) as err:
+        radsolve.solve(radsolve.potential("flat_core", valence=1.0, model_radius=2.0, well_depth=0.5),
+                       equation="dirac")
+    assert "kink" in str(err.value)
+    # Klein-Gordon takes the kink (its effective potential has no derivative of V)
+    res = radsolve.solve(radsolve.potential("flat_core", valence=1.0, model_radius=2.0, well_depth=0.5),
+                         l=0, count=1, equation="klein-gordon")
+    assert res.success

@@ -85,6 +85,8 @@ def solve_relativistic(equation, potential, l, *, count, mass, tol, method, plug
         raw = pot.channel(l_, None) if getattr(pot, "l_dependent", False) else pot
         prof = probing.profile(raw, kinetic)
         z_alpha = _check_potential(raw, prof, name, hc, rest, scalar_fn)
+        if equation == DIRAC:
+            _check_continuous(raw, prof, scalar_fn)
         js = [None] if equation == KLEIN_GORDON else ([0.5] if l_ == 0 else [l_ - 0.5, l_ + 0.5])
         for j in js:
             kappa = None if j is None else kappa_of(l_, j)
@@ -145,6 +147,37 @@ def _check_potential(raw, prof, name, hc, rest, scalar_fn) -> float | None:
     return z_alpha
 
 
+def _check_continuous(raw, prof, scalar_fn):
+    """Refuse a step in V - S for Dirac: its second-order form (u = G / sqrt(A)) needs A continuous."""
+    for b in prof.breakpoints:
+        sides = np.array([b * (1.0 - 1e-10), b * (1.0 + 1e-10)])
+        with np.errstate(all="ignore"):
+            p = np.asarray(raw.raw(sides), dtype=float) - (0.0 if scalar_fn is None else scalar_fn(sides))
+        jump = abs(p[1] - p[0])
+        if not jump <= 1e-7 * max(abs(p[0]), abs(p[1]), 1e-300):
+            raise InputError(f"{raw.name!r} jumps by {jump:.6g} at r = {b:.6g}: the Dirac solver (the exact "
+                             "second-order form of the Dirac equation) needs V continuous; a step is not "
+                             "supported yet (the Schrodinger and Klein-Gordon equations accept it)",
+                             parameter="potential")
+        # A kink (dV/dr jumps) would put a delta function into the second-order form's potential (A''),
+        # which is not implemented: refuse it rather than miss it.  One-sided three-point slopes.
+        h = 1e-4 * b
+        pts = np.array([b - 2 * h, b - h, b, b + h, b + 2 * h])
+        pts[2] = b * (1.0 - 1e-12)
+        with np.errstate(all="ignore"):
+            q = np.asarray(raw.raw(pts), dtype=float) - (0.0 if scalar_fn is None else scalar_fn(pts))
+            right_b = float(np.asarray(raw.raw(np.array([b * (1.0 + 1e-12)])), dtype=float)[0]) - (
+                0.0 if scalar_fn is None else float(scalar_fn(np.array([b * (1.0 + 1e-12)]))[0]))
+        left = (3 * q[2] - 4 * q[1] + q[0]) / (2 * h)
+        right = (-3 * right_b + 4 * q[3] - q[4]) / (2 * h)
+        if not abs(right - left) <= 1e-4 * max(abs(left), abs(right), abs(q[2]) / b, 1e-300):
+            raise InputError(f"{raw.name!r} has a kink at r = {b:.6g} (dV/dr jumps from {left:.6g} to "
+                             f"{right:.6g}): the Dirac solver (the exact second-order form of the Dirac "
+                             "equation) needs dV/dr continuous; a kink is not supported yet (the Schrodinger "
+                             "and Klein-Gordon equations accept it; finite_nucleus's shapes are smooth enough)",
+                             parameter="potential")
+
+
 def _check_point_charge(z_alpha, l, kappa, name):
     if z_alpha is None:
         return
@@ -187,23 +220,46 @@ def _joined(equation, pot, results, system_name, mu, tol, method_name, rest) -> 
             levels.append(replace(lev, n=n, label=label, j=ch.j, degeneracy=degeneracy, exact=exact,
                                   method=method_name))
         prefix = f"{ch.text}: " if ch.kappa is not None else ""
-        notes.extend(Note(note.code, prefix + note.text, note.subject) for note in res.notes)
+        notes.extend(Note(note.code, prefix + note.text, note.subject) for note in res.notes
+                     if note.code not in _PER_LEVEL_NOTES)
         key = certificate_key(ch.l, ch.j)
         certificates[key] = res.certificates[certificate_key(ch.l, None)]
         bound_counts[key] = res.bound_counts[certificate_key(ch.l, None)]
         if _OUTCOME_RANK[res.status] > _OUTCOME_RANK[outcome]:
             outcome = res.status
         v_inf = min(v_inf, res.v_infinity)
-    limited = [lev.label for lev in levels if lev.convergence.get("status") == "converged" and not lev.converged]
-    if limited:
-        notes.append(Note("potential_accuracy", "the numerical derivatives of V that the Dirac equation's "
-                          "second-order form needs limit " + ", ".join(limited[:8]) + " to above tol (their "
-                          "estimates include that error)", ", ".join(limited)))
-        if outcome is Outcome.SUCCESS:
-            outcome = Outcome.NOT_CONVERGED
+    notes.extend(_level_notes(levels, tol))
+    if outcome is Outcome.SUCCESS and not all(lev.converged for lev in levels):
+        outcome = Outcome.NOT_CONVERGED
     return SolveResult(levels=levels, potential=pot, mass=mu, tol=tol, method=method_name,
                        bound_counts=bound_counts, v_infinity=v_inf, units=system_name, dimension=3,
                        certificates=certificates, status=outcome, notes=tuple(notes), equation=equation)
+
+
+#: Notes of the per-channel solves that name levels: written again with the relativistic labels.
+_PER_LEVEL_NOTES = {"not_converged", "potential_accuracy", "near_degenerate"}
+
+
+def _level_notes(levels, tol) -> list[Note]:
+    from radsolve.core.targets import Status
+
+    out = []
+    unconverged = [lev for lev in levels if not lev.converged]
+    if unconverged:
+        worst = ", ".join(f"{lev.label} ({lev.relative_error_estimate:.1e}, {lev.status})" for lev in unconverged[:8])
+        more = f" and {len(unconverged) - 8} more" if len(unconverged) > 8 else ""
+        out.append(Note("not_converged", f"NOT CONVERGED to tol = {tol:.1e}: {worst}{more}; their estimates are "
+                        "what was achieved", ", ".join(lev.label for lev in unconverged)))
+    limited = [lev.label for lev in levels if lev.status is Status.POTENTIAL_ACCURACY]
+    if limited:
+        out.append(Note("potential_accuracy", "the potential (or, for Dirac, the numerical derivatives of V "
+                        "its second-order form needs) limits " + ", ".join(limited[:8]) + " to above tol",
+                        ", ".join(limited)))
+    degenerate = [lev.label for lev in levels if lev.status is Status.NEAR_DEGENERATE]
+    if degenerate:
+        out.append(Note("near_degenerate", "nearly degenerate levels whose splitting the grids did not "
+                        "resolve: " + ", ".join(degenerate), ", ".join(degenerate)))
+    return out
 
 
 def _exact(pot, equation, n, ch, z_alpha, rest) -> float | None:
