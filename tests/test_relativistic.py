@@ -66,10 +66,12 @@ def _kappa(l, j):
     return -(l + 1) if j > l else l
 
 
-@pytest.mark.parametrize("Z", [1, 20, 60, 92])
-def test_dirac_coulomb_every_level_up_to_n6(Z):
+@pytest.mark.parametrize("Z, method", [(1, "both"), (20, "fd"), (60, "first-order"), (92, "both")])
+def test_dirac_coulomb_every_level_up_to_n6(Z, method):
     # Sommerfeld's formula (textbook): relative error <= 1e-10, and within the stated estimate.
-    levels = dirac_levels(Z)
+    # "both" is the two independent methods: the second-order form (finite differences) and the
+    # first-order shooting of G and F.
+    levels = dirac_levels(Z, method=method)
     expected = {f"{n}{'spdfgh'[l]}{int(2 * j)}/2" for n in range(1, 7) for l in range(n)
                 for j in ((l - 0.5, l + 0.5) if l else (0.5,))}
     assert set(levels) == expected  # 36 levels: none missing, none extra, labels from the node count
@@ -108,12 +110,16 @@ def test_finite_nucleus_breaks_the_degeneracy_upwards_and_matches_an_independent
                          equation="dirac", tol=1e-10)
     assert res.success, res.message
     V, V0, R = _uniform_sphere(Z, 5.86)
+    res_shooting = radsolve.solve(radsolve.potential("finite_nucleus", Z=Z, radius="5.86fm"), l=[0, 1],
+                                  count=2, equation="dirac", tol=1e-10, method="first-order")
     for label, kappa, nodes, bracket, match in (("1s1/2", -1, 0, (-4861.3, -4850.0), 0.01),
                                                 ("2s1/2", -1, 1, (-1257.5, -1250.0), 0.05),
                                                 ("2p1/2", 1, 0, (-1257.5, -1255.0), 0.05)):
         reference = reference_level(V, V0, kappa, nodes, bracket, r_match=match, cuts=(R,))
         lev = res.level(label)
         assert abs(lev.energy - reference) <= 1e-10 * abs(reference), (label, lev.energy, reference)
+        other = res_shooting.level(label).energy
+        assert abs(other - reference) <= 1e-10 * abs(reference), (label, other, reference)
         assert lev.energy > sommerfeld(lev.n, kappa, Z)  # raised by the finite size
     assert res.level("2s1/2").energy > res.level("2p1/2").energy
 
@@ -162,11 +168,12 @@ def test_hydrogen_2p_fine_structure():
     assert split * HARTREE_HZ / 1e6 == pytest.approx(10969.0, rel=3e-3)
 
 
-def test_no_spurious_level_both_methods():
+@pytest.mark.parametrize("method, names", [("both", {"fd", "first-order"}), ("numerov", set())])
+def test_no_spurious_level(method, names):
     # Every level of each (l, j) list is the exact level of its n (Sommerfeld, textbook), in order, with
-    # none between: a spurious state would shift every later label.  Both methods, Z = 60, l <= 2.
+    # none between: a spurious state would shift every later label.  Every method, Z = 60, l <= 2.
     res = radsolve.solve(radsolve.potential("coulomb", Z=60), l=[0, 1, 2], count=6, equation="dirac",
-                         tol=1e-10, method="both")
+                         tol=1e-10, method=method)
     assert res.success, res.message
     by_channel = {}
     for lev in res.levels:
@@ -177,7 +184,7 @@ def test_no_spurious_level_both_methods():
         for lev in levels:
             exact = sommerfeld(lev.n, _kappa(l, j), 60)
             assert abs(lev.energy - exact) <= 1e-10 * abs(exact)
-            assert set(lev.method_energies) == {"fd", "numerov"}
+            assert set(lev.method_energies) == names
             for value in lev.method_energies.values():
                 assert abs(value - exact) <= 1e-9 * abs(exact)
     assert all(c.count is None and c.certain for c in res.certificates.values())  # Coulomb: infinitely many
@@ -210,6 +217,7 @@ def test_dirac_count_of_a_short_range_well_matches_the_independent_solver():
     ({"equation": "dirac", "scalar": True}, "scalar", "no Lorentz-scalar part"),
     ({"scalar": True}, "scalar", "needs equation"),
     ({"equation": "dirac", "dimension": 2}, "dimension", "three dimensions"),
+    ({"equation": "klein-gordon", "method": "first-order"}, "method", "Dirac equation's own"),
 ])
 def test_refused_options(kwargs, parameter, words):
     with pytest.raises(InputError) as err:

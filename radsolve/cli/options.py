@@ -95,7 +95,8 @@ SpinOrbitOption = Annotated[bool, typer.Option(
 EquationOption = Annotated[str, typer.Option(
     "--equation", metavar="EQ",
     help="wave equation: " + ", ".join(EQUATIONS) + " (Dirac: levels n l j, spin-orbit built in; "
-    "relativistic energies are E - mc^2 with the reduced mass)")]
+    "relativistic energies are E - mc^2 with the reduced mass; Dirac also takes --method first-order, "
+    "shooting of G and F, and --method both runs fd and first-order)")]
 
 ScalarOption = Annotated[bool, typer.Option(
     "--scalar", help="dirac / klein-gordon: add the family's Lorentz-scalar potential")]

@@ -60,10 +60,12 @@ def solve_relativistic(equation, potential, l, *, count, mass, tol, method, plug
                        units, scalar) -> SolveResult:
     from radsolve.core import spectrum
     from radsolve.core.relativistic.selfconsistent import self_consistent
+    from radsolve.core.solvers.base import solver_class
     from radsolve.potentials import as_potential
 
     name = "Dirac" if equation == DIRAC else "Klein-Gordon"
-    ls, count, tol, classes, dimension = spectrum._validate(l, count, tol, method, dimension)
+    own = _own_methods(equation, method)
+    ls, count, tol, classes, dimension = spectrum._validate(l, count, tol, "fd" if own else method, dimension)
     if dimension != 3:
         raise InputError(f"the {name} equation is solved in three dimensions only; dimension must be 3 with "
                          f"equation={equation!r}", parameter="dimension")
@@ -99,12 +101,38 @@ def solve_relativistic(equation, potential, l, *, count, mass, tol, method, plug
     results = []
     for ch, z_alpha in channels:
         eff = _effective_potential(ch, system.name)
-        made = [self_consistent(cls, ch) for cls in classes]
+        if own is None:
+            made = [self_consistent(cls, ch) for cls in classes]
+        else:
+            from radsolve.core.relativistic.firstorder import first_order
+
+            made = [self_consistent(solver_class(name_), ch) if name_ != FIRST_ORDER else first_order(ch, z_alpha)
+                    for name_ in own]
         res = spectrum.solve(eff, ch.l, count=count, mass=mu, tol=tol, method=made if len(made) > 1 else made[0],
                              units=system.name)
         results.append((ch, z_alpha, res))
     method_name = method if isinstance(method, str) else getattr(method, "name", "custom")
     return _joined(equation, pot, results, system.name, mu, tol, method_name, rest)
+
+
+#: The Dirac method that shoots the first-order equations for G and F (``firstorder.py``).
+FIRST_ORDER = "first-order"
+
+
+def _own_methods(equation, method):
+    """Method names the relativistic branch resolves itself (None: the registry's, made self-consistent).
+
+    For Dirac, ``"both"`` means the two independent methods: finite differences on the second-order
+    form and shooting of the first-order equations; ``"first-order"`` is the latter alone.
+    """
+    if method == FIRST_ORDER:
+        if equation != DIRAC:
+            raise InputError(f"method {FIRST_ORDER!r} is the Dirac equation's own; with equation={equation!r} "
+                             "use fd, numerov or both", parameter="method")
+        return [FIRST_ORDER]
+    if method == "both" and equation == DIRAC:
+        return ["fd", FIRST_ORDER]
+    return None
 
 
 def _scalar_function(pot, scalar):
