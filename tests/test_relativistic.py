@@ -328,3 +328,18 @@ def test_steps_and_kinks_are_refused_by_dirac_but_smooth_shapes_pass():
     res = radsolve.solve(radsolve.potential("flat_core", valence=1.0, model_radius=2.0, well_depth=0.5),
                          l=0, count=1, equation="klein-gordon")
     assert res.success
+
+
+def test_sweep_with_the_dirac_equation():
+    # Rows (l, j, nodes) at every point, against Sommerfeld's formula (textbook).
+    res = radsolve.sweep("coulomb", vary={"Z": [1.0, 30.0, 60.0]}, l=[0, 1], count=1, equation="dirac",
+                         workers=1)
+    assert res.success, res.message
+    assert "j" in res.columns
+    rows = res.records()
+    assert len(rows) == 3 * 3  # three points x (s1/2, p1/2, p3/2)
+    for row in rows:
+        kappa = _kappa(row["l"], row["j"])
+        exact = sommerfeld(row["n"], kappa, row["Z"])
+        assert row["energy"] == pytest.approx(exact, rel=1e-10)
+    assert res.to_dict()["equation"] == "dirac"

@@ -13,7 +13,7 @@ from radsolve.cli.adapter import (ReportFormat, say, fail, reported_errors, pars
                                   l_values, only_given, check_png, write_output)
 from radsolve.cli.options import (ReportFormatOption, OutFileOption, ParamOption, LOption, LmaxOption, CountOption, MassOption, PluginsOption,
                                   MethodOption, UnitsOption, TolOption, OutputUnitOption, SpinOrbitOption,
-                                  DimensionOption)
+                                  DimensionOption, EquationOption)
 from radsolve.core.targets import THRESHOLD_TOL_RANGE
 
 
@@ -37,6 +37,7 @@ def sweep_command(
     units: UnitsOption = None,
     dimension: DimensionOption = 3,
     spin_orbit: SpinOrbitOption = False,
+    equation: EquationOption = "schrodinger",
     out: Annotated[Optional[Path], typer.Option(
         "--out", "-o", metavar="FILE",
         help="write the rows to FILE.csv or FILE.json as they finish, or FILE.nc (NetCDF, at the end; "
@@ -102,7 +103,7 @@ def sweep_command(
                            method=method, plugins=plugin_dirs(plugins), workers=workers,
                            cluster=cluster, out=out if out is not None else sys.stdout, unit=unit,
                            spin_orbit=spin_orbit, dimension=dimension, progress=progress,
-                           **only_given(l=ls, units=units))
+                           equation=equation, **only_given(l=ls, units=units))
         except SweepInterrupted as stop:
             partial = stop.partial
             where = f"in {out}" if out is not None else "on stdout"

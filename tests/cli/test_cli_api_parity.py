@@ -323,7 +323,7 @@ DEFAULTS = {
                                 "equation": "equation", "scalar": "scalar"}),
     "sweep": (sweep, {"count": "count", "tol": "tol", "method": "method", "mass": "mass", "units": "units",
                       "spin_orbit": "spin_orbit", "dimension": "dimension", "workers": "workers",
-                      "unit": "unit", "cluster": "cluster", "progress": "progress"}),
+                      "unit": "unit", "cluster": "cluster", "progress": "progress", "equation": "equation"}),
     "threshold": (threshold, {"tol": "tol", "mass": "mass", "units": "units", "dimension": "dimension",
                               "bracket": "bracket"}),
     "fit": (fit, {"tol": "tol", "method": "method", "mass": "mass", "units": "units", "dimension": "dimension",
