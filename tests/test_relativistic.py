@@ -343,3 +343,31 @@ def test_sweep_with_the_dirac_equation():
         exact = sommerfeld(row["n"], kappa, row["Z"])
         assert row["energy"] == pytest.approx(exact, rel=1e-10)
     assert res.to_dict()["equation"] == "dirac"
+
+
+def _fine_structure_alpha2(n, j, Z):
+    """The (Z alpha)^2 term of Sommerfeld's formula expanded (textbook): E_n (Z alpha)^2/n^2 (n/(j+1/2) - 3/4)."""
+    e_n = -(Z**2) / (2.0 * n * n)
+    return e_n * (Z * ALPHA) ** 2 / n**2 * (n / (j + 0.5) - 0.75)
+
+
+def test_breit_pauli_terms_against_the_textbook_and_the_dirac_levels():
+    # Mass-velocity + Darwin + spin-orbit of Schrodinger states (State.breit_pauli) equal the (Z alpha)^2
+    # term of the fine-structure formula (textbook), within their estimates; and Dirac - Schrodinger - BP
+    # is of the next order: relative to BP it grows like (Z alpha)^2 (factor 4 from Z = 5 to Z = 10).
+    ratios = {}
+    for Z in (5.0, 10.0):
+        pot = radsolve.potential("coulomb", Z=Z)
+        plain = radsolve.solve(pot, l=[0, 1], count=2, tol=1e-12)
+        dirac = radsolve.solve(pot, l=[0, 1], count=2, tol=1e-12, equation="dirac")
+        for lev in plain.levels:
+            state = radsolve.State.from_result(plain, lev.label)
+            for j in ((0.5,) if lev.l == 0 else (lev.l - 0.5, lev.l + 0.5)):
+                bp = state.breit_pauli(j)
+                textbook = _fine_structure_alpha2(lev.n, j, Z)
+                assert abs(bp.value - textbook) <= 3.0 * bp.error + 1e-12 * abs(textbook), (Z, lev.label, j)
+                shift = dirac.level(f"{lev.label}{int(2 * j)}/2").energy - lev.energy
+                ratios[(Z, lev.label, j)] = (shift - bp.value) / bp.value
+    for key in [k for k in ratios if k[0] == 5.0]:
+        growth = ratios[(10.0, key[1], key[2])] / ratios[key]
+        assert growth == pytest.approx(4.0, rel=0.05), (key, growth)
