@@ -77,3 +77,45 @@ def level(V, V0, kappa, nodes, bracket, r_match, r0=1e-9, cuts=()):
     if found != nodes:
         raise AssertionError(f"reference: {found} nodes of G at W = {W}, expected {nodes}")
     return W
+
+
+def klein_gordon_level(V, V0, l, nodes, bracket, r_match, r0=1e-9, cuts=()):
+    """W = E - mc^2 (hartree) of the Klein-Gordon level (l, nodes) of V finite at r = 0 (V(0) = V0).
+
+    u'' = [l(l+1)/r^2 - ((W - V)^2 + 2 m c^2 (W - V)) / c^2] u, integrated with DOP853 outward from
+    u ~ r^(l+1) and inward from where the level has decayed; Brent's method on the mismatch of u'/u.
+    """
+
+    def rhs(W):
+        def f(r, y):
+            d = W - V(r)
+            return [y[1], (l * (l + 1) / r**2 - (d * d + 2.0 * MC2 * d) / (C * C)) * y[0]]
+        return f
+
+    def run(W, y0, a, b):
+        y = np.array(y0, dtype=float)
+        g = []
+        for lo, hi in _pieces(a, b, cuts):
+            sol = solve_ivp(rhs(W), (lo, hi), y, method="DOP853", rtol=1e-13, atol=1e-300,
+                            max_step=abs(hi - lo) / 200.0)
+            y = sol.y[:, -1] / np.max(np.abs(sol.y[:, -1]))
+            g.append(sol.y[0])
+        g = np.concatenate(g)
+        return y, int(np.sum(np.signbit(g[1:]) != np.signbit(g[:-1])))
+
+    def parts(W):
+        k = math.sqrt(-W * (W + 2 * MC2)) / C
+        r_max = max(3.0 * r_match, r_match + 40.0 / k)
+        yo, no = run(W, [r0 ** (l + 1), (l + 1) * r0**l], r0, r_match)
+        yi, ni = run(W, [1.0, -k], r_max, r_match)
+        return yo, yi, no + ni
+
+    def mismatch(W):
+        yo, yi, _ = parts(W)
+        return yo[1] * yi[0] - yi[1] * yo[0]
+
+    W = brentq(mismatch, *bracket, xtol=1e-300, rtol=4e-15, maxiter=200)
+    found = parts(W)[2]
+    if found != nodes:
+        raise AssertionError(f"reference: {found} nodes at W = {W}, expected {nodes}")
+    return W

@@ -371,3 +371,20 @@ def test_breit_pauli_terms_against_the_textbook_and_the_dirac_levels():
     for key in [k for k in ratios if k[0] == 5.0]:
         growth = ratios[(10.0, key[1], key[2])] / ratios[key]
         assert growth == pytest.approx(4.0, rel=0.05), (key, growth)
+
+
+def test_klein_gordon_finite_nucleus_against_an_independent_solver():
+    # At Z = 92 a point charge has no Klein-Gordon s level (Z alpha > 1/2); a finite nucleus has.  Both
+    # methods against tests/dirac_reference.klein_gordon_level (DOP853 shooting, independent).
+    from dirac_reference import klein_gordon_level
+
+    Z = 92
+    res = radsolve.solve(radsolve.potential("finite_nucleus", Z=Z, radius="5.86fm"), l=[0, 1], count=2,
+                         equation="klein-gordon", tol=1e-10, method="both")
+    assert res.success, res.message
+    V, V0, R = _uniform_sphere(Z, 5.86)
+    for label, l, nodes, match in (("1s", 0, 0, 0.01), ("2s", 0, 1, 0.05), ("2p", 1, 0, 0.05)):
+        lev = res.level(label)
+        reference = klein_gordon_level(V, V0, l, nodes, (lev.energy * 1.001, lev.energy * 0.999),
+                                       r_match=match, cuts=(R,))
+        assert abs(lev.energy - reference) <= 1e-10 * abs(reference), (label, lev.energy, reference)
