@@ -41,6 +41,8 @@ def self_consistent(base: type, channel) -> type:
     class SelfConsistent(base):
         name = base.name
         error_orders = base.error_orders
+        #: d(lambda_k - W)/dW of each level at its last root (shared by the grids of one solve)
+        _rel_known_slopes: dict = {}
 
         @classmethod
         def relative_rounding(cls, size: int) -> float:
@@ -68,6 +70,7 @@ def self_consistent(base: type, channel) -> type:
             # the energies handed in and out are measured from the channel's reference
             self._rel_reference = float(np.median((eff0 - values)[ok])) if np.any(ok) else 0.0
             self._rel_lowest = channel.lowest_allowed(self._rel_parts) - self._rel_reference
+            self._rel_slopes = type(self)._rel_known_slopes
 
         def _rel_effective(self, w: float) -> np.ndarray:
             values = channel.effective(w, self._rel_parts, self._rel_r)
@@ -105,7 +108,10 @@ def self_consistent(base: type, channel) -> type:
 
             x0 = guess if guess is not None and np.isfinite(guess) and guess > floor else 0.0
             f0 = f(x0)
-            x1 = x0 + f0  # a fixed-point step: close when lambda_k depends weakly on W
+            slope = self._rel_slopes.get(k)  # f' from the previous root of this level (a coarser grid)
+            x1 = x0 - f0 / slope if slope is not None and slope < 0 else x0 + f0  # else a fixed-point step
+            # done once a step is far below the method's own rounding noise
+            settled = base.relative_rounding(self.grid.size)
             for _ in range(_MAX_ITERATIONS):
                 if f0 > 0:
                     lo, lo_known = max(lo, x0), True
@@ -129,6 +135,10 @@ def self_consistent(base: type, channel) -> type:
                 if f1 == 0.0 or abs(x1 - x0) <= 2e-16 * max(abs(x1), abs(x0)):
                     return x1
                 x_new = x1 - f1 * (x1 - x0) / (f1 - f0) if f1 != f0 else 0.5 * (x0 + x1)
+                if f1 != f0 and abs(x1 - x0) > 1e3 * settled * max(abs(x1), 1e-300):  # above the noise
+                    self._rel_slopes[k] = (f1 - f0) / (x1 - x0)
+                if abs(x_new - x1) <= settled * max(abs(x1), 1e-300):
+                    return x_new  # f falls monotonically: its one root is there
                 x0, f0, x1 = x1, f1, x_new
             return x1
 
