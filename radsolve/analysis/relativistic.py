@@ -1,0 +1,117 @@
+"""Observables of relativistic levels: the normalized Dirac components and <r^k> from G^2 + F^2.
+
+A Dirac level's samples hold u = G / sqrt(A) of the exact second-order form (see
+:mod:`radsolve.core.relativistic.effective`), on every grid of its refinement.  On each grid
+
+    G = sqrt(A) u,   F = hbar c (G' + kappa G / r) / A,   A = W - V + S + 2 mc^2,
+
+(the first Dirac equation solved for F; G' by fourth-order central differences in the grid variable), normalized
+so that the integral of G^2 + F^2 is 1; a quantity computed on every grid is extrapolated to zero
+step (Richardson, orders 2, 4, ...), and its estimate is the extrapolation's plus the rounding floor.
+Klein-Gordon levels: u itself with the charge density's normalization is not implemented here.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from radsolve.analysis.observables import Estimate
+from radsolve.errors import InputError
+
+#: Error orders of the central differences and of the samples (both methods' series are even).
+_ORDERS = (2, 4, 6, 8)
+
+
+def _dirac_level(result, label: str):
+    if getattr(result, "equation", "schrodinger") != "dirac":
+        raise InputError("Dirac components need a result of equation='dirac'", parameter="equation")
+    try:
+        level = result.level(label)
+    except KeyError:
+        raise InputError(f"no level {label!r} in this result; levels: "
+                         + ", ".join(lev.label for lev in result.levels), parameter="level") from None
+    if not level.samples:
+        raise InputError(f"level {label} carries no wavefunction samples", parameter="level")
+    return level
+
+
+def _components(result, level, sample):
+    """(r, weights, G, F) on one sample grid, normalized: sum(weights (G^2 + F^2)) = 1."""
+    from radsolve.core.relativistic.effective import kappa_of
+    from radsolve.core.relativistic.front import hbar_c, rest_energy
+
+    pot = result.potential
+    channel = pot.channel(level.l, None) if getattr(pot, "l_dependent", False) else pot
+    r, w, u = sample.r, sample.weights, sample.u
+    with np.errstate(all="ignore"):
+        v = np.asarray(channel.raw(r), dtype=float)
+    hc = hbar_c(result.units)
+    big_a = sample.energy - v + 2.0 * rest_energy(result.units, result.mass)
+    inside = u != 0.0
+    g = np.where(inside, np.sqrt(np.where(inside, big_a, 1.0)) * u, 0.0)
+    jacobian = w / sample.step
+    dg = _derivative(g, sample.step) / jacobian
+    f = np.where(inside, hc * (dg + kappa_of(level.l, level.j) * g / r) / np.where(inside, big_a, 1.0), 0.0)
+    norm = math.sqrt(float(np.sum(w * (g * g + f * f))))
+    return r, w, g / norm, f / norm
+
+
+def _derivative(y: np.ndarray, h: float) -> np.ndarray:
+    """dy/dx on a uniform grid: five-point central differences inside (fourth order), np.gradient at the ends.
+
+    Fourth order because F = hbar c (G' + kappa G / r)/A cancels G' against G/r near the origin.
+    """
+    out = np.gradient(y, h)
+    out[2:-2] = (y[:-4] - 8.0 * y[1:-3] + 8.0 * y[3:-1] - y[4:]) / (12.0 * h)
+    return out
+
+
+def dirac_components(result, label: str):
+    """(r, G, F) of a Dirac level on its finest grid, normalized to 1 (bohr^-1/2, or fm^-1/2).
+
+    Not extrapolated: G carries the finest grid's error, and F, where it is the small difference
+    G' + kappa G / r (near the origin of light ions, kappa < 0), loses digits: about 1e-2 relative for
+    hydrogen's 1s1/2 at r ~ 1e-4 bohr.  Integrals (:func:`moment`) are extrapolated over every grid.
+    """
+    level = _dirac_level(result, label)
+    r, _, g, f = _components(result, level, level.samples[-1])
+    return r, g, f
+
+
+def moment(result, label: str, k: float) -> Estimate:
+    """<r^k> of a Dirac level from G^2 + F^2 (bohr^k or fm^k), extrapolated over its grids.
+
+    Needs k > -(2 gamma + 1), gamma the origin exponent of G (a point charge: sqrt(kappa^2 - (Z alpha)^2)).
+    """
+    from radsolve.core.extrapolation import richardson
+
+    level = _dirac_level(result, label)
+    if isinstance(k, bool) or not isinstance(k, (int, float)) or not math.isfinite(float(k)):
+        raise InputError(f"k must be a finite real number, got {k!r}", parameter="k")
+    from radsolve.core.relativistic.front import hbar_c, rest_energy
+
+    values, scale, edges = [], 0.0, 0.0
+    for sample in level.samples:
+        r, w, g, f = _components(result, level, sample)
+        terms = w * (g * g + f * f) * r ** float(k)
+        values.append(float(np.sum(terms)))
+        scale = float(np.sum(np.abs(terms)))
+        # what the wall may cut off (the last decay length) and the innermost region, where u is
+        # below 1e-6 of its maximum and its differences are noise: both taken whole as uncertain
+        rest = rest_energy(result.units, result.mass)
+        decay = math.sqrt(max(-sample.energy * (sample.energy + 2.0 * rest), 1e-300)) / hbar_c(result.units)
+        inside = np.nonzero(np.abs(sample.u) > 1e-6 * np.max(np.abs(sample.u)))[0]
+        first = int(inside[0]) if inside.size else 0
+        edges = float(np.sum(np.abs(terms[r > r[-1] - 1.0 / decay])) + np.sum(np.abs(terms[:first])))
+    rounding = 1e-13
+    if len(values) < 3:
+        return Estimate(values[-1], math.inf, "", None, False)
+    value, estimate, observed = richardson(values, _ORDERS, rounding)
+    # Measured against the Dirac-Coulomb 1s moments (Z = 1 ... 92, k = -1 ... 3) the Richardson part
+    # understated the error up to 3-fold for k = 3: widened tenfold.
+    estimate = 10.0 * max(estimate, rounding * scale) + edges
+    unit = ("bohr" if result.units == "atomic" else "fm") + ("" if k == 1 else f"^{k:g}")
+    return Estimate(float(value), float(estimate), unit, observed,
+                    bool(math.isfinite(estimate) and estimate <= 10.0 * result.tol * abs(value)))
