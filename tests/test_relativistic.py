@@ -413,3 +413,33 @@ def test_dirac_moments_and_components_of_the_point_charge_ground_state(Z):
     assert np.allclose(F[near] / G[near], (g - 1.0) / (Z * ALPHA), rtol=2e-2 if Z == 1 else 1e-3)
     with pytest.raises(InputError):
         moment(radsolve.solve("coulomb", l=0, count=1), "1s", 1)  # a Schrodinger result
+
+
+def test_relativistic_e1_rates_of_hydrogen_like_2p_levels():
+    # 2p1/2 -> 1s1/2 and 2p3/2 -> 1s1/2: equal to the non-relativistic rate (4/3)(omega/c)^3 (1/3) R^2 with
+    # R = 2^7 sqrt(6) / (3^5 Z) (textbook hydrogen values) up to corrections of order (Z alpha)^2 (textbook),
+    # which double-Z scaling confirms.  Angular factors against sympy's 3j symbols.
+    from sympy import Rational
+    from sympy.physics.wigner import wigner_3j
+
+    from radsolve.analysis.relativistic import _three_j_half, e1_rate
+
+    half = Rational(1, 2)
+    for j1, j2 in ((0.5, 0.5), (0.5, 1.5), (1.5, 2.5), (2.5, 1.5)):
+        exact = float(wigner_3j(Rational(int(2 * j1), 2), Rational(int(2 * j2), 2), 1, -half, half, 0))
+        assert _three_j_half(j1, j2) == pytest.approx(exact, abs=1e-14)
+    au_time = physical_constants["atomic unit of time"][0]
+    coefficient = {}
+    for Z in (1.0, 10.0, 20.0):
+        res = radsolve.solve(radsolve.potential("coulomb", Z=Z), l=[0, 1], count=1, equation="dirac")
+        radial, omega = 128.0 * math.sqrt(6.0) / (243.0 * Z), 3.0 * Z**2 / 8.0
+        plain = 4.0 * omega**3 * ALPHA**3 / 3.0 / 3.0 * radial**2 / au_time
+        for upper in ("2p1/2", "2p3/2"):
+            rate = e1_rate(res, upper, "1s1/2")
+            change = rate.value / plain - 1.0
+            assert abs(change) <= 3.0 * (Z * ALPHA) ** 2 + rate.error / plain
+            coefficient[(Z, upper)] = change / (Z * ALPHA) ** 2
+    for upper in ("2p1/2", "2p3/2"):
+        assert coefficient[(20.0, upper)] == pytest.approx(coefficient[(10.0, upper)], rel=0.2)
+    with pytest.raises(InputError):
+        e1_rate(res, "2s1/2", "1s1/2")  # not E1

@@ -115,3 +115,74 @@ def moment(result, label: str, k: float) -> Estimate:
     unit = ("bohr" if result.units == "atomic" else "fm") + ("" if k == 1 else f"^{k:g}")
     return Estimate(float(value), float(estimate), unit, observed,
                     bool(math.isfinite(estimate) and estimate <= 10.0 * result.tol * abs(value)))
+
+
+# ----------------------------------------------------------------------------- E1 lines
+
+def _three_j_half(j1: float, j2: float) -> float:
+    """The 3j symbol (j1 j2 1; -1/2 1/2 0) (Racah's formula; j1, j2 half-integers)."""
+    from math import factorial as fact
+
+    a, b, c = j1, j2, 1.0
+    m1, m2, m3 = -0.5, 0.5, 0.0
+    if abs(a - b) > c or a + b < c:
+        return 0.0
+    def f(x):
+        return fact(int(round(x)))
+    tri = f(a + b - c) * f(a - b + c) * f(-a + b + c) / f(a + b + c + 1)
+    pre = math.sqrt(tri * f(a + m1) * f(a - m1) * f(b + m2) * f(b - m2) * f(c + m3) * f(c - m3))
+    total = 0.0
+    for t in range(0, int(round(a + b + c)) + 2):
+        dens = [t, c - b + t + m1, c - a + t - m2, a + b - c - t, a - t - m1, b - t + m2]
+        if any(d < -1e-9 for d in dens):
+            continue
+        total += (-1) ** t / math.prod(f(d) for d in dens)
+    return (-1) ** int(round(a - b - m3)) * pre * total
+
+
+def _on(r_from, y_from, r_to):
+    """y(r) moved to other radii by a cubic spline in ln r (zero outside the sample's range)."""
+    from scipy.interpolate import CubicSpline
+
+    keep = r_from > 0
+    spline = CubicSpline(np.log(r_from[keep]), y_from[keep])
+    inside = (r_to >= r_from[keep][0]) & (r_to <= r_from[keep][-1])
+    out = np.zeros_like(r_to)
+    out[inside] = spline(np.log(r_to[inside]))
+    return out
+
+
+def e1_rate(result, upper: str, lower: str) -> Estimate:
+    """Einstein A of the E1 line upper -> lower between two Dirac levels of one result, s^-1.
+
+    Long-wavelength limit of the length form: A = (4 omega^3 / 3 c^3) (2 j_l + 1) (j_l j_u 1; -1/2 1/2 0)^2
+    |R|^2 (atomic units), R = integral of (G_u G_l + F_u F_l) r dr, l_u + l_l odd (textbook, e.g. Grant,
+    "Relativistic Quantum Theory of Atoms and Molecules", 2007, for the angular factor).  The two levels
+    come from separate per-channel solves, so the upper's components are moved onto the lower's grid
+    (cubic spline in ln r); R is taken on the two finest grids and the estimate is their difference.
+    """
+    from scipy.constants import fine_structure, physical_constants
+
+    if result.units != "atomic":
+        raise InputError("E1 rates of Dirac levels are implemented in atomic units only", parameter="units")
+    up, low = _dirac_level(result, upper), _dirac_level(result, lower)
+    if (up.l + low.l) % 2 == 0 or abs(up.j - low.j) > 1.0 or abs(up.l - low.l) != 1:
+        raise InputError(f"{upper} -> {lower} is not an E1 line (needs l changing by 1 and |delta j| <= 1)",
+                         parameter="level")
+    omega = up.energy - low.energy
+    if omega <= 0:
+        raise InputError(f"{upper} lies below {lower}: no emission line", parameter="level")
+    values = []
+    for su, sl in zip(up.samples[-2:], low.samples[-2:]):
+        ru, _, gu, fu = _components(result, up, su)
+        rl, wl, gl, fl = _components(result, low, sl)
+        values.append(float(np.sum(wl * (_on(ru, gu, rl) * gl + _on(ru, fu, rl) * fl) * rl)))
+    radial = values[-1]
+    c = 1.0 / fine_structure
+    angular = (2 * low.j + 1) * _three_j_half(low.j, up.j) ** 2
+    per_au = 4.0 * omega**3 / (3.0 * c**3) * angular
+    seconds = physical_constants["atomic unit of time"][0]
+    rate = per_au * radial**2 / seconds
+    error = per_au * 2.0 * abs(radial) * abs(values[-1] - values[0]) / seconds if len(values) > 1 else math.inf
+    error += rate * 3.0 * (abs(up.error_estimate) + abs(low.error_estimate)) / omega
+    return Estimate(rate, error, "s^-1", None, bool(error <= 1e-6 * rate))
