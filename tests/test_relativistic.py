@@ -314,9 +314,10 @@ def test_check_has_a_relativistic_section():
     assert "dirac" in report.to_table() and report.records()[0]["equation"] == "dirac"
 
 
-def test_steps_and_kinks_are_refused_by_dirac_but_smooth_shapes_pass():
-    # A step (flat_core's default depth) or a kink (A = Z_v / R_M) in V: refused with a message; the
-    # uniform sphere (V' continuous, V'' jumps) is solved (see the finite-nucleus test above).
+def test_steps_and_kinks_refused_by_the_second_order_form_solved_by_first_order_shooting():
+    # A step (flat_core's default depth) or a kink (A = Z_v / R_M) in V: refused by the second-order
+    # form with a message; the uniform sphere (V' continuous, V'' jumps) is solved by it (see the
+    # finite-nucleus test above).
     with pytest.raises(InputError) as err:
         radsolve.solve(radsolve.potential("flat_core", well_depth=0.3), equation="dirac")
     assert "jumps" in str(err.value) and "continuous" in str(err.value)
@@ -328,6 +329,24 @@ def test_steps_and_kinks_are_refused_by_dirac_but_smooth_shapes_pass():
     res = radsolve.solve(radsolve.potential("flat_core", valence=1.0, model_radius=2.0, well_depth=0.5),
                          l=0, count=1, equation="klein-gordon")
     assert res.success
+    # ... and so does the first-order shooting of G and F, for a kink and a step alike: against the
+    # independent solver (tests/dirac_reference.py)
+    Zv, R = 1.0, 2.0
+    for depth in (Zv / R, 0.3):
+        pot = radsolve.potential("flat_core", valence=Zv, model_radius=R, well_depth=depth)
+        res = radsolve.solve(pot, l=[0, 1], count=1, equation="dirac", tol=1e-10, method="first-order")
+        assert res.success, res.message
+
+        def V(r, depth=depth):
+            r = np.asarray(r, dtype=float)
+            return np.where(r < R, -depth, -Zv / np.maximum(r, 1e-300))
+
+        for label, kappa, nodes in (("1s1/2", -1, 0), ("2p1/2", 1, 0)):
+            lev = res.level(label)
+            reference = reference_level(V, -depth, kappa, nodes, (lev.energy * 1.001, lev.energy * 0.999),
+                                        r_match=4.0, r0=1e-6, cuts=(R,))
+            assert abs(lev.energy - reference) <= 1e-10 * abs(reference), (depth, label)
+            assert abs(lev.energy - reference) <= 2.0 * lev.error_estimate + 1e-15 * abs(reference)
 
 
 def test_sweep_with_the_dirac_equation():

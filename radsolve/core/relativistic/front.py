@@ -87,7 +87,7 @@ def solve_relativistic(equation, potential, l, *, count, mass, tol, method, plug
         raw = pot.channel(l_, None) if getattr(pot, "l_dependent", False) else pot
         prof = probing.profile(raw, kinetic)
         z_alpha = _check_potential(raw, prof, name, hc, rest, scalar_fn)
-        if equation == DIRAC:
+        if equation == DIRAC and own != [FIRST_ORDER]:  # the first-order shooting takes steps and kinks
             _check_continuous(raw, prof, scalar_fn)
         js = [None] if equation == KLEIN_GORDON else ([0.5] if l_ == 0 else [l_ - 0.5, l_ + 0.5])
         for j in js:
@@ -184,8 +184,8 @@ def _check_continuous(raw, prof, scalar_fn):
         jump = abs(p[1] - p[0])
         if not jump <= 1e-7 * max(abs(p[0]), abs(p[1]), 1e-300):
             raise InputError(f"{raw.name!r} jumps by {jump:.6g} at r = {b:.6g}: the Dirac solver (the exact "
-                             "second-order form of the Dirac equation) needs V continuous; a step is not "
-                             "supported yet (the Schrodinger and Klein-Gordon equations accept it)",
+                             "second-order form of the Dirac equation) needs V continuous; use "
+                             "method='first-order' (shooting of G and F), which accepts a step",
                              parameter="potential")
         # A kink (dV/dr jumps) would put a delta function into the second-order form's potential (A''),
         # which is not implemented: refuse it rather than miss it.  One-sided three-point slopes.
@@ -201,8 +201,8 @@ def _check_continuous(raw, prof, scalar_fn):
         if not abs(right - left) <= 1e-4 * max(abs(left), abs(right), abs(q[2]) / b, 1e-300):
             raise InputError(f"{raw.name!r} has a kink at r = {b:.6g} (dV/dr jumps from {left:.6g} to "
                              f"{right:.6g}): the Dirac solver (the exact second-order form of the Dirac "
-                             "equation) needs dV/dr continuous; a kink is not supported yet (the Schrodinger "
-                             "and Klein-Gordon equations accept it; finite_nucleus's shapes are smooth enough)",
+                             "equation) needs dV/dr continuous; use method='first-order' (shooting of G and F), "
+                             "which accepts a kink",
                              parameter="potential")
 
 
@@ -305,8 +305,8 @@ def _with_derivative_error(lev, ch: RelativisticChannel, targets, v_infinity):
     """Add the error of the numerical P', P'' (Dirac) to the level's estimate; re-judge it against tol."""
     from radsolve.core.targets import Status
 
-    if not ch.dirac or not lev.samples:
-        return lev
+    if not ch.dirac or not lev.samples or (lev.sample_method == FIRST_ORDER and not lev.method_energies):
+        return lev  # the first-order shooting uses no derivative of V
     sample = lev.samples[-1]
     extra = ch.derivative_error(lev.energy, sample.r, sample.weights, sample.u)
     error = lev.error_estimate + extra
