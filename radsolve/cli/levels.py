@@ -153,6 +153,9 @@ def check_command(
 ) -> None:
     """Solve -Z/r with every method and compare with the exact -mu Z^2/(2 n^2).
 
+    A relativistic section does the same for the Dirac equation (Sommerfeld's
+    formula; also with its first-order method) and the Klein-Gordon equation.
+
     The full set: Z = 1, 2, 10, 92; reduced mass 1, electron+proton and
     muon+proton; every n <= 10 and l < n. Each level is marked when its
     error exceeds --tol, when its error estimate understates the true error
