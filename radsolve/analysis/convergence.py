@@ -517,10 +517,7 @@ def format_check(report: CheckReport) -> str:
         table = []
         for row in rows:
             table.append([row.label, "exact", f"{row.exact:#.13g}", "", "", "", ""])
-            for method in report.methods:
-                o = row.outcomes.get(method)
-                if o is None:
-                    continue
+            for method, o in row.outcomes.items():
                 mark = " ".join(_mark(p) for p in o.problems)
                 table.append(["", method, "-" if o.energy is None else f"{o.energy:#.13g}",
                               _num(o.relative_error, "+.1e"), _num(o.relative_estimate, ".1e"),
