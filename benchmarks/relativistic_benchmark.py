@@ -5,7 +5,8 @@ Run:  python benchmarks/relativistic_benchmark.py
 Figures (point charge Z = 92, tol = 1e-10, method fd, one solve per l with 6 - l levels):
 - Schrodinger: the 21 levels n <= 6;
 - Klein-Gordon: the same 21 (n, l) levels (s levels excepted: Z alpha = 0.67 > 1/2 has none);
-- Dirac: the 36 levels n <= 6 (every l and j), and the time per level;
+- Dirac: the 36 levels n <= 6 (every l and j), and the time per level, with finite differences on
+  the second-order form, the first-order shooting of G and F, and both;
 and the worst relative deviation from the exact formulas.  Goal (issue 11): Dirac <= 3x Schrodinger.
 """
 
@@ -34,7 +35,7 @@ def main() -> None:
     print("radsolve relativistic benchmark (point charge Z = 92, n <= 6, tol 1e-10)")
     base = None
     for equation in ("schrodinger", "klein-gordon", "dirac"):
-        for method in ("fd", "both"):
+        for method in ("fd", "first-order", "both") if equation == "dirac" else ("fd", "both"):
             seconds, count, worst = run(equation, method=method)
             if equation == "schrodinger" and method == "fd":
                 base = seconds
