@@ -462,3 +462,50 @@ def test_relativistic_e1_rates_of_hydrogen_like_2p_levels():
         assert coefficient[(20.0, upper)] == pytest.approx(coefficient[(10.0, upper)], rel=0.2)
     with pytest.raises(InputError):
         e1_rate(res, "2s1/2", "1s1/2")  # not E1
+
+
+MEAN_FIELD = '''
+import numpy as np
+
+NAME = "gauss_mean_field"
+PARAMETERS = {"V0": 2000.0, "S0": 2000.0, "a": 0.05, "slope": 0.0}
+
+
+def V(r, V0, S0, a, slope):
+    return -V0 * np.exp(-(r / a) ** 2)
+
+
+def scalar_potential(r, V0, S0, a, slope):
+    return -S0 * np.exp(-(r / a) ** 2) + slope * r
+'''
+
+
+@pytest.fixture()
+def mean_field(tmp_path):
+    (tmp_path / "gauss_mean_field.py").write_text(MEAN_FIELD, encoding="utf-8")
+    return radsolve.potential("gauss_mean_field", plugins=[tmp_path])
+
+
+def test_scalar_potential_spin_symmetry_and_klein_gordon_identity(mean_field):
+    # V = S (the vector and the Lorentz scalar equal): spin symmetry, p1/2 and p3/2 degenerate (textbook;
+    # Ginocchio, Phys. Rep. 414, 165 (2005)), by both independent methods.
+    for method in ("fd", "first-order"):
+        res = radsolve.solve(mean_field, l=1, count=1, equation="dirac", scalar=True, method=method)
+        assert res.success, res.message
+        p1, p3 = res.level("2p1/2"), res.level("2p3/2")
+        assert abs(p1.energy - p3.energy) <= 1e-12 * abs(p1.energy) + p1.error_estimate
+    # Klein-Gordon with a scalar alone: (W + M)^2 = (pc)^2 + (M + S)^2 is exactly the Schrodinger
+    # problem of S + S^2/(2M) at energy W + W^2/(2M) (textbook identity); that problem solved as a formula.
+    from radsolve.potentials.formula import formula_potential
+
+    res = radsolve.solve(mean_field.with_parameters(V0=0.0), l=[0, 1], count=2, equation="klein-gordon",
+                         scalar=True)
+    plain = radsolve.solve(formula_potential("-S0*exp(-(r/a)**2) + (S0*exp(-(r/a)**2))**2/(2*M)", S0=2000.0,
+                                             a=0.05, M=MC2), l=[0, 1], count=2)
+    assert len(res.levels) == len(plain.levels) > 0
+    for lev, ref in zip(res.levels, plain.levels):
+        assert lev.label == ref.label
+        assert lev.energy + lev.energy**2 / (2.0 * MC2) == pytest.approx(ref.energy, rel=1e-10)
+    with pytest.raises(InputError) as err:
+        radsolve.solve(mean_field.with_parameters(slope=100.0), equation="dirac", scalar=True)
+    assert err.value.parameter == "scalar" and "confining" in str(err.value)

@@ -144,7 +144,17 @@ def _scalar_function(pot, scalar):
         raise InputError(f"scalar was asked for, but potential {pot.name!r} has no Lorentz-scalar part "
                          "(families with one define scalar_potential(r, ...))", parameter="scalar")
     params = dict(pot.parameters)
-    return lambda r: np.asarray(hook(np.asarray(r, dtype=float), **params), dtype=float)
+
+    def scalar_fn(r):
+        return np.asarray(hook(np.asarray(r, dtype=float), **params), dtype=float)
+
+    with np.errstate(all="ignore"):
+        far = scalar_fn(probing.PROBE_RADII[-400:])
+    if not np.all(np.isfinite(far)) or abs(float(far[-1])) > 1e3 * max(abs(float(far[0])), 1.0):
+        raise InputError(f"the scalar potential of {pot.name!r} grows without bound at large r (confining): "
+                         "not supported yet; the relativistic solvers take scalar potentials with a finite "
+                         "limit", parameter="scalar")
+    return scalar_fn
 
 
 def _check_potential(raw, prof, name, hc, rest, scalar_fn) -> float | None:
