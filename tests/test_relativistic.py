@@ -509,3 +509,16 @@ def test_scalar_potential_spin_symmetry_and_klein_gordon_identity(mean_field):
     with pytest.raises(InputError) as err:
         radsolve.solve(mean_field.with_parameters(slope=100.0), equation="dirac", scalar=True)
     assert err.value.parameter == "scalar" and "confining" in str(err.value)
+
+
+def test_fit_to_dirac_levels_recovers_the_charge():
+    # Targets from Sommerfeld's formula (textbook) for Z = 50: the fit of coulomb's Z with the Dirac
+    # equation returns 50; Schrodinger levels could not (their 2p is not split).
+    targets = [("1s1/2", sommerfeld(1, -1, 50), 1e-6), ("2p3/2", sommerfeld(2, -2, 50), 1e-6),
+               ("2p1/2", sommerfeld(2, 1, 50), 1e-6)]
+    res = radsolve.fit(radsolve.potential("coulomb", Z=45.0), targets, free=["Z"], equation="dirac", tol=1e-10)
+    assert res.success, res.message
+    assert res.values["Z"] == pytest.approx(50.0, rel=1e-9)
+    with pytest.raises(InputError) as err:
+        radsolve.fit("coulomb", [("1s", -0.5, 1e-6)], free=["Z"], equation="dirac")
+    assert err.value.parameter == "targets"

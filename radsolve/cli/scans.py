@@ -229,6 +229,7 @@ def fit_command(
     unit: OutputUnitOption = None,
     units: UnitsOption = None,
     dimension: DimensionOption = 3,
+    equation: EquationOption = "schrodinger",
     fmt: ReportFormatOption = ReportFormat.table,
     out: Annotated[Optional[Path], typer.Option(
         "--out", "-o", metavar="FILE", help="write the report to FILE instead of stdout")] = None,
@@ -267,7 +268,7 @@ def fit_command(
         result = fit(name, str(targets), free=names, bounds=bounds, fixed=params, mass=mass, tol=tol,
                      method=method, plugins=plugin_dirs(plugins),
                      max_evaluations=max_evaluations, dimension=dimension,
-                     units=units)
+                     units=units, equation=equation)
         from radsolve.output.report import render
 
         text = render(result, unit, fmt.value)

@@ -327,7 +327,7 @@ DEFAULTS = {
     "threshold": (threshold, {"tol": "tol", "mass": "mass", "units": "units", "dimension": "dimension",
                               "bracket": "bracket"}),
     "fit": (fit, {"tol": "tol", "method": "method", "mass": "mass", "units": "units", "dimension": "dimension",
-                  "max_evaluations": "max_evaluations"}),
+                  "max_evaluations": "max_evaluations", "equation": "equation"}),
     "wave": (radsolve.state, {"tol": "tol", "method": "method", "mass": "mass"}),
     "transitions": (transitions, {"tol": "tol", "method": "method", "mass": "mass",
                                   "dipole_charge": "dipole_charge"}),
