@@ -522,3 +522,36 @@ def test_fit_to_dirac_levels_recovers_the_charge():
     with pytest.raises(InputError) as err:
         radsolve.fit("coulomb", [("1s", -0.5, 1e-6)], free=["Z"], equation="dirac")
     assert err.value.parameter == "targets"
+
+
+def test_relativistic_thresholds_of_the_screened_coulomb_potential():
+    # Yukawa -Z exp(-r/D)/r: the Schrodinger 1s unbinds at D Z = 0.8399 (Rogers, Graboske & Harwood,
+    # Phys. Rev. A 1, 1577 (1970); from memory, 4 digits).  Relativity binds more strongly, so the
+    # Dirac and Klein-Gordon critical lengths are shorter, by a relative amount that grows like
+    # (Z alpha)^2 (checked: the coefficient is the same at Z = 10 and 20 within 3%).
+    coefficient = {}
+    for Z in (1.0, 10.0, 20.0):
+        pot = radsolve.potential("yukawa", Z=Z)
+        plain = radsolve.threshold(pot, "screening_length", level="1s")
+        dirac = radsolve.threshold(pot, "screening_length", level="1s1/2", equation="dirac")
+        kg = radsolve.threshold(pot, "screening_length", level="1s", equation="klein-gordon")
+        assert dirac.success and kg.success and dirac.to_dict()["equation"] == "dirac"
+        assert dirac.value < plain.value and kg.value < plain.value
+        for name, res in (("dirac", dirac), ("kg", kg)):
+            coefficient[(name, Z)] = (res.value - plain.value) / plain.value / (Z * ALPHA) ** 2
+        if Z == 1.0:
+            assert dirac.value * Z == pytest.approx(0.8399, abs=2e-4)
+    for name in ("dirac", "kg"):
+        assert coefficient[(name, 20.0)] == pytest.approx(coefficient[(name, 10.0)], rel=0.03)
+    # Just beyond the Dirac critical length the level exists (a solve's own count says so), just before not
+    Z = 15.0
+    d_c = radsolve.threshold(radsolve.potential("yukawa", Z=Z), "screening_length", level="1s1/2",
+                             equation="dirac").value
+    above = radsolve.solve(radsolve.potential("yukawa", Z=Z, screening_length=d_c * 1.001), l=0, count=1,
+                           equation="dirac")
+    below = radsolve.solve(radsolve.potential("yukawa", Z=Z, screening_length=d_c * 0.999), l=0, count=1,
+                           equation="dirac")
+    assert len(above.levels) == 1 and not below.levels
+    assert list(below.certificates.values())[0].count == 0
+    with pytest.raises(InputError):
+        radsolve.threshold("yukawa", "screening_length", level="1s", equation="dirac")  # Dirac needs j

@@ -165,6 +165,7 @@ def threshold_command(
              f"{THRESHOLD_TOL_RANGE[1]:g})")] = 1e-9,
     units: UnitsOption = None,
     dimension: DimensionOption = 3,
+    equation: EquationOption = "schrodinger",
     spin_orbit: Annotated[bool, typer.Option(
         "--spin-orbit", help="with --nmax: both j = l -+ 1/2 of each l > 0 (with --level, "
                              "give j in the label, e.g. 1p3/2)")] = False,
@@ -196,7 +197,7 @@ def threshold_command(
         results = critical_values(family.name, vary, nmax=nmax, bracket=pair, fixed=params, mass=mass,
                                   tol=tol, plugins=plugin_dirs(plugins), levels=level or None,
                                   lmax=lmax, spin_orbit=spin_orbit, dimension=dimension,
-                                  units=units)
+                                  units=units, equation=equation)
         if fmt is ReportFormat.json:
             from radsolve.core.serialize import dumps_json
 

@@ -325,7 +325,7 @@ DEFAULTS = {
                       "spin_orbit": "spin_orbit", "dimension": "dimension", "workers": "workers",
                       "unit": "unit", "cluster": "cluster", "progress": "progress", "equation": "equation"}),
     "threshold": (threshold, {"tol": "tol", "mass": "mass", "units": "units", "dimension": "dimension",
-                              "bracket": "bracket"}),
+                              "bracket": "bracket", "equation": "equation"}),
     "fit": (fit, {"tol": "tol", "method": "method", "mass": "mass", "units": "units", "dimension": "dimension",
                   "max_evaluations": "max_evaluations", "equation": "equation"}),
     "wave": (radsolve.state, {"tol": "tol", "method": "method", "mass": "mass"}),
