@@ -555,3 +555,19 @@ def test_relativistic_thresholds_of_the_screened_coulomb_potential():
     assert list(below.certificates.values())[0].count == 0
     with pytest.raises(InputError):
         radsolve.threshold("yukawa", "screening_length", level="1s", equation="dirac")  # Dirac needs j
+
+
+@pytest.mark.parametrize("equation, method, label, exact", [
+    ("klein-gordon", "both", "2s", lambda: klein_gordon(2, 0, 50)),
+    ("dirac", "first-order", "2s1/2", lambda: sommerfeld(2, -1, 50)),
+])
+def test_levels_command_methods(equation, method, label, exact):
+    import json
+
+    out = invoke("levels", "coulomb", "-p", "Z=50", "--lmax", "0", "--count", "2", "--equation", equation,
+                 "--method", method, "--format", "json")
+    assert out.exit_code == 0, out.stderr
+    doc = json.loads(out.stdout)
+    lev = {x["label"]: x for x in doc["levels"]}[label]
+    assert lev["energy"] == pytest.approx(exact(), rel=1e-10)
+    assert doc["equation"] == equation
