@@ -9,8 +9,11 @@ joined into one :class:`SolveResult`.
 
 Convention (say it wherever a result is shown): the particle's mass in the
 equation is the reduced mass mu of the pair (``mass=``), energies are
-W = E - mu c^2; no further recoil correction is made.  The speed of light is
-scipy.constants' (c = 1/alpha in atomic units).
+W = E - mu c^2; no further recoil correction is made.  For a hydrogen-like
+system this reproduces the nonrelativistic reduced-mass levels exactly and
+the fine structure up to recoil terms of relative order (Z alpha)^2 m/M
+(Barker and Glover, Phys. Rev. 99, 317 (1955); from memory), which are left
+out.  The speed of light is scipy.constants' (c = 1/alpha in atomic units).
 """
 
 from __future__ import annotations
