@@ -571,3 +571,21 @@ def test_levels_command_methods(equation, method, label, exact):
     lev = {x["label"]: x for x in doc["levels"]}[label]
     assert lev["energy"] == pytest.approx(exact(), rel=1e-10)
     assert doc["equation"] == equation
+
+
+def test_dirac_e1_lines_lifetimes_and_branching():
+    # Hydrogen-like Z = 10, n <= 3: 3p3/2 decays to 1s1/2 and 2s1/2 (and, with a negligible rate, to 3s1/2
+    # below it by the fine structure).  The branching of 3p to 1s is about 0.88 in hydrogen (A(3p->1s) =
+    # 1.6725e8, A(3p->2s) = 2.245e7 s^-1 for Z = 1, Wiese and Fuhr tables; from memory), a ratio that
+    # is the same at every Z without relativity, so it holds at Z = 10 up to order (Z alpha)^2.
+    from radsolve.analysis.relativistic import e1_lines
+
+    res = radsolve.solve(radsolve.potential("coulomb", Z=10), l=[0, 1], count=3, equation="dirac")
+    lines = e1_lines(res)
+    three_p = {x["lower"]: x for x in lines if x["upper"] == "3p3/2"}
+    assert set(three_p) >= {"1s1/2", "2s1/2"}
+    expected = 1.6725e8 / (1.6725e8 + 2.245e7)
+    assert three_p["1s1/2"]["branching"] == pytest.approx(expected, rel=2e-3)
+    assert sum(x["branching"] for x in three_p.values()) == pytest.approx(1.0, rel=1e-12)
+    two_p = [x for x in lines if x["upper"] == "2p1/2"]
+    assert [x["lower"] for x in two_p] == ["1s1/2"]  # 2s1/2 is degenerate with it: no line

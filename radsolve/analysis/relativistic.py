@@ -186,3 +186,34 @@ def e1_rate(result, upper: str, lower: str) -> Estimate:
     error = per_au * 2.0 * abs(radial) * abs(values[-1] - values[0]) / seconds if len(values) > 1 else math.inf
     error += rate * 3.0 * (abs(up.error_estimate) + abs(low.error_estimate)) / omega
     return Estimate(rate, error, "s^-1", None, bool(error <= 1e-6 * rate))
+
+
+def e1_lines(result) -> list[dict]:
+    """Every E1 line among the Dirac levels of one result, with each upper level's lifetime and branching.
+
+    One dict per line: ``upper``, ``lower``, ``omega`` (hartree), ``rate`` and ``rate_error`` (s^-1),
+    ``lifetime`` and ``lifetime_error`` of the upper level (s; from the lines to the levels in this
+    result only: a lower level missing from it is a missing channel), ``branching`` (the line's share
+    of its upper level's decays).  Levels closer than their summed estimates are degenerate: no line.
+    """
+    levels = [lev for lev in result.levels if lev.samples]
+    lines = []
+    for up in levels:
+        for low in levels:
+            if (up.l + low.l) % 2 == 0 or abs(up.l - low.l) != 1 or abs(up.j - low.j) > 1.0:
+                continue
+            if up.energy - low.energy <= 10.0 * (up.error_estimate + low.error_estimate):
+                continue
+            rate = e1_rate(result, up.label, low.label)
+            lines.append({"upper": up.label, "lower": low.label, "omega": up.energy - low.energy,
+                          "rate": rate.value, "rate_error": rate.error})
+    totals: dict = {}
+    for line in lines:
+        total, err = totals.get(line["upper"], (0.0, 0.0))
+        totals[line["upper"]] = (total + line["rate"], err + line["rate_error"])
+    for line in lines:
+        total, err = totals[line["upper"]]
+        line["lifetime"] = 1.0 / total
+        line["lifetime_error"] = err / total**2
+        line["branching"] = line["rate"] / total
+    return lines
