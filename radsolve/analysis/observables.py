@@ -1041,7 +1041,7 @@ def plain_properties(props: dict[str, Any]) -> dict[str, Any]:
 
 
 def state(potential, n: int, l: int, *, mass=None, tol: float = 1e-10, method: str = "fd",
-          plugins=None) -> State:
+          plugins=None, equation: str = "schrodinger") -> State:
     """Solve for the single level (n, l) of ``potential`` and return it as a :class:`State`.
 
     Parameters
@@ -1052,6 +1052,8 @@ def state(potential, n: int, l: int, *, mass=None, tol: float = 1e-10, method: s
         Principal number (n = nodes + l + 1) and orbital angular momentum.
     mass, tol, method, plugins
         As for :func:`radsolve.solve`.
+    equation : str
+        Only ``"schrodinger"`` so far (a relativistic one is refused with a message).
 
     Raises
     ------
@@ -1060,6 +1062,14 @@ def state(potential, n: int, l: int, *, mass=None, tol: float = 1e-10, method: s
     """
     from radsolve.core.result import level_label
     from radsolve.core.spectrum import solve
+
+    from radsolve.core.relativistic import SCHRODINGER, validated_equation
+
+    if validated_equation(equation) != SCHRODINGER:
+        raise InputError(f"states of {validated_equation(equation)} levels are not implemented yet; only "
+                         "equation='schrodinger' (from Python, radsolve.analysis.relativistic has Dirac <r^k>, "
+                         "(G, F) and E1 rates)", parameter="equation")
+
 
     n = _check_positive_int(n, "n")
     l = _check_positive_int(l, "l")

@@ -85,6 +85,10 @@ CASES = [
     Case(["levels", "coulomb", "--equation", "dirac", "--scalar"], S(equation="dirac", scalar=True),
          "scalar", "--scalar"),
     Case(["levels", "coulomb", "--scalar"], S(scalar=True), "scalar", "--scalar"),
+    Case(["wave", "coulomb", "--n", "1", "--l", "0", "--equation", "dirac"],
+         lambda: radsolve.state("coulomb", 1, 0, equation="dirac"), "equation", "--equation"),
+    Case(["transitions", "coulomb", "--nmax", "2", "--equation", "dirac"],
+         lambda: transitions("coulomb", 2, equation="dirac"), "equation", "--equation"),
     Case(["levels", "coulomb", "--equation", "dirac", "-d", "2"], S(equation="dirac", dimension=2),
          "dimension", "--dimension"),
     # test_bad_input: values a potential parameter does not accept (the message names it)
@@ -328,9 +332,9 @@ DEFAULTS = {
                               "bracket": "bracket", "equation": "equation"}),
     "fit": (fit, {"tol": "tol", "method": "method", "mass": "mass", "units": "units", "dimension": "dimension",
                   "max_evaluations": "max_evaluations", "equation": "equation"}),
-    "wave": (radsolve.state, {"tol": "tol", "method": "method", "mass": "mass"}),
+    "wave": (radsolve.state, {"tol": "tol", "method": "method", "mass": "mass", "equation": "equation"}),
     "transitions": (transitions, {"tol": "tol", "method": "method", "mass": "mass",
-                                  "dipole_charge": "dipole_charge"}),
+                                  "dipole_charge": "dipole_charge", "equation": "equation"}),
     "check": (radsolve.check, {"tol": "tol", "quick": "quick"}),
 }
 
