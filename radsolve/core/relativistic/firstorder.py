@@ -263,14 +263,14 @@ def first_order(channel, z_alpha: float | None) -> type:
                 stack += [(a, na, mid, nm), (mid, nm, b, nb)]
             return out
 
-        def energies(self, indices, guesses=None):
+        def energies(self, indices, guesses=None, **_hints):
             indices = list(indices)
             if guesses is None:
                 brackets = self._gf_brackets(indices)
                 return np.array([self._gf_level(k, None, brackets.get(k)) for k in indices])
             return np.array([self._gf_level(k, g) for k, g in zip(indices, guesses)])
 
-        def levels(self, indices, guesses=None):
+        def levels(self, indices, guesses=None, **_hints):
             indices = list(indices)
             energies = self.energies(indices, guesses)
             rows = [self._gf_wavefunction(float(e)) for e in energies]

@@ -142,11 +142,12 @@ def self_consistent(base: type, channel) -> type:
                 x0, f0, x1 = x1, f1, x_new
             return x1
 
-        def energies(self, indices, guesses=None):
+        def energies(self, indices, guesses=None, **_hints):
+            # hints of the spectrum for the underlying method (peaks, precision) do not apply to the roots
             guesses = [None] * len(indices) if guesses is None else list(guesses)
             return np.array([self._rel_root(k, g) for k, g in zip(indices, guesses)])
 
-        def levels(self, indices, guesses=None):
+        def levels(self, indices, guesses=None, **_hints):
             indices = list(indices)
             energies = self.energies(indices, guesses)
             rows = []
