@@ -91,11 +91,13 @@ def test_formula_consistency_with_yukawa_family():
     # them, so this checks that the probing finds the same problem.  When it does, the
     # two solves run on the same grids and differ only by the rounding of V (~1e-16
     # relative); 1e-12 relative leaves room for that while still catching a different
-    # box, grid or origin law, whose effect would be of the order of the tol=1e-11 asked.
+    # box, grid or origin law, whose effect would be of the order of the tol asked.
+    # tol=1e-10: the weakly bound 3s and 3p (|E| ~ 2e-3) have a measured rounding
+    # noise above 1e-11 on the grids that would resolve them further.
     formula = formula_potential("-Z*exp(-r/D)/r", Z=1, D=10)
     yukawa = radsolve.potential("yukawa", Z=1, screening_length=10)
-    a = radsolve.solve(formula, l=[0, 1], count=3, tol=1e-11)
-    b = radsolve.solve(yukawa, l=[0, 1], count=3, tol=1e-11)
+    a = radsolve.solve(formula, l=[0, 1], count=3, tol=1e-10)
+    b = radsolve.solve(yukawa, l=[0, 1], count=3, tol=1e-10)
     assert [lev.label for lev in a.levels] == [lev.label for lev in b.levels]
     assert [lev.label for lev in a.levels] == ["1s", "2s", "3s", "2p", "3p"]
     assert a.success and b.success

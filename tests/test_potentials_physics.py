@@ -86,7 +86,9 @@ def test_finite_nucleus_tends_to_coulomb(model):
     params = dict(Z=Z, radius=rms, model=model)
     if model == "fermi":
         params["diffuseness"] = rms / 10.0
-    result = radsolve.solve(potential("finite_nucleus", **params), l=[0, 1], count=2, tol=1e-11)
+    # tol 1e-10: an s level of Z = 20 has a measured rounding noise near 1e-11 on the
+    # grids that 1e-11 would need, which radsolve now reports instead of claiming it.
+    result = radsolve.solve(potential("finite_nucleus", **params), l=[0, 1], count=2, tol=1e-10)
     assert result.success, result.message
     for level in result.levels:
         assert level.energy == pytest.approx(coulomb_level(Z, level.n), rel=1e-10), level.label
@@ -100,15 +102,16 @@ def test_yukawa_tends_to_coulomb_with_first_order_corrections():
     <r> = (3n² - l(l+1))/(2Z) and <r²> = n²(5n² + 1 - 3l(l+1))/(2Z²)
     (textbook formulas; a constant shift has no second-order term)."""
     Z, D = 1.0, 1e4
-    result = radsolve.solve(potential("yukawa", Z=Z, screening_length=D), l=[0, 1], count=2, tol=1e-11)
+    result = radsolve.solve(potential("yukawa", Z=Z, screening_length=D), l=[0, 1], count=2, tol=1e-10)
     assert result.success, result.message
     for level in result.levels:
         n, l = level.n, level.l
         r1 = (3 * n * n - l * (l + 1)) / (2 * Z)
         r2 = n * n * (5 * n * n + 1 - 3 * l * (l + 1)) / (2 * Z * Z)
         expected = coulomb_level(Z, n) + Z / D - Z * r1 / (2 * D**2) + Z * r2 / (6 * D**3)
-        # The D⁻² term is >= 7e-9 hartree here, the neglected D⁻⁴ ones < 1e-13.
-        assert level.energy == pytest.approx(expected, abs=2e-11), level.label
+        # The D⁻² term is >= 7e-9 hartree here, the neglected D⁻⁴ ones < 1e-13; the
+        # levels are good to their estimates (tol 1e-10 relative).
+        assert level.energy == pytest.approx(expected, abs=max(2e-11, 2 * level.error_estimate)), level.label
 
 
 def zero_energy_node_count(D, r_max_factor=80.0):

@@ -24,6 +24,13 @@ ORDER_TOLERANCE = 0.3
 _INTEGER_TOLERANCE = 0.2
 #: Changes below this multiple of the rounding floor are noise, not an order.
 NOISE_FACTOR = 1e3
+#: The settled estimate (see :func:`extrapolate`) is this many times the
+#: next Richardson correction.
+SETTLED_SAFETY = 3.0
+#: ... and needs its last change this many rounding floors above the noise ...
+SETTLED_ABOVE_NOISE = 30.0
+#: ... and each lower column's observed order this close to its promised one.
+SETTLED_ORDER_TOLERANCE = 0.5
 
 
 @dataclass(frozen=True)
@@ -57,8 +64,24 @@ def _observed(e: np.ndarray, end: int) -> float | None:
     return math.log2(d1 / d2) if d1 > 0 and d2 > 0 else None
 
 
+def _column_settled(column: list, order: int) -> bool:
+    """The last three entries of a Richardson column decrease by the factor 2**order their next term promises."""
+    if len(column) < 3:
+        return False
+    observed = _observed(np.asarray(column[-3:]), 2)
+    return observed is not None and abs(observed - order) < SETTLED_ORDER_TOLERANCE
+
+
+def _settled_below(table: list, use: tuple, j: int) -> bool:
+    """Every column below j shows its promised order: the raw values on their last two
+    triples (four grids at least), each higher column on its last triple."""
+    if len(table[0]) < 4 or not (_column_settled(table[0], use[0]) and _column_settled(table[0][:-1], use[0])):
+        return False
+    return all(_column_settled(table[i], use[i]) for i in range(1, j))
+
+
 def extrapolate(values, orders: tuple[int, ...], relative_rounding: float = 1e-14,
-                confirm_lower_order: bool = True) -> Extrapolation:
+                confirm_lower_order: bool = True, settled: bool = False) -> Extrapolation:
     """Extrapolate values on grids of steps h, h/2, h/4, ... to h = 0.
 
     ``orders`` are the powers of h the method promises.  When the observed
@@ -68,6 +91,22 @@ def extrapolate(values, orders: tuple[int, ...], relative_rounding: float = 1e-1
     one conservative step is taken and ``order_ok`` is False.
     ``confirm_lower_order=False`` accepts a whole-number lower order from the
     last triple alone (the first release's rule).
+
+    The estimate of a column's newest entry is the larger of its last two
+    corrections (common practice).  The first of them is the error of the
+    *lower* column's entry, so it overstates the error of the value reported
+    by the ratio of two successive error terms (three to four orders of
+    magnitude on a smooth spectrum).  With ``settled=True`` a column whose
+    lower columns all show their promised orders (the raw values on their
+    last two triples, so at least four grids, and each higher column on its
+    last triple: the error series is in its asymptotic regime, term by term)
+    is given
+    :data:`SETTLED_SAFETY` times its own next correction,
+    |c[-1] - c[-2]| / (2**p - 1), p the next order: the standard estimate of
+    the error of a Richardson value whose next term is known to dominate.
+    Only while that change stands well above the rounding floor
+    (:data:`SETTLED_ABOVE_NOISE` times it): a change made of noise says
+    nothing about the next term.
     """
     e = np.asarray(values, dtype=float)
     k = e.size
@@ -108,12 +147,15 @@ def extrapolate(values, orders: tuple[int, ...], relative_rounding: float = 1e-1
         if len(column) < 2:
             break
         est = max(abs(column[-1] - table[j - 1][-1]), abs(column[-1] - column[-2]))
+        if (settled and j < len(use) and abs(column[-1] - column[-2]) > SETTLED_ABOVE_NOISE * floor
+                and _settled_below(table, use, j)):
+            est = min(est, SETTLED_SAFETY * abs(column[-1] - column[-2]) / (2.0 ** use[j] - 1.0))
         if est < estimate:
             best, estimate = column[-1], est
     return Extrapolation(float(best), float(max(estimate, floor)), observed, ok)
 
 
-def richardson(energies, orders: tuple[int, ...], relative_rounding: float = 1e-14):
+def richardson(energies, orders: tuple[int, ...], relative_rounding: float = 1e-14, settled: bool = False):
     """``(value, error_estimate, observed_order)`` of :func:`extrapolate` (the first release's form)."""
-    out = extrapolate(energies, orders, relative_rounding, confirm_lower_order=False)
+    out = extrapolate(energies, orders, relative_rounding, confirm_lower_order=False, settled=settled)
     return out.value, out.estimate, out.observed

@@ -274,6 +274,8 @@ class GridSpan:
     mapping: Mapping = None  # type: ignore[assignment]
     anchors: tuple[float, ...] = ()
     left_out: tuple[float, ...] = ()
+    #: The grids already built, by refinement (a memo of this span's own pure results).
+    _built: dict = field(default_factory=dict, compare=False, hash=False, repr=False)
 
     def __post_init__(self):
         if self.mapping is None:
@@ -335,17 +337,23 @@ class GridSpan:
 
     @property
     def r_min(self) -> float:
-        return float(self.mapping.r_of_xi(np.array([self.x_lo]))[0])
+        return float(self.grid(0).r[0])
 
     @property
     def r_max(self) -> float:
-        return float(self.mapping.r_of_xi(np.array([self.x_hi]))[0])
+        return float(self.grid(0).r[-1])
 
     def intervals(self, refinement: int = 0) -> int:
         return int(round((self.x_hi - self.x_lo) / self.coarse_step)) * 2**refinement
 
     def grid(self, refinement: int = 0) -> RadialGrid:
-        """The grid of step ``coarse_step / 2**refinement``."""
+        """The grid of step ``coarse_step / 2**refinement`` (built once per span)."""
+        built = self._built.get(refinement)
+        if built is None:
+            built = self._built[refinement] = self._make_grid(refinement)
+        return built
+
+    def _make_grid(self, refinement: int) -> RadialGrid:
         intervals = self.intervals(refinement)
         step = self.coarse_step / 2**refinement
         x = self.x_lo + step * np.arange(intervals + 1)

@@ -268,6 +268,11 @@ class SolveResult(ResultProtocol):
         (hartree, bohr, electron masses) or ``"nuclear"`` (MeV, fm, MeV/c^2).
     dimension : int
         The space dimension d.
+    statistics : dict
+        What the eigenvalue searches did, summed over methods and grids
+        (``confirmed`` predicted windows, ``missed`` ones found again by
+        bisection, ``bisected`` levels, ``sturm_counts``, ``solves``): a
+        debug statistic for benchmarks, not part of the serialised result.
     """
 
     levels: list[Level]
@@ -282,6 +287,7 @@ class SolveResult(ResultProtocol):
     certificates: dict = field(default_factory=dict)
     status: Outcome = Outcome.SUCCESS
     notes: tuple[Note, ...] = ()
+    statistics: dict = field(default_factory=dict)
     equation: str = "schrodinger"
 
     @property

@@ -38,7 +38,7 @@ bohr, or MeV and fm); ``mass`` below is always the kinetic mass m of
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 import numpy as np
@@ -54,6 +54,7 @@ from radsolve.core.solvers.base import METHODS, RadialSolver, solver_class
 from radsolve.core.solvers.registry import EVERY_METHOD
 from radsolve.core.inputs import validated_count, validated_dimension, validated_l
 from radsolve.core.targets import Status, Targets, validated_tol
+from radsolve.core.tridiagonal import EigenStatistics
 
 #: Step in xi of the coarsest grid of the refinement sequence.
 COARSE_STEP = 0.1
@@ -75,6 +76,10 @@ _LARGEST_RADIUS = 1e30
 #: a finer coarse grid so that extrapolation starts where the error series holds.
 _PHASE_COARSE = 1.5
 _PHASE_PLANNING = 3.0
+#: Growth of the planning box while it holds fewer levels than wanted (the
+#: box is then cut back to where the weakest wanted level has decayed, so a
+#: large step costs little, and each step is a planning solve).
+_SHORT_BOX_GROWTH = 16.0
 #: A near-degenerate pair is resolved once the change of its splitting
 #: between the last two grids is below this fraction of the splitting.
 _SPLITTING_SETTLED = 0.1
@@ -138,6 +143,11 @@ class _BoxPlan:
     largest_radius: float = math.inf  # no box beyond this radius
     anchors: tuple[float, ...] = ()
     at_limit: bool = False  # the box could not grow any further
+    #: key -> (energies, peak radii) of the wanted levels on the last planning grid:
+    #: the first refinement grid's windows
+    predicted: dict = field(default_factory=dict)
+    #: what the planning solves' eigenvalue searches did
+    statistics: EigenStatistics = field(default_factory=EigenStatistics)
 
 
 @dataclass
@@ -148,6 +158,7 @@ class _Run:
     samples: dict  # key -> list of tuples of GridSample
     grid_counts: dict  # key -> list of levels below the threshold per grid
     finest: bool  # stopped at the finest affordable grid
+    statistics: EigenStatistics  # what the eigenvalue searches did
 
 
 def _validate(l, count, tol, method, dimension) -> tuple[list[int], int, float, list[type[RadialSolver]], int]:
@@ -267,19 +278,46 @@ def _phase_halvings(channels, span: GridSpan, mass, tops: dict, limit: float) ->
     return int(math.ceil(math.log2(worst / limit)))
 
 
-def _levels_on(cls, grid, ch: _Channel, mass, inner, count, guesses=None, energies_only: bool = False):
+def _levels_on(cls, grid, ch: _Channel, mass, inner, count, guesses=None, energies_only: bool = False,
+               peaks=None, statistics: EigenStatistics | None = None, noise: list | None = None,
+               precision=None):
     """The lowest ``count`` levels of one channel on one grid, energies from its reference.
 
     ``energies_only`` (finite differences, for planning): u is None, and no eigenvector is computed.
+    ``noise``, a list, receives the solver's rounding noise of each level (None entries: unknown).
     """
     values = potential_on_grid(ch.potential, grid.r, _anchors_of(grid)) - ch.reference
     solver = _solver(cls, grid, values, ch, mass, inner)
     if energies_only:
         energies, u = solver.energies(list(range(count)), guesses=guesses), None
     else:
-        energies, u = solver.levels(list(range(count)), guesses=guesses)
+        energies, u = solver.levels(list(range(count)), guesses=guesses, peaks=peaks, precision=precision)
     below = None if ch.confining else solver.count_below(0.0)
+    if statistics is not None:
+        statistics.add(solver.statistics)
+    if noise is not None:
+        noise[:] = solver.level_noise() if u is not None else []
     return energies, u, below, values
+
+
+def _predictions(history: list, reference: float, order: int, planned=None):
+    """Each level's energy on the next grid, from its coarser grids, and where its state peaked.
+
+    With two grids known, the leading error term ~h**order is extrapolated
+    (the next grid moves a level by 2**-order times the last change).  On the
+    first grid, the planning grid's ``(energies, peaks)`` when there are any.
+    """
+    if not history:
+        if planned is None:
+            return None, None
+        energies, peaks = planned
+        return [e - reference for e in energies], list(peaks)
+    last = np.array([e for (e, _, _) in history[-1]]) - reference
+    if len(history) >= 2:
+        prev = np.array([e for (e, _, _) in history[-2]]) - reference
+        last = last + (last - prev) / 2.0**order
+    peaks = [float(g.r[int(np.argmax(np.abs(u)))]) for (_, u, g) in history[-1]]
+    return list(last), peaks
 
 
 def _anchors_of(grid) -> tuple[float, ...]:
@@ -312,6 +350,7 @@ def _plan_box(channels, count, mass, targets: Targets, breakpoints) -> _BoxPlan:
         span = _span(r_min, radius, COARSE_STEP, breakpoints)
         return _BoxPlan(span, wanted, (), radius, largest, span.anchors)
     nepers = targets.decay_nepers
+    statistics = EigenStatistics()
     tops: dict = {ch.key: ch.reference for ch in active if not ch.confining}
     needed = 0.0
     short: list = []
@@ -323,7 +362,7 @@ def _plan_box(channels, count, mass, targets: Targets, breakpoints) -> _BoxPlan:
         for ch in active:
             inner = _inner_index(span, halvings, ch.inner_radius, coarse_r)
             energies, _, below, _ = _levels_on(FiniteDifference, grid, ch, mass, inner, wanted[ch.key],
-                                               energies_only=True)
+                                               energies_only=True, statistics=statistics)
             energies = energies + ch.reference
             if below is not None and below < wanted[ch.key]:
                 short.append(ch.key)
@@ -333,7 +372,7 @@ def _plan_box(channels, count, mass, targets: Targets, breakpoints) -> _BoxPlan:
                 needed = max(needed, probing.decay_radius(ch.potential, ch.effective_l, mass, top,
                                                           r_min, nepers))
         if short and radius < largest:
-            radius = min(4.0 * radius, largest)
+            radius = min(_SHORT_BOX_GROWTH * radius, largest)
             continue
         if needed > radius and radius < largest:
             radius = min(1.3 * needed, largest)
@@ -343,8 +382,10 @@ def _plan_box(channels, count, mass, targets: Targets, breakpoints) -> _BoxPlan:
         notes.append(Note("box", "box search did not settle"))
     final_radius = max(needed if needed > 0 else radius, 2.0 * biggest_feature, 4.0 * r_in)
     final_radius = min(max(final_radius, min(radius, final_radius)), largest)
+    predicted: dict = {}
     if not confining:
-        final_radius = _verify_box(active, wanted, mass, targets, final_radius, breakpoints, largest, r_min)
+        final_radius, predicted = _verify_box(active, wanted, mass, targets, final_radius, breakpoints, largest,
+                                              r_min, statistics)
     span = _span(r_min, final_radius, COARSE_STEP, breakpoints)
     halvings = _planning_halvings(active, span, mass, tops, most, _PHASE_COARSE)
     if halvings:
@@ -357,7 +398,8 @@ def _plan_box(channels, count, mass, targets: Targets, breakpoints) -> _BoxPlan:
         notes.append(Note("breakpoints_left_out", "breakpoints too close together to all be grid points ("
                           + ", ".join(f"{b:.6g}" for b in span.left_out) + "): the error series of every level "
                           "is unreliable, so none is claimed converged"))
-    return _BoxPlan(span, wanted, tuple(notes), max(radius, final_radius), largest, span.anchors, at_limit)
+    return _BoxPlan(span, wanted, tuple(notes), max(radius, final_radius), largest, span.anchors, at_limit,
+                    predicted, statistics)
 
 
 def _planning_halvings(channels, span, mass, tops, most: int, phase: float = _PHASE_PLANNING) -> int:
@@ -375,12 +417,15 @@ def _planning_grid(r_min, radius, breakpoints, channels, mass, tops, most):
     return span, halvings, _grid(span, halvings), span.grid(0).r
 
 
-def _verify_box(channels, wanted, mass, targets: Targets, radius, breakpoints, largest, r_min) -> float:
+def _verify_box(channels, wanted, mass, targets: Targets, radius, breakpoints, largest, r_min,
+                statistics: EigenStatistics) -> tuple[float, dict]:
     """Grow the outer radius until the wall shifts no wanted level by more than its boundary target.
 
     The WKB decay estimate ignores the amplitude's prefactor, which is large
     for weakly bound, extended levels; the wall's own shift (Hadamard
     formula, see :func:`_box_error`) on the planning grid settles it.
+    Also returns, for each channel, the energies and peak radii of the wanted
+    levels on the last planning grid (windows for the first refinement grid).
     """
     from radsolve.core.solvers.fd import FiniteDifference
 
@@ -389,11 +434,15 @@ def _verify_box(channels, wanted, mass, targets: Targets, radius, breakpoints, l
     for _ in range(8):
         span, halvings, grid, coarse_r = _planning_grid(r_min, radius, breakpoints, channels, mass, tops, most)
         growth = 0.0
+        predicted = {}
         for ch in channels:
             if not wanted[ch.key] or ch.confining:
                 continue
             inner = _inner_index(span, halvings, ch.inner_radius, coarse_r)
-            energies, u, _, values = _levels_on(FiniteDifference, grid, ch, mass, inner, wanted[ch.key])
+            energies, u, _, values = _levels_on(FiniteDifference, grid, ch, mass, inner, wanted[ch.key],
+                                                statistics=statistics)
+            predicted[ch.key] = ([float(x) + ch.reference for x in energies],
+                                 [float(grid.r[int(np.argmax(np.abs(row)))]) for row in u])
             for energy, row in zip(energies, u):
                 shift = _box_error(grid, row, values, ch.centrifugal, mass, energy)
                 target = targets.boundary_target(energy + ch.reference, ch.v_inf)
@@ -401,9 +450,9 @@ def _verify_box(channels, wanted, mass, targets: Targets, radius, breakpoints, l
                     kappa = _decay_rate(grid, values, ch.centrifugal, mass, energy)
                     growth = max(growth, targets.wall_growth(shift, target, kappa))
         if growth == 0.0 or radius >= largest:
-            return radius
+            return radius, predicted
         radius = min(radius + min(growth, 4.0 * radius), largest)
-    return radius
+    return radius, predicted
 
 
 def _grown(plan: _BoxPlan, growth: float, breakpoints) -> _BoxPlan | None:
@@ -489,6 +538,7 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
     history: dict = {ch.key: [] for ch in channels}
     best: dict = {ch.key: [] for ch in channels}
     grid_counts: dict = {ch.key: [] for ch in channels}
+    statistics = EigenStatistics()
     finest = False
     for refinement in range(MAX_REFINEMENTS + 1):
         if span.intervals(refinement) + 1 > MAX_POINTS:
@@ -501,8 +551,15 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
             if want == 0:
                 continue
             inner = _inner_index(span, refinement, ch.inner_radius, coarse_r)
-            guesses = [e - ch.reference for (e, _, _) in history[ch.key][-1]] if history[ch.key] else None
-            energies, u, below, values = _levels_on(cls, grid, ch, mass, inner, want, guesses)
+            guesses, peaks = _predictions(history[ch.key], ch.reference, cls.error_orders[0],
+                                          plan.predicted.get(ch.key))
+            noise: list = []
+            # The accuracy each grid energy needs: the level's target (the
+            # solver keeps its noise well below it).
+            precision = None if guesses is None else [
+                targets.energy_target(g + ch.reference, ch.v_inf) for g in guesses]
+            energies, u, below, values = _levels_on(cls, grid, ch, mass, inner, want, guesses, peaks=peaks,
+                                                    statistics=statistics, noise=noise, precision=precision)
             grid_counts[ch.key].append(below)
             history[ch.key].append([(float(energies[k]) + ch.reference, u[k], grid) for k in range(want)])
             levels = best[ch.key]
@@ -516,7 +573,10 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
                 seen = float(np.sum(grid.weights * u[k] ** 2 * np.abs(v_eff - energies[k])))
                 level = max(abs(series[-1]), abs(energies[k]) + seen)
                 rounding = cls.relative_rounding(grid.size) * level / max(abs(series[-1]), 1e-300)
-                ex = extrapolate(series, cls.error_orders, rounding)
+                if k < len(noise) and noise[k] is not None:
+                    # the method's own measure of this level's sensitivity to rounding
+                    rounding = max(rounding, noise[k] / max(abs(series[-1]), 1e-300))
+                ex = extrapolate(series, cls.error_orders, rounding, settled=True)
                 shifted = ex.value - ch.reference
                 wall = 0.0 if ch.confining else _box_error(grid, u[k], values, ch.centrifugal, mass, shifted)
                 inner_err = _inner_boundary_error(grid, u[k], inner, mass, ch.exponent, values, shifted,
@@ -564,7 +624,7 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
         ]
         for ch in channels
     }
-    return _Run(best, samples, grid_counts, finest)
+    return _Run(best, samples, grid_counts, finest, statistics)
 
 
 def _better(new: dict, old: dict) -> bool:
@@ -844,7 +904,16 @@ def _assemble(channels, plan, runs, classes, method_name, count, targets, kineti
         units=system.name,
         dimension=dimension,
         certificates=certificates,
+        statistics=_statistics(plan, runs),
     )
+
+
+def _statistics(plan, runs) -> dict:
+    total = EigenStatistics()
+    total.add(plan.statistics)
+    for run in runs.values():
+        total.add(run.statistics)
+    return total.as_dict()
 
 
 def _complete(channels, kept, count) -> bool:

@@ -26,6 +26,7 @@ import numpy as np
 
 from radsolve.errors import InputError
 from radsolve.core.grids import RadialGrid
+from radsolve.core.tridiagonal import EigenStatistics
 
 from radsolve.core.solvers.registry import EVERY_METHOD, METHODS
 
@@ -109,17 +110,27 @@ class RadialSolver:
         self.origin_exponent = float(l + 1 if origin_exponent is None else origin_exponent)
         self.ghost_ratio = float(np.exp(-(self.origin_exponent - 0.5) * grid.step))
         self.b, self.q = grid.liouville_coefficients(potential_values, l, mass, centrifugal)
+        #: What this solver's searches did (windows confirmed or missed, counts, solves).
+        self.statistics = EigenStatistics()
 
     def count_below(self, energy: float) -> int:
         """Number of levels of this discrete problem with energy below ``energy`` (hartree)."""
         raise NotImplementedError
 
-    def levels(self, indices: Sequence[int], guesses: Sequence[float] | None = None) -> tuple[np.ndarray, np.ndarray]:
+    def levels(self, indices: Sequence[int], guesses: Sequence[float] | None = None,
+               peaks: Sequence[float] | None = None,
+               precision: Sequence[float] | None = None) -> tuple[np.ndarray, np.ndarray]:
         """Energies (hartree) and wavefunctions of the levels with these node numbers.
 
-        ``guesses`` are this method's own energies for the same levels on the
-        previous, coarser grid (hartree), which a method may use to start its
-        search; they are None on the first grid.
+        ``guesses`` are predictions of the same levels on this grid from this
+        method's coarser grids (hartree; Richardson-extrapolated once two are
+        known), which a method may use to start its search; ``peaks`` the
+        radii where the states were largest on the previous grid.  Both are
+        None on the first grid.  ``precision``: the absolute accuracy each
+        energy needs on this grid (None: the method's best), which a method
+        may use to stop early.  A method must find the levels by their node
+        numbers whatever the guesses are: a guess may speed it up, never
+        change which level is returned.
 
         Returns
         -------
@@ -129,6 +140,11 @@ class RadialSolver:
             normalized with ``grid.weights`` and positive near the origin.
         """
         raise NotImplementedError
+
+    def level_noise(self) -> list:
+        """Absolute rounding noise of each level of the last :meth:`levels` call, where the
+        method can measure it (None entries where it cannot: ``relative_rounding`` applies)."""
+        return []
 
     # Shared helpers --------------------------------------------------------
 

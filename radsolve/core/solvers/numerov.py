@@ -183,7 +183,7 @@ class NumerovShooting(RadialSolver):
                 hi = mid
         return 0.5 * (lo + hi)
 
-    def levels(self, indices: Sequence[int], guesses: Sequence[float] | None = None):
+    def levels(self, indices: Sequence[int], guesses: Sequence[float] | None = None, peaks=None, precision=None):
         energies, rows = [], []
         for j, k in enumerate(indices):
             guess = None if guesses is None else guesses[j]
