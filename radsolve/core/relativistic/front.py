@@ -250,6 +250,7 @@ def _joined(equation, pot, results, system_name, mu, tol, method_name, rest) -> 
 
     targets = Targets(tol)
     levels, notes, certificates, bound_counts = [], [], {}, {}
+    statistics: dict = {}
     outcome = Outcome.SUCCESS
     v_inf = math.inf
     for ch, z_alpha, res in results:
@@ -269,12 +270,16 @@ def _joined(equation, pot, results, system_name, mu, tol, method_name, rest) -> 
         if _OUTCOME_RANK[res.status] > _OUTCOME_RANK[outcome]:
             outcome = res.status
         v_inf = min(v_inf, res.v_infinity)
+        for name, value in (getattr(res, "statistics", None) or {}).items():  # summed over the channels
+            if isinstance(value, (int, float)):
+                statistics[name] = statistics.get(name, 0) + value
     notes.extend(_level_notes(levels, tol))
     if outcome is Outcome.SUCCESS and not all(lev.converged for lev in levels):
         outcome = Outcome.NOT_CONVERGED
     return SolveResult(levels=levels, potential=pot, mass=mu, tol=tol, method=method_name,
                        bound_counts=bound_counts, v_infinity=v_inf, units=system_name, dimension=3,
-                       certificates=certificates, status=outcome, notes=tuple(notes), equation=equation)
+                       certificates=certificates, status=outcome, notes=tuple(notes), equation=equation,
+                       **({"statistics": statistics} if statistics else {}))
 
 
 #: Notes of the per-channel solves that name levels: written again with the relativistic labels.
