@@ -592,3 +592,42 @@ def test_dirac_e1_lines_lifetimes_and_branching():
     assert sum(x["branching"] for x in three_p.values()) == pytest.approx(1.0, rel=1e-12)
     two_p = [x for x in lines if x["upper"] == "2p1/2"]
     assert [x["lower"] for x in two_p] == ["1s1/2"]  # 2s1/2 is degenerate with it: no line
+
+
+RMF_LIKE = '''
+import numpy as np
+
+NAME = "rmf_like"
+UNITS = "nuclear"
+PARAMETERS = {"V0": 350.0, "S0": 400.0, "R": 6.0, "a": 0.65}
+
+
+def V(r, V0, S0, R, a):
+    return V0 / (1.0 + np.exp((r - R) / a))
+
+
+def scalar_potential(r, V0, S0, R, a):
+    return -S0 / (1.0 + np.exp((r - R) / a))
+'''
+
+
+def test_nuclear_units_mean_field_spin_orbit_sign(tmp_path):
+    # A repulsive vector and a stronger attractive scalar Woods-Saxon field (relativistic mean-field
+    # shape; parameters of our own): the spin-orbit splitting comes out of the Dirac equation with the
+    # nuclear sign, j = l + 1/2 below j = l - 1/2 (textbook: Serot and Walecka, Adv. Nucl. Phys. 16, 1
+    # (1986); from memory), opposite to a vector well alone (atoms: 2p3/2 above 2p1/2).  Labels in the
+    # shell-model convention; the two independent methods agree.
+    (tmp_path / "rmf_like.py").write_text(RMF_LIKE, encoding="utf-8")
+    pot = radsolve.potential("rmf_like", plugins=[tmp_path])
+    res = radsolve.solve(pot, l=[0, 1, 2], count=1, mass="938.272MeV", equation="dirac", scalar=True,
+                         method="both")
+    assert res.success, res.message
+    assert {lev.label for lev in res.levels} == {"1s1/2", "1p1/2", "1p3/2", "1d3/2", "1d5/2"}
+    assert res.level("1p3/2").energy < res.level("1p1/2").energy
+    assert res.level("1d5/2").energy < res.level("1d3/2").energy
+    for lev in res.levels:
+        fd, shooting = lev.method_energies["fd"], lev.method_energies["first-order"]
+        assert abs(fd - shooting) <= 1e-9 * abs(lev.energy)
+    vector_only = radsolve.solve(pot.with_parameters(V0=-50.0, S0=0.0), l=1, count=1, mass="938.272MeV",
+                                 equation="dirac", method="both")
+    assert vector_only.level("1p3/2").energy > vector_only.level("1p1/2").energy
