@@ -64,10 +64,14 @@ def _check():
     return radsolve.check(tol=1e-8, charges=(1,), masses=(1.0,), nmax=2)
 
 
+def _solve_dirac():
+    return radsolve.solve(radsolve.potential("coulomb", Z=40), l=[0, 1], count=2, equation="dirac", tol=1e-8)
+
+
 CASES = {
     "solve": _solve_ok, "solve_not_converged": _solve_rounding, "state": _state, "summary": _summary,
     "transitions": _transitions, "threshold": _threshold, "critical_values": _critical_values,
-    "fit": _fit, "check": _check, "sweep": _sweep,
+    "fit": _fit, "check": _check, "sweep": _sweep, "solve_dirac": _solve_dirac,
 }
 
 
@@ -75,7 +79,7 @@ CASES = {
 CASE_TYPES = {
     "solve": "SolveResult", "solve_not_converged": "SolveResult", "state": "State", "summary": "StateSummary",
     "transitions": "TransitionResult", "threshold": "ThresholdResult", "critical_values": "CriticalValues",
-    "fit": "FitResult", "check": "CheckReport", "sweep": "SweepResult",
+    "fit": "FitResult", "check": "CheckReport", "sweep": "SweepResult", "solve_dirac": "SolveResult",
 }
 
 
@@ -156,6 +160,18 @@ def test_outside_facts(result):
         assert res.success
         for lev in res.levels:
             assert lev.energy == pytest.approx(-0.5 / lev.n**2, rel=1e-8)
+    elif name == "solve_dirac":
+        # Sommerfeld's fine-structure formula (textbook), Z = 40, n = 1, 2, 3
+        from scipy.constants import fine_structure as alpha
+
+        assert res.success and {lev.label for lev in res.levels} == {"1s1/2", "2s1/2", "2p1/2", "3p1/2",
+                                                                       "2p3/2", "3p3/2"}
+        for lev in res.levels:
+            k = lev.l + 1 if lev.j > lev.l else lev.l
+            za = 40 * alpha
+            e = 1.0 / (1.0 + (za / (lev.n - k + (k * k - za * za) ** 0.5)) ** 2) ** 0.5
+            assert lev.energy == pytest.approx((e - 1.0) / alpha**2, rel=1e-8)
+        assert res.to_dict()["equation"] == "dirac"
     elif name == "solve_not_converged":
         assert res.status is Outcome.NOT_CONVERGED
         assert any(n.code == "not_converged" for n in res.notes)
