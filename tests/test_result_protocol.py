@@ -64,6 +64,12 @@ def _check():
     return radsolve.check(tol=1e-8, charges=(1,), masses=(1.0,), nmax=2)
 
 
+def _dirac_state():
+    from radsolve.analysis.relativistic import dirac_state
+
+    return dirac_state(radsolve.potential("coulomb", Z=92), 2, 1, 1.5, tol=1e-8)
+
+
 def _solve_dirac():
     return radsolve.solve(radsolve.potential("coulomb", Z=40), l=[0, 1], count=2, equation="dirac", tol=1e-8)
 
@@ -72,6 +78,7 @@ CASES = {
     "solve": _solve_ok, "solve_not_converged": _solve_rounding, "state": _state, "summary": _summary,
     "transitions": _transitions, "threshold": _threshold, "critical_values": _critical_values,
     "fit": _fit, "check": _check, "sweep": _sweep, "solve_dirac": _solve_dirac,
+    "dirac_state": _dirac_state,
 }
 
 
@@ -80,6 +87,7 @@ CASE_TYPES = {
     "solve": "SolveResult", "solve_not_converged": "SolveResult", "state": "State", "summary": "StateSummary",
     "transitions": "TransitionResult", "threshold": "ThresholdResult", "critical_values": "CriticalValues",
     "fit": "FitResult", "check": "CheckReport", "sweep": "SweepResult", "solve_dirac": "SolveResult",
+    "dirac_state": "DiracStateSummary",
 }
 
 
@@ -172,6 +180,14 @@ def test_outside_facts(result):
             e = 1.0 / (1.0 + (za / (lev.n - k + (k * k - za * za) ** 0.5)) ** 2) ** 0.5
             assert lev.energy == pytest.approx((e - 1.0) / alpha**2, rel=1e-8)
         assert res.to_dict()["equation"] == "dirac"
+    elif name == "dirac_state":
+        # the nodeless Dirac-Coulomb 2p3/2: G, F ~ r^gamma exp(-Z r / 2), gamma = sqrt(4 - (Z alpha)^2), so
+        # <r> = (2 gamma + 1) / Z (textbook closed form), Z = 92
+        from scipy.constants import fine_structure as alpha
+
+        gamma = (4.0 - (92 * alpha) ** 2) ** 0.5
+        row = next(r for r in res.records() if r["quantity"] == "<r^1>")
+        assert row["value"] == pytest.approx((2 * gamma + 1) / 92, rel=1e-8)
     elif name == "solve_not_converged":
         assert res.status is Outcome.NOT_CONVERGED
         assert any(n.code == "not_converged" for n in res.notes)
@@ -221,7 +237,7 @@ def test_every_result_type_is_exported_and_covered():
 
     for module in ("radsolve.core.result", "radsolve.analysis.observables", "radsolve.analysis.radiative",
                    "radsolve.analysis.thresholds", "radsolve.analysis.fitting", "radsolve.analysis.convergence",
-                   "radsolve.analysis.sweeps"):
+                   "radsolve.analysis.sweeps", "radsolve.analysis.relativistic"):
         importlib.import_module(module)
 
     def subclasses(cls):

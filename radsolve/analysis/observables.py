@@ -1067,8 +1067,8 @@ def state(potential, n: int, l: int, *, mass=None, tol: float = 1e-10, method: s
 
     if validated_equation(equation) != SCHRODINGER:
         raise InputError(f"states of {validated_equation(equation)} levels are not implemented yet; only "
-                         "equation='schrodinger' (from Python, radsolve.analysis.relativistic has Dirac <r^k>, "
-                         "(G, F) and E1 rates)", parameter="equation")
+                         "equation='schrodinger' (from Python, radsolve.analysis.relativistic.dirac_state "
+                         "judges a Dirac level's <r^k>; dirac_components gives (G, F))", parameter="equation")
 
 
     n = _check_positive_int(n, "n")

@@ -230,3 +230,112 @@ def e1_lines(result) -> list[dict]:
         line["lifetime_error"] = err / total**2
         line["branching"] = line["rate"] / total
     return lines
+
+
+# ----------------------------------------------------------------------------- one Dirac state
+
+from dataclasses import dataclass, field  # noqa: E402  (kept beside the class that uses them)
+from typing import Any  # noqa: E402
+
+from radsolve.core.protocol import Note, Outcome, ResultProtocol, message_of  # noqa: E402
+
+
+@dataclass(repr=False)
+class DiracStateSummary(ResultProtocol):
+    """One Dirac level with its judged quantities (energy, <r^k> from G^2 + F^2), as :func:`dirac_state` returns.
+
+    Attributes
+    ----------
+    label : str
+        ``2p3/2`` (nuclear units: the shell-model n).
+    n, l : int
+    j : float
+    quantities : list of (name, Estimate)
+        ``E - mc^2`` first, then the moments.
+    potential, mass, tol, units
+        As for the solve.
+    result : SolveResult
+        The solve the level came from.
+    """
+
+    label: str
+    n: int
+    l: int
+    j: float
+    quantities: list
+    potential: Any
+    mass: float
+    tol: float
+    units: str = "atomic"
+    result: Any = field(default=None, repr=False)
+
+    @property
+    def unconverged(self) -> list[str]:
+        return [name for name, est in self.quantities if not est.converged]
+
+    @property
+    def status(self) -> Outcome:
+        return Outcome.SUCCESS if not self.unconverged else Outcome.NOT_CONVERGED
+
+    @property
+    def notes(self) -> tuple[Note, ...]:
+        if not self.unconverged:
+            return ()
+        return (Note("not_converged", "NOT CONVERGED to their targets: " + ", ".join(self.unconverged)
+                     + "; their estimates are what was achieved", ", ".join(self.unconverged)),)
+
+    @property
+    def message(self) -> str:
+        return message_of(self.notes, f"{self.label}: every quantity met its target")
+
+    def _header(self) -> list[tuple[str, Any]]:
+        return [("state", self.label), ("equation", "dirac"), ("potential", self.potential.name),
+                ("tol", self.tol)]
+
+    def _table_columns(self):
+        return ("quantity", "value", "error", "unit", "converged")
+
+    def records(self, unit: str | None = None) -> list[dict[str, Any]]:
+        return [{"quantity": name, "value": est.value, "error": est.error, "unit": est.unit,
+                 "converged": bool(est.converged)} for name, est in self.quantities]
+
+    def to_dict(self, unit: str | None = None) -> dict[str, Any]:
+        from radsolve.core.relativistic.front import CONVENTIONS
+
+        return {"state": self.label, "n": self.n, "l": self.l, "j": self.j, "equation": "dirac",
+                "convention": CONVENTIONS["dirac"], "potential": self.potential.name,
+                "parameters": dict(self.potential.parameters), "units": self.units, "mass": self.mass,
+                "tol": self.tol, "success": bool(self.success), "status": str(self.status),
+                "message": self.message, "notes": [n.to_dict() for n in self.notes],
+                "quantities": self.records(unit)}
+
+
+def dirac_state(potential, n: int, l: int, j: float, *, mass=None, tol: float = 1e-10, method: str = "fd",
+                plugins=None, units: str | None = None, moments=(-1, 1, 2)) -> DiracStateSummary:
+    """Solve for the Dirac level (n, l, j) and judge its energy and <r^k> (k in ``moments``).
+
+    ``n`` counts as the labels do (n = nodes + l + 1; nuclear units nodes + 1).  The moments' targets
+    are 10 tol relative, as for the Schrodinger observables.
+    """
+    from radsolve.core.result import level_designation
+    from radsolve.core.spectrum import solve
+
+    if isinstance(l, bool) or not isinstance(l, int) or l < 0:
+        raise InputError(f"l must be a whole number >= 0, got {l!r}", parameter="l")
+    if j not in ((0.5,) if l == 0 else (l - 0.5, l + 0.5)):
+        raise InputError(f"j must be l +- 1/2 (> 0) for l = {l}, got {j!r}", parameter="j")
+    res = solve(potential, l=l, count=max(int(n), 1), mass=mass, tol=tol, method=method, plugins=plugins,
+                units=units, equation="dirac")
+    wanted = None
+    for lev in res.levels:
+        if lev.j == j and lev.n == n:
+            wanted = lev
+    if wanted is None:
+        nodes_text = level_designation(max(n - l - 1, 0), l, j, res.units)[1]
+        raise InputError(f"level {nodes_text} (n = {n}, l = {l}, j = {j}) is not among the bound levels: "
+                         f"{res.message}", parameter="n")
+    energy = Estimate(wanted.energy, wanted.error_estimate, "hartree" if res.units == "atomic" else "MeV",
+                      wanted.order, bool(wanted.converged))
+    quantities = [("E - mc^2", energy)] + [(f"<r^{k:g}>", moment(res, wanted.label, k)) for k in moments]
+    return DiracStateSummary(label=wanted.label, n=wanted.n, l=l, j=j, quantities=quantities,
+                             potential=res.potential, mass=res.mass, tol=res.tol, units=res.units, result=res)
