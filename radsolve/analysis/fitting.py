@@ -491,6 +491,7 @@ class _Model:
         self.count = max(t.nodes for t in targets) + 1
         self.cache: dict[tuple, tuple] = {}
         self.evaluations = 0
+        self.last = None  # the latest solve: the next one continues from it (its box and energies)
 
     def solve(self, x):
         from radsolve.core.spectrum import solve
@@ -499,13 +500,14 @@ class _Model:
         if key not in self.cache:
             pot = self.base.with_parameters(**dict(zip(self.free, key)))
             try:
-                result = solve(pot, l=self.ls, count=self.count, **self.options)
+                result = solve(pot, l=self.ls, count=self.count, continue_from=self.last, **self.options)
             except RadsolveError as exc:
                 if isinstance(exc, InputError) and exc.parameter is not None and exc.family is None:
                     raise  # about an argument (tol, dimension, ...), the same at every point
                 point = ", ".join(f"{k} = {v:.10g}" for k, v in zip(self.free, key))
                 raise type(exc)(f"fit at {point}: {exc}") from None
             self.evaluations += 1
+            self.last = result
             found = {(lev.l, getattr(lev, "j", None), lev.nodes): lev for lev in result.levels}
             self.cache[key] = (result, found)
         return self.cache[key]

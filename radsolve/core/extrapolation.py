@@ -73,9 +73,12 @@ def _column_settled(column: list, order: int) -> bool:
 
 
 def _settled_below(table: list, use: tuple, j: int) -> bool:
-    """Every column below j shows its promised order: the raw values on their last two
-    triples (four grids at least), each higher column on its last triple."""
+    """Every column below j shows its promised order -- the raw values on their last two
+    triples (four grids at least), each higher column on its last triple -- and so does
+    column j itself once it has three entries."""
     if len(table[0]) < 4 or not (_column_settled(table[0], use[0]) and _column_settled(table[0][:-1], use[0])):
+        return False
+    if len(table[j]) >= 3 and not _column_settled(table[j], use[j]):
         return False
     return all(_column_settled(table[i], use[i]) for i in range(1, j))
 

@@ -386,11 +386,15 @@ def _plan_box(channels, count, mass, targets: Targets, breakpoints) -> _BoxPlan:
     if not confining:
         final_radius, predicted = _verify_box(active, wanted, mass, targets, final_radius, breakpoints, largest,
                                               r_min, statistics)
-    span = _span(r_min, final_radius, COARSE_STEP, breakpoints)
-    halvings = _planning_halvings(active, span, mass, tops, most, _PHASE_COARSE)
-    if halvings:
-        span = _span(r_min, final_radius, COARSE_STEP / 2**halvings, breakpoints)
+    span = _refined_span(r_min, final_radius, breakpoints, active, mass, tops, most)
     at_limit = final_radius >= largest * (1 - 1e-12)
+    notes += _span_notes(span, at_limit, largest)
+    return _BoxPlan(span, wanted, tuple(notes), max(radius, final_radius), largest, span.anchors, at_limit,
+                    predicted, statistics)
+
+
+def _span_notes(span: GridSpan, at_limit: bool, largest: float) -> list[Note]:
+    notes = []
     if at_limit:
         notes.append(Note("box", f"the box reached its largest radius, {largest:.3g}; the most weakly bound "
                           "levels may be limited by it (see their estimates)"))
@@ -398,8 +402,57 @@ def _plan_box(channels, count, mass, targets: Targets, breakpoints) -> _BoxPlan:
         notes.append(Note("breakpoints_left_out", "breakpoints too close together to all be grid points ("
                           + ", ".join(f"{b:.6g}" for b in span.left_out) + "): the error series of every level "
                           "is unreliable, so none is claimed converged"))
-    return _BoxPlan(span, wanted, tuple(notes), max(radius, final_radius), largest, span.anchors, at_limit,
-                    predicted, statistics)
+    return notes
+
+
+def _refined_span(r_min, radius, breakpoints, channels, mass, tops, most) -> GridSpan:
+    """The refinement's span for this box: its coarse step resolves the wanted states (``_PHASE_COARSE``)."""
+    span = _span(r_min, radius, COARSE_STEP, breakpoints)
+    halvings = _planning_halvings(channels, span, mass, tops, most, _PHASE_COARSE)
+    return _span(r_min, radius, COARSE_STEP / 2**halvings, breakpoints) if halvings else span
+
+
+def _continued_plan(previous, channels, count, mass, mu, system: str, dimension: int, targets: Targets,
+                    breakpoints) -> _BoxPlan | None:
+    """A plan from a neighbouring solve's box and energies (see ``solve(continue_from=...)``), or None.
+
+    It applies when the neighbour solved the same partial waves with the
+    same mass, dimension and unit system, in a box (no confining channel),
+    and has a converged level for every node count this solve wants.
+    """
+    if not isinstance(previous, SolveResult) or not previous.levels:
+        return None
+    if previous.dimension != dimension or previous.units != system or previous.mass != mu:
+        return None
+    if any(ch.confining for ch in channels):
+        return None
+    wanted = {ch.key: ch.wanted(count) for ch in channels}
+    by_key: dict = {}
+    for lev in previous.levels:
+        by_key.setdefault((lev.l, lev.j), {})[lev.nodes] = lev
+    predicted = {}
+    for ch in channels:
+        mine = by_key.get(ch.key, {})
+        if set(mine) - set(range(wanted[ch.key])) or len(mine) < wanted[ch.key]:
+            return None
+        chosen = [mine[k] for k in range(wanted[ch.key])]
+        if not all(lev.converged and lev.samples for lev in chosen):
+            return None
+        predicted[ch.key] = ([lev.energy for lev in chosen],
+                             [float(lev.samples[0].r[int(np.argmax(np.abs(lev.samples[0].u)))]) for lev in chosen])
+    active = [ch for ch in channels if wanted[ch.key] > 0]
+    if not active:
+        return None
+    r_min = min(ch.inner_radius for ch in channels)
+    largest = _largest_radius(r_min)
+    radius = min(max(lev.convergence.get("box", 0.0) for lev in previous.levels), largest)
+    if not radius > 4.0 * max(ch.inner_radius for ch in channels):
+        return None
+    tops = {ch.key: ch.reference for ch in active}
+    span = _refined_span(r_min, radius, breakpoints, active, mass, tops, max(wanted.values()))
+    at_limit = radius >= largest * (1 - 1e-12)
+    return _BoxPlan(span, wanted, tuple(_span_notes(span, at_limit, largest)), radius, largest, span.anchors,
+                    at_limit, predicted)
 
 
 def _planning_halvings(channels, span, mass, tops, most: int, phase: float = _PHASE_PLANNING) -> int:
@@ -684,6 +737,7 @@ def solve(
     spin_orbit: bool = False,
     dimension: int = 3,
     units: str | None = None,
+    continue_from: SolveResult | None = None,
     equation: str = "schrodinger",
     scalar: bool = False,
 ) -> SolveResult:
@@ -722,6 +776,14 @@ def solve(
     units : {"atomic", "nuclear"}, optional
         The unit system; by default the one the family is written in.
         Atomic: hartree, bohr, electron masses.  Nuclear: MeV, fm, MeV/c**2.
+    continue_from : SolveResult, optional
+        The solve of a nearby potential (the previous point of a sweep or a
+        fit) with the same l, count, mass, dimension and units: its box is
+        reused (and checked again by the wall's own shift, and grown when a
+        level needs it) and its energies start the eigenvalue searches.  The
+        levels agree with a solve without it within their estimates; it only
+        saves the box search.  Ignored where it does not apply (other
+        channels, a level it lacks or did not converge; relativistic equations).
     equation : {"schrodinger", "dirac", "klein-gordon"}
         The wave equation.  Dirac: levels n l j (kappa), V the time component
         of a vector potential; Klein-Gordon: spin 0.  Both report E - mu c**2
@@ -766,7 +828,8 @@ def solve(
     targets = Targets(tol)
     channels = _channels(pot, ls, bool(spin_orbit), dimension, kinetic, targets)
     breakpoints = _breakpoints(channels)
-    plan = _plan_box(channels, count, kinetic, targets, breakpoints)
+    plan = _continued_plan(continue_from, channels, count, kinetic, mu, system.name, dimension, targets,
+                           breakpoints) or _plan_box(channels, count, kinetic, targets, breakpoints)
 
     runs: dict = {}
     for attempt in range(4):

@@ -256,7 +256,7 @@ def _sweep_points(base, axes, l, count, options, backend: Backend, out, unit, pr
     try:
         try:
             collect([(0, level_block(first, channels, int(count)))])
-            size = 1 if backend.width == 1 else chunk_size(total, backend.width)
+            size = chunk_size(total, backend.width)
             backend.run(settings, chunks_of(range(1, total), values_of, size), collect)
         except KeyboardInterrupt:
             for index in sorted(waiting):  # finished out of order: keep them too

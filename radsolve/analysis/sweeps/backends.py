@@ -16,7 +16,7 @@ from typing import Callable, Iterable, Protocol
 
 
 from radsolve.errors import InputError
-from radsolve.analysis.sweeps.points import solve_chunk
+from radsolve.analysis.sweeps.points import RUN, solve_chunk, solved_in_order
 
 
 #: Seconds to wait for a Dask scheduler to answer.
@@ -49,9 +49,11 @@ def chunks_of(indices: Iterable[int], settings_values: Callable[[int], tuple], s
 
 
 def chunk_size(points: int, workers: int) -> int:
-    # Small chunks keep Ctrl-C prompt and the load balanced; big enough that the
-    # cost of sending a task (~1 ms) is small against a point (~10-300 ms).
-    return int(min(max(points // (workers * 32), 1), 16))
+    """Points per chunk: whole runs of continued points (:data:`points.RUN`), so that a
+    point's row does not depend on the back end.  Small chunks keep Ctrl-C prompt and
+    the load balanced; big enough that sending a task (~1 ms) costs little."""
+    runs = min(max(points // (workers * 32 * RUN), 1), 2)
+    return int(runs * RUN)
 
 
 class Backend(Protocol):
@@ -71,7 +73,8 @@ class Serial:
 
     def run(self, settings, chunks, collect) -> None:
         for chunk in chunks:
-            collect(solve_chunk(settings, chunk))
+            for pair in solved_in_order(settings, chunk):
+                collect([pair])  # each row as soon as it is done (Ctrl-C keeps it)
 
     def close(self) -> None:
         pass

@@ -34,15 +34,33 @@ def describe_point(keys, values) -> str:
     return describe_values(keys, values)
 
 
-def solve_point(settings: Settings, values: tuple) -> tuple:
+#: Points are solved in runs of this many consecutive points (after the first point,
+#: which is solved alone), each continuing from the one before it
+#: (``solve(continue_from=...)``).  Runs start at fixed indices and every back end's
+#: chunks hold whole runs, so a point's row does not depend on the back end.
+RUN = 8
+
+
+def run_of(index: int) -> int:
+    """The run a point belongs to (point 0 is alone, run -1)."""
+    return (index - 1) // RUN if index > 0 else -1
+
+
+def solve_point(settings: Settings, values: tuple, neighbour=None) -> tuple:
     """Energies, errors, converged and bound flags (shape (len(ls), count)) and V(inf)."""
+    return _solved(settings, values, neighbour)[0]
+
+
+def _solved(settings: Settings, values: tuple, neighbour=None):
+    """(the point's block, its SolveResult)."""
     from radsolve.core.spectrum import solve
 
     try:
         pot = settings.base.with_parameters(**dict(zip(settings.keys, values)))
         result = solve(pot, l=list(settings.ls), count=settings.count, mass=settings.mass,
                        tol=settings.tol, method=settings.method, spin_orbit=settings.spin_orbit,
-                       dimension=settings.dimension, units=settings.units, equation=settings.equation)
+                       dimension=settings.dimension, units=settings.units, continue_from=neighbour,
+                       equation=settings.equation)
     except RadsolveError as exc:
         raise type(exc)(f"sweep point {describe_point(settings.keys, values)}: {exc}") from None
     except (KeyboardInterrupt, MemoryError):
@@ -50,7 +68,7 @@ def solve_point(settings: Settings, values: tuple) -> tuple:
     except Exception as exc:  # a solver bug: say where, so that it can be reproduced
         raise SweepPointFailed(f"sweep point {describe_point(settings.keys, values)}: the solver "
                                f"failed with {type(exc).__name__}: {exc}") from exc
-    return level_block(result, settings.channels, settings.count)
+    return level_block(result, settings.channels, settings.count), result
 
 
 def channel_keys(ls: Sequence[int], spin_orbit: bool) -> tuple[tuple[int, float | None], ...]:
@@ -106,5 +124,16 @@ def _missing_state(cert, nodes: int) -> str:
 
 
 def solve_chunk(settings: Settings, chunk: Sequence[tuple[int, tuple]]) -> list[tuple[int, tuple]]:
-    """``solve_point`` for each ``(index, values)`` of ``chunk``."""
-    return [(index, solve_point(settings, values)) for index, values in chunk]
+    """``solve_point`` for each ``(index, values)`` of ``chunk`` (see :func:`solved_in_order`)."""
+    return list(solved_in_order(settings, chunk))
+
+
+def solved_in_order(settings: Settings, chunk: Sequence[tuple[int, tuple]]):
+    """Yield ``(index, block)`` for each point of ``chunk`` as it is solved, each continuing
+    from the point before it when both are in the same run (see :data:`RUN`)."""
+    previous, previous_index = None, None
+    for index, values in chunk:
+        neighbour = previous if (previous_index == index - 1 and run_of(index) == run_of(previous_index)) else None
+        block, previous = _solved(settings, values, neighbour)
+        previous_index = index
+        yield index, block
