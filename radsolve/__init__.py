@@ -86,6 +86,9 @@ _EXPORTS = {
     "CriticalValues": ("radsolve.analysis.thresholds", "CriticalValues"),
     "FitResult": ("radsolve.analysis.fitting", "FitResult"),
     "CheckReport": ("radsolve.analysis.convergence", "CheckReport"),
+    # relativistic levels (issue 11)
+    "DiracStateSummary": ("radsolve.analysis.relativistic", "DiracStateSummary"),
+    "dirac_state": ("radsolve.analysis.relativistic", "dirac_state"),
     # potentials and methods
     "Potential": ("radsolve.potentials", "Potential"),
     "RadialSolver": ("radsolve.core.solvers", "RadialSolver"),

@@ -44,7 +44,7 @@ def test_exact_formula_matches_sympy(n, Z):
 @pytest.fixture(scope="module")
 def small_report():
     # A reduced set: two charges, a light and a heavy reduced mass, n <= 3.
-    return check(tol=1e-10, charges=(1, 10), masses=(1.0, "muon+proton"), nmax=3)
+    return check(tol=1e-10, charges=(1, 10), masses=(1.0, "muon+proton"), nmax=3, equations=("schrodinger",))
 
 
 def test_reduced_check_passes(small_report):

@@ -94,13 +94,24 @@ def _continuum_wave():
     return radsolve.continuum_wave(radsolve.formula_potential("0*r"), 0.5, 0, r=[1.0, 2.0, 3.0], tol=1e-9)
 
 
+def _dirac_state():
+    from radsolve.analysis.relativistic import dirac_state
+
+    return dirac_state(radsolve.potential("coulomb", Z=92), 2, 1, 1.5, tol=1e-8)
+
+
+def _solve_dirac():
+    return radsolve.solve(radsolve.potential("coulomb", Z=40), l=[0, 1], count=2, equation="dirac", tol=1e-8)
+
+
 CASES = {
     "continuum_wave": _continuum_wave,
     "log_derivatives": _log_derivatives, "resonances": _resonances, "scattering_sweep": _scattering_sweep,
     "phase_shifts": _phase_shifts, "scattering": _scattering, "photoionization": _photoionization,
     "solve": _solve_ok, "solve_not_converged": _solve_rounding, "state": _state, "summary": _summary,
     "transitions": _transitions, "threshold": _threshold, "critical_values": _critical_values,
-    "fit": _fit, "check": _check, "sweep": _sweep,
+    "fit": _fit, "check": _check, "sweep": _sweep, "solve_dirac": _solve_dirac,
+    "dirac_state": _dirac_state,
 }
 
 
@@ -112,7 +123,8 @@ CASE_TYPES = {
     "continuum_wave": "ContinuumWave",
     "solve": "SolveResult", "solve_not_converged": "SolveResult", "state": "State", "summary": "StateSummary",
     "transitions": "TransitionResult", "threshold": "ThresholdResult", "critical_values": "CriticalValues",
-    "fit": "FitResult", "check": "CheckReport", "sweep": "SweepResult",
+    "fit": "FitResult", "check": "CheckReport", "sweep": "SweepResult", "solve_dirac": "SolveResult",
+    "dirac_state": "DiracStateSummary",
 }
 
 
@@ -193,6 +205,26 @@ def test_outside_facts(result):
         assert res.success
         for lev in res.levels:
             assert lev.energy == pytest.approx(-0.5 / lev.n**2, rel=1e-8)
+    elif name == "solve_dirac":
+        # Sommerfeld's fine-structure formula (textbook), Z = 40, n = 1, 2, 3
+        from scipy.constants import fine_structure as alpha
+
+        assert res.success and {lev.label for lev in res.levels} == {"1s1/2", "2s1/2", "2p1/2", "3p1/2",
+                                                                       "2p3/2", "3p3/2"}
+        for lev in res.levels:
+            k = lev.l + 1 if lev.j > lev.l else lev.l
+            za = 40 * alpha
+            e = 1.0 / (1.0 + (za / (lev.n - k + (k * k - za * za) ** 0.5)) ** 2) ** 0.5
+            assert lev.energy == pytest.approx((e - 1.0) / alpha**2, rel=1e-8)
+        assert res.to_dict()["equation"] == "dirac"
+    elif name == "dirac_state":
+        # the nodeless Dirac-Coulomb 2p3/2: G, F ~ r^gamma exp(-Z r / 2), gamma = sqrt(4 - (Z alpha)^2), so
+        # <r> = (2 gamma + 1) / Z (textbook closed form), Z = 92
+        from scipy.constants import fine_structure as alpha
+
+        gamma = (4.0 - (92 * alpha) ** 2) ** 0.5
+        row = next(r for r in res.records() if r["quantity"] == "<r^1>")
+        assert row["value"] == pytest.approx((2 * gamma + 1) / 92, rel=1e-8)
     elif name == "solve_not_converged":
         assert res.status is Outcome.NOT_CONVERGED
         assert any(n.code == "not_converged" for n in res.notes)
@@ -246,7 +278,7 @@ def test_outside_facts(result):
         assert row["scattering_length"] == pytest.approx(1.0, abs=1e-7)
         assert row["effective_range"] == pytest.approx(2.0 / 3.0, abs=1e-6)
     elif name == "check":
-        assert res.success and len(res.records()) == len(res.rows) * len(res.methods)
+        assert res.success and len(res.records()) == sum(len(row.outcomes) for row in res.rows)
     elif name in ("threshold", "critical_values"):
         # 1s of the Yukawa potential unbinds at screening length 0.8399 bohr for Z = 1, mu = 1
         # (Rogers, Graboske & Harwood, Phys. Rev. A 1, 1577 (1970); from memory, 4 digits)
@@ -272,7 +304,7 @@ def test_every_result_type_is_exported_and_covered():
 
     for module in ("radsolve.core.result", "radsolve.analysis.observables", "radsolve.analysis.radiative",
                    "radsolve.analysis.thresholds", "radsolve.analysis.fitting", "radsolve.analysis.convergence",
-                   "radsolve.analysis.sweeps", "radsolve.analysis.scattering"):
+                   "radsolve.analysis.sweeps", "radsolve.analysis.scattering", "radsolve.analysis.relativistic"):
         importlib.import_module(module)
 
     def subclasses(cls):

@@ -21,8 +21,19 @@ A result is marked as a failure when
   (common practice: about 50 ulp of accumulated rounding), where no
   estimate can be expected to resolve it.
 
+The relativistic section (``equations`` with ``"dirac"`` and
+``"klein-gordon"``, both in by default) does the same for the Dirac and
+Klein-Gordon equations with the point charge, against (textbook formulas)
+
+    Dirac:         E - mu c^2 = mu c^2 [(1 + (Z a)^2 / (n - |k| + sqrt(k^2 - (Z a)^2))^2)^(-1/2) - 1]
+    Klein-Gordon:  E - mu c^2 = mu c^2 [(1 + (Z a)^2 / (n - l - 1/2 + sqrt((l + 1/2)^2 - (Z a)^2))^2)^(-1/2) - 1]
+
+(a = alpha, k = kappa; also computed here, not by the solver's code).  Levels
+whose point-charge solution does not exist (Z alpha >= |kappa|, or >= l + 1/2
+for Klein-Gordon) are not compared.
+
 This is a self-test of the numerics, not a statement about real atoms: the
-model has no fine structure, no Lamb shift and no finite nuclear size.
+model has no Lamb shift, no hyperfine structure and no finite nuclear size.
 """
 
 from __future__ import annotations
@@ -44,6 +55,30 @@ DEFAULT_METHODS = tuple(METHODS)  # every registered method
 #: The full set of cases and the reduced one of ``check(quick=True)``.
 FULL_SET = {"charges": DEFAULT_CHARGES, "masses": DEFAULT_MASSES, "nmax": 10}
 QUICK_SET = {"charges": (1, 92), "masses": (1.0,), "nmax": 4}
+
+
+def exact_relativistic_energy(equation: str, n: int, l: int, j: float | None, Z: float, mass: float) -> float | None:
+    """E - mu c^2 of the point charge for the Dirac (with j) or Klein-Gordon equation, hartree (textbook formulas).
+
+    None where the point-charge level does not exist (Z alpha too large).  Written with expm1/log1p so
+    that weak binding keeps its digits.
+    """
+    import math
+
+    from scipy.constants import fine_structure
+
+    za = Z * fine_structure
+    rest = mass / fine_structure**2
+    if equation == "dirac":
+        k = l + 1 if j > l else l
+        if za >= k:
+            return None
+        nu = n - k + math.sqrt(k * k - za * za)
+    else:
+        if za >= l + 0.5:
+            return None
+        nu = n - l - 0.5 + math.sqrt((l + 0.5) ** 2 - za * za)
+    return rest * math.expm1(-0.5 * math.log1p((za / nu) ** 2))
 
 
 def exact_coulomb_energy(n: int, Z: float, mass: float) -> float:
@@ -119,6 +154,8 @@ class CheckRow:
     l: int
     exact: float
     outcomes: dict[str, MethodOutcome]
+    equation: str = "schrodinger"
+    j: float | None = None
 
     def energy(self, method: str) -> float | None:
         return self.outcomes[method].energy
@@ -190,7 +227,8 @@ class CheckReport(ResultProtocol):
         rows = []
         for row in self.rows:
             for method, o in row.outcomes.items():
-                rows.append({"label": row.label, "n": row.n, "l": row.l, "Z": row.Z, "mass": row.mass,
+                rows.append({"equation": row.equation, "label": row.label, "n": row.n, "l": row.l, "j": row.j,
+                             "Z": row.Z, "mass": row.mass,
                              "mass_name": row.mass_name, "method": method, "exact": row.exact,
                              "energy": o.energy, "error_estimate": o.error_estimate,
                              "relative_error": o.relative_error, "relative_estimate": o.relative_estimate,
@@ -209,11 +247,14 @@ class CheckReport(ResultProtocol):
     @property
     def verdict(self) -> str:
         """One line: passed or failed, and how many results were compared."""
-        total = len(self.rows) * len(self.methods)
+        total = sum(len(row.outcomes) for row in self.rows)
         n_fail = len(self.failures)
         if not self.rows:
             return "check FAILED: nothing was compared"
         if n_fail == 0:
+            if total != len(self.rows) * len(self.methods):  # the Dirac rows add the first-order method
+                return (f"check passed: {len(self.rows)} levels, {total} results within tol {self.tol:.1e}, "
+                        "estimates honest")
             return (f"check passed: {len(self.rows)} levels x {len(self.methods)} methods "
                     f"within tol {self.tol:.1e}, estimates honest")
         return (f"check FAILED: {n_fail} of {total} results marked "
@@ -247,7 +288,8 @@ def check(tol: float = 1e-10, *,
           nmax: int | None = None,
           methods: Sequence[str] = DEFAULT_METHODS,
           progress: Callable[[str], None] | None = None,
-          quick: bool = False) -> CheckReport:
+          quick: bool = False,
+          equations: Sequence[str] = ("schrodinger", "dirac", "klein-gordon")) -> CheckReport:
     """Solve -Z/r for each charge, mass and method and compare with exact levels.
 
     Parameters
@@ -272,6 +314,9 @@ def check(tol: float = 1e-10, *,
     quick : bool
         The reduced set :data:`QUICK_SET` (a fast smoke run) for every one
         of ``charges``, ``masses``, ``nmax`` not given.
+    equations : sequence of str
+        The wave equations checked (``"schrodinger"``, ``"dirac"``,
+        ``"klein-gordon"``; every one by default).
 
     Returns
     -------
@@ -303,8 +348,22 @@ def check(tol: float = 1e-10, *,
     if not methods:
         raise InputError("methods: at least one method is needed", parameter="methods")
 
+    from radsolve.core.relativistic import SCHRODINGER, validated_equation
+
+    equations = tuple(dict.fromkeys(validated_equation(e) for e in equations))
+    if not equations:
+        raise InputError("equations: at least one equation is needed", parameter="equations")
     rows: list[CheckRow] = []
     failures: list[str] = []
+    for equation in equations:
+        if equation != SCHRODINGER:
+            for Z in charges:
+                if not Z > 0:
+                    raise InputError(f"charges must be positive, got {Z!r}", parameter="charges")
+                rows += _relativistic_block(equation, Z, masses, nmax, methods, tol, progress, failures)
+    if SCHRODINGER not in equations:
+        return CheckReport(rows=rows, tol=tol, methods=methods, failures=failures)
+    relativistic_rows, rows = rows, []
     for Z in charges:
         if not Z > 0:
             raise InputError(f"charges must be positive, got {Z!r}", parameter="charges")
@@ -350,7 +409,60 @@ def check(tol: float = 1e-10, *,
                                 f"Z={Z:g} mass={mass_spec} {row.label} {method}: "
                                 + "; ".join(outcome.problems))
             rows += sorted(block.values(), key=lambda r: (r.l, r.n))
-    return CheckReport(rows=rows, tol=tol, methods=methods, failures=failures)
+    return CheckReport(rows=rows + relativistic_rows, tol=tol, methods=methods, failures=failures)
+
+
+def _relativistic_block(equation, Z, masses, nmax, methods, tol, progress, failures) -> list[CheckRow]:
+    """The Dirac or Klein-Gordon rows of one charge, every mass and method (see the module docstring)."""
+    from radsolve.errors import RadsolveError
+    from radsolve.core.result import level_designation
+    from radsolve.core.spectrum import solve
+    from radsolve.units import parse_mass
+
+    rows: list[CheckRow] = []
+    pot = _coulomb(Z)
+    for mass_spec in masses:
+        mu = parse_mass(mass_spec)
+        block: dict = {}
+        for l in range(nmax):
+            for j in ((None,) if equation != "dirac" else ((0.5,) if l == 0 else (l - 0.5, l + 0.5))):
+                for n in range(l + 1, nmax + 1):
+                    exact = exact_relativistic_energy(equation, n, l, j, Z, mu)
+                    if exact is not None:
+                        label = level_designation(n - l - 1, l, j)[1]
+                        block[(n, l, j)] = CheckRow(Z, mu, str(mass_spec), label, n, l, exact, {}, equation, j)
+        ls = sorted({l for (_, l, _) in block})
+        # the Dirac equation's own independent method is checked beside the registered ones
+        own = ("first-order",) if equation == "dirac" and "first-order" not in methods else ()
+        for method in tuple(methods) + own:
+            if progress is not None:
+                progress(f"{equation}: Z = {Z:g}, mass = {mass_spec}, method {method}")
+            for l in ls:
+                found, reason = {}, "missing"
+                try:
+                    res = solve(pot, l=l, count=nmax - l, mass=mu, tol=tol, method=method, equation=equation)
+                    found = {(lev.n, lev.l, lev.j): lev for lev in res.levels}
+                except RadsolveError as exc:
+                    reason = f"missing ({exc})"
+                for key, row in block.items():
+                    if key[1] != l:
+                        continue
+                    lev = found.get(key)
+                    if lev is None:
+                        outcome = MethodOutcome(None, None, None, None, None, False, [reason])
+                    else:
+                        scale = abs(row.exact)
+                        outcome = MethodOutcome(float(lev.energy), float(lev.error_estimate),
+                                                (float(lev.energy) - row.exact) / scale,
+                                                float(lev.error_estimate) / scale,
+                                                None if lev.order is None else float(lev.order), bool(lev.converged))
+                        _assess(outcome, row.exact, tol)
+                    row.outcomes[method] = outcome
+                    if outcome.failed:
+                        failures.append(f"{equation} Z={Z:g} mass={mass_spec} {row.label} {method}: "
+                                        + "; ".join(outcome.problems))
+        rows += sorted(block.values(), key=lambda r: (r.l, r.j or 0.0, r.n))
+    return rows
 
 
 #: Short marks used in the table, and their meaning (printed as a legend).
@@ -388,22 +500,24 @@ def format_check(report: CheckReport) -> str:
         + f" (by more than {UNDERSTATEMENT_FACTOR:g}x, above {DOUBLE_PRECISION_FLOOR:g}|E|)",
     ):
         lines += _wrap(text)
-    blocks: dict[tuple[float, str], list[CheckRow]] = {}
+    if any(row.equation != "schrodinger" for row in report.rows):
+        lines += _wrap("relativistic section (point charge, textbook formulas): Dirac, Sommerfeld's "
+                       "fine-structure formula; Klein-Gordon, its Coulomb formula; energies E - mu c^2; "
+                       "levels without a point-charge solution (Z alpha >= |kappa|, >= l + 1/2) are left out")
+    blocks: dict[tuple, list[CheckRow]] = {}
     for row in report.rows:
-        blocks.setdefault((row.Z, row.mass_name), []).append(row)
+        blocks.setdefault((row.equation, row.Z, row.mass_name), []).append(row)
     header = ["level", "source", "energy", "rel.err", "rel.est", "order", ""]
-    for (Z, mass_name), rows in blocks.items():
+    for (equation, Z, mass_name), rows in blocks.items():
         mu = rows[0].mass
         lines.append("")
         name = "" if mass_name == str(mu) or _is_number(mass_name) else f" ({mass_name})"
-        lines.append(f"== Z = {Z:g}, reduced mass {mu:.10g} electron masses{name}")
+        what = "" if equation == "schrodinger" else f", {equation}"
+        lines.append(f"== Z = {Z:g}, reduced mass {mu:.10g} electron masses{name}{what}")
         table = []
         for row in rows:
             table.append([row.label, "exact", f"{row.exact:#.13g}", "", "", "", ""])
-            for method in report.methods:
-                o = row.outcomes.get(method)
-                if o is None:
-                    continue
+            for method, o in row.outcomes.items():
                 mark = " ".join(_mark(p) for p in o.problems)
                 table.append(["", method, "-" if o.energy is None else f"{o.energy:#.13g}",
                               _num(o.relative_error, "+.1e"), _num(o.relative_estimate, ".1e"),

@@ -558,7 +558,7 @@ def _spurious(pot, targets: Sequence[Target], options, to_hartree: float) -> tup
     top = max(t.energy for t in targets)
     wanted = {(t.l, t.j, t.nodes) for t in targets}
     lmax_target = max(t.l for t in targets)
-    patience = 3 if options.get("spin_orbit") else 1
+    patience = 3 if options.get("spin_orbit") or options.get("equation") == "dirac" else 1
     extra: list[tuple[str, float]] = []
     notes: list[str] = []
     empty_run = 0
@@ -584,7 +584,7 @@ def _spurious(pot, targets: Sequence[Target], options, to_hartree: float) -> tup
 
 def fit(potential, targets, *, free, bounds=None, fixed=None, mass=None, tol: float = 1e-10,
         method: str = "fd", plugins=None, max_evaluations: int = 400, dimension: int = 3,
-        units: str | None = None) -> FitResult:
+        units: str | None = None, equation: str = "schrodinger") -> FitResult:
     """Fit free parameters of a potential family to target levels.
 
     Parameters
@@ -636,6 +636,17 @@ def fit(potential, targets, *, free, bounds=None, fixed=None, mass=None, tol: fl
     if len(with_j) > 1:
         raise InputError("targets: give j for every target (as in 1p3/2) or for none", parameter="targets")
     spin_orbit = with_j == {True}
+    from radsolve.core.relativistic import DIRAC, KLEIN_GORDON, validated_equation
+
+    equation = validated_equation(equation)
+    if equation == DIRAC:  # Dirac levels carry j by themselves: every target names it, no spin-orbit term
+        if with_j != {True}:
+            raise InputError("targets: Dirac levels are labelled with j (as in 2p3/2); give j for every target",
+                             parameter="targets")
+        spin_orbit = False
+    elif equation == KLEIN_GORDON and spin_orbit:
+        raise InputError("targets: Klein-Gordon levels (spin 0) have no j; give labels such as 2p",
+                         parameter="targets")
     if len(target_list) < len(free):
         raise InputError(f"{len(target_list)} target level(s) cannot determine {len(free)} free parameters; "
                          "give at least as many targets as free parameters")
@@ -655,7 +666,7 @@ def fit(potential, targets, *, free, bounds=None, fixed=None, mass=None, tol: fl
                      np.where(np.isfinite(hi), hi - 1e-10 * np.maximum(np.abs(hi), 1.0), hi))
 
     options = dict(mass=mass, tol=tol, method=method, spin_orbit=spin_orbit, dimension=dimension,
-                   units=units)
+                   units=units, **({} if equation == "schrodinger" else {"equation": equation}))
     to_hartree = system.energy_factor()
     model = _Model(base, free, target_list, options, to_hartree)
     start_result, start_found = model.solve(x0)

@@ -622,7 +622,8 @@ def transitions_from(result, nmax: int | None = None, *, dipole_charge: float = 
 
 
 def transitions(potential, nmax: int, *, mass=None, tol: float = 1e-10, method: str = "fd",
-                plugins=None, dipole_charge: float = 1.0, occupied=()) -> TransitionResult:
+                plugins=None, dipole_charge: float = 1.0, occupied=(),
+                equation: str = "schrodinger") -> TransitionResult:
     """Every E1 line, lifetime and branching ratio among the bound levels with n <= nmax.
 
     One :func:`radsolve.solve` call computes l = 0 ... nmax-1 with nmax
@@ -647,13 +648,20 @@ def transitions(potential, nmax: int, *, mass=None, tol: float = 1e-10, method: 
         Factor multiplying the dipole operator -e r.
     occupied : sequence of str or str
         Levels filled by core electrons, left out (see :func:`transitions_from`).
+    equation : str
+        Only ``"schrodinger"`` so far (a relativistic one is refused with a message).
 
     Returns
     -------
     TransitionResult
     """
+    from radsolve.core.relativistic import SCHRODINGER, validated_equation
     from radsolve.core.spectrum import solve
 
+    if validated_equation(equation) != SCHRODINGER:
+        raise InputError(f"E1 tables of {validated_equation(equation)} levels are not implemented yet; only "
+                         "equation='schrodinger' (from Python, radsolve.analysis.relativistic.e1_lines lists "
+                         "Dirac lines, lifetimes and branching)", parameter="equation")
     nmax = _check_nmax(nmax)
     _check_dipole_charge(dipole_charge)  # before anything is solved
     _occupied_labels(occupied)

@@ -230,6 +230,7 @@ class ThresholdResult(ResultProtocol):
     units: str = "atomic"
     energy_unit: str = "hartree"
     dimension: int = 3
+    equation: str = "schrodinger"
 
     @property
     def approach(self) -> str:
@@ -301,6 +302,7 @@ class ThresholdResult(ResultProtocol):
             "dimension": self.dimension, "success": self.success, "status": str(self.status),
             "message": self.message,
             "note": MODEL_NOTE,
+            **({} if self.equation == "schrodinger" else {"equation": self.equation}),
         }
 
 
@@ -494,6 +496,47 @@ class _ZeroEnergy:
 # --------------------------------------------------------------------------- #
 # Brackets
 # --------------------------------------------------------------------------- #
+
+class _RelativisticZeroEnergy(_ZeroEnergy):
+    """The same for a Dirac or Klein-Gordon channel: its exact second-order form at W = V(inf).
+
+    The level with k nodes is bound exactly when the k-th level of V_eff(.; V(inf)) lies below
+    V(inf) (see :mod:`radsolve.core.relativistic.selfconsistent`), so its threshold is that of the
+    fixed potential V_eff(.; V(inf)), whose zero-energy solution the machinery above follows.
+    """
+
+    def relativistic(self, equation: str, system_name: str, mu: float) -> None:
+        from radsolve.core.relativistic.front import hbar_c, rest_energy
+
+        self.equation, self.hbar_c, self.rest = equation, hbar_c(system_name), rest_energy(system_name, mu)
+        self.system_name = system_name
+
+    def profile(self, p: float):
+        from radsolve.core import probe
+        from radsolve.core.relativistic import DIRAC
+        from radsolve.core.relativistic import front
+        from radsolve.core.relativistic.effective import RelativisticChannel, kappa_of
+
+        key = (float(p), self.scan_breakpoints)
+        if key not in self._profiles:
+            base = self.potential(p)
+            raw = base.channel(self.l, None) if getattr(base, "l_dependent", False) else base
+            raw_prof = probe.profile(raw, self.mass, scan_breakpoints=self.scan_breakpoints)
+            name = "Dirac" if self.equation == DIRAC else "Klein-Gordon"
+            z_alpha = front._check_potential(raw, raw_prof, name, self.hbar_c, self.rest, None)
+            kappa = kappa_of(self.l, self.j) if self.equation == DIRAC else None
+            front._check_point_charge(z_alpha, self.l, kappa, name)
+            if self.equation == DIRAC:
+                front._check_continuous(raw, raw_prof, None)
+            channel = RelativisticChannel(self.equation, self.l, self.j if self.equation == DIRAC else None,
+                                          kappa, self.rest, self.hbar_c, raw, None, raw_prof.v_infinity,
+                                          tuple(raw_prof.breakpoints))
+            pot = front._effective_potential(channel, self.system_name)
+            prof = probe.profile(pot, self.mass, scan_breakpoints=self.scan_breakpoints)
+            prof.check_bounded_below(self.effective, self.mass)
+            self._profiles[key] = (pot, prof)
+        return self._profiles[key]
+
 
 def _narrow(problem: _ZeroEnergy, k: int, lo: float, hi: float, n_lo: int, n_hi: int) -> tuple[float, float]:
     """Shrink [lo, hi] until its ends have k and k + 1 nodes (either way round)."""
@@ -713,7 +756,8 @@ def _slope_on(problem: _ZeroEnergy, layout: _Layout, p_c: float, refinement: int
 
 
 def threshold(potential, parameter: str, *, level: str = DEFAULT_LEVEL, bracket=None, fixed=None, mass=None,
-              tol: float = 1e-9, plugins=None, units: str | None = None, dimension: int = 3) -> ThresholdResult:
+              tol: float = 1e-9, plugins=None, units: str | None = None, dimension: int = 3,
+              equation: str = "schrodinger") -> ThresholdResult:
     """The parameter value at which ``level`` reaches the continuum threshold E = V(inf).
 
     Parameters
@@ -743,6 +787,11 @@ def threshold(potential, parameter: str, *, level: str = DEFAULT_LEVEL, bracket=
     dimension : int
         Space dimension (centrifugal term with L = l + (d-3)/2); L > -1/2 is
         needed (in two dimensions an s level is bound by any net attraction).
+    equation : {"schrodinger", "dirac", "klein-gordon"}
+        The wave equation.  Relativistic: the threshold of the exact
+        second-order form's effective potential at W = V(inf) (see
+        :mod:`radsolve.core.relativistic`); Dirac levels carry j (``"1s1/2"``).
+        The slope dE/dp is not reported for them yet (None).
 
     Returns
     -------
@@ -769,14 +818,28 @@ def threshold(potential, parameter: str, *, level: str = DEFAULT_LEVEL, bracket=
         raise NoThresholdError(f"in {dimension} dimensions the lowest s level (L = -1/2) is bound by any "
                                "net attraction, however weak: there is no threshold to find (the "
                                "higher s levels have one)")
-    if j is not None and not getattr(base, "has_spin_orbit", False):
+    from radsolve.core.relativistic import DIRAC, SCHRODINGER, validated_equation
+
+    equation = validated_equation(equation)
+    if equation == DIRAC:
+        if j is None:
+            raise InputError(f"level {level!r}: Dirac levels are labelled with j (e.g. 1s1/2, 2p3/2)",
+                             parameter="level")
+    elif j is not None and not getattr(base, "has_spin_orbit", False):
         raise InputError(f"level {level!r} names j, but potential {family.name!r} has no spin-orbit "
                          "term; give the label without j (e.g. 1p)", parameter="level")
+    if equation != SCHRODINGER and dimension != 3:
+        raise InputError(f"the {equation} equation is solved in three dimensions only", parameter="dimension")
     mu = system.parse_mass(mass)
     from radsolve.core.targets import THRESHOLD_TOL_RANGE, validated_tol
 
     tol = validated_tol(tol, "tol", THRESHOLD_TOL_RANGE)
-    problem = _ZeroEnergy(base, parameter, l, system.kinetic_mass(mu), tol, j=j, dimension=int(dimension))
+    if equation == SCHRODINGER:
+        problem = _ZeroEnergy(base, parameter, l, system.kinetic_mass(mu), tol, j=j, dimension=int(dimension))
+    else:
+        problem = _RelativisticZeroEnergy(base, parameter, l, system.kinetic_mass(mu), tol, j=j,
+                                          dimension=3)
+        problem.relativistic(equation, system.name, mu)
     wave = f"l = {l}" + ("" if j is None else f", j = {int(round(2 * j))}/2")
     given = _parse_bracket(bracket, spec, parameter, family.name)
     if given is None:
@@ -815,6 +878,9 @@ def threshold(potential, parameter: str, *, level: str = DEFAULT_LEVEL, bracket=
     # law's decaying solution, whose norm is added in closed form; on a much
     # larger box the last rounding of p_c (a tiny growing part) would dominate u.
     slope, slope_error = _slope(problem, first_layout, value, refinement)
+    if equation != SCHRODINGER:
+        # that is the slope of the effective problem's level, not of W = E - mc^2: not reported
+        slope, slope_error = None, None
     scale = abs(value) if value != 0 else max(abs(outer[0]), abs(outer[1]))
     return ThresholdResult(
         potential=family.name, parameter=parameter, parameter_unit=spec.unit,
@@ -823,7 +889,7 @@ def threshold(potential, parameter: str, *, level: str = DEFAULT_LEVEL, bracket=
         converged=bool(error <= tol * scale), bound_side=bound_side, bracket=outer,
         box_radius=float(layout.r_max), slope=slope, slope_error=slope_error,
         fixed={kk: v for kk, v in base.parameters.items() if kk != parameter}, mass=mu, tol=tol,
-        j=j, units=system.name, energy_unit=system.energy_unit, dimension=int(dimension),
+        j=j, units=system.name, energy_unit=system.energy_unit, dimension=int(dimension), equation=equation,
     )
 
 
@@ -849,7 +915,7 @@ def _refine(problem: _ZeroEnergy, lo: float, hi: float, outer, tol: float):
 def critical_values(potential, parameter: str, *, nmax: int | None = None, bracket=None, fixed=None, mass=None,
                tol: float = 1e-9, plugins=None, levels: Sequence[str] | None = None,
                lmax: int | None = None, spin_orbit: bool = False, units: str | None = None,
-               dimension: int = 3) -> "CriticalValues":
+               dimension: int = 3, equation: str = "schrodinger") -> "CriticalValues":
     """The critical values of every level with n <= ``nmax``, or of ``levels``.
 
     Give ``nmax`` or ``levels``, not both; with neither, the level is
@@ -858,9 +924,19 @@ def critical_values(potential, parameter: str, *, nmax: int | None = None, brack
     labels (n = nodes + 1) need ``lmax``.  With ``spin_orbit`` each l > 0
     gives both j = l -+ 1/2.  The other parameters are those of
     :func:`threshold`; ``bracket`` (if given) must contain every threshold
-    asked for.  Results are ordered by n, then l, then j.
+    asked for.  Results are ordered by n, then l, then j.  ``equation="dirac"``
+    labels every level with j, as spin-orbit does (the spin-orbit coupling is in
+    the equation; ``spin_orbit`` itself is refused with it).
     """
+    from radsolve.core.relativistic import DIRAC, SCHRODINGER, validated_equation
     from radsolve.potentials import Potential, get_family
+
+    equation = validated_equation(equation)
+    if spin_orbit and equation != SCHRODINGER:
+        raise InputError(f"spin_orbit cannot be used with equation={equation!r}: the Dirac equation has the "
+                         "spin-orbit coupling inside (its levels carry j), a Klein-Gordon particle has spin 0",
+                         parameter="spin_orbit")
+    with_j = spin_orbit or equation == DIRAC
 
     family = potential.family if isinstance(potential, Potential) else get_family(potential, plugins)
     system = units or getattr(family, "units", "atomic")
@@ -888,7 +964,7 @@ def critical_values(potential, parameter: str, *, nmax: int | None = None, brack
             else:
                 top = n - 1 if lmax is None else min(int(lmax), n - 1)
             for l in range(top + 1):
-                js = ([1] if l == 0 else [2 * l - 1, 2 * l + 1]) if spin_orbit else [None]
+                js = ([1] if l == 0 else [2 * l - 1, 2 * l + 1]) if with_j else [None]
                 labels += [level_label(n, l) + ("" if t is None else f"{t}/2") for t in js]
     else:
         if isinstance(levels, str):
@@ -897,7 +973,8 @@ def critical_values(potential, parameter: str, *, nmax: int | None = None, brack
         if not labels:
             raise InputError("levels: at least one level label is needed", parameter="levels")
     return CriticalValues([threshold(potential, parameter, level=lab, bracket=bracket, fixed=fixed, mass=mass,
-                                     tol=tol, plugins=plugins, units=units, dimension=dimension)
+                                     tol=tol, plugins=plugins, units=units, dimension=dimension,
+                                     equation=equation)
                            for lab in labels])
 
 
@@ -948,7 +1025,8 @@ def format_thresholds(results: Sequence[ThresholdResult]) -> str:
     mass_unit = "MeV/c^2" if first.units == "nuclear" else "electron masses"
     lines = [f"binding thresholds of {first.potential} in {first.parameter}"
              + (f" ({unit})" if unit else "") + (f"; {fixed}" if fixed else "")
-             + f"; reduced mass {first.mass:.10g} {mass_unit}", ""]
+             + f"; reduced mass {first.mass:.10g} {mass_unit}"
+             + ("" if first.equation == "schrodinger" else f"; {first.equation} equation"), ""]
     header = ["level", f"{first.parameter}_c", "est.err", "conv", "bound", "approach"]
     rows = []
     for res in results:

@@ -59,6 +59,7 @@ OPTION_OF = {
     # above the threshold (cli/continuum.py)
     "energies": "--energies", "hard_core": "--hard-core", "photon_energies": "--photons",
     "reference": "--reference",
+    "equation": "--equation", "scalar": "--scalar",
 }
 
 

@@ -12,7 +12,7 @@ from radsolve.cli.adapter import (OutputFormat, say, reported_errors, parse_assi
                                   l_values, only_given, write_output, solver_call, folder_exists)
 from radsolve.cli.options import (FormatOption, OutFileOption, NameArgument, ParamOption, LOption, LmaxOption, CountOption, MassOption,
                                   PluginsOption, MethodOption, UnitsOption, TolOption, OutputUnitOption,
-                                  SpinOrbitOption, DimensionOption)
+                                  SpinOrbitOption, DimensionOption, EquationOption, ScalarOption)
 from radsolve.core.targets import JUDGED_TOL_RANGE, TOL_RANGE
 
 
@@ -29,6 +29,8 @@ def levels_command(
     units: UnitsOption = None,
     spin_orbit: SpinOrbitOption = False,
     dimension: DimensionOption = 3,
+    equation: EquationOption = "schrodinger",
+    scalar: ScalarOption = False,
     expr: Annotated[Optional[str], typer.Option(
         "--expr", metavar="EXPR",
         help="with NAME 'formula': V(r) as an expression in r and parameters, e.g. "
@@ -79,8 +81,8 @@ def levels_command(
         from radsolve.core.spectrum import solve
 
         result = solver_call(pot, solve, pot, count=count, mass=mass, tol=tol, method=method,
-                              spin_orbit=spin_orbit, dimension=dimension,
-                              **only_given(l=ls, units=units))
+                              spin_orbit=spin_orbit, dimension=dimension, equation=equation,
+                              **only_given(l=ls, units=units), **({"scalar": True} if scalar else {}))
         write_output(render(result, unit, fmt.value), out, f"{len(result.levels)} levels ({fmt.value})")
         noteworthy = (not result.success or not result.levels
                       or any(v is not None for v in result.bound_counts.values()))
@@ -150,6 +152,9 @@ def check_command(
     ] = False,
 ) -> None:
     """Solve -Z/r with every method and compare with the exact -mu Z^2/(2 n^2).
+
+    A relativistic section does the same for the Dirac equation (Sommerfeld's
+    formula; also with its first-order method) and the Klein-Gordon equation.
 
     The full set: Z = 1, 2, 10, 92; reduced mass 1, electron+proton and
     muon+proton; every n <= 10 and l < n. Each level is marked when its

@@ -11,6 +11,7 @@ from radsolve.cli.adapter import OutputFormat, ReportFormat
 
 from radsolve.core.solvers.registry import DESCRIPTIONS, EVERY_METHOD
 from radsolve.core.inputs import COUNT_MAX, DIMENSION_RANGE, L_MAX
+from radsolve.core.relativistic import EQUATIONS
 from radsolve.core.targets import TOL_RANGE
 from radsolve.units import ENERGY_UNITS, MASS_UNITS, PARTICLES, UNIT_SYSTEMS
 
@@ -88,6 +89,17 @@ AtomicOutputUnitOption = Annotated[str, typer.Option(
 
 SpinOrbitOption = Annotated[bool, typer.Option(
     "--spin-orbit", help="split each l > 0 into j = l -+ 1/2 with the potential's spin-orbit term")]
+
+
+# The relativistic equations (issue 11).
+EquationOption = Annotated[str, typer.Option(
+    "--equation", metavar="EQ",
+    help="wave equation: " + ", ".join(EQUATIONS) + " (Dirac: levels n l j, spin-orbit built in; "
+    "relativistic energies are E - mc^2 with the reduced mass; Dirac also takes --method first-order, "
+    "shooting of G and F, and --method both runs fd and first-order)")]
+
+ScalarOption = Annotated[bool, typer.Option(
+    "--scalar", help="dirac / klein-gordon: add the family's Lorentz-scalar potential")]
 
 
 DimensionOption = Annotated[int, typer.Option(

@@ -13,7 +13,7 @@ from radsolve.cli.adapter import (ReportFormat, say, fail, reported_errors, pars
                                   l_values, only_given, check_png, write_output)
 from radsolve.cli.options import (ReportFormatOption, OutFileOption, ParamOption, LOption, LmaxOption, CountOption, MassOption, PluginsOption,
                                   MethodOption, UnitsOption, TolOption, OutputUnitOption, SpinOrbitOption,
-                                  DimensionOption)
+                                  DimensionOption, EquationOption)
 from radsolve.core.targets import THRESHOLD_TOL_RANGE
 
 
@@ -37,6 +37,7 @@ def sweep_command(
     units: UnitsOption = None,
     dimension: DimensionOption = 3,
     spin_orbit: SpinOrbitOption = False,
+    equation: EquationOption = "schrodinger",
     out: Annotated[Optional[Path], typer.Option(
         "--out", "-o", metavar="FILE",
         help="write the rows to FILE.csv or FILE.json as they finish, or FILE.nc (NetCDF, at the end; "
@@ -102,7 +103,7 @@ def sweep_command(
                            method=method, plugins=plugin_dirs(plugins), workers=workers,
                            cluster=cluster, out=out if out is not None else sys.stdout, unit=unit,
                            spin_orbit=spin_orbit, dimension=dimension, progress=progress,
-                           **only_given(l=ls, units=units))
+                           equation=equation, **only_given(l=ls, units=units))
         except SweepInterrupted as stop:
             partial = stop.partial
             where = f"in {out}" if out is not None else "on stdout"
@@ -164,6 +165,7 @@ def threshold_command(
              f"{THRESHOLD_TOL_RANGE[1]:g})")] = 1e-9,
     units: UnitsOption = None,
     dimension: DimensionOption = 3,
+    equation: EquationOption = "schrodinger",
     spin_orbit: Annotated[bool, typer.Option(
         "--spin-orbit", help="with --nmax: both j = l -+ 1/2 of each l > 0 (with --level, "
                              "give j in the label, e.g. 1p3/2)")] = False,
@@ -195,7 +197,7 @@ def threshold_command(
         results = critical_values(family.name, vary, nmax=nmax, bracket=pair, fixed=params, mass=mass,
                                   tol=tol, plugins=plugin_dirs(plugins), levels=level or None,
                                   lmax=lmax, spin_orbit=spin_orbit, dimension=dimension,
-                                  units=units)
+                                  units=units, equation=equation)
         if fmt is ReportFormat.json:
             from radsolve.core.serialize import dumps_json
 
@@ -228,6 +230,7 @@ def fit_command(
     unit: OutputUnitOption = None,
     units: UnitsOption = None,
     dimension: DimensionOption = 3,
+    equation: EquationOption = "schrodinger",
     fmt: ReportFormatOption = ReportFormat.table,
     out: Annotated[Optional[Path], typer.Option(
         "--out", "-o", metavar="FILE", help="write the report to FILE instead of stdout")] = None,
@@ -266,7 +269,7 @@ def fit_command(
         result = fit(name, str(targets), free=names, bounds=bounds, fixed=params, mass=mass, tol=tol,
                      method=method, plugins=plugin_dirs(plugins),
                      max_evaluations=max_evaluations, dimension=dimension,
-                     units=units)
+                     units=units, equation=equation)
         from radsolve.output.report import render
 
         text = render(result, unit, fmt.value)

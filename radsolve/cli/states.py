@@ -10,7 +10,7 @@ import typer
 from radsolve.cli.adapter import (OutputFormat, say, reported_errors, parse_assignments, plugin_dirs,
                                   with_option, write_output, solver_call, folder_exists)
 from radsolve.cli.options import (FormatOption, OutFileOption, NameArgument, ParamOption, MassOption, PluginsOption, MethodOption,
-                                  TolOption, AtomicOutputUnitOption)
+                                  TolOption, AtomicOutputUnitOption, EquationOption)
 
 
 def wave_command(
@@ -22,6 +22,7 @@ def wave_command(
     mass: MassOption = None,
     tol: TolOption = 1e-10,
     method: MethodOption = "fd",
+    equation: EquationOption = "schrodinger",
     unit: AtomicOutputUnitOption = "hartree",
     at: Annotated[Optional[list[str]], typer.Option(
         "--at", metavar="R",
@@ -85,7 +86,7 @@ def wave_command(
         from radsolve.potentials import potential
 
         pot = potential(name, plugins=plugin_dirs(plugins), **params)
-        st = solver_call(pot, make_state, pot, n, l, mass=mass, tol=tol, method=method)
+        st = solver_call(pot, make_state, pot, n, l, mass=mass, tol=tol, method=method, equation=equation)
 
         summary = st.summary(moments=moment or [], inside=limits, hellmann_feynman=hellmann_feynman or [])
         props, extra = summary.properties, summary.extra
@@ -124,6 +125,7 @@ def transitions_command(
     mass: MassOption = None,
     tol: TolOption = 1e-10,
     method: MethodOption = "fd",
+    equation: EquationOption = "schrodinger",
     unit: AtomicOutputUnitOption = "hartree",
     fmt: FormatOption = OutputFormat.table,
     out: OutFileOption = None,
@@ -166,7 +168,7 @@ def transitions_command(
 
         pot = potential(name, plugins=plugin_dirs(plugins), **params)
         tr = solver_call(pot, transitions, pot, nmax, mass=mass, tol=tol, method=method,
-                          dipole_charge=dipole_charge, occupied=occupied or ())
+                          dipole_charge=dipole_charge, occupied=occupied or (), equation=equation)
         from radsolve.output.report import render
 
         text = render(tr, unit, fmt.value)

@@ -288,6 +288,16 @@ class SolveResult(ResultProtocol):
     status: Outcome = Outcome.SUCCESS
     notes: tuple[Note, ...] = ()
     statistics: dict = field(default_factory=dict)
+    equation: str = "schrodinger"
+
+    @property
+    def convention(self) -> str | None:
+        """For a relativistic result, the equation's conventions (mass, potential, energy zero); else None."""
+        if self.equation == "schrodinger":
+            return None
+        from radsolve.core.relativistic.front import CONVENTIONS
+
+        return CONVENTIONS.get(self.equation)
 
     @property
     def message(self) -> str:
@@ -302,8 +312,11 @@ class SolveResult(ResultProtocol):
         name = f"{self.potential.name}({params})"
         if not params and getattr(getattr(self.potential, "family", None), "formula", None):
             name = self.potential.family.formula  # a formula or table says what it is by its expression
-        return [("potential", name), ("method", self.method), ("tol", self.tol),
-                ("unit", self._unit(None)[0]), ("levels", len(self.levels))]
+        header = [("potential", name), ("method", self.method), ("tol", self.tol),
+                  ("unit", self._unit(None)[0]), ("levels", len(self.levels))]
+        if self.equation != "schrodinger":
+            header.insert(1, ("equation", self.equation))
+        return header
 
     def _table_columns(self):
         return ("label", "energy", "error_estimate", "status") if any(
@@ -376,6 +389,8 @@ class SolveResult(ResultProtocol):
             "unit": unit,
             "method": self.method,
             "tol": self.tol,
+            **({} if self.equation == "schrodinger" else {"equation": self.equation,
+                                                          "convention": self.convention}),
             "success": bool(self.success),
             "status": str(self.status),
             "message": self.message,

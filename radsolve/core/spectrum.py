@@ -167,6 +167,9 @@ def _validate(l, count, tol, method, dimension) -> tuple[list[int], int, float, 
     tol = validated_tol(tol)
     if isinstance(method, type) and issubclass(method, RadialSolver):
         methods = [method]
+    elif isinstance(method, (list, tuple)) and method and all(
+            isinstance(m, type) and issubclass(m, RadialSolver) for m in method):
+        methods = list(method)  # several solver classes, as "both" (the relativistic branch uses this)
     elif method == EVERY_METHOD:
         methods = [solver_class(name) for name in METHODS]
     elif method in METHODS:
@@ -735,6 +738,8 @@ def solve(
     dimension: int = 3,
     units: str | None = None,
     continue_from: SolveResult | None = None,
+    equation: str = "schrodinger",
+    scalar: bool = False,
 ) -> SolveResult:
     """Bound levels of a particle in a central potential.
 
@@ -778,7 +783,14 @@ def solve(
         level needs it) and its energies start the eigenvalue searches.  The
         levels agree with a solve without it within their estimates; it only
         saves the box search.  Ignored where it does not apply (other
-        channels, a level it lacks or did not converge).
+        channels, a level it lacks or did not converge; relativistic equations).
+    equation : {"schrodinger", "dirac", "klein-gordon"}
+        The wave equation.  Dirac: levels n l j (kappa), V the time component
+        of a vector potential; Klein-Gordon: spin 0.  Both report E - mu c**2
+        with mu the reduced mass (see :mod:`radsolve.core.relativistic`).
+    scalar : bool
+        Dirac and Klein-Gordon only: add the family's Lorentz-scalar
+        potential ``scalar_potential(r, ...)``.
 
     Returns
     -------
@@ -793,6 +805,18 @@ def solve(
     InputError, PluginError, UnboundedBelowError
         For bad input or a potential that collapses into the origin.
     """
+    from radsolve.core.relativistic import SCHRODINGER, validated_equation
+
+    equation = validated_equation(equation)
+    if equation != SCHRODINGER:
+        from radsolve.core.relativistic.front import solve_relativistic
+
+        return solve_relativistic(equation, potential, l, count=count, mass=mass, tol=tol, method=method,
+                                  plugins=plugins, spin_orbit=spin_orbit, dimension=dimension, units=units,
+                                  scalar=scalar)
+    if scalar:
+        raise InputError("scalar (a Lorentz-scalar potential) needs equation='dirac' or 'klein-gordon'; "
+                         "the Schrodinger equation has one potential", parameter="scalar")
     ls, count, tol, classes, dimension = _validate(l, count, tol, method, dimension)
     method_name = method if isinstance(method, str) else getattr(method, "name", "custom")
     from radsolve.potentials import as_potential

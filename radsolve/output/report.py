@@ -157,6 +157,8 @@ def levels_table(result, unit: str | None = None) -> str:
     if v_inf is not None and math.isfinite(v_inf) and v_inf != 0.0:
         settings += f" | V(r->inf) = {_energy_text(v_inf / factor)} {unit}"
     lines += _wrap(settings)
+    if getattr(result, "convention", None):
+        lines += _wrap(result.convention)  # a relativistic equation: its mass, potential and energy zero
     lines.append("")
 
     if not rows:

@@ -80,6 +80,19 @@ def S(**kwargs):
 
 
 CASES = [
+    # relativistic levels (issue 11)
+    Case(["levels", "coulomb", "--equation", "pauli"], S(equation="pauli"), "equation", "--equation"),
+    Case(["levels", "coulomb", "--equation", "dirac", "--spin-orbit"], S(equation="dirac", spin_orbit=True),
+         "spin_orbit", "--spin-orbit"),
+    Case(["levels", "coulomb", "--equation", "dirac", "--scalar"], S(equation="dirac", scalar=True),
+         "scalar", "--scalar"),
+    Case(["levels", "coulomb", "--scalar"], S(scalar=True), "scalar", "--scalar"),
+    Case(["wave", "coulomb", "--n", "1", "--l", "0", "--equation", "dirac"],
+         lambda: radsolve.state("coulomb", 1, 0, equation="dirac"), "equation", "--equation"),
+    Case(["transitions", "coulomb", "--nmax", "2", "--equation", "dirac"],
+         lambda: transitions("coulomb", 2, equation="dirac"), "equation", "--equation"),
+    Case(["levels", "coulomb", "--equation", "dirac", "-d", "2"], S(equation="dirac", dimension=2),
+         "dimension", "--dimension"),
     # test_bad_input: values a potential parameter does not accept (the message names it)
     Case(["levels", "coulomb", "-p", "Z=abc"], lambda: potential("coulomb", Z="abc"), "Z", None),
     Case(["levels", "coulomb", "-p", "Z=nan"], lambda: potential("coulomb", Z="nan"), "Z", None),
@@ -358,17 +371,18 @@ def test_no_option_carries_a_range_of_its_own():
 # gives an API argument with a default must default to that same value.
 DEFAULTS = {
     "levels": (radsolve.solve, {"count": "count", "tol": "tol", "method": "method", "mass": "mass",
-                                "units": "units", "spin_orbit": "spin_orbit", "dimension": "dimension"}),
+                                "units": "units", "spin_orbit": "spin_orbit", "dimension": "dimension",
+                                "equation": "equation", "scalar": "scalar"}),
     "sweep": (sweep, {"count": "count", "tol": "tol", "method": "method", "mass": "mass", "units": "units",
                       "spin_orbit": "spin_orbit", "dimension": "dimension", "workers": "workers",
-                      "unit": "unit", "cluster": "cluster", "progress": "progress"}),
+                      "unit": "unit", "cluster": "cluster", "progress": "progress", "equation": "equation"}),
     "threshold": (threshold, {"tol": "tol", "mass": "mass", "units": "units", "dimension": "dimension",
-                              "bracket": "bracket"}),
+                              "bracket": "bracket", "equation": "equation"}),
     "fit": (fit, {"tol": "tol", "method": "method", "mass": "mass", "units": "units", "dimension": "dimension",
-                  "max_evaluations": "max_evaluations"}),
-    "wave": (radsolve.state, {"tol": "tol", "method": "method", "mass": "mass"}),
+                  "max_evaluations": "max_evaluations", "equation": "equation"}),
+    "wave": (radsolve.state, {"tol": "tol", "method": "method", "mass": "mass", "equation": "equation"}),
     "transitions": (transitions, {"tol": "tol", "method": "method", "mass": "mass",
-                                  "dipole_charge": "dipole_charge"}),
+                                  "dipole_charge": "dipole_charge", "equation": "equation"}),
     "check": (radsolve.check, {"tol": "tol", "quick": "quick"}),
     "phases": (phase_shifts, {"tol": "tol", "hard_core": "hard_core", "mass": "mass", "units": "units",
                               "spin_orbit": "spin_orbit"}),

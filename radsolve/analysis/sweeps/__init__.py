@@ -69,7 +69,7 @@ def sweep(potential, vary: Mapping[str, Sequence], *, fixed: Mapping[str, Any] |
           count: int = 5, mass=None, tol: float = 1e-10, method: str = "fd", plugins=None,
           workers: int | None = None, cluster=None, executor=None, out=None, unit: str | None = None,
           progress: bool | None = None, spin_orbit: bool = False, dimension: int = 3,
-          units: str | None = None) -> SweepResult:
+          units: str | None = None, equation: str = "schrodinger") -> SweepResult:
     """Solve a potential family at every point of a grid of parameter values.
 
     Parameters
@@ -89,9 +89,10 @@ def sweep(potential, vary: Mapping[str, Sequence], *, fixed: Mapping[str, Any] |
     count : int
         Levels per l (per (l, j) with spin-orbit) at every point; each has a
         row at every point, bound or not.
-    mass, tol, method, plugins, spin_orbit, dimension, units :
+    mass, tol, method, plugins, spin_orbit, dimension, units, equation :
         As for :func:`radsolve.solve` (mass in the unit system's mass unit or
-        particle names; tol the relative error asked of each energy).
+        particle names; tol the relative error asked of each energy; with
+        ``equation="dirac"`` a level is (l, j, nodes) and the rows carry j).
     workers : int, optional
         Local worker processes; ``None`` = every usable core, 1 = serial in
         this process.  With ``cluster="local"``: the number of Dask workers.
@@ -147,8 +148,10 @@ def sweep(potential, vary: Mapping[str, Sequence], *, fixed: Mapping[str, Any] |
 
     declared = getattr(base.family, "units", "atomic")
     mass = unit_system(declared if units is None else units).parse_mass(mass)
+    from radsolve.core.relativistic import validated_equation
+
     options = dict(mass=mass, tol=tol, method=method, spin_orbit=bool(spin_orbit), dimension=dimension,
-                   units=units)
+                   units=units, equation=validated_equation(equation))
 
     path = None if out is None or hasattr(out, "write") else check_out_path(out)
     netcdf = path is not None and path.suffix.lower() == ".nc"
@@ -198,12 +201,12 @@ def _sweep_points(base, axes, l, count, options, backend: Backend, out, unit, pr
     from radsolve.units import unit_system
 
     ls = _solved_ls(l)
-    channels = channel_keys(ls, options["spin_orbit"])
+    channels = channel_keys(ls, options["spin_orbit"] or options["equation"] == "dirac")
     system = unit_system(first.units)
     settings = Settings(base=base, keys=keys, ls=tuple(ls), channels=channels, count=int(count),
                          mass=float(first.mass), tol=float(first.tol), method=options["method"],
                          spin_orbit=options["spin_orbit"], dimension=int(first.dimension),
-                         units=system.name)
+                         units=system.name, equation=options["equation"])
     shape = tuple(len(axes[k]) for k in keys)
     total = int(np.prod(shape))
     nl = len(channels)
@@ -219,7 +222,7 @@ def _sweep_points(base, axes, l, count, options, backend: Backend, out, unit, pr
         v_infinity=np.full(total, np.nan), done=np.zeros(total, dtype=bool),
         level_status=np.full((total, nl, count), None, dtype=object),
         point_status=np.full(total, None, dtype=object), point_notes=[()] * total,
-        log_spaced={k: looks_geometric(axes[k]) for k in keys}, base=base,
+        log_spaced={k: looks_geometric(axes[k]) for k in keys}, base=base, equation=options["equation"],
     )
 
     unit = unit or system.energy_unit

@@ -27,6 +27,7 @@ class Settings:
     spin_orbit: bool
     dimension: int
     units: str
+    equation: str = "schrodinger"
 
 
 def describe_point(keys, values) -> str:
@@ -58,7 +59,8 @@ def _solved(settings: Settings, values: tuple, neighbour=None):
         pot = settings.base.with_parameters(**dict(zip(settings.keys, values)))
         result = solve(pot, l=list(settings.ls), count=settings.count, mass=settings.mass,
                        tol=settings.tol, method=settings.method, spin_orbit=settings.spin_orbit,
-                       dimension=settings.dimension, units=settings.units, continue_from=neighbour)
+                       dimension=settings.dimension, units=settings.units, continue_from=neighbour,
+                       equation=settings.equation)
     except RadsolveError as exc:
         raise type(exc)(f"sweep point {describe_point(settings.keys, values)}: {exc}") from None
     except (KeyboardInterrupt, MemoryError):

@@ -175,6 +175,7 @@ class SweepResult(ResultProtocol):
     point_notes: list
     log_spaced: dict[str, bool] = field(default_factory=dict)
     base: Any = field(default=None, repr=False)  # the Potential swept (with the fixed values)
+    equation: str = "schrodinger"  # the wave equation solved at every point
 
     # -- shape and points ----------------------------------------------------
 
@@ -340,7 +341,8 @@ class SweepResult(ResultProtocol):
     @property
     def columns(self) -> tuple[str, ...]:
         """Column names of a row: ``point``, the varied parameters, then the level columns."""
-        level = LEVEL_COLUMNS if self.spin_orbit else tuple(c for c in LEVEL_COLUMNS if c != "j")
+        has_j = self.spin_orbit or self.equation == "dirac"
+        level = LEVEL_COLUMNS if has_j else tuple(c for c in LEVEL_COLUMNS if c != "j")
         return ("point", *self.parameters, *level)
 
     def unit_factor(self, unit: str | None) -> float:
@@ -401,6 +403,7 @@ class SweepResult(ResultProtocol):
             "parameter_units": {k: u or "dimensionless" for k, u in self.parameter_units.items()},
             "l": list(self.ls),
             "spin_orbit": self.spin_orbit,
+            **({} if self.equation == "schrodinger" else {"equation": self.equation}),
             "dimension": self.dimension,
             "count": self.count,
             "mass": self.mass,
@@ -472,7 +475,8 @@ class SweepResult(ResultProtocol):
             dataset[name].attrs["units"] = unit
         attrs = {"potential": self.potential, "units_system": self.units, "energy_unit": unit,
                  "mass": self.mass, "tol": self.tol, "method": self.method, "count": self.count,
-                 "dimension": self.dimension, "spin_orbit": int(self.spin_orbit), "status": str(self.status),
+                 "dimension": self.dimension, "spin_orbit": int(self.spin_orbit), "equation": self.equation,
+                 "status": str(self.status),
                  "message": self.message}
         for k, v in self.fixed.items():
             attrs[f"fixed_{k}"] = v if isinstance(v, (int, float, str)) and not isinstance(v, bool) else str(v)
