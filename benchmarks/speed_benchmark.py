@@ -104,6 +104,24 @@ def sweep_rate(workers: int, points: int) -> float:
     return points / seconds, res
 
 
+def dask_overhead(points: int):
+    """Seconds per point that a local Dask cluster adds to the same sweep on a 2-process pool."""
+    try:
+        import distributed  # noqa: F401
+    except ImportError:
+        return None
+    import radsolve
+
+    def run(**where):
+        t = time.perf_counter()
+        radsolve.sweep("yukawa", vary={"screening_length": f"1:40:{points}"}, fixed={"Z": 1.0}, l=[0, 1],
+                       count=3, tol=1e-8, progress=False, **where)
+        return time.perf_counter() - t
+    pool = run(workers=2)
+    cluster = run(cluster="local", workers=2)
+    return (cluster - pool) / points
+
+
 def fit_time() -> float:
     import radsolve
 
@@ -165,6 +183,10 @@ def main(argv=None) -> None:
               f"(goal >= 200), status {res.status}")
         two, _ = sweep_rate(2, 1000)
         print(f"  with 2 workers: {two:6.1f} points/s, speed-up {two / serial:.2f}")
+        overhead = dask_overhead(200)
+        if overhead is not None:
+            print(f"  Dask path (local cluster, 2 workers, 200 points): {overhead * 1e3:+.2f} ms per point "
+                  "beyond the 2-process pool")
         print()
     cli = min(whole_process([sys.executable, "-m", "radsolve", "levels", "coulomb"]) for _ in range(3))
     print(f"`radsolve levels coulomb`, whole process: {cli:.2f} s (goal <= 0.5 s)")

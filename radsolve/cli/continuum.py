@@ -60,6 +60,30 @@ def _energies(text: str, log: bool, unit: Optional[str], pot, units: Optional[st
     return [v * factor for v in values]
 
 
+
+def _check_outputs(unit, out, plot=None) -> None:
+    """Refuse a bad --unit, --out folder or --plot path before anything is solved."""
+    from radsolve.units import energy_unit_factor
+
+    if unit is not None:
+        energy_unit_factor(unit)
+    if out is not None:
+        folder_exists(out, "--out")
+    if plot is not None:
+        from radsolve.output.plotting import check_plot_path
+
+        with_option("--plot", check_plot_path, plot)
+
+
+def _exit_with(result, out, fmt) -> None:
+    """Exit with the result's status when it is not a success (its message on stderr when
+    the table on stdout did not already carry it)."""
+    if not result.success:
+        if out is not None or fmt is not OutputFormat.table:
+            say(result.message)
+        raise typer.Exit(result.exit_code)
+
+
 def phases_command(
     name: Annotated[str, typer.Argument(metavar="NAME", help="potential family, e.g. yukawa (list: radsolve potentials)")],
     energies: Annotated[str, typer.Option(
@@ -92,16 +116,7 @@ def phases_command(
     """
     with reported_errors({"energies": "--energies", "hard_core": "--hard-core"}):
         params = parse_assignments(param)
-        from radsolve.units import energy_unit_factor
-
-        if unit is not None:
-            energy_unit_factor(unit)
-        if out is not None:
-            folder_exists(out, "--out")
-        if plot is not None:
-            from radsolve.output.plotting import check_plot_path
-
-            with_option("--plot", check_plot_path, plot)
+        _check_outputs(unit, out, plot)
         from radsolve.analysis.scattering import phase_shifts
         pot = _potential(name, params, plugins, units, expr)
         values = _energies(energies, log, unit, pot, units)
@@ -116,10 +131,7 @@ def phases_command(
 
             plot_phase_shifts(result, plot, unit)
             say(f"wrote the phase shifts to {plot}")
-        if not result.success:
-            if out is not None or fmt is not OutputFormat.table:
-                say(result.message)
-            raise typer.Exit(result.exit_code)
+        _exit_with(result, out, fmt)
 
 
 def scattering_command(
@@ -152,12 +164,7 @@ def scattering_command(
     """
     with reported_errors({"hard_core": "--hard-core"}):
         params = parse_assignments(param)
-        from radsolve.units import energy_unit_factor
-
-        if unit is not None:
-            energy_unit_factor(unit)
-        if out is not None:
-            folder_exists(out, "--out")
+        _check_outputs(unit, out)
         from radsolve.analysis.scattering import scattering
         pot = _potential(name, params, plugins, units, expr)
         ls = l_values(l, lmax)
@@ -178,13 +185,10 @@ def scattering_command(
         from radsolve.output.report import render
 
         write_output(render(result, unit, fmt.value), out, f"{what} ({fmt.value})")
-        if not result.success:
-            if any(w.levinson == "disagrees" for w in waves):
-                say("LEVINSON'S THEOREM FAILS for some l: the phase shifts or the bound count are wrong "
-                    "(see the message)")
-            if out is not None or fmt is not OutputFormat.table:
-                say(result.message)
-            raise typer.Exit(result.exit_code)
+        if not result.success and any(w.levinson == "disagrees" for w in waves):
+            say("LEVINSON'S THEOREM FAILS for some l: the phase shifts or the bound count are wrong "
+                "(see the message)")
+        _exit_with(result, out, fmt)
 
 
 def photoionization_command(
@@ -216,16 +220,7 @@ def photoionization_command(
     """
     with reported_errors({"photon_energies": "--photons", "level": "--level"}):
         params = parse_assignments(param)
-        from radsolve.units import energy_unit_factor
-
-        if unit is not None:
-            energy_unit_factor(unit)
-        if out is not None:
-            folder_exists(out, "--out")
-        if plot is not None:
-            from radsolve.output.plotting import check_plot_path
-
-            with_option("--plot", check_plot_path, plot)
+        _check_outputs(unit, out, plot)
         from radsolve.analysis.scattering import photoionization
 
         pot = _potential(name, params, plugins, None, expr)
@@ -240,10 +235,7 @@ def photoionization_command(
 
             plot_photoionization(result, plot, unit)
             say(f"wrote the cross sections to {plot}")
-        if not result.success:
-            if out is not None or fmt is not OutputFormat.table:
-                say(result.message)
-            raise typer.Exit(result.exit_code)
+        _exit_with(result, out, fmt)
 
 
 def logderiv_command(
@@ -288,16 +280,7 @@ def logderiv_command(
     with reported_errors({"energies": "--energies", "radius": "--radius", "reference": "--reference"}):
         params = parse_assignments(param)
         ref_params = parse_assignments(ref_param, "--ref-param")
-        from radsolve.units import energy_unit_factor
-
-        if unit is not None:
-            energy_unit_factor(unit)
-        if out is not None:
-            folder_exists(out, "--out")
-        if plot is not None:
-            from radsolve.output.plotting import check_plot_path
-
-            with_option("--plot", check_plot_path, plot)
+        _check_outputs(unit, out, plot)
         from radsolve.analysis.scattering import log_derivatives
 
         pot = _potential(name, params, plugins, units, expr)
@@ -322,10 +305,7 @@ def logderiv_command(
             say(f"wrote the logarithmic derivatives to {plot}")
         if result.ghosts:
             say("warning: " + "; ".join(n.text for n in result.notes if n.code in ("ghost_state", "missing_state")))
-        if not result.success:
-            if out is not None or fmt is not OutputFormat.table:
-                say(result.message)
-            raise typer.Exit(result.exit_code)
+        _exit_with(result, out, fmt)
 
 
 def resonances_command(
@@ -355,12 +335,7 @@ def resonances_command(
     with reported_errors({"window": "--window", "scan_points": "--points"}):
         params = parse_assignments(param)
         from radsolve.errors import InputError
-        from radsolve.units import energy_unit_factor
-
-        if unit is not None:
-            energy_unit_factor(unit)
-        if out is not None:
-            folder_exists(out, "--out")
+        _check_outputs(unit, out)
         parts = window.split(":")
         try:
             lo, hi = (float(x) for x in parts)
@@ -376,7 +351,4 @@ def resonances_command(
         from radsolve.output.report import render
 
         write_output(render(result, unit, fmt.value), out, f"{len(result.resonances)} resonances ({fmt.value})")
-        if not result.success:
-            if out is not None or fmt is not OutputFormat.table:
-                say(result.message)
-            raise typer.Exit(result.exit_code)
+        _exit_with(result, out, fmt)
