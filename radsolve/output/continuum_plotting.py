@@ -19,19 +19,22 @@ import numpy as np
 from radsolve.output.sweep_plotting import _colors, _figure, _save
 
 
-def plot_phase_shifts(result, path, unit: str | None = None, title: str | None = None) -> None:
-    """delta_l(E)/pi against E for every l of ``result``, written to ``path``."""
+def _energies_in(result, unit: str | None):
+    """(unit, the result's energies in it): the unit system's own energy unit by default."""
     from radsolve.units import energy_unit_factor, unit_system
 
     system = result.units
     if unit is None:
-        unit = "hartree" if system == "atomic" else "MeV"
-        factor = 1.0
-    else:
-        factor = energy_unit_factor(unit)
-        if system != "atomic":
-            factor /= unit_system(system).energy_factor()
-    e = np.asarray(result.energies) / factor
+        return ("hartree" if system == "atomic" else "MeV"), np.asarray(result.energies)
+    factor = energy_unit_factor(unit)
+    if system != "atomic":
+        factor /= unit_system(system).energy_factor()
+    return unit, np.asarray(result.energies) / factor
+
+
+def plot_phase_shifts(result, path, unit: str | None = None, title: str | None = None) -> None:
+    """delta_l(E)/pi against E for every l of ``result``, written to ``path``."""
+    unit, e = _energies_in(result, unit)
     fig, axes = _figure(7.0, 4.2)
     ax = axes[0][0]
     colors = _colors(len(result.ls))
@@ -98,17 +101,7 @@ def plot_log_derivatives(result, path, unit: str | None = None, title: str | Non
     """
     import textwrap
 
-    from radsolve.units import energy_unit_factor, unit_system
-
-    system = result.units
-    if unit is None:
-        unit = "hartree" if system == "atomic" else "MeV"
-        factor = 1.0
-    else:
-        factor = energy_unit_factor(unit)
-        if system != "atomic":
-            factor /= unit_system(system).energy_factor()
-    e = np.asarray(result.energies) / factor
+    unit, e = _energies_in(result, unit)
     fig, axes = _figure(7.0, 4.2)
     ax = axes[0][0]
     colors = _colors(len(result.ls))
