@@ -64,10 +64,10 @@ def final_grid_matrices(nmax: int, tol: float):
     seen = []
     original = fd.FiniteDifference.levels
 
-    def record(self, indices, guesses=None, peaks=None):
+    def record(self, indices, guesses=None, peaks=None, precision=None):
         d, e, _ = self._cached_matrix()
         seen.append((d.copy(), e.copy(), list(indices)))
-        return original(self, indices, guesses, peaks)
+        return original(self, indices, guesses, peaks, precision)
 
     fd.FiniteDifference.levels = record
     finals = []
@@ -98,7 +98,7 @@ def sweep_rate(workers: int, points: int) -> float:
     import radsolve
 
     t = time.perf_counter()
-    res = radsolve.sweep("yukawa", vary={"screening_length": f"1:40:{points}"}, fixed={"Z": 1.0}, l=[0, 1], count=3,
+    res = radsolve.sweep("yukawa", vary={"screening_length": np.linspace(1.0, 40.0, points)}, fixed={"Z": 1.0}, l=[0, 1], count=3,
                          tol=1e-8, workers=workers, progress=False)
     seconds = time.perf_counter() - t
     return points / seconds, res
@@ -114,7 +114,7 @@ def dask_overhead(points: int):
 
     def run(**where):
         t = time.perf_counter()
-        radsolve.sweep("yukawa", vary={"screening_length": f"1:40:{points}"}, fixed={"Z": 1.0}, l=[0, 1],
+        radsolve.sweep("yukawa", vary={"screening_length": np.linspace(1.0, 40.0, points)}, fixed={"Z": 1.0}, l=[0, 1],
                        count=3, tol=1e-8, progress=False, **where)
         return time.perf_counter() - t
     pool = run(workers=2)
