@@ -1,0 +1,78 @@
+"""Eigenpairs of Jacobi matrices by index from predicted windows (radsolve.core.tridiagonal)."""
+
+import numpy as np
+import pytest
+from scipy.linalg import eigvalsh_tridiagonal
+
+from radsolve.core.tridiagonal import EigenStatistics, eigenpairs, rounding_sensitivity
+
+
+def _box(n: int):
+    """tridiag(-1, 2, -1) / h**2 on n interior points of (0, 1): eigenvalues
+    (4 / h**2) sin(k pi / (2 (n + 1)))**2, k = 1 ... n (textbook formula)."""
+    h = 1.0 / (n + 1)
+    d = np.full(n, 2.0 / h**2)
+    e = np.full(n - 1, -1.0 / h**2)
+    k = np.arange(1, n + 1)
+    exact = 4.0 / h**2 * np.sin(k * np.pi / (2 * (n + 1))) ** 2
+    return d, e, exact
+
+
+def test_exact_predictions_are_confirmed_with_their_indices():
+    d, e, exact = _box(400)
+    stats = EigenStatistics()
+    values, vectors, noise = eigenpairs(d, e, 3, 9, exact[3:10] * (1 + 1e-7), stats=stats)
+    assert np.allclose(values, exact[3:10], rtol=1e-12, atol=0)
+    assert stats.confirmed == 7 and stats.missed == 0
+    # eigenvector of level k has k sign changes (Sturm, textbook); unit length
+    for j, k in enumerate(range(3, 10)):
+        v = vectors[:, j]
+        assert np.count_nonzero(np.diff(np.sign(v[np.abs(v) > 1e-12])) != 0) == k
+        assert abs(np.linalg.norm(v) - 1) < 1e-12
+    assert np.all(noise > 0)
+
+
+@pytest.mark.parametrize("shift", [1, -1, 2])
+def test_predictions_of_the_wrong_levels_never_give_a_wrong_index(shift):
+    # Each prediction is a neighbour's exact eigenvalue: the iteration converges to that
+    # neighbour, the Sturm counts refuse it, and bisection by index finds the level asked.
+    d, e, exact = _box(300)
+    lo, hi = 5, 12
+    stats = EigenStatistics()
+    values, _, _ = eigenpairs(d, e, lo, hi, exact[lo + shift : hi + 1 + shift], stats=stats)
+    assert np.allclose(values, exact[lo : hi + 1], rtol=1e-12, atol=0)
+    assert stats.missed > 0  # the fallback is visible in the statistic
+
+
+def test_no_prediction_means_bisection_by_index():
+    d, e, exact = _box(200)
+    stats = EigenStatistics()
+    values, vectors, _ = eigenpairs(d, e, 0, 4, None, vectors=False, stats=stats)
+    assert vectors is None
+    assert np.allclose(values, exact[:5], rtol=1e-13, atol=0)
+    assert stats.bisected == 5
+
+
+def test_rounding_sensitivity_covers_the_effect_of_perturbed_entries():
+    # A graded Jacobi matrix (entries spanning 1e12): perturb every entry by a random
+    # relative 2**-52 and compare scipy's eigenvalues of the two matrices (common practice:
+    # the spread of such draws is the rounding noise); the estimate must cover it.
+    n = 600
+    x = np.linspace(-12.0, 3.0, n)
+    scale = np.exp(-2.0 * x)
+    d = 2.0 * scale + 0.5 * np.sin(x)
+    e = -np.sqrt(scale[:-1] * scale[1:])
+    lo, hi = 0, 4
+    tiny = 4 * np.finfo(float).tiny  # bisection to full relative accuracy (LAPACK stebz)
+    values = eigvalsh_tridiagonal(d, e, select="i", select_range=(lo, hi), lapack_driver="stebz", tol=tiny)
+    _, vectors, noise = eigenpairs(d, e, lo, hi, values, stats=EigenStatistics())
+    rng = np.random.default_rng(7)
+    eps = np.finfo(float).eps
+    worst = np.zeros(hi - lo + 1)
+    for _ in range(8):
+        dp = d * (1 + eps * rng.standard_normal(n))
+        ep = e * (1 + eps * rng.standard_normal(n - 1))
+        moved = eigvalsh_tridiagonal(dp, ep, select="i", select_range=(lo, hi), lapack_driver="stebz", tol=tiny)
+        worst = np.maximum(worst, np.abs(moved - values))
+    assert np.all(worst <= noise), (worst, noise)
+    assert np.allclose(noise, rounding_sensitivity(d, e, vectors), rtol=0.6)
