@@ -71,6 +71,8 @@ _NOISE_SHARE_OF_PRECISION = 0.1
 _POLISH_WINDOW = 1e-9
 #: Computed residual bounds are widened by this factor before they prove anything.
 _RESIDUAL_SAFETY = 8.0
+#: A second (or later) Rayleigh step this small (relative) ends the iteration.
+_SETTLED_STEP = 1e-8
 #: The largest relative residual bound of an accepted Rayleigh quotient.
 _RESIDUAL = 1e-8
 #: The separating point below the lowest (above the highest) predicted level
@@ -193,7 +195,10 @@ def _rayleigh(d, e, x: float, row, stats: EigenStatistics):
         rhs = y / np.sqrt(size)
         # Converged: the step is at the rounding level, or no longer shrinks as a
         # converging iteration's does (cubically), which only rounding noise does.
-        if abs(step) <= tiny * abs(x) or (abs(step) <= _NOISE * abs(x) and abs(step) > _STALLED * abs(last_step)):
+        if (abs(step) <= tiny * abs(x) or (abs(step) <= _NOISE * abs(x) and abs(step) > _STALLED * abs(last_step))
+                or (np.isfinite(last_step) and abs(step) <= _SETTLED_STEP * abs(x))):
+            # (the last: convergence is cubic, so the next step would be below rounding, and
+            # the vector, iterated twice with shifts this close, is as good as it gets)
             break
         last_step = step
     else:

@@ -20,21 +20,22 @@ from radsolve.output.sweep_plotting import _colors, _figure, _save
 
 
 def _energies_in(result, unit: str | None):
-    """(unit, the result's energies in it): the unit system's own energy unit by default."""
+    """(unit, factor, the result's energies in it): the unit system's own energy unit by default;
+    an energy of the result divided by ``factor`` is in ``unit``."""
     from radsolve.units import energy_unit_factor, unit_system
 
     system = result.units
     if unit is None:
-        return ("hartree" if system == "atomic" else "MeV"), np.asarray(result.energies)
+        return ("hartree" if system == "atomic" else "MeV"), 1.0, np.asarray(result.energies)
     factor = energy_unit_factor(unit)
     if system != "atomic":
         factor /= unit_system(system).energy_factor()
-    return unit, np.asarray(result.energies) / factor
+    return unit, factor, np.asarray(result.energies) / factor
 
 
 def plot_phase_shifts(result, path, unit: str | None = None, title: str | None = None) -> None:
     """delta_l(E)/pi against E for every l of ``result``, written to ``path``."""
-    unit, e = _energies_in(result, unit)
+    unit, factor, e = _energies_in(result, unit)
     fig, axes = _figure(7.0, 4.2)
     ax = axes[0][0]
     colors = _colors(len(result.ls))
@@ -101,7 +102,7 @@ def plot_log_derivatives(result, path, unit: str | None = None, title: str | Non
     """
     import textwrap
 
-    unit, e = _energies_in(result, unit)
+    unit, factor, e = _energies_in(result, unit)
     fig, axes = _figure(7.0, 4.2)
     ax = axes[0][0]
     colors = _colors(len(result.ls))
@@ -121,7 +122,7 @@ def plot_log_derivatives(result, path, unit: str | None = None, title: str | Non
         ax.text(0.5 * (lo + hi) / factor, 1.45, f"{kind} l={l}", ha="center", fontsize=7, color="tab:red")
     ax.set_ylim(-1.65, 1.65)
     ax.set_xlabel(f"E ({unit})")
-    length = "bohr" if system == "atomic" else "fm"
+    length = "bohr" if result.units == "atomic" else "fm"
     ax.set_ylabel(f"arctan(r_c u'/u), r_c = {result.radius:.4g} {length}")
     ax.legend(loc="lower left", fontsize=7)
     params = " ".join(f"{k}={v:.6g}" if isinstance(v, float) else f"{k}={v}" for k, v in result.parameters.items())
