@@ -42,7 +42,10 @@ app = typer.Typer(
     help=(
         "Bound states of the radial Schroedinger equation "
         "-1/(2 mu) u'' + [V(r) + l(l+1)/(2 mu r^2)] u = E u "
-        "for central potentials, in atomic units (hartree, bohr, electron masses).\n\n"
+        "for central potentials, in atomic units (hartree, bohr, electron masses) "
+        "or a family's nuclear units (MeV, fm); the Dirac and Klein-Gordon equations "
+        "with --equation; above the threshold, phase shifts, scattering lengths, resonances, "
+        "logarithmic derivatives and photoionization.\n\n"
         "Exit status: 0 ok; 1 'check' found a failure; 2 bad input or usage; "
         "3 finished, but something did not converge or is incomplete (the output says what); "
         "4 internal error (RADSOLVE_TRACEBACK=1 shows the traceback)."
