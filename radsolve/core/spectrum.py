@@ -279,12 +279,12 @@ def _phase_halvings(channels, span: GridSpan, mass, tops: dict, limit: float) ->
 
 
 def _levels_on(cls, grid, ch: _Channel, mass, inner, count, guesses=None, energies_only: bool = False,
-               peaks=None, statistics: EigenStatistics | None = None, noise: list | None = None,
-               precision=None):
-    """The lowest ``count`` levels of one channel on one grid, energies from its reference.
+               peaks=None, statistics: EigenStatistics | None = None, precision=None):
+    """The lowest ``count`` levels of one channel on one grid, energies from its reference:
+    ``(energies, u, below, values, noise)``, ``noise`` the solver's rounding noise of each
+    level where it measures one (else empty).
 
     ``energies_only`` (finite differences, for planning): u is None, and no eigenvector is computed.
-    ``noise``, a list, receives the solver's rounding noise of each level (None entries: unknown).
     """
     values = potential_on_grid(ch.potential, grid.r, _anchors_of(grid)) - ch.reference
     solver = _solver(cls, grid, values, ch, mass, inner)
@@ -295,9 +295,7 @@ def _levels_on(cls, grid, ch: _Channel, mass, inner, count, guesses=None, energi
     below = None if ch.confining else solver.count_below(0.0)
     if statistics is not None:
         statistics.add(solver.statistics)
-    if noise is not None:
-        noise[:] = solver.level_noise() if u is not None else []
-    return energies, u, below, values
+    return energies, u, below, values, (solver.level_noise() if u is not None else [])
 
 
 def _predictions(history: list, reference: float, order: int, planned=None):
@@ -361,7 +359,7 @@ def _plan_box(channels, count, mass, targets: Targets, breakpoints) -> _BoxPlan:
         short = []
         for ch in active:
             inner = _inner_index(span, halvings, ch.inner_radius, coarse_r)
-            energies, _, below, _ = _levels_on(FiniteDifference, grid, ch, mass, inner, wanted[ch.key],
+            energies, _, below, _, _ = _levels_on(FiniteDifference, grid, ch, mass, inner, wanted[ch.key],
                                                energies_only=True, statistics=statistics)
             energies = energies + ch.reference
             if below is not None and below < wanted[ch.key]:
@@ -492,7 +490,7 @@ def _verify_box(channels, wanted, mass, targets: Targets, radius, breakpoints, l
             if not wanted[ch.key] or ch.confining:
                 continue
             inner = _inner_index(span, halvings, ch.inner_radius, coarse_r)
-            energies, u, _, values = _levels_on(FiniteDifference, grid, ch, mass, inner, wanted[ch.key],
+            energies, u, _, values, _ = _levels_on(FiniteDifference, grid, ch, mass, inner, wanted[ch.key],
                                                 statistics=statistics)
             predicted[ch.key] = ([float(x) + ch.reference for x in energies],
                                  [float(grid.r[int(np.argmax(np.abs(row)))]) for row in u])
@@ -606,13 +604,12 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
             inner = _inner_index(span, refinement, ch.inner_radius, coarse_r)
             guesses, peaks = _predictions(history[ch.key], ch.reference, cls.error_orders[0],
                                           plan.predicted.get(ch.key))
-            noise: list = []
             # The accuracy each grid energy needs: the level's target (the
             # solver keeps its noise well below it).
             precision = None if guesses is None else [
                 targets.energy_target(g + ch.reference, ch.v_inf) for g in guesses]
-            energies, u, below, values = _levels_on(cls, grid, ch, mass, inner, want, guesses, peaks=peaks,
-                                                    statistics=statistics, noise=noise, precision=precision)
+            energies, u, below, values, noise = _levels_on(cls, grid, ch, mass, inner, want, guesses, peaks=peaks,
+                                                           statistics=statistics, precision=precision)
             grid_counts[ch.key].append(below)
             history[ch.key].append([(float(energies[k]) + ch.reference, u[k], grid) for k in range(want)])
             levels = best[ch.key]
@@ -1025,12 +1022,7 @@ def _notes(channels, plan, kept, levels, count, targets, notes) -> list[Note]:
     if uncertain:
         out.append(Note("count_uncertain", "COUNT UNCERTAIN for " + "; ".join(uncertain)))
     out.extend(notes)
-    unconverged = [lev for lev in levels if not lev.converged]
-    if unconverged:
-        worst = ", ".join(f"{lev.label} ({lev.relative_error_estimate:.1e}, {lev.status})" for lev in unconverged[:8])
-        more = f" and {len(unconverged) - 8} more" if len(unconverged) > 8 else ""
-        out.append(Note("not_converged", f"NOT CONVERGED to tol = {targets.tol:.1e}: {worst}{more}; their "
-                        "estimates are what was achieved", ", ".join(lev.label for lev in unconverged)))
+    out.extend(not_converged_notes(levels, targets.tol))
     limited = [lev.label for lev in levels if lev.status is Status.POTENTIAL_ACCURACY]
     if limited:
         out.append(Note("potential_accuracy", "the potential itself is known less well than tol for "
@@ -1042,3 +1034,15 @@ def _notes(channels, plan, kept, levels, count, targets, notes) -> list[Note]:
                         + ", ".join(degenerate), ", ".join(degenerate)))
     out.extend(plan.notes)
     return out
+
+
+def not_converged_notes(levels, tol: float) -> list[Note]:
+    """The ``not_converged`` note of a solve's levels: the first eight that missed tol, with their
+    relative estimates and causes (empty when every level converged)."""
+    unconverged = [lev for lev in levels if not lev.converged]
+    if not unconverged:
+        return []
+    worst = ", ".join(f"{lev.label} ({lev.relative_error_estimate:.1e}, {lev.status})" for lev in unconverged[:8])
+    more = f" and {len(unconverged) - 8} more" if len(unconverged) > 8 else ""
+    return [Note("not_converged", f"NOT CONVERGED to tol = {tol:.1e}: {worst}{more}; their estimates are "
+                 "what was achieved", ", ".join(lev.label for lev in unconverged))]

@@ -55,10 +55,6 @@ _START_SEED = 20261202
 #: Rayleigh quotient iterations at most (cubic convergence: two or three
 #: suffice from a prediction good to 1e-2).
 _MAX_RAYLEIGH = 6
-#: A Rayleigh step below _NOISE (relative) and larger than _STALLED times the
-#: previous one no longer converges (cubically): it is rounding noise.
-_NOISE = 1e-10
-_STALLED = 1e-3
 #: A Rayleigh quotient's rounding noise, in units of :func:`rounding_sensitivity`:
 #: measured against bisection on the same matrices (hydrogen, oscillator,
 #: Morse, Yukawa, Lennard-Jones, inverse-square core), the quotients differ by
@@ -75,9 +71,6 @@ _RESIDUAL_SAFETY = 8.0
 _SETTLED_STEP = 1e-8
 #: The largest relative residual bound of an accepted Rayleigh quotient.
 _RESIDUAL = 1e-8
-#: The separating point below the lowest (above the highest) predicted level
-#: lies this far from it, relative, unless its residual bound asks for more.
-_EDGE_MARGIN = 1e-9
 
 
 @dataclass
@@ -180,7 +173,7 @@ def _rayleigh(d, e, x: float, row, stats: EigenStatistics):
     rhs = _start_vector(d.size, row)
     rho = np.inf
     tiny = 64.0 * np.finfo(float).eps
-    last_step = np.inf
+    first = True
     for _ in range(_MAX_RAYLEIGH):
         _, _, _, y, info = dgtsv(e, d - x, e, rhs)
         stats.solves += 1
@@ -195,12 +188,11 @@ def _rayleigh(d, e, x: float, row, stats: EigenStatistics):
         rhs = y / np.sqrt(size)
         # Converged: the step is at the rounding level, or no longer shrinks as a
         # converging iteration's does (cubically), which only rounding noise does.
-        if (abs(step) <= tiny * abs(x) or (abs(step) <= _NOISE * abs(x) and abs(step) > _STALLED * abs(last_step))
-                or (np.isfinite(last_step) and abs(step) <= _SETTLED_STEP * abs(x))):
-            # (the last: convergence is cubic, so the next step would be below rounding, and
-            # the vector, iterated twice with shifts this close, is as good as it gets)
+        if abs(step) <= tiny * abs(x) or (not first and abs(step) <= _SETTLED_STEP * abs(x)):
+            # Convergence is cubic: after a second step this small the next would be below
+            # rounding, and the vector, iterated twice with shifts this close, is as good as it gets.
             break
-        last_step = step
+        first = False
     else:
         return x, None, np.inf  # did not settle: let bisection decide
     if rho > _RESIDUAL * abs(x):
@@ -238,12 +230,13 @@ def _bisected_in(d, e, windows: list, stats: EigenStatistics) -> np.ndarray | No
     return values
 
 
-def vectors_at(d: np.ndarray, e: np.ndarray, values: np.ndarray, stats: EigenStatistics | None = None,
-               rows=None) -> np.ndarray:
+def vectors_at(d: np.ndarray, e: np.ndarray, values: np.ndarray,
+               stats: EigenStatistics | None = None) -> np.ndarray:
     """Unit eigenvectors (columns) for accurate eigenvalues ``values`` (ascending)."""
     stats = stats if stats is not None else EigenStatistics()
     n, k = d.size, values.size
     out = np.empty((n, k))
+    guess = _start_vector(n, None)  # one start for every level (it is the same each time)
     start = 0
     while start < k:
         stop = start + 1
@@ -253,8 +246,7 @@ def vectors_at(d: np.ndarray, e: np.ndarray, values: np.ndarray, stats: EigenSta
         if stop - start > 1:
             out[:, start:stop] = _stein(d, e, values[start:stop])
         else:
-            row = None if rows is None else rows[start]
-            z = _solve_shifted(d, e, float(values[start]), _start_vector(n, row))
+            z = _solve_shifted(d, e, float(values[start]), guess)
             stats.solves += 1
             out[:, start] = z / np.linalg.norm(z)
         start = stop

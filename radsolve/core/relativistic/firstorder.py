@@ -37,6 +37,7 @@ from scipy.optimize import brentq
 
 from radsolve.core.grids import potential_on_grid
 from radsolve.core.solvers.base import RadialSolver
+from radsolve.core.solvers.fd import FiniteDifference
 
 #: No run of steps grows by more than e**_CHUNK_GROWTH before it is renormalised.
 _CHUNK_GROWTH = 500.0
@@ -56,7 +57,7 @@ def first_order(channel, z_alpha: float | None) -> type:
 
         @classmethod
         def relative_rounding(cls, size: int) -> float:
-            return max(1e-13, 1.5e-18 * size**1.5)
+            return FiniteDifference.relative_rounding(size)  # the same rule (not measured for shooting yet)
 
         def __init__(self, grid, potential_values, l, mass, inner=0, origin_exponent=None, centrifugal=None):
             super().__init__(grid, potential_values, l, mass, inner, origin_exponent, centrifugal)

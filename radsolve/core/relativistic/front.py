@@ -289,13 +289,9 @@ _PER_LEVEL_NOTES = {"not_converged", "potential_accuracy", "near_degenerate"}
 def _level_notes(levels, tol) -> list[Note]:
     from radsolve.core.targets import Status
 
-    out = []
-    unconverged = [lev for lev in levels if not lev.converged]
-    if unconverged:
-        worst = ", ".join(f"{lev.label} ({lev.relative_error_estimate:.1e}, {lev.status})" for lev in unconverged[:8])
-        more = f" and {len(unconverged) - 8} more" if len(unconverged) > 8 else ""
-        out.append(Note("not_converged", f"NOT CONVERGED to tol = {tol:.1e}: {worst}{more}; their estimates are "
-                        "what was achieved", ", ".join(lev.label for lev in unconverged)))
+    from radsolve.core.spectrum import not_converged_notes
+
+    out = not_converged_notes(levels, tol)
     limited = [lev.label for lev in levels if lev.status is Status.POTENTIAL_ACCURACY]
     if limited:
         out.append(Note("potential_accuracy", "the potential (or, for Dirac, the numerical derivatives of V "
