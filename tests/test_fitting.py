@@ -201,3 +201,58 @@ def test_fit_spin_orbit_levels_to_exact_oscillator_values(tmp_path):
     with pytest.raises(InputError, match="give j for every target"):
         fit("fit_oscillator_with_constant_ls", targets[:2] + [("2p", 2.0, 1e-3)], free=["omega"],
             plugins=[str(tmp_path)])
+
+
+# ---------------------------------------------------------------- the Jacobian
+# With one free parameter and one target, the standard error is
+# uncertainty / |dE/dp| (covariance (J^T J)^-1), so it shows the Jacobian the fit used.
+# The Hellmann-Feynman Jacobian is that of the finest grid's energies: good to that grid's
+# discretization error (~1e-6 relative), far more than a standard error needs.
+
+def test_jacobian_of_coulomb_levels_against_the_exact_derivative():
+    # E = -Z**2 / (2 n**2), dE/dZ = -Z / n**2 (textbook formula); Hellmann-Feynman path.
+    z, unc = 1.7, 1e-4
+    for label, n in (("1s", 1), ("3d", 3)):
+        res = fit("coulomb", [(label, -z**2 / (2 * n**2), unc)], free=["Z"], fixed={"Z": 1.5}, tol=1e-10)
+        assert res.success, res.message
+        assert res.values["Z"] == pytest.approx(z, rel=1e-9)
+        assert res.standard_errors["Z"] == pytest.approx(unc / (z / n**2), rel=1e-5)
+
+
+def test_jacobian_of_oscillator_levels_against_the_exact_derivative():
+    # E = omega (2 n_r + l + 3/2), dE/domega = 2 n_r + l + 3/2 (textbook formula); 3p: n_r = 1, l = 1.
+    omega, unc = 0.8, 1e-5
+    res = fit("harmonic", [("3p", omega * (2 * 1 + 1 + 1.5), unc)], free=["omega"], fixed={"omega": 1.0},
+              tol=1e-10)
+    assert res.success, res.message
+    assert res.values["omega"] == pytest.approx(omega, rel=1e-9)
+    assert res.standard_errors["omega"] == pytest.approx(unc / 4.5, rel=1e-5)
+
+
+def _empty_core_1s(valence: float, core_radius: float) -> float:
+    # Independent reference: u = sinh(kappa r) inside (V = 0), the Whittaker function
+    # W_{Z/kappa, 1/2}(2 kappa r) outside (V = -Z/r), log-derivatives matched at r_c (textbook
+    # construction; mpmath whitw), solved for kappa with mpmath findroot.
+    import mpmath as mp
+
+    mp.mp.dps = 30
+
+    def mismatch(kappa):
+        outside = lambda r: mp.whitw(valence / kappa, mp.mpf(1) / 2, 2 * kappa * r)
+        return kappa / mp.tanh(kappa * core_radius) - mp.diff(outside, core_radius) / outside(core_radius)
+
+    kappa = mp.findroot(mismatch, 0.63)
+    return float(-kappa**2 / 2)
+
+
+def test_jacobian_falls_back_to_differences_where_the_parameter_moves_a_breakpoint():
+    # dV/d(core_radius) of the empty core is a delta at r_c, which no grid carries: the fit
+    # must difference energies instead.  Reference derivative: central differences of the
+    # independent mpmath energies above.
+    rc, unc, h = 1.7, 1e-6, 1e-4
+    energy = _empty_core_1s(1.0, rc)
+    slope = (_empty_core_1s(1.0, rc + h) - _empty_core_1s(1.0, rc - h)) / (2 * h)
+    res = fit("empty_core", [("1s", energy, unc)], free=["core_radius"], fixed={"core_radius": 1.5}, tol=1e-10)
+    assert res.success, res.message
+    assert res.values["core_radius"] == pytest.approx(rc, rel=1e-6)
+    assert res.standard_errors["core_radius"] == pytest.approx(unc / abs(slope), rel=1e-4)

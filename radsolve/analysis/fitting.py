@@ -512,6 +512,77 @@ class _Model:
             self.cache[key] = (result, found)
         return self.cache[key]
 
+    def jacobian(self, x, lo, hi, diff_step: float) -> np.ndarray:
+        """d residuals / d x: by the Hellmann-Feynman theorem where it applies
+        (:meth:`_hellmann_feynman`, no extra solve), else by central differences."""
+        rows = self._hellmann_feynman(x)
+        return rows if rows is not None else self._differences(x, lo, hi, diff_step)
+
+    def _hellmann_feynman(self, x) -> np.ndarray | None:
+        """dE/dp = <u|dV/dp|u> with each target's state on its finest grid, or None where that does not hold.
+
+        Exact for the discrete eigenvalue problem of that grid (Hellmann-Feynman
+        theorem, textbook), so the Jacobian differs from that of the
+        extrapolated energies only by the grid error, far below what an
+        optimizer's step needs.  Not used -- None -- for a relativistic
+        equation (its samples are not the states of V alone), a target that
+        is not bound here (its residual is V(inf)'s), or a channel potential
+        with breakpoints (a jump or kink whose place may move with p: dV/dp
+        is then not a function a grid can carry).
+        """
+        from radsolve.analysis.observables import channel_potential
+        from radsolve.core import probe
+        from radsolve.core.grids import potential_on_grid
+
+        if self.options.get("equation", "schrodinger") != "schrodinger":
+            return None
+        result, found = self.solve(x)
+        levels = [found.get((t.l, t.j, t.nodes)) for t in self.targets]
+        if any(lev is None or not lev.samples for lev in levels):
+            return None
+        key = tuple(float(v) for v in x)
+        out = np.empty((len(self.targets), len(self.free)))
+        profiles: dict = {}
+        for j, name in enumerate(self.free):
+            step = 1e-6 * max(abs(key[j]), 1e-3)
+            shifted = []
+            for sign in (1.0, -1.0):
+                values = dict(zip(self.free, key))
+                values[name] = key[j] + sign * step
+                try:
+                    shifted.append(self.base.with_parameters(**values))
+                except RadsolveError:
+                    return None  # p +- step leaves the parameter's range: differences decide
+            for i, (t, lev) in enumerate(zip(self.targets, levels)):
+                channel = channel_potential(result.potential, lev)
+                channel_key = (lev.l, getattr(lev, "j", None))
+                if channel_key not in profiles:
+                    profiles[channel_key] = probe.profile(channel, float(result.mass))
+                if profiles[channel_key].breakpoints:
+                    return None
+                sample = lev.samples[-1]
+                plus = potential_on_grid(channel_potential(shifted[0], lev), sample.r, ())
+                minus = potential_on_grid(channel_potential(shifted[1], lev), sample.r, ())
+                dv = (plus - minus) / (2.0 * step)
+                out[i, j] = float(np.sum(sample.weights * sample.u**2 * dv)) * self.to_hartree / t.uncertainty
+        return out if np.all(np.isfinite(out)) else None
+
+    def _differences(self, x, lo, hi, diff_step: float) -> np.ndarray:
+        """Central differences of the residuals (one-sided at a bound), relative step ``diff_step``."""
+        x = np.asarray(x, dtype=float)
+        f0 = self.residuals(x)
+        out = np.empty((f0.size, x.size))
+        for j in range(x.size):
+            step = diff_step * max(abs(x[j]), 1.0)
+            up, down = x.copy(), x.copy()
+            up[j] = min(x[j] + step, hi[j])
+            down[j] = max(x[j] - step, lo[j])
+            if up[j] == down[j]:
+                out[:, j] = 0.0
+                continue
+            out[:, j] = (self.residuals(up) - self.residuals(down)) / (up[j] - down[j])
+        return out
+
     def residuals(self, x) -> np.ndarray:
         result, found = self.solve(x)
         out = np.empty(len(self.targets))
@@ -678,10 +749,11 @@ def fit(potential, targets, *, free, bounds=None, fixed=None, mass=None, tol: fl
                              f"not below the continuum threshold V(inf) = {v_inf:.6g} hartree of "
                              f"{family.name}; targets are level energies (negative for a bound level "
                              "of a potential that vanishes far away), not binding energies")
-    # Finite-difference Jacobian: a relative step of tol**(1/3) balances the
+    # Where differences are needed, a relative step of tol**(1/3) balances the
     # truncation error of central differences against the solver's noise (~tol).
     diff_step = max(tol ** (1.0 / 3.0), 1e-6)
-    solution = least_squares(model.residuals, x0, bounds=(lo, hi), jac="3-point", diff_step=diff_step,
+    solution = least_squares(model.residuals, x0, bounds=(lo, hi),
+                             jac=lambda x: model.jacobian(x, lo, hi, diff_step),
                              x_scale="jac", method="trf", max_nfev=max_evaluations,
                              xtol=1e-12, ftol=1e-12, gtol=1e-12)
     best = solution.x
