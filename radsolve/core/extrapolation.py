@@ -109,7 +109,10 @@ def extrapolate(values, orders: tuple[int, ...], relative_rounding: float = 1e-1
     the error of a Richardson value whose next term is known to dominate.
     Only while that change stands well above the rounding floor
     (:data:`SETTLED_ABOVE_NOISE` times it): a change made of noise says
-    nothing about the next term.
+    nothing about the next term.  The value then reported is the next
+    column's (this one plus that correction): in the asymptotic regime the
+    correction removes most of the error, and in any case it is a third of
+    the estimate, so the estimate still covers it.
     """
     e = np.asarray(values, dtype=float)
     k = e.size
@@ -150,11 +153,16 @@ def extrapolate(values, orders: tuple[int, ...], relative_rounding: float = 1e-1
         if len(column) < 2:
             break
         est = max(abs(column[-1] - table[j - 1][-1]), abs(column[-1] - column[-2]))
+        value = column[-1]
         if (settled and j < len(use) and abs(column[-1] - column[-2]) > SETTLED_ABOVE_NOISE * floor
                 and _settled_below(table, use, j)):
-            est = min(est, SETTLED_SAFETY * abs(column[-1] - column[-2]) / (2.0 ** use[j] - 1.0))
+            next_correction = abs(column[-1] - column[-2]) / (2.0 ** use[j] - 1.0)
+            if SETTLED_SAFETY * next_correction < est:
+                # The next column's value is this one plus that correction: report it,
+                # with this column's estimate (it bounds the step taken as well).
+                est, value = SETTLED_SAFETY * next_correction, table[j + 1][-1]
         if est < estimate:
-            best, estimate = column[-1], est
+            best, estimate = value, est
     return Extrapolation(float(best), float(max(estimate, floor)), observed, ok)
 
 

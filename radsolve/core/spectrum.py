@@ -156,7 +156,7 @@ class _Run:
 
     best: dict  # key -> list of per-level records (dicts)
     samples: dict  # key -> list of tuples of GridSample
-    grid_counts: dict  # key -> list of levels below the threshold per grid
+    grid_counts: dict  # key -> [levels below the threshold on the finest grid] (empty: none solved)
     finest: bool  # stopped at the finest affordable grid
     statistics: EigenStatistics  # what the eigenvalue searches did
 
@@ -279,12 +279,15 @@ def _phase_halvings(channels, span: GridSpan, mass, tops: dict, limit: float) ->
 
 
 def _levels_on(cls, grid, ch: _Channel, mass, inner, count, guesses=None, energies_only: bool = False,
-               peaks=None, statistics: EigenStatistics | None = None, precision=None):
+               peaks=None, statistics: EigenStatistics | None = None, precision=None,
+               count_threshold: bool = True):
     """The lowest ``count`` levels of one channel on one grid, energies from its reference:
     ``(energies, u, below, values, noise)``, ``noise`` the solver's rounding noise of each
     level where it measures one (else empty).
 
     ``energies_only`` (finite differences, for planning): u is None, and no eigenvector is computed.
+    ``below``: the levels below the threshold on this grid (None for a confining channel, or
+    when ``count_threshold`` is False).
     """
     values = potential_on_grid(ch.potential, grid.r, _anchors_of(grid)) - ch.reference
     solver = _solver(cls, grid, values, ch, mass, inner)
@@ -292,7 +295,7 @@ def _levels_on(cls, grid, ch: _Channel, mass, inner, count, guesses=None, energi
         energies, u = solver.energies(list(range(count)), guesses=guesses), None
     else:
         energies, u = solver.levels(list(range(count)), guesses=guesses, peaks=peaks, precision=precision)
-    below = None if ch.confining else solver.count_below(0.0)
+    below = None if ch.confining or not count_threshold else solver.count_below(0.0)
     if statistics is not None:
         statistics.add(solver.statistics)
     return energies, u, below, values, (solver.level_noise() if u is not None else [])
@@ -340,7 +343,8 @@ def _plan_box(channels, count, mass, targets: Targets, breakpoints) -> _BoxPlan:
     r_in = min(lengths) if lengths else r_min
     biggest_feature = max(breakpoints, default=0.0)
     radius = max(_INITIAL_BOX * r_in, 4.0 * biggest_feature, 4.0 * max(ch.inner_radius for ch in channels),
-                 *(2.0 * ch.certificate.outermost for ch in channels))
+                 *(2.0 * ch.certificate.outermost for ch in channels),
+                 *(_coulomb_extent(ch, wanted[ch.key], mass) for ch in active))
     radius = min(radius, largest)
     confining = all(ch.confining for ch in channels)
     notes: list[Note] = []
@@ -389,6 +393,22 @@ def _plan_box(channels, count, mass, targets: Targets, breakpoints) -> _BoxPlan:
     notes += _span_notes(span, at_limit, largest)
     return _BoxPlan(span, wanted, tuple(notes), max(radius, final_radius), largest, span.anchors, at_limit,
                     predicted, statistics)
+
+
+def _coulomb_extent(ch: _Channel, wanted: int, mass: float) -> float:
+    """A first box for a channel whose tail is an attractive Coulomb law C/r (else 0).
+
+    Its ``wanted``-th level is then hydrogen-like far out, n = wanted + L, with
+    its outer classical turning point at 2 n**2 / (m |C|) (textbook formula);
+    three times that (about where it has decayed enough at tol ~ 1e-10) is where
+    the box search starts, instead of growing towards it from the core's size.
+    Only a starting point: the search checks it as it checks any other.
+    """
+    tail = ch.profile.tail
+    if ch.confining or tail.kind != "long" or tail.coefficient >= 0 or abs(tail.power - 1.0) > 1e-6 or wanted < 1:
+        return 0.0
+    n = wanted + ch.effective_l
+    return 6.0 * n * n / (mass * abs(tail.coefficient))
 
 
 def _span_notes(span: GridSpan, at_limit: bool, largest: float) -> list[Note]:
@@ -589,6 +609,7 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
     history: dict = {ch.key: [] for ch in channels}
     best: dict = {ch.key: [] for ch in channels}
     grid_counts: dict = {ch.key: [] for ch in channels}
+    last_grid: dict = {}
     statistics = EigenStatistics()
     finest = False
     for refinement in range(MAX_REFINEMENTS + 1):
@@ -608,9 +629,10 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
             # solver keeps its noise well below it).
             precision = None if guesses is None else [
                 targets.energy_target(g + ch.reference, ch.v_inf) for g in guesses]
-            energies, u, below, values, noise = _levels_on(cls, grid, ch, mass, inner, want, guesses, peaks=peaks,
-                                                           statistics=statistics, precision=precision)
-            grid_counts[ch.key].append(below)
+            energies, u, _, values, noise = _levels_on(cls, grid, ch, mass, inner, want, guesses, peaks=peaks,
+                                                       statistics=statistics, precision=precision,
+                                                       count_threshold=False)
+            last_grid[ch.key] = (grid, inner)
             history[ch.key].append([(float(energies[k]) + ch.reference, u[k], grid) for k in range(want)])
             levels = best[ch.key]
             profile = ch.potential.potential_error(grid.r) if hasattr(ch.potential, "potential_error") else None
@@ -666,6 +688,15 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
             break  # rounding noise dominates: finer grids will not help
     else:
         finest = True
+    # Only the finest grid's count is used (a box too short for the certified levels):
+    # one Sturm count per channel, not one per grid.
+    for ch in channels:
+        if ch.key in last_grid and not ch.confining:
+            grid, inner = last_grid[ch.key]
+            values = potential_on_grid(ch.potential, grid.r, _anchors_of(grid)) - ch.reference
+            solver = _solver(cls, grid, values, ch, mass, inner)
+            grid_counts[ch.key].append(solver.count_below(0.0))
+            statistics.add(solver.statistics)
     samples = {
         ch.key: [
             tuple(GridSample(step=g.step, r=g.r, weights=g.weights, u=uk, energy=e, mapping=g.mapping)

@@ -1,0 +1,96 @@
+"""Richardson extrapolation and its error estimates on series whose limit is known.
+
+Each series is built from an error expansion E(h) = E0 + sum_k c_k h**p_k on
+steps h, h/2, h/4, ... (the textbook setting of Richardson's extrapolation),
+so the true error of every reported value is known exactly.  The rule the
+tests hold the estimates to is the project's honesty rule: an estimate is
+never below 1/10 of the true error (common practice for trusted estimates).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from radsolve.core.extrapolation import SETTLED_SAFETY, extrapolate
+
+FD_ORDERS = (2, 4, 6, 8, 10)
+LIMIT = -0.125
+
+
+def _series(coefficients: dict, grids: int, h0: float = 0.1, noise: float = 0.0, seed: int = 0) -> list:
+    rng = np.random.default_rng(seed)
+    out = []
+    for k in range(grids):
+        h = h0 / 2**k
+        out.append(LIMIT + sum(c * h**p for p, c in coefficients.items()) + noise * rng.standard_normal())
+    return out
+
+
+SMOOTH = {2: 3e-2, 4: -5e-2, 6: 4e-2, 8: -2e-2, 10: 1e-2}
+
+
+@pytest.mark.parametrize("grids", [3, 4, 5, 6])
+def test_estimate_covers_the_true_error_of_a_smooth_expansion(grids):
+    for settled in (False, True):
+        out = extrapolate(_series(SMOOTH, grids), FD_ORDERS, 1e-15, settled=settled)
+        true = abs(out.value - LIMIT)
+        assert out.order_ok
+        assert out.estimate >= 0.1 * true, (settled, out, true)
+
+
+def test_settled_estimate_is_smaller_and_still_honest():
+    # Four grids with the expansion in its asymptotic regime: the settled rule (three
+    # times the next correction) is far below the conservative one, and still above
+    # the true error.
+    values = _series(SMOOTH, 4, h0=0.05)
+    plain = extrapolate(values, FD_ORDERS, 1e-15)
+    settled = extrapolate(values, FD_ORDERS, 1e-15, settled=True)
+    assert settled.estimate < 0.1 * plain.estimate
+    assert settled.estimate >= abs(settled.value - LIMIT)
+    # The value reported is the next column's: closer to the limit than the plain one.
+    assert abs(settled.value - LIMIT) <= abs(plain.value - LIMIT)
+
+
+def test_settled_value_moves_by_a_third_of_its_estimate_at_most():
+    values = _series(SMOOTH, 5, h0=0.05)
+    plain = extrapolate(values, FD_ORDERS, 1e-15)
+    settled = extrapolate(values, FD_ORDERS, 1e-15, settled=True)
+    assert abs(settled.value - plain.value) <= settled.estimate / SETTLED_SAFETY * (1 + 1e-9) + plain.estimate
+
+
+def test_settled_estimate_with_a_large_next_term_stays_honest():
+    # An h**8 term large enough to dominate the last column's two entries (which
+    # cannot show their own order yet): the settled rule applies, and its three-fold
+    # safety is what keeps the estimate above the true error.
+    values = _series({2: 3e-2, 4: -5e-2, 6: 4e-2, 8: 1e4}, 4, h0=0.05)
+    plain = extrapolate(values, FD_ORDERS, 1e-15)
+    settled = extrapolate(values, FD_ORDERS, 1e-15, settled=True)
+    assert settled.estimate < 0.5 * plain.estimate  # the settled rule was used
+    assert settled.estimate >= abs(settled.value - LIMIT)
+
+
+def test_wrong_order_is_not_settled():
+    # An h**3 term the method does not promise: the columns do not show their orders,
+    # so the settled rule must not apply, and the estimate stays honest.
+    odd = {2: 3e-2, 3: 2e-1, 4: -5e-2}
+    for grids in (4, 5, 6):
+        out = extrapolate(_series(odd, grids), FD_ORDERS, 1e-15, settled=True)
+        assert out.estimate >= 0.1 * abs(out.value - LIMIT), (grids, out)
+
+
+def test_noise_is_not_taken_for_convergence():
+    # Grid values at their rounding floor (random noise of 1e-11 on a converged series),
+    # with the caller's declared floor five times too low: the changes say nothing about
+    # the next term, and the estimate must still cover the error.
+    floor = 0.2e-11 / abs(LIMIT)
+    for seed in range(20):
+        values = _series({2: 1e-7}, 6, h0=0.01, noise=1e-11, seed=seed)
+        out = extrapolate(values, FD_ORDERS, floor, settled=True)
+        assert out.estimate >= 0.2e-11 * 0.999
+        assert out.estimate >= 0.1 * abs(out.value - LIMIT), (seed, out)
+
+
+def test_fewer_than_three_grids_give_no_estimate():
+    out = extrapolate(_series(SMOOTH, 2), FD_ORDERS, settled=True)
+    assert out.estimate == np.inf and not out.order_ok
