@@ -76,3 +76,39 @@ def test_rounding_sensitivity_covers_the_effect_of_perturbed_entries():
         worst = np.maximum(worst, np.abs(moved - values))
     assert np.all(worst <= noise), (worst, noise)
     assert np.allclose(noise, rounding_sensitivity(d, e, vectors), rtol=0.6)
+
+
+def _box_vector(n: int, k: int) -> np.ndarray:
+    """The k-th eigenvector of the box matrix, sin(k' pi i / (n + 1)), k' = k + 1 (textbook formula)."""
+    i = np.arange(1, n + 1)
+    return np.sin((k + 1) * np.pi * i / (n + 1))
+
+
+def test_start_vectors_near_the_states_give_the_exact_levels():
+    # Start vectors that are the exact states plus a smooth error of 1e-4 (what an
+    # interpolated coarser-grid state is): the values must be the exact ones, by index.
+    n = 500
+    d, e, exact = _box(n)
+    lo, hi = 2, 7
+    x = np.linspace(0, 1, n)
+    starts = [_box_vector(n, k) + 1e-4 * x**2 for k in range(lo, hi + 1)]
+    stats = EigenStatistics()
+    values, vectors, _ = eigenpairs(d, e, lo, hi, exact[lo : hi + 1] * (1 + 1e-6), starts=starts, stats=stats)
+    assert np.allclose(values, exact[lo : hi + 1], rtol=1e-12, atol=0)
+    assert stats.missed == 0
+    for j, k in enumerate(range(lo, hi + 1)):
+        ref = _box_vector(n, k)
+        assert abs(abs(vectors[:, j] @ ref) / np.linalg.norm(ref) - 1) < 1e-12
+
+
+def test_start_vectors_of_the_wrong_states_never_give_a_wrong_index():
+    # Each level starts from a neighbour's exact state with a prediction between the two
+    # (states that swapped places between grids, as in a double well): whatever the
+    # iteration converges to, the Sturm counts decide, and each value is the one asked.
+    n = 300
+    d, e, exact = _box(n)
+    lo, hi = 4, 9
+    starts = [_box_vector(n, k + 1) for k in range(lo, hi + 1)]
+    guesses = 0.5 * (exact[lo : hi + 1] + exact[lo + 1 : hi + 2])
+    values, _, _ = eigenpairs(d, e, lo, hi, guesses, starts=starts, stats=EigenStatistics())
+    assert np.allclose(values, exact[lo : hi + 1], rtol=1e-12, atol=0)

@@ -280,7 +280,7 @@ def _phase_halvings(channels, span: GridSpan, mass, tops: dict, limit: float) ->
 
 def _levels_on(cls, grid, ch: _Channel, mass, inner, count, guesses=None, energies_only: bool = False,
                peaks=None, statistics: EigenStatistics | None = None, precision=None,
-               count_threshold: bool = True):
+               count_threshold: bool = True, previous=None):
     """The lowest ``count`` levels of one channel on one grid, energies from its reference:
     ``(energies, u, below, values, noise)``, ``noise`` the solver's rounding noise of each
     level where it measures one (else empty).
@@ -294,11 +294,21 @@ def _levels_on(cls, grid, ch: _Channel, mass, inner, count, guesses=None, energi
     if energies_only:
         energies, u = solver.energies(list(range(count)), guesses=guesses), None
     else:
-        energies, u = solver.levels(list(range(count)), guesses=guesses, peaks=peaks, precision=precision)
+        hints = {"previous": previous} if previous is not None and _takes(cls, "previous") else {}
+        energies, u = solver.levels(list(range(count)), guesses=guesses, peaks=peaks, precision=precision,
+                                    **hints)
     below = None if ch.confining or not count_threshold else solver.count_below(0.0)
     if statistics is not None:
         statistics.add(solver.statistics)
     return energies, u, below, values, (solver.level_noise() if u is not None else [])
+
+
+def _takes(cls, name: str) -> bool:
+    """Whether ``cls.levels`` accepts the keyword ``name`` (a solver written to an older contract may not)."""
+    import inspect
+
+    parameters = inspect.signature(cls.levels).parameters
+    return name in parameters or any(p.kind is p.VAR_KEYWORD for p in parameters.values())
 
 
 def _predictions(history: list, reference: float, order: int, planned=None):
@@ -629,9 +639,10 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
             # solver keeps its noise well below it).
             precision = None if guesses is None else [
                 targets.energy_target(g + ch.reference, ch.v_inf) for g in guesses]
+            previous = [step[1] for step in history[ch.key][-1]] if history[ch.key] else None
             energies, u, _, values, noise = _levels_on(cls, grid, ch, mass, inner, want, guesses, peaks=peaks,
                                                        statistics=statistics, precision=precision,
-                                                       count_threshold=False)
+                                                       count_threshold=False, previous=previous)
             last_grid[ch.key] = (grid, inner)
             history[ch.key].append([(float(energies[k]) + ch.reference, u[k], grid) for k in range(want)])
             levels = best[ch.key]

@@ -67,6 +67,9 @@ _NOISE_SHARE_OF_PRECISION = 0.1
 _POLISH_WINDOW = 1e-9
 #: Computed residual bounds are widened by this factor before they prove anything.
 _RESIDUAL_SAFETY = 8.0
+#: A Rayleigh iteration may stop once its residual bound is this share of the
+#: precision asked (the value is then within it of the eigenvalue).
+_RESIDUAL_SHARE_OF_PRECISION = 1e-2
 #: A second (or later) Rayleigh step this small (relative) ends the iteration.
 _SETTLED_STEP = 1e-8
 #: The largest relative residual bound of an accepted Rayleigh quotient.
@@ -168,9 +171,19 @@ def _start_vector(n: int, row) -> np.ndarray:
     return start
 
 
-def _rayleigh(d, e, x: float, row, stats: EigenStatistics):
-    """Rayleigh quotient iteration from ``x``: (value, unit vector, residual bound)."""
-    rhs = _start_vector(d.size, row)
+def _rayleigh(d, e, x: float, row, stats: EigenStatistics, start=None, enough: float = 0.0):
+    """Rayleigh quotient iteration from ``x``: (value, unit vector, residual bound).
+
+    ``start``: a start vector (an interpolated state of a coarser grid), else
+    e_row or the default of :func:`_start_vector`.  ``enough``: a residual
+    bound at which the iteration may stop after any step -- the quotient is
+    then within that bound of an eigenvalue (the residual bound of a
+    symmetric matrix), which the caller's precision does not resolve.
+    """
+    if start is not None and start.size == d.size and np.all(np.isfinite(start)) and np.any(start):
+        rhs = start / np.linalg.norm(start)
+    else:
+        rhs = _start_vector(d.size, row)
     rho = np.inf
     tiny = 64.0 * np.finfo(float).eps
     first = True
@@ -187,8 +200,9 @@ def _rayleigh(d, e, x: float, row, stats: EigenStatistics):
         rho = float(np.sqrt(max(1.0 - overlap * overlap / size, 0.0) / size))
         rhs = y / np.sqrt(size)
         # Converged: the step is at the rounding level, or no longer shrinks as a
-        # converging iteration's does (cubically), which only rounding noise does.
-        if abs(step) <= tiny * abs(x) or (not first and abs(step) <= _SETTLED_STEP * abs(x)):
+        # converging iteration's does (cubically), which only rounding noise does;
+        # or the residual already bounds the value within what is asked.
+        if abs(step) <= tiny * abs(x) or (not first and abs(step) <= _SETTLED_STEP * abs(x)) or rho <= enough:
             # Convergence is cubic: after a second step this small the next would be below
             # rounding, and the vector, iterated twice with shifts this close, is as good as it gets.
             break
@@ -266,14 +280,16 @@ def _stein(d, e, values) -> np.ndarray:
 
 
 def eigenpairs(d: np.ndarray, e: np.ndarray, lo: int, hi: int, predictions=None, *, vectors: bool = True,
-               rows=None, precision=None, stats: EigenStatistics | None = None):
+               rows=None, precision=None, stats: EigenStatistics | None = None, starts=None):
     """Eigenvalues number lo..hi of tridiag(e, d, e), their unit eigenvectors and rounding noise.
 
     ``predictions`` (hi - lo + 1 values, ascending) start a Rayleigh quotient
     iteration for each level; the indices are then proven by two Sturm counts
     (:func:`_proven`), and index bisection takes over when they are not.
     ``rows``: for each level a row where its state is large (from a coarser
-    grid), or None.  ``precision``: the absolute accuracy each value needs
+    grid), or None.  ``starts``: for each level a start vector (its state on a
+    coarser grid, interpolated), or None; it takes the place of the row.
+    ``precision``: the absolute accuracy each value needs
     (None: as accurate as bisection).  A Rayleigh quotient, computed with a
     pivoted solve, is noisier than bisection on this graded matrix
     (:data:`RAYLEIGH_NOISE_FACTOR`); where its noise is not well below the
@@ -295,8 +311,11 @@ def eigenpairs(d: np.ndarray, e: np.ndarray, lo: int, hi: int, predictions=None,
     vecs = np.zeros((d.size, count))
     values = np.full(count, np.nan)
     windows: list = [None] * count
+    needed = None if precision is None else np.broadcast_to(np.asarray(precision, dtype=float), (count,))
     for j, guess in enumerate(predictions):
-        x, z, rho = _rayleigh(d, e, float(guess), None if rows is None else rows[j], stats)
+        enough = 0.0 if needed is None or not np.isfinite(needed[j]) else _RESIDUAL_SHARE_OF_PRECISION * needed[j]
+        x, z, rho = _rayleigh(d, e, float(guess), None if rows is None else rows[j], stats,
+                              start=None if starts is None else starts[j], enough=enough)
         if z is not None:
             half = max(_RESIDUAL_SAFETY * rho, _POLISH_WINDOW * abs(x))
             windows[j], values[j], vecs[:, j] = (x - half, x + half), x, z
@@ -305,7 +324,6 @@ def eigenpairs(d: np.ndarray, e: np.ndarray, lo: int, hi: int, predictions=None,
     else:
         good = _proven_each(d, e, lo, windows, stats)
     noise = RAYLEIGH_NOISE_FACTOR * rounding_sensitivity(d, e, vecs)
-    needed = None if precision is None else np.broadcast_to(np.asarray(precision, dtype=float), (count,))
     for j in np.flatnonzero(good):
         if needed is None or noise[j] > _NOISE_SHARE_OF_PRECISION * needed[j]:
             polished = _bisected_in(d, e, [windows[j]], stats)

@@ -119,7 +119,8 @@ class RadialSolver:
 
     def levels(self, indices: Sequence[int], guesses: Sequence[float] | None = None,
                peaks: Sequence[float] | None = None,
-               precision: Sequence[float] | None = None) -> tuple[np.ndarray, np.ndarray]:
+               precision: Sequence[float] | None = None,
+               previous: Sequence[np.ndarray] | None = None) -> tuple[np.ndarray, np.ndarray]:
         """Energies (hartree) and wavefunctions of the levels with these node numbers.
 
         ``guesses`` are predictions of the same levels on this grid from this
@@ -128,7 +129,9 @@ class RadialSolver:
         radii where the states were largest on the previous grid.  Both are
         None on the first grid.  ``precision``: the absolute accuracy each
         energy needs on this grid (None: the method's best), which a method
-        may use to stop early.  A method must find the levels by their node
+        may use to stop early.  ``previous``: the same levels' u on the grid
+        this one halves (every other point of this grid), or None; a start
+        for an iterative method.  A method must find the levels by their node
         numbers whatever the guesses are: a guess may speed it up, never
         change which level is returned.
 

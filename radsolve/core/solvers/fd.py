@@ -65,7 +65,7 @@ class FiniteDifference(RadialSolver):
         """The energies of :meth:`levels` alone, as accurate as cheap (planning needs no more)."""
         return self._solve(list(indices), guesses, vectors=False, precision=np.inf)[0]
 
-    def _solve(self, indices: list[int], guesses, vectors: bool, rows=None, precision=None):
+    def _solve(self, indices: list[int], guesses, vectors: bool, rows=None, precision=None, starts=None):
         d, e, b = self._cached_matrix()
         if max(indices) >= d.size:
             raise ValueError(f"level {max(indices)} asked of a matrix of size {d.size}")
@@ -75,11 +75,13 @@ class FiniteDifference(RadialSolver):
         if predictions is None:
             precision = None
         values, z, noise = eigenpairs(d, e, lo, hi, predictions, vectors=vectors, rows=rows,
-                                      precision=precision, stats=self.statistics)
+                                      precision=precision, stats=self.statistics,
+                                      starts=starts if predictions is not None else None)
         pick = [i - lo for i in indices]
         return values[pick], (None if z is None else z[:, pick]), (None if noise is None else noise[pick])
 
-    def levels(self, indices: Sequence[int], guesses=None, peaks=None, precision=None) -> tuple[np.ndarray, np.ndarray]:
+    def levels(self, indices: Sequence[int], guesses=None, peaks=None, precision=None,
+               previous=None) -> tuple[np.ndarray, np.ndarray]:
         indices = list(indices)
         _, _, b = self._cached_matrix()
         rows = None
@@ -87,7 +89,30 @@ class FiniteDifference(RadialSolver):
             # rows of this grid's matrix nearest to the radii where the states peaked before
             r = self.grid.r[self.inner + 1 : self.grid.size - 1]
             rows = [None if p is None else int(min(np.searchsorted(r, p), r.size - 1)) for p in peaks]
-        values, z, noise = self._solve(indices, guesses, vectors=True, rows=rows, precision=precision)
+        starts = self._starts(previous, b) if previous is not None and len(previous) == len(indices) else None
+        values, z, noise = self._solve(indices, guesses, vectors=True, rows=rows, precision=precision,
+                                       starts=starts)
         self._noise = list(noise)
         w = (z / np.sqrt(b)[:, None]).T
         return values, self.to_u(w, self.inner + 1)
+
+    def _starts(self, previous, b) -> list | None:
+        """The states of the grid this one halves, as start vectors of this matrix.
+
+        Every other point of this grid is a point of that one; the points
+        between take the mean of their neighbours (good to the step squared,
+        which one inverse iteration makes good to rounding).  None when the
+        states are not on the grid this one halves.
+        """
+        n = self.grid.size
+        out = []
+        for u in previous:
+            u = np.asarray(u, dtype=float)
+            if u.ndim != 1 or 2 * (u.size - 1) != n - 1:
+                return None
+            fine = np.empty(n)
+            fine[0::2] = u
+            fine[1::2] = 0.5 * (u[:-1] + u[1:])
+            sl = slice(self.inner + 1, n - 1)
+            out.append(fine[sl] / np.sqrt(self.grid.jacobian[sl]) * np.sqrt(b))
+        return out

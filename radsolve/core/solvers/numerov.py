@@ -195,7 +195,8 @@ class NumerovShooting(RadialSolver):
                 hi = mid
         return 0.5 * (lo + hi)
 
-    def levels(self, indices: Sequence[int], guesses: Sequence[float] | None = None, peaks=None, precision=None):
+    def levels(self, indices: Sequence[int], guesses: Sequence[float] | None = None, peaks=None, precision=None,
+               previous=None):
         energies, rows = [], []
         for j, k in enumerate(indices):
             guess = None if guesses is None else guesses[j]
