@@ -108,20 +108,26 @@ def mapping_x(r, scale: float):
     return np.log(r) + r / scale
 
 
-def radius_from_x(x, scale: float) -> np.ndarray:
+def radius_from_x(x, scale: float, start=None) -> np.ndarray:
     """Invert x = ln r + r/s:  r = s W(e^x / s), with W the Lambert function.
 
     Evaluated through log-space Newton steps so that very negative x (tiny r)
-    and large x (where e^x overflows) are both exact to rounding.
+    and large x (where e^x overflows) are both exact to rounding.  ``start``:
+    ln r at each x when known roughly (a neighbouring grid's), else None.
     """
     x = np.asarray(x, dtype=float)
     log_s = np.log(scale)
-    # The root t = ln r of f(t) = t + e^t/s - x lies below both x (the log
-    # regime) and ln(s (x - ln s)) (the linear regime); starting from the
-    # smaller, f is convex and increasing, so Newton steps approach the root
-    # without overflowing e^t.
-    linear_guess = log_s + np.log(np.maximum(x - log_s, 1e-300))
-    t = np.minimum(x, np.where(x - log_s > 0, np.maximum(linear_guess, log_s), x))
+    if start is not None:
+        # t(x) is concave (dx/dt = 1 + e^t/s grows): the mean of ln r at the two
+        # neighbours lies just below the root, where Newton steps stay monotone.
+        t = np.minimum(np.asarray(start, dtype=float), x)
+    else:
+        # The root t = ln r of f(t) = t + e^t/s - x lies below both x (the log
+        # regime) and ln(s (x - ln s)) (the linear regime); starting from the
+        # smaller, f is convex and increasing, so Newton steps approach the root
+        # without overflowing e^t.
+        linear_guess = log_s + np.log(np.maximum(x - log_s, 1e-300))
+        t = np.minimum(x, np.where(x - log_s > 0, np.maximum(linear_guess, log_s), x))
     for _ in range(100):
         et = np.exp(t - log_s)  # e^t / s
         delta = (t + et - x) / (1.0 + et)
@@ -241,10 +247,20 @@ class Mapping:
     def r_of_xi(self, xi) -> np.ndarray:
         return radius_from_x(self.x_of_xi(xi), self.scale)
 
-    def points(self, xi: np.ndarray, breakpoints: Iterable[float] = ()):
-        """(r, dr/dxi, {r, xi}) at grid values ``xi``; breakpoints land exactly."""
+    def points(self, xi: np.ndarray, breakpoints: Iterable[float] = (), every_other=None):
+        """(r, dr/dxi, {r, xi}) at grid values ``xi``; breakpoints land exactly.
+
+        ``every_other``: r at xi[0::2] when known (the grid this one halves);
+        only the points between are then solved for.
+        """
         x = self.x_of_xi(xi)
-        r = radius_from_x(x, self.scale)
+        if every_other is not None and 2 * (len(every_other) - 1) == x.size - 1:
+            r = np.empty(x.size)
+            r[0::2] = every_other
+            log_known = np.log(every_other)
+            r[1::2] = radius_from_x(x[1::2], self.scale, start=0.5 * (log_known[:-1] + log_known[1:]))
+        else:
+            r = radius_from_x(x, self.scale)
         for b, xk in zip(breakpoints, self.knots):
             r = np.where(x == xk, b, r)
         s = self.scale
@@ -357,7 +373,10 @@ class GridSpan:
         intervals = self.intervals(refinement)
         step = self.coarse_step / 2**refinement
         x = self.x_lo + step * np.arange(intervals + 1)
-        r, jac, schwarz = self.mapping.points(x, self.anchors)
+        # Always from the grid this one halves (built first if need be), so that a
+        # grid's radii do not depend on the order in which grids were asked for.
+        coarser = self.grid(refinement - 1) if refinement > 0 else None
+        r, jac, schwarz = self.mapping.points(x, self.anchors, None if coarser is None else coarser.r)
         return RadialGrid(step=step, scale=self.scale, x=x, r=r, jacobian=jac, schwarzian=schwarz,
                           mapping=self.mapping)
 

@@ -37,6 +37,7 @@ bohr, or MeV and fm); ``mass`` below is always the kinetic mass m of
 
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass, field, replace
 from typing import Any
@@ -303,6 +304,7 @@ def _levels_on(cls, grid, ch: _Channel, mass, inner, count, guesses=None, energi
     return energies, u, below, values, (solver.level_noise() if u is not None else [])
 
 
+@functools.lru_cache(maxsize=64)
 def _takes(cls, name: str) -> bool:
     """Whether ``cls.levels`` accepts the keyword ``name`` (a solver written to an older contract may not)."""
     import inspect
@@ -649,11 +651,13 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
             profile = ch.potential.potential_error(grid.r) if hasattr(ch.potential, "potential_error") else None
             splits = _unsettled_pairs(history[ch.key])
             v_eff = values + ch.centrifugal / (2.0 * mass * grid.r**2)
+            # Rounding grows with the energies the state sees, not only with
+            # its own: a level high in a deep well has |V - E| >> |E|.
+            seen_all = (np.asarray(u[:want]) ** 2 * np.abs(v_eff[None, :] - np.asarray(energies[:want])[:, None])) \
+                @ grid.weights
             for k in range(want):
                 series = [step[k][0] for step in history[ch.key]]
-                # Rounding grows with the energies the state sees, not only with
-                # its own: a level high in a deep well has |V - E| >> |E|.
-                seen = float(np.sum(grid.weights * u[k] ** 2 * np.abs(v_eff - energies[k])))
+                seen = float(seen_all[k])
                 level = max(abs(series[-1]), abs(energies[k]) + seen)
                 rounding = cls.relative_rounding(grid.size) * level / max(abs(series[-1]), 1e-300)
                 if k < len(noise) and noise[k] is not None:

@@ -160,8 +160,7 @@ class RadialSolver:
         norm = np.sqrt(np.sum(self.grid.weights * u**2, axis=1))
         u /= norm[:, None]
         # Sign convention: positive where |u| first exceeds a small fraction of its maximum.
-        for row in u:
-            big = np.nonzero(np.abs(row) > 1e-3 * np.max(np.abs(row)))[0]
-            if big.size and row[big[0]] < 0:
-                row *= -1.0
+        size = np.abs(u)
+        first = np.argmax(size > 1e-3 * np.max(size, axis=1, keepdims=True), axis=1)
+        u *= np.where(u[np.arange(u.shape[0]), first] < 0, -1.0, 1.0)[:, None]
         return u
