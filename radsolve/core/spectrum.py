@@ -251,6 +251,13 @@ def _span(r_min: float, radius: float, step: float, anchors) -> GridSpan:
     That s balances the points spent on the logarithmic and the linear part
     for a fixed accuracy of the states that fill the box.
     """
+    return _span_of(float(r_min), float(radius), float(step), tuple(float(a) for a in (anchors or ())))
+
+
+@functools.lru_cache(maxsize=4)
+def _span_of(r_min: float, radius: float, step: float, anchors: tuple) -> GridSpan:
+    # A memo of a pure function: the points of a sweep or a fit that continue from
+    # their neighbour solve in the same box, and so on the same grids (built once).
     scale = radius / max(math.log(radius / r_min), 1.0)
     return GridSpan.covering(r_min, radius, step, scale, anchors)
 

@@ -81,3 +81,8 @@ def validate(kappa, string_tension, offset):
     if kappa == 0 and string_tension == 0:
         raise InputError("potential 'cornell': kappa and string_tension are both 0 (no potential); "
                          "allowed: at least one of them > 0")
+
+
+def breakpoints(kappa, string_tension, offset):
+    """None: V is smooth for r > 0 (declared, so that V need not be scanned for jumps)."""
+    return []

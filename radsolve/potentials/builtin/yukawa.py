@@ -41,3 +41,8 @@ def v_infinity(Z, screening_length):
 
 def small_r(Z, screening_length):
     return (-Z, -1.0)
+
+
+def breakpoints(Z, screening_length):
+    """None: V is smooth for r > 0 (declared, so that V need not be scanned for jumps)."""
+    return []
