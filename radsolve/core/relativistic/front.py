@@ -141,18 +141,15 @@ def _own_methods(equation, method):
 def _scalar_function(pot, scalar):
     if not scalar:
         return None
-    family = getattr(pot, "family", None)
-    hook = getattr(getattr(family, "module", None), "scalar_potential", None)
-    if hook is None:
+    if not getattr(pot, "has_scalar", False):
         raise InputError(f"scalar was asked for, but potential {pot.name!r} has no Lorentz-scalar part "
-                         "(families with one define scalar_potential(r, ...))", parameter="scalar")
-    params = dict(pot.parameters)
+                         "(families with one define the hook scalar_potential(r, ...))", parameter="scalar")
 
     def scalar_fn(r):
-        return np.asarray(hook(np.asarray(r, dtype=float), **params), dtype=float)
+        return pot.scalar(r)
 
     with np.errstate(all="ignore"):
-        far = scalar_fn(probing.PROBE_RADII[-400:])
+        far = pot.scalar(probing.PROBE_RADII[-400:], finite=False)
     if not np.all(np.isfinite(far)) or abs(float(far[-1])) > 1e3 * max(abs(float(far[0])), 1.0):
         raise InputError(f"the scalar potential of {pot.name!r} grows without bound at large r (confining): "
                          "not supported yet; the relativistic solvers take scalar potentials with a finite "
