@@ -24,9 +24,10 @@ from radsolve.errors import InputError
 _ORDERS = (2, 4, 6, 8)
 
 
-def _dirac_level(result, label: str):
-    if getattr(result, "equation", "schrodinger") != "dirac":
-        raise InputError("Dirac components need a result of equation='dirac'", parameter="equation")
+def _dirac_level(result, label: str, equations=("dirac",)):
+    if getattr(result, "equation", "schrodinger") not in equations:
+        raise InputError(f"this needs a result of equation={' or '.join(repr(e) for e in equations)}",
+                         parameter="equation")
     try:
         level = result.level(label)
     except KeyError:
@@ -58,6 +59,36 @@ def _components(result, level, sample):
     return r, w, g / norm, f / norm
 
 
+def _kg_components(result, level, sample):
+    """(r, weights, u, rho) of a Klein-Gordon level on one grid, normalized with the charge density.
+
+    rho = (W - V + mc^2) / mc^2 (the time component of the conserved current of a stationary state
+    divided by its non-relativistic limit; a Lorentz scalar enters as a mass and leaves it unchanged),
+    normalized so that the integral of rho u^2 dr is 1 (textbook, e.g. Greiner, "Relativistic Quantum
+    Mechanics: Wave Equations", 2000, ch. 1).
+    """
+    from radsolve.core.relativistic.front import rest_energy
+
+    pot = result.potential
+    channel = pot.channel(level.l, None) if getattr(pot, "l_dependent", False) else pot
+    r, w, u = sample.r, sample.weights, sample.u
+    with np.errstate(all="ignore"):
+        v = np.asarray(channel.raw(r), dtype=float)
+    rest = rest_energy(result.units, result.mass)
+    rho = np.where(u != 0.0, (sample.energy - v + rest) / rest, 0.0)
+    norm = math.sqrt(float(np.sum(w * rho * u * u)))
+    return r, w, u / norm, rho
+
+
+def _density(result, level, sample):
+    """(r, weights, probability density per unit r) on one grid: G^2 + F^2 (Dirac), rho u^2 (Klein-Gordon)."""
+    if result.equation == "dirac":
+        r, w, g, f = _components(result, level, sample)
+        return r, w, g * g + f * f
+    r, w, u, rho = _kg_components(result, level, sample)
+    return r, w, rho * u * u
+
+
 def _derivative(y: np.ndarray, h: float) -> np.ndarray:
     """dy/dx on a uniform grid: five-point central differences inside (fourth order), np.gradient at the ends.
 
@@ -81,40 +112,88 @@ def dirac_components(result, label: str):
 
 
 def moment(result, label: str, k: float) -> Estimate:
-    """<r^k> of a Dirac level from G^2 + F^2 (bohr^k or fm^k), extrapolated over its grids.
+    """<r^k> of a Dirac (G^2 + F^2) or Klein-Gordon (rho u^2) level (bohr^k or fm^k), extrapolated over its grids.
 
     Needs k > -(2 gamma + 1), gamma the origin exponent of G (a point charge: sqrt(kappa^2 - (Z alpha)^2)).
     """
-    from radsolve.core.extrapolation import richardson
-
-    level = _dirac_level(result, label)
     if isinstance(k, bool) or not isinstance(k, (int, float)) or not math.isfinite(float(k)):
         raise InputError(f"k must be a finite real number, got {k!r}", parameter="k")
+    return _integral_estimate(result, label, lambda r: r ** float(k),
+                              ("bohr" if result.units == "atomic" else "fm") + ("" if k == 1 else f"^{k:g}"))
+
+
+def probability_inside(result, label: str, radius: float) -> Estimate:
+    """P(r < radius) of a Dirac or Klein-Gordon level, from the same density as :func:`moment`."""
+    if isinstance(radius, bool) or not isinstance(radius, (int, float)) or not radius > 0 \
+            or not math.isfinite(radius):
+        raise InputError(f"radius must be a positive length, got {radius!r}", parameter="radius")
+    return _integral_estimate(result, label, None, "", upto=float(radius))
+
+
+def _partial_sum(r, w, density, radius):
+    """Integral of density dr from the grid's start to ``radius``: a cubic spline in the uniform grid index."""
+    from scipy.interpolate import CubicSpline
+
+    if radius >= r[-1]:
+        return float(np.sum(w * density))
+    index = np.arange(r.size, dtype=float)
+    # w is dr/dxi times the step: the integrand per unit index; xi(radius) from a spline of index in ln r
+    where = float(CubicSpline(np.log(r), index)(math.log(radius))) if radius > r[0] else 0.0
+    return float(CubicSpline(index, w * density).integrate(0.0, where))
+
+
+def _power_law_start(r, f, first):
+    """(integral of f from 0 to r[first], its error) for f ~ r^p there; p from two spans beyond ``first``."""
+    if first + 16 >= r.size or f[first] == 0.0:
+        return 0.0, float(np.sum(np.abs(f[:first + 1]) * np.gradient(r)[:first + 1]))
+    with np.errstate(all="ignore"):
+        powers = [math.log(abs(f[first + k] / f[first])) / math.log(r[first + k] / r[first]) for k in (8, 16)]
+    if not all(math.isfinite(p) and p > -1.0 for p in powers):
+        return 0.0, math.inf  # not integrable at the origin, or no clean law: no claim
+    shares = [f[first] * r[first] / (p + 1.0) for p in powers]
+    return float(shares[0]), float(abs(shares[0] - shares[1]) + 1e-3 * abs(shares[0]))
+
+
+def _integral_estimate(result, label, weight, unit, upto=None) -> Estimate:
+    from radsolve.core.extrapolation import richardson
     from radsolve.core.relativistic.front import hbar_c, rest_energy
 
+    level = _dirac_level(result, label, ("dirac", "klein-gordon"))
     values, scale, edges = [], 0.0, 0.0
+    rest = rest_energy(result.units, result.mass)
     for sample in level.samples:
-        r, w, g, f = _components(result, level, sample)
-        terms = w * (g * g + f * f) * r ** float(k)
-        values.append(float(np.sum(terms)))
-        scale = float(np.sum(np.abs(terms)))
-        # what the wall may cut off (the last decay length) and the innermost region, where u is
-        # below 1e-6 of its maximum and its differences are noise: both taken whole as uncertain
-        rest = rest_energy(result.units, result.mass)
-        decay = math.sqrt(max(-sample.energy * (sample.energy + 2.0 * rest), 1e-300)) / hbar_c(result.units)
+        r, w, density = _density(result, level, sample)
+        # Near the origin, where u is below 1e-6 of its maximum, F comes from differences of tiny numbers
+        # and the grid may start where the integrand still matters (a charge density ~ Z/r, an origin
+        # exponent below 1): those radii are replaced by the integrand's power law f ~ r^p, read from
+        # two spans beyond them and integrated from 0 (their difference, and a thousandth, as error).
         inside = np.nonzero(np.abs(sample.u) > 1e-6 * np.max(np.abs(sample.u)))[0]
         first = int(inside[0]) if inside.size else 0
-        edges = float(np.sum(np.abs(terms[r > r[-1] - 1.0 / decay])) + np.sum(np.abs(terms[:first])))
+        if upto is None:
+            terms = w * density * weight(r)
+            f = density * weight(r)
+            below, below_error = _power_law_start(r, f, first)
+            values.append(float(np.sum(terms[first:])) + below)
+        else:
+            terms = w * density * (r < upto)
+            f = density
+            below, below_error = _power_law_start(r, f, first)
+            values.append(_partial_sum(r[first:], w[first:], density[first:], upto) + below
+                          if upto > r[first] else float(np.sum(terms)))
+        scale = float(np.sum(np.abs(terms)))
+        # what the wall may cut off (the last decay length), taken whole as uncertain
+        w_rel = sample.energy - (result.v_infinity if math.isfinite(result.v_infinity) else 0.0)
+        decay = math.sqrt(max(-w_rel * (w_rel + 2.0 * rest), 1e-300)) / hbar_c(result.units)
+        edges = float(np.sum(np.abs(terms[r > r[-1] - 1.0 / decay]))) + below_error
     rounding = 1e-13
     if len(values) < 3:
-        return Estimate(values[-1], math.inf, "", None, False)
+        return Estimate(values[-1], math.inf, unit, None, False)
     value, estimate, observed = richardson(values, _ORDERS, rounding)
     # Measured against the Dirac-Coulomb 1s moments (Z = 1 ... 92, k = -1 ... 3) the Richardson part
     # understated the error up to 3-fold for k = 3: widened tenfold.
     estimate = 10.0 * max(estimate, rounding * scale) + edges
-    unit = ("bohr" if result.units == "atomic" else "fm") + ("" if k == 1 else f"^{k:g}")
     return Estimate(float(value), float(estimate), unit, observed,
-                    bool(math.isfinite(estimate) and estimate <= 10.0 * result.tol * abs(value)))
+                    bool(math.isfinite(estimate) and estimate <= 10.0 * result.tol * max(abs(value), 1e-300)))
 
 
 # ----------------------------------------------------------------------------- E1 lines
@@ -289,28 +368,109 @@ def e1_lines(result) -> list[dict]:
     return lines
 
 
-# ----------------------------------------------------------------------------- one Dirac state
+# ----------------------------------------------------------------------------- one relativistic state
 
-from dataclasses import dataclass, field  # noqa: E402  (kept beside the class that uses them)
+from dataclasses import dataclass, field  # noqa: E402  (kept beside the classes that use them)
 from typing import Any  # noqa: E402
 
 from radsolve.core.protocol import Note, Outcome, ResultProtocol, message_of  # noqa: E402
 
 
+@dataclass
+class RelativisticWave:
+    """The normalized components of one relativistic level as functions of r (what ``wave --out`` writes).
+
+    Dirac: ``columns`` G and F (integral of G^2 + F^2 dr = 1, G > 0 as r -> 0); Klein-Gordon: u with the
+    charge density's normalization (integral of rho u^2 dr = 1, rho = (W - V + mc^2)/mc^2), and rho.
+    On the finest grid of the refinement (not extrapolated), or interpolated to given radii (cubic
+    spline in ln r).
+    """
+
+    r: np.ndarray
+    columns: dict
+    label: str
+    equation: str
+    energy: float
+    energy_error: float
+    units: str
+    on_grid: bool
+    properties: dict = field(default_factory=dict)
+
+    def metadata(self) -> dict:
+        length = "bohr" if self.units == "atomic" else "fm"
+        normalization = ("integral of (G^2 + F^2) dr = 1; G > 0 as r -> 0" if self.equation == "dirac" else
+                         "integral of rho u^2 dr = 1, rho = (W - V + mc^2) / mc^2 (Klein-Gordon charge density)")
+        return {"label": self.label, "equation": self.equation, "energy": self.energy,
+                "energy_error": self.energy_error, "energy_unit": "hartree" if self.units == "atomic" else "MeV",
+                "units": {"r": length, **{k: f"{length}^-1/2" for k in self.columns if k != "rho"}},
+                "radii": "solver grid (finest)" if self.on_grid else "given", "normalization": normalization,
+                "properties": self.properties}
+
+    def _named_columns(self) -> dict:
+        length = "bohr" if self.units == "atomic" else "fm"
+        out = {f"r/{length}": self.r}
+        for name, values in self.columns.items():
+            out[name if name == "rho" else f"{name}/{length}^-1/2"] = values
+        return out
+
+    def to_csv(self) -> str:
+        from radsolve.core.serialize import records_to_csv
+
+        cols = self._named_columns()
+        return records_to_csv([dict(zip(cols, map(float, row))) for row in zip(*cols.values())])
+
+    def to_dict(self) -> dict:
+        return {**self.metadata(), "r": self.r.tolist(), **{k: v.tolist() for k, v in self.columns.items()}}
+
+    def to_json(self) -> str:
+        from radsolve.core.serialize import dumps_json
+
+        return dumps_json(self.to_dict())
+
+    def save(self, path):
+        """Write to ``path`` in the format its extension names (.csv, .json, .npz)."""
+        import json
+        from pathlib import Path
+
+        from radsolve.core.serialize import plain
+        from radsolve.core.wavefunctions import export_format
+
+        path = Path(path)
+        fmt = export_format(path)
+        folder = path.parent if str(path.parent) else Path(".")
+        if not folder.is_dir():
+            raise InputError(f"{str(path)!r}: folder {str(folder)!r} does not exist")
+        try:
+            if fmt == "csv":
+                path.write_text(self.to_csv(), encoding="utf-8")
+            elif fmt == "json":
+                path.write_text(self.to_json(), encoding="utf-8")
+            else:
+                with open(path, "wb") as handle:
+                    np.savez(handle, metadata=np.array(json.dumps(plain(self.metadata()))), r=self.r,
+                             **self.columns)
+        except OSError as exc:
+            raise InputError(f"{str(path)!r}: cannot write: {exc.strerror}") from None
+        return path
+
+
 @dataclass(repr=False)
 class DiracStateSummary(ResultProtocol):
-    """One Dirac level with its judged quantities (energy, <r^k> from G^2 + F^2), as :func:`dirac_state` returns.
+    """One Dirac or Klein-Gordon level with its judged quantities, as :func:`relativistic_state` returns.
 
     Attributes
     ----------
     label : str
-        ``2p3/2`` (nuclear units: the shell-model n).
+        ``2p3/2`` (nuclear units: the shell-model n); ``2p`` for Klein-Gordon.
     n, l : int
-    j : float
+    j : float or None
+        None for Klein-Gordon.
     quantities : list of (name, Estimate)
-        ``E - mc^2`` first, then the moments.
+        ``E - mc^2`` first, then the moments and probabilities.
     potential, mass, tol, units
         As for the solve.
+    equation : str
+        ``"dirac"`` or ``"klein-gordon"``.
     result : SolveResult
         The solve the level came from.
     """
@@ -318,13 +478,18 @@ class DiracStateSummary(ResultProtocol):
     label: str
     n: int
     l: int
-    j: float
+    j: float | None
     quantities: list
     potential: Any
     mass: float
     tol: float
     units: str = "atomic"
     result: Any = field(default=None, repr=False)
+    equation: str = "dirac"
+
+    @property
+    def level(self):
+        return self.result.level(self.label)
 
     @property
     def unconverged(self) -> list[str]:
@@ -346,56 +511,167 @@ class DiracStateSummary(ResultProtocol):
         return message_of(self.notes, f"{self.label}: every quantity met its target")
 
     def _header(self) -> list[tuple[str, Any]]:
-        return [("state", self.label), ("equation", "dirac"), ("potential", self.potential.name),
+        return [("state", self.label), ("equation", self.equation), ("potential", self.potential.name),
                 ("tol", self.tol)]
 
     def _table_columns(self):
         return ("quantity", "value", "error", "unit", "converged")
 
     def records(self, unit: str | None = None) -> list[dict[str, Any]]:
-        return [{"quantity": name, "value": est.value, "error": est.error, "unit": est.unit,
-                 "converged": bool(est.converged)} for name, est in self.quantities]
+        """One row per quantity; ``unit`` (atomic results) converts the energy from hartree."""
+        factor = 1.0
+        if unit is not None and self.units == "atomic":
+            from radsolve.units import energy_unit_factor
+
+            factor = energy_unit_factor(unit)
+        rows = []
+        for name, est in self.quantities:
+            scale = factor if est.unit == "hartree" else 1.0
+            rows.append({"quantity": name, "value": est.value / scale, "error": est.error / scale,
+                         "unit": unit if scale != 1.0 or (est.unit == "hartree" and unit) else est.unit,
+                         "converged": bool(est.converged)})
+        return rows
+
+    def to_table(self, unit: str | None = None) -> str:
+        """The quantities as a text table, energies in ``unit`` (atomic results), then the message."""
+        params = ", ".join(f"{k} = {v:.6g}" if isinstance(v, float) else f"{k} = {v}"
+                           for k, v in self.potential.parameters.items())
+        out = [f"{self.equation} level {self.label} of {self.potential.name}" + (f" ({params})" if params else "")
+               + f" | reduced mass {self.mass:.10g} | tol {self.tol:.1e}", ""]
+        rows = self.records(unit)
+        width = max(len(row["quantity"]) for row in rows)
+        out.append(f"{'quantity':>{width}}  {'value':>20}  {'error':>10}  {'unit':<8}  converged")
+        for row in rows:
+            out.append(f"{row['quantity']:>{width}}  {row['value']:>20.12g}  {row['error']:>10.3g}  "
+                       f"{row['unit']:<8}  {'yes' if row['converged'] else 'NO'}")
+        return "\n".join(out + ["", self.message]) + "\n"
 
     def to_dict(self, unit: str | None = None) -> dict[str, Any]:
         from radsolve.core.relativistic.front import CONVENTIONS
 
-        return {"state": self.label, "n": self.n, "l": self.l, "j": self.j, "equation": "dirac",
-                "convention": CONVENTIONS["dirac"], "potential": self.potential.name,
+        return {"state": self.label, "n": self.n, "l": self.l, "j": self.j, "equation": self.equation,
+                "convention": CONVENTIONS[self.equation], "potential": self.potential.name,
                 "parameters": dict(self.potential.parameters), "units": self.units, "mass": self.mass,
                 "tol": self.tol, "success": bool(self.success), "status": str(self.status),
                 "message": self.message, "notes": [n.to_dict() for n in self.notes],
                 "quantities": self.records(unit)}
 
+    def wavefunction(self, radii=None) -> RelativisticWave:
+        """(G, F) of a Dirac level or (u, rho) of a Klein-Gordon level, on the finest grid or at ``radii``."""
+        level = self.level
+        sample = level.samples[-1]
+        if self.equation == "dirac":
+            r, _, g, f = _components(self.result, level, sample)
+            columns = {"G": g, "F": f}
+        else:
+            r, _, u, rho = _kg_components(self.result, level, sample)
+            columns = {"u": u, "rho": rho}
+        # near the origin, where u is below 1e-6 of its maximum, the differences that give F are rounding
+        # noise: those radii are left out of the export
+        first = int(np.argmax(np.abs(sample.u) > 1e-6 * np.max(np.abs(sample.u))))
+        r, columns = r[first:], {k: v[first:] for k, v in columns.items()}
+        on_grid = radii is None
+        if not on_grid:
+            wanted = np.atleast_1d(np.asarray(radii, dtype=float))
+            if wanted.size == 0 or not np.all(np.isfinite(wanted)) or np.any(wanted <= 0):
+                raise InputError("r must be positive finite radii", parameter="r")
+            columns = {k: _on(r, v, wanted) for k, v in columns.items()}
+            r = wanted
+        return RelativisticWave(r=r, columns=columns, label=self.label, equation=self.equation,
+                                energy=level.energy, energy_error=level.error_estimate, units=self.units,
+                                on_grid=on_grid, properties={name: {"value": e.value, "error": e.error,
+                                                                    "unit": e.unit, "converged": e.converged}
+                                                             for name, e in self.quantities})
 
-def dirac_state(potential, n: int, l: int, j: float, *, mass=None, tol: float = 1e-10, method: str = "fd",
-                plugins=None, units: str | None = None, moments=(-1, 1, 2)) -> DiracStateSummary:
-    """Solve for the Dirac level (n, l, j) and judge its energy and <r^k> (k in ``moments``).
 
-    ``n`` counts as the labels do (n = nodes + l + 1; nuclear units nodes + 1).  The moments' targets
-    are 10 tol relative, as for the Schrodinger observables.
+def validated_j(l: int, j) -> float:
+    """j = l +- 1/2 as a float, from a number or a text such as ``"3/2"`` (InputError naming j otherwise)."""
+    allowed = (0.5,) if l == 0 else (l - 0.5, l + 0.5)
+    value = j
+    if isinstance(j, str):
+        text = j.strip()
+        try:
+            if "/" in text:
+                num, den = text.split("/", 1)
+                value = int(num) / int(den)
+            else:
+                value = float(text)
+        except (ValueError, ZeroDivisionError):
+            value = None
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or float(value) not in allowed:
+        raise InputError(f"j must be l +- 1/2 for l = {l}: " + " or ".join(
+            f"{int(2 * a)}/2" for a in allowed) + f"; got {j!r}", parameter="j")
+    return float(value)
+
+
+def relativistic_state(potential, n: int, l: int, j=None, *, equation: str = "dirac", mass=None,
+                       tol: float = 1e-10, method: str = "fd", plugins=None, units: str | None = None,
+                       scalar: bool = False, moments=(-1, 1, 2), inside=()) -> DiracStateSummary:
+    """Solve for the level (n, l, j) of the Dirac or Klein-Gordon equation and judge its quantities.
+
+    ``n`` counts as the labels do (n = nodes + l + 1; nuclear units nodes + 1); ``j`` (Dirac only;
+    ``"3/2"`` or 1.5) is required for l > 0.  Quantities: the energy E - mc^2, <r^k> for k in ``moments``
+    and P(r < R) for R in ``inside``, from G^2 + F^2 (Dirac) or the charge density rho u^2 (Klein-Gordon,
+    see :func:`_kg_components`); targets 10 tol relative, as for the Schrodinger observables.
     """
+    from radsolve.core.relativistic import SCHRODINGER, validated_equation
     from radsolve.core.result import level_designation
     from radsolve.core.spectrum import solve
 
+    equation = validated_equation(equation)
+    if equation == SCHRODINGER:
+        raise InputError("relativistic_state needs equation 'dirac' or 'klein-gordon' (radsolve.state "
+                         "serves the Schrodinger equation)", parameter="equation")
     if isinstance(l, bool) or not isinstance(l, int) or l < 0:
         raise InputError(f"l must be a whole number >= 0, got {l!r}", parameter="l")
-    if j not in ((0.5,) if l == 0 else (l - 0.5, l + 0.5)):
-        raise InputError(f"j must be l +- 1/2 (> 0) for l = {l}, got {j!r}", parameter="j")
-    res = solve(potential, l=l, count=max(int(n), 1), mass=mass, tol=tol, method=method, plugins=plugins,
-                units=units, equation="dirac")
+    if isinstance(n, bool) or not isinstance(n, int) or n < 1:
+        raise InputError(f"n must be a whole number >= 1, got {n!r}", parameter="n")
+    if equation == "dirac":
+        if j is None:
+            if l > 0:
+                raise InputError(f"j must be given for a Dirac level with l = {l}: {2 * l - 1}/2 or "
+                                 f"{2 * l + 1}/2", parameter="j")
+            j = 0.5
+        j = validated_j(l, j)
+    elif j is not None:
+        raise InputError("j is for equation='dirac' only (Klein-Gordon particles have spin 0)", parameter="j")
+    for k in moments:
+        if isinstance(k, bool) or not isinstance(k, (int, float)) or not math.isfinite(float(k)):
+            raise InputError(f"moments must be finite real numbers, got {k!r}", parameter="moments")
+    for radius in inside:
+        if isinstance(radius, bool) or not isinstance(radius, (int, float)) or not (0 < radius < math.inf):
+            raise InputError(f"inside radii must be positive lengths, got {radius!r}", parameter="radius")
+    res = solve(potential, l=l, count=n if units == "nuclear" else max(n - l, 1), mass=mass, tol=tol,
+                method=method, plugins=plugins, units=units, equation=equation,
+                **({"scalar": True} if scalar else {}))
+    if res.units == "atomic" and n < l + 1:
+        raise InputError(f"n must be at least l + 1 = {l + 1} for l = {l} (n = nodes + l + 1), got {n}",
+                         parameter="n")
     wanted = None
     for lev in res.levels:
-        if lev.j == j and lev.n == n:
+        if lev.j == j and lev.n == n and lev.l == l:
             wanted = lev
     if wanted is None:
-        nodes_text = level_designation(max(n - l - 1, 0), l, j, res.units)[1]
-        raise InputError(f"level {nodes_text} (n = {n}, l = {l}, j = {j}) is not among the bound levels: "
+        label = level_designation(max(n - (l + 1 if res.units == "atomic" else 1), 0), l, j, res.units)[1]
+        raise InputError(f"level {label} (n = {n}, l = {l}" + (f", j = {j:g}" if j else "") + ") is not among "
+                         f"the bound levels found: {', '.join(x.label for x in res.levels) or 'none'}; "
                          f"{res.message}", parameter="n")
     energy = Estimate(wanted.energy, wanted.error_estimate, "hartree" if res.units == "atomic" else "MeV",
                       wanted.order, bool(wanted.converged))
     quantities = [("E - mc^2", energy)] + [(f"<r^{k:g}>", moment(res, wanted.label, k)) for k in moments]
+    length = "bohr" if res.units == "atomic" else "fm"
+    quantities += [(f"P(r < {radius:g} {length})", probability_inside(res, wanted.label, radius))
+                   for radius in inside]
     return DiracStateSummary(label=wanted.label, n=wanted.n, l=l, j=j, quantities=quantities,
-                             potential=res.potential, mass=res.mass, tol=res.tol, units=res.units, result=res)
+                             potential=res.potential, mass=res.mass, tol=res.tol, units=res.units, result=res,
+                             equation=equation)
+
+
+def dirac_state(potential, n: int, l: int, j: float, *, mass=None, tol: float = 1e-10, method: str = "fd",
+                plugins=None, units: str | None = None, moments=(-1, 1, 2)) -> DiracStateSummary:
+    """:func:`relativistic_state` of the Dirac equation (kept for scripts written before it)."""
+    return relativistic_state(potential, n, l, j, equation="dirac", mass=mass, tol=tol, method=method,
+                              plugins=plugins, units=units, moments=moments)
 
 
 # ----------------------------------------------------------------------------- E1 tables

@@ -65,6 +65,51 @@ def _params_text(potential) -> str:
     return ", ".join(parts)
 
 
+def plot_relativistic_wave(summary, path) -> Path:
+    """Draw a Dirac level's G(r) and F(r) (or a Klein-Gordon level's u(r)) against r on a log axis.
+
+    A log radius axis because F of a light ion is (Z alpha)/2 of G and lives at the same radii, while
+    both start as r^gamma far inside the Bohr radius; the lower panel shows the density (G^2 + F^2 or
+    rho u^2) and the share below each r.
+    """
+    path = check_plot_path(path)
+    wave = summary.wavefunction()
+    r = wave.r
+    length = "bohr" if summary.units == "atomic" else "fm"
+    if wave.equation == "dirac":
+        density = wave.columns["G"] ** 2 + wave.columns["F"] ** 2
+        curves = (("G", "large component G", "tab:blue"), ("F", "small component F", "tab:red"))
+    else:
+        density = wave.columns["rho"] * wave.columns["u"] ** 2
+        curves = (("u", "u (charge-density normalization)", "tab:blue"),)
+    share = np.concatenate([[0.0], np.cumsum(0.5 * (density[1:] + density[:-1]) * np.diff(r))])
+    share /= share[-1] if share[-1] > 0 else 1.0
+    keep = (share < 1.0 - 1e-7) | (np.arange(r.size) == 0)
+    last = min(int(np.nonzero(keep)[0][-1]) + 2, r.size)
+    r, density, share = r[:last], density[:last], share[:last]
+    fig = _figure(7.2, 6.0)
+    top, bottom = fig.subplots(2, 1, sharex=True, height_ratios=(3, 2))
+    for key, name, color in curves:
+        top.plot(r, wave.columns[key][:last], color=color, lw=1.4, label=name)
+    top.axhline(0.0, color="0.6", lw=0.7)
+    top.set_xscale("log")
+    top.set_ylabel(f"component / {length}$^{{-1/2}}$")
+    top.legend(fontsize=8, loc="upper left")
+    unit = "hartree" if summary.units == "atomic" else "MeV"
+    top.set_title(f"{summary.equation} level {summary.label} of {summary.potential.name}"
+                  + (f" ({_params_text(summary.potential)})" if summary.potential.parameters else "")
+                  + f"\nE − mc² = {wave.energy:.10g} {unit}", fontsize=10)
+    bottom.plot(r, density, color="black", lw=1.2, label="density per unit r")
+    bottom.set_ylabel(f"density / {length}$^{{-1}}$")
+    bottom.set_xlabel(f"r / {length}  (log scale)")
+    twin = bottom.twinx()
+    twin.plot(r, share, color="tab:green", lw=1.0, ls="--", label="P(r′ < r)")
+    twin.set_ylim(0.0, 1.05)
+    twin.set_ylabel("P(r′ < r)", color="tab:green")
+    bottom.legend(fontsize=8, loc="upper left")
+    return _save(fig, path)
+
+
 def _spread_labels(targets: np.ndarray, gap: float, low: float, high: float) -> np.ndarray:
     """Label heights near ``targets`` (sorted), at least ``gap`` apart, within [low, high].
 

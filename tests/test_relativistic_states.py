@@ -1,0 +1,241 @@
+"""Relativistic states: E1 tables of Dirac levels, <r^k> of Dirac and Klein-Gordon levels, `wave` and
+`transitions` with --equation, the scalar-potential hook.
+
+Sources, written beside each check:
+- nodeless Dirac-Coulomb levels (n_r = 0, kappa < 0): G = N r^gamma exp(-lambda r), F = c G with
+  gamma = sqrt(kappa^2 - (Z alpha)^2), lambda = Z / |kappa|, c = (gamma + kappa) / (Z alpha) (atomic
+  units, mass 1; textbook, e.g. Bethe and Salpeter, "Quantum Mechanics of One- and Two-Electron Atoms",
+  1957, sec. 14), so <r^k>, P(r < R) and the 2p3/2 -> 1s1/2 radial integral are Gamma functions
+  (scipy.special).
+- nodeless Klein-Gordon-Coulomb levels: u = r^(s+1) exp(-lambda r), s = -1/2 + sqrt((l+1/2)^2 - (Z alpha)^2),
+  E = mc^2 / sqrt(1 + (Z alpha)^2 / (s+1)^2), lambda = sqrt(m^2c^4 - E^2) / (hbar c), charge density
+  (E - V) / mc^2 (textbook, e.g. Greiner, "Relativistic Quantum Mechanics: Wave Equations", 2000, ch. 1).
+- hydrogen 2p lifetime 1.596 ns (from memory; the non-relativistic E1 value with the reduced mass).
+- relativistic corrections to hydrogen-like E1 rates are of order (Z alpha)^2 (textbook).
+- alpha from scipy.constants (CODATA).
+"""
+
+from __future__ import annotations
+
+import json
+import math
+
+import numpy as np
+import pytest
+from scipy.constants import physical_constants
+from scipy.special import gammainc, gammaln
+
+import radsolve
+from radsolve.analysis.relativistic import radial_e1, relativistic_state
+from radsolve.errors import InputError, PluginError
+
+from helpers import invoke
+
+ALPHA = physical_constants["fine-structure constant"][0]
+
+
+def nodeless_dirac(kappa, Z):
+    """(gamma, lambda, F/G, ln N) of the nodeless Dirac-Coulomb level of kappa < 0 (module docstring)."""
+    gamma = math.sqrt(kappa * kappa - (Z * ALPHA) ** 2)
+    lam = Z / abs(kappa)
+    ratio = (gamma + kappa) / (Z * ALPHA)
+    log_norm = -0.5 * (math.log(1.0 + ratio**2) + gammaln(2 * gamma + 1) - (2 * gamma + 1) * math.log(2 * lam))
+    return gamma, lam, ratio, log_norm
+
+
+def exact_radial_2p3_1s(Z):
+    ga, la, ca, na = nodeless_dirac(-2, Z)
+    gb, lb, cb, nb = nodeless_dirac(-1, Z)
+    return math.exp(na + nb + gammaln(ga + gb + 2) - (ga + gb + 2) * math.log(la + lb)) * (1.0 + ca * cb)
+
+
+# ------------------------------------------------------------------ E1 tables of Dirac levels
+
+@pytest.mark.parametrize("Z, tol, method", [(1, 1e-10, "fd"), (30, 1e-8, "first-order"), (92, 1e-10, "fd"),
+                                            (92, 1e-6, "fd")])
+def test_dirac_radial_integral_against_the_exact_nodeless_levels(Z, tol, method):
+    res = radsolve.solve(radsolve.potential("coulomb", Z=Z), l=[0, 1], count=1, equation="dirac", tol=tol,
+                         method=method)
+    est = radial_e1(res, res.level("2p3/2"), res.level("1s1/2"))
+    exact = exact_radial_2p3_1s(Z)
+    assert abs(est.value - exact) <= est.error, (est.value, exact, est.error)
+    assert abs(est.value - exact) <= 3e-5 * exact  # and useful: far below any physical need
+    assert est.error <= 1e-3 * exact
+
+
+def test_hydrogen_2p_lifetimes_dirac_against_schrodinger_and_the_textbook_value():
+    # mass electron + proton: the 2p lifetime 1.596 ns (from memory) is the non-relativistic E1 value;
+    # the Dirac 2p1/2 and 2p3/2 lifetimes equal it up to order (Z alpha)^2 (textbook)
+    nr = radsolve.transitions("coulomb", 2, mass="electron+proton")
+    rel = radsolve.transitions("coulomb", 2, mass="electron+proton", equation="dirac")
+    assert rel.success, rel.message
+    tau_nr = nr.state("2p").lifetime_s
+    assert tau_nr == pytest.approx(1.596e-9, rel=1e-3)
+    for label in ("2p1/2", "2p3/2"):
+        tau = rel.state(label).lifetime_s
+        assert tau == pytest.approx(1.596e-9, rel=1e-3)
+        assert abs(tau / tau_nr - 1.0) <= 3.0 * ALPHA**2, (label, tau / tau_nr - 1.0)
+        assert rel.state(label).j == float(label[-3]) / 2
+    # 2s1/2 and 2p1/2 are degenerate (Dirac-Coulomb): no line, and 2s1/2 has no E1 decay
+    assert "2s1/2" in rel.state("2p1/2").degenerate_with
+    assert rel.state("2s1/2").metastable
+    assert {x.lower for x in rel.lines if x.upper == "2p3/2"} == {"1s1/2", "2s1/2"}
+
+
+@pytest.mark.parametrize("Z", [10.0, 40.0])
+def test_dirac_lifetimes_at_higher_z_differ_from_schrodinger_by_order_z_alpha_squared(Z):
+    # Z^-4 scaling of the non-relativistic lifetime (textbook) plus a change of order (Z alpha)^2
+    nr = radsolve.transitions(radsolve.potential("coulomb", Z=Z), 3)
+    rel = radsolve.transitions(radsolve.potential("coulomb", Z=Z), 3, equation="dirac")
+    for nl, labels in (("2p", ("2p1/2", "2p3/2")), ("3s", ("3s1/2",)), ("3d", ("3d3/2", "3d5/2"))):
+        for label in labels:
+            change = rel.state(label).lifetime_s / nr.state(nl).lifetime_s - 1.0
+            assert 1e-3 * (Z * ALPHA) ** 2 < abs(change) <= 3.0 * (Z * ALPHA) ** 2, (label, change)
+    # branching of 3p3/2: the strongest two lines are to 1s1/2 and 2s1/2, and the shares sum to 1
+    three_p = rel.state("3p3/2")
+    assert list(three_p.branching)[:2] == ["1s1/2", "2s1/2"]
+    assert sum(three_p.branching.values()) == pytest.approx(1.0, rel=1e-12)
+
+
+def test_dirac_transitions_json_csv_and_command_line(tmp_path):
+    out = tmp_path / "lines.json"
+    run = invoke("transitions", "coulomb", "--nmax", 2, "--equation", "dirac", "--format", "json", "--out", out)
+    assert run.exit_code == 0, run.stderr
+    doc = json.loads(out.read_text())
+    assert doc["equation"] == "dirac"
+    assert "long-wavelength" in doc["conventions"]["gauge"] and "Babushkin" in doc["conventions"]["gauge"]
+    assert {s["label"]: s["j"] for s in doc["states"]} == {"1s1/2": 0.5, "2s1/2": 0.5, "2p1/2": 0.5, "2p3/2": 1.5}
+    assert "Dirac" in doc["note"]
+    table = invoke("transitions", "coulomb", "--nmax", 2, "--equation", "dirac")
+    assert table.exit_code == 0 and "2p3/2" in table.stdout and "length form" in table.stdout
+    csv_run = invoke("transitions", "coulomb", "--nmax", 2, "--equation", "dirac", "--format", "csv")
+    assert csv_run.stdout.startswith("# Note: model calculation (Dirac")
+    refused = invoke("transitions", "coulomb", "--nmax", 2, "--equation", "klein-gordon")
+    assert refused.exit_code == 2 and "--equation" in refused.stderr and "Traceback" not in refused.stderr
+
+
+# ------------------------------------------------------------------ observables of relativistic states
+
+@pytest.mark.parametrize("Z", [1, 60, 92])
+def test_dirac_2p3_moments_and_probability_against_the_closed_form(Z):
+    gamma, lam, _, _ = nodeless_dirac(-2, Z)
+    radii = [1.0 / Z, 4.0 / Z]
+    st = relativistic_state(radsolve.potential("coulomb", Z=Z), 2, 1, "3/2", moments=(-1, 1, 3), inside=radii)
+    values = dict(st.quantities)
+    for k in (-1, 1, 3):
+        exact = math.exp(gammaln(2 * gamma + 1 + k) - gammaln(2 * gamma + 1) - k * math.log(2 * lam))
+        est = values[f"<r^{k}>"]
+        assert abs(est.value - exact) <= max(est.error, 1e-12 * exact), (k, est.value, exact, est.error)
+        assert abs(est.value - exact) <= 1e-8 * exact
+    for radius, (name, est) in zip(radii, st.quantities[-2:]):
+        exact = gammainc(2 * gamma + 1, 2 * lam * radius)
+        assert name.startswith("P(r <")
+        assert abs(est.value - exact) <= max(est.error, 1e-12), (radius, est.value, exact, est.error)
+        assert abs(est.value - exact) <= 1e-9
+
+
+@pytest.mark.parametrize("Z, l", [(1, 0), (30, 1), (60, 0), (80, 2)])
+def test_klein_gordon_moments_with_the_charge_density_against_the_closed_form(Z, l):
+    s = -0.5 + math.sqrt((l + 0.5) ** 2 - (Z * ALPHA) ** 2)
+    c = 1.0 / ALPHA
+    energy = c * c / math.sqrt(1.0 + (Z * ALPHA) ** 2 / (s + 1) ** 2)
+    lam = math.sqrt(c**4 - energy**2) / c
+
+    def integral(p):  # integral of r^p exp(-2 lam r) dr
+        return math.exp(gammaln(p + 1) - (p + 1) * math.log(2 * lam))
+
+    def exact(k):  # charge density (E + Z/r)/mc^2 times u^2
+        return ((energy * integral(2 * s + 2 + k) + Z * integral(2 * s + 1 + k))
+                / (energy * integral(2 * s + 2) + Z * integral(2 * s + 1)))
+
+    st = relativistic_state(radsolve.potential("coulomb", Z=Z), l + 1, l, equation="klein-gordon",
+                            moments=(1, 2) if Z == 60 else (-1, 1, 2))
+    for name, est in st.quantities[1:]:
+        k = float(name[3:-1])
+        assert abs(est.value - exact(k)) <= max(est.error, 1e-12 * exact(k)), (name, est.value, exact(k))
+        assert abs(est.value - exact(k)) <= 1e-8 * exact(k)
+    # the plain normalization integral of u^2 is not 1: the charge density weighs it (by <(E - V)/mc^2>)
+    wave = st.wavefunction()
+    assert wave.metadata()["normalization"].startswith("integral of rho u^2")
+
+
+def test_relativistic_state_refuses_bad_input_with_the_parameter_named():
+    cases = [(dict(n=2, l=1), "j"), (dict(n=2, l=1, j="5/2"), "j"), (dict(n=2, l=1, j=1.0), "j"),
+             (dict(n=1, l=1, j="1/2"), "n"), (dict(n=2, l=1, j="1/2", equation="klein-gordon"), "j"),
+             (dict(n=1, l=0, equation="schrodinger"), "equation"), (dict(n=1, l=0, moments=(math.nan,)), "moments"),
+             (dict(n=1, l=0, inside=(-1.0,)), "radius"), (dict(n=1, l=0, scalar=True), "scalar")]
+    for kwargs, parameter in cases:
+        kwargs = dict(kwargs)
+        n, l, j = kwargs.pop("n"), kwargs.pop("l"), kwargs.pop("j", None)
+        with pytest.raises(InputError) as info:
+            relativistic_state("coulomb", n, l, j, **{"equation": "dirac", **kwargs})
+        assert info.value.parameter == parameter, (kwargs, info.value.parameter, str(info.value))
+
+
+def test_wave_command_dirac_and_klein_gordon(tmp_path):
+    png, npz = tmp_path / "g.png", tmp_path / "g.npz"
+    run = invoke("wave", "coulomb", "-n", 2, "-l", 1, "--j", "1/2", "-p", "Z=50", "--equation", "dirac",
+                 "--moment", 3, "--plot", png, "--out", npz)
+    assert run.exit_code == 0, run.stderr
+    assert "2p1/2" in run.stdout and "<r^3>" in run.stdout and "G^2 + F^2" in run.stdout
+    assert png.stat().st_size > 10_000
+    data = np.load(npz)
+    r, g, f = data["r"], data["G"], data["F"]
+    dr = np.gradient(r)
+    assert np.sum((g * g + f * f) * dr) == pytest.approx(1.0, rel=1e-3)  # coarse quadrature of the export
+    # the 2p1/2 level of a point charge: G has no node, F one (textbook, n_r = 1, kappa = 1)
+    big = np.abs(g) > 1e-3 * np.max(np.abs(g))
+    assert np.all(g[big] > 0)
+    assert np.sum(np.diff(np.sign(f[np.abs(f) > 1e-3 * np.max(np.abs(f))])) != 0) == 1
+    csv = invoke("wave", "coulomb", "-n", 1, "-l", 0, "--equation", "klein-gordon", "--at", 0.5, "-f", "csv")
+    assert csv.exit_code == 0, csv.stderr
+    header, row = csv.stdout.strip().splitlines()
+    assert header == "r/bohr,u/bohr^-1/2,rho"
+    assert float(row.split(",")[0]) == 0.5
+    for args, option in ((("-n", 2, "-l", 1, "--equation", "dirac"), "--j"),
+                         (("-n", 2, "-l", 1, "--j", "1/2"), "--j"),
+                         (("-n", 1, "-l", 0, "--equation", "dirac", "--hellmann-feynman", "Z"), "--hellmann-feynman")):
+        bad = invoke("wave", "coulomb", *args)
+        assert bad.exit_code == 2 and option in bad.stderr and "Traceback" not in bad.stderr, bad.stderr
+
+
+# ------------------------------------------------------------------ the scalar-potential hook
+
+SCALAR_FAMILY = '''
+import numpy as np
+
+NAME = "{name}"
+PARAMETERS = {{"depth": 0.3}}
+
+
+def V(r, depth):
+    return -depth * np.exp(-r)
+
+
+def scalar_potential({signature}):
+    return -0.5 * depth * np.exp(-r)
+'''
+
+
+def test_the_scalar_hook_is_checked_and_its_absence_refused(tmp_path):
+    from radsolve.potentials.protocol import HOOKS
+
+    assert "scalar_potential" in HOOKS
+    bad = tmp_path / "bad"
+    bad.mkdir()
+    (bad / "bad_scalar.py").write_text(SCALAR_FAMILY.format(name="bad_scalar", signature="r, width"))
+    with pytest.raises(PluginError, match="scalar_potential"):
+        radsolve.potential("bad_scalar", plugins=[bad])
+    good = tmp_path / "good"
+    good.mkdir()
+    (good / "good_scalar.py").write_text(SCALAR_FAMILY.format(name="good_scalar", signature="r, depth"))
+    pot = radsolve.potential("good_scalar", plugins=[good])
+    assert pot.has_scalar
+    assert np.allclose(pot.scalar(np.array([1.0, 2.0])), -0.15 * np.exp(-np.array([1.0, 2.0])))
+    # a family without the hook: the API names the parameter, the command line the option, exit 2
+    with pytest.raises(InputError) as info:
+        radsolve.solve("yukawa", equation="dirac", scalar=True)
+    assert info.value.parameter == "scalar" and "scalar_potential" in str(info.value)
+    run = invoke("levels", "yukawa", "--equation", "dirac", "--scalar")
+    assert run.exit_code == 2 and "--scalar" in run.stderr and "scalar_potential" in run.stderr
+    assert "Traceback" not in run.stdout + run.stderr
