@@ -239,3 +239,37 @@ def test_the_scalar_hook_is_checked_and_its_absence_refused(tmp_path):
     run = invoke("levels", "yukawa", "--equation", "dirac", "--scalar")
     assert run.exit_code == 2 and "--scalar" in run.stderr and "scalar_potential" in run.stderr
     assert "Traceback" not in run.stdout + run.stderr
+
+
+# ------------------------------------------------------------------ relativistic thresholds: the slope
+
+@pytest.mark.parametrize("equation, label, kappa", [("dirac", "2p3/2", -2), ("klein-gordon", "2p", None)])
+def test_relativistic_threshold_slope_against_an_independent_solver(equation, label, kappa):
+    # A Gaussian well of 0.02 bohr whose critical depth is about 0.7 mc^2: W = E - mc^2 of the 2p level
+    # just beyond it, from tests/dirac_reference.py (DOP853 shooting, no code shared with radsolve), at
+    # two depths; for l = 1 the next term after the linear one goes as d^1.5 (textbook: the zero-energy
+    # state's norm converges slowly), so slope = 2 W(d)/d - W(4d)/(4d) up to O(d).
+    from dirac_reference import klein_gordon_level, level
+
+    pot = radsolve.formula_potential("-depth*exp(-(r/width)**2)", depth=1e4, width=0.02)
+    th = radsolve.threshold(pot, "depth", level=label, equation=equation)
+    assert th.success and th.slope is not None and th.slope_error is not None
+    plain = radsolve.threshold(pot, "depth", level="2p")
+    assert abs(th.slope / plain.slope - 1.0) > 0.1  # relativity matters here: the check can tell
+    slopes = []
+    for share in (1e-4, 4e-4):
+        depth = th.value * (1.0 + share)
+
+        def V(r, depth=depth):
+            return -depth * np.exp(-(r / 0.02) ** 2)
+
+        guess = th.slope * (depth - th.value)
+        bracket = (1.3 * guess, 0.7 * guess)
+        W = (level(V, -depth, kappa, 0, bracket, r_match=0.02) if kappa is not None
+             else klein_gordon_level(V, -depth, 1, 0, bracket, r_match=0.02))
+        slopes.append(W / (depth - th.value))
+    reference = 2.0 * slopes[0] - slopes[1]
+    assert th.slope == pytest.approx(reference, rel=1e-3), (th.slope, reference, slopes)
+    # an s level leaves the threshold quadratically: no slope, as for the Schrodinger equation
+    s_level = radsolve.threshold(pot, "depth", level="1s1/2" if kappa else "1s", equation=equation)
+    assert s_level.slope is None

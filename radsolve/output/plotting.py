@@ -271,7 +271,12 @@ def plot_level_diagram(transitions, path, unit: str = "hartree", scale: str = "a
     use_log = can_log and (scale == "log" or (
         scale == "auto" and max(binding.values()) / min(binding.values()) > 20.0))
     y = binding if use_log else energies
-    ls = sorted({s.l for s in states})
+    # one column per l, or per (l, j) for Dirac levels (the fine structure would stack their bars)
+    with_j = any(getattr(s, "j", None) is not None for s in states)
+    keys = sorted({(s.l, getattr(s, "j", None) or 0.0) for s in states})
+    place = {key: (i if with_j else key[0]) for i, key in enumerate(keys)}
+    col = {s.label: place[(s.l, getattr(s, "j", None) or 0.0)] for s in states}
+    ls = sorted(set(col.values()))
     half = 0.32
     fig = _figure(min(max(6.5, 0.72 * len(ls) + 3.6), 12.0), 6.4)
     ax = fig.add_subplot()
@@ -311,8 +316,8 @@ def plot_level_diagram(transitions, path, unit: str = "hartree", scale: str = "a
             x = lines[i]
             up, down = by_label[x.upper], by_label[x.lower]
             weight = float(norm(logs[i]))
-            xu = up.l - half if down.l < up.l else up.l + half
-            xl = down.l + half if down.l < up.l else down.l - half
+            xu = col[up.label] - half if col[down.label] < col[up.label] else col[up.label] + half
+            xl = col[down.label] + half if col[down.label] < col[up.label] else col[down.label] - half
             ax.plot([xu, xl], [y[x.upper], y[x.lower]], color=cmap(0.15 + 0.85 * weight),
                     lw=0.3 + 2.7 * weight, alpha=0.35 + 0.65 * weight, zorder=2,
                     solid_capstyle="round")
@@ -320,7 +325,7 @@ def plot_level_diagram(transitions, path, unit: str = "hartree", scale: str = "a
         bar.set_label("log$_{10}$(A / s$^{-1}$)")
     for s in states:
         color = "black" if s.ground else ("tab:orange" if s.metastable else "tab:blue")
-        ax.plot([s.l - half, s.l + half], [y[s.label]] * 2, color=color, lw=2.2,
+        ax.plot([col[s.label] - half, col[s.label] + half], [y[s.label]] * 2, color=color, lw=2.2,
                 solid_capstyle="butt", zorder=3)
     if not use_log and math.isfinite(v_inf):
         ax.axhline(v_inf, color="0.6", lw=0.8, ls=":", zorder=1)
@@ -336,7 +341,7 @@ def plot_level_diagram(transitions, path, unit: str = "hartree", scale: str = "a
     blend = blended_transform_factory(ax.transData, ax.transAxes)
     unlabelled_total = 0
     for l in ls:
-        column = sorted((s for s in states if s.l == l), key=lambda s: to_frac(y[s.label]))
+        column = sorted((s for s in states if col[s.label] == l), key=lambda s: to_frac(y[s.label]))
         fracs = np.array([to_frac(y[s.label]) for s in column])
         kept: list[int] = []
         for i in range(len(column)):
@@ -359,8 +364,12 @@ def plot_level_diagram(transitions, path, unit: str = "hartree", scale: str = "a
                 ax.text(l, above, text, transform=blend, fontsize=fontsize - 0.5, ha="center",
                         va="center", color="0.3", zorder=5)
                 unlabelled_total -= len(skipped)
-    ax.set_xticks(ls, [f"{l}\n{orbital_letter(l)}" for l in ls])
-    ax.set_xlabel("orbital angular momentum l")
+    if with_j:
+        ax.set_xticks(ls, [f"{orbital_letter(l)}{int(round(2 * j))}/2" for l, j in keys])
+        ax.set_xlabel("channel l j")
+    else:
+        ax.set_xticks(ls, [f"{l}\n{orbital_letter(l)}" for l in ls])
+        ax.set_xlabel("orbital angular momentum l")
     if use_log:
         ax.set_ylabel(f"binding energy V(∞) − E / {unit}  (log scale)")
     else:
