@@ -273,3 +273,38 @@ def test_relativistic_threshold_slope_against_an_independent_solver(equation, la
     # an s level leaves the threshold quadratically: no slope, as for the Schrodinger equation
     s_level = radsolve.threshold(pot, "depth", level="1s1/2" if kappa else "1s", equation=equation)
     assert s_level.slope is None
+
+
+# ------------------------------------------------------------------ rounding noise of the first-order method
+
+@pytest.mark.parametrize("Z, l", [(1, 0), (92, 1)])
+def test_first_order_rounding_rule_covers_the_measured_noise(Z, l, monkeypatch):
+    # Perturb V by up to 4 ulps at random (common practice for measuring rounding noise): every grid
+    # energy's spread over the draws, relative to |E| + <|V - E|>, must lie below the method's rule.
+    import radsolve.core.relativistic.firstorder as firstorder
+
+    original = firstorder.potential_on_grid
+    eps = np.finfo(float).eps
+
+    def solved(seed):
+        rng = np.random.default_rng(seed)
+
+        def perturbed(f, r, anchors):
+            v = original(f, r, anchors)
+            return v if seed == 0 else v * (1.0 + 4.0 * eps * rng.uniform(-1.0, 1.0, v.shape))
+
+        monkeypatch.setattr(firstorder, "potential_on_grid", perturbed)
+        return radsolve.solve(radsolve.potential("coulomb", Z=Z), l=l, count=2, equation="dirac",
+                              method="first-order", tol=1e-11)
+
+    runs = [solved(seed) for seed in range(5)]
+    checked = 0
+    for i, lev in enumerate(runs[0].levels):
+        for g, sample in enumerate(lev.samples):
+            energies = [run.levels[i].samples[g].energy for run in runs]
+            v = -Z / sample.r + l * (l + 1) / (2.0 * sample.r**2)
+            scale = abs(sample.energy) + float(np.sum(sample.weights * sample.u**2 * np.abs(v - sample.energy)))
+            spread = 0.5 * (max(energies) - min(energies))
+            assert spread <= firstorder.shooting_rounding(sample.r.size) * scale, (lev.label, sample.r.size, spread)
+            checked += 1
+    assert checked >= 8
