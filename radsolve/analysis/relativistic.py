@@ -557,7 +557,8 @@ class DiracStateSummary(ResultProtocol):
                 "quantities": self.records(unit)}
 
     def wavefunction(self, radii=None) -> RelativisticWave:
-        """(G, F) of a Dirac level or (u, rho) of a Klein-Gordon level, on the finest grid or at ``radii``."""
+        """(G, F) of a Dirac level or (u, rho) of a Klein-Gordon level, on the finest grid or at ``radii``
+        (numbers in the system's length unit, or strings with a unit such as ``"2fm"``)."""
         level = self.level
         sample = level.samples[-1]
         if self.equation == "dirac":
@@ -572,7 +573,11 @@ class DiracStateSummary(ResultProtocol):
         r, columns = r[first:], {k: v[first:] for k, v in columns.items()}
         on_grid = radii is None
         if not on_grid:
-            wanted = np.atleast_1d(np.asarray(radii, dtype=float))
+            from radsolve.units import parse_quantity_in
+
+            wanted = np.atleast_1d(np.asarray(
+                [parse_quantity_in(x, "length", self.units, name="r", parameter="r") if isinstance(x, str) else x
+                 for x in np.atleast_1d(np.asarray(radii, dtype=object))], dtype=float))
             if wanted.size == 0 or not np.all(np.isfinite(wanted)) or np.any(wanted <= 0):
                 raise InputError("r must be positive finite radii", parameter="r")
             columns = {k: _on(r, v, wanted) for k, v in columns.items()}
@@ -611,7 +616,8 @@ def relativistic_state(potential, n: int, l: int, j=None, *, equation: str = "di
 
     ``n`` counts as the labels do (n = nodes + l + 1; nuclear units nodes + 1); ``j`` (Dirac only;
     ``"3/2"`` or 1.5) is required for l > 0.  Quantities: the energy E - mc^2, <r^k> for k in ``moments``
-    and P(r < R) for R in ``inside``, from G^2 + F^2 (Dirac) or the charge density rho u^2 (Klein-Gordon,
+    and P(r < R) for R in ``inside`` (numbers in the system's length unit, bohr or fm, or strings with a
+    unit such as ``"3fm"``), from G^2 + F^2 (Dirac) or the charge density rho u^2 (Klein-Gordon,
     see :func:`_kg_components`); targets 10 tol relative, as for the Schrodinger observables.
     """
     from radsolve.core.relativistic import SCHRODINGER, validated_equation
@@ -638,9 +644,19 @@ def relativistic_state(potential, n: int, l: int, j=None, *, equation: str = "di
     for k in moments:
         if isinstance(k, bool) or not isinstance(k, (int, float)) or not math.isfinite(float(k)):
             raise InputError(f"moments must be finite real numbers, got {k!r}", parameter="moments")
-    for radius in inside:
-        if isinstance(radius, bool) or not isinstance(radius, (int, float)) or not (0 < radius < math.inf):
-            raise InputError(f"inside radii must be positive lengths, got {radius!r}", parameter="radius")
+    def checked_radii(system):
+        from radsolve.units import parse_quantity_in
+
+        out = []
+        for radius in inside:
+            value = parse_quantity_in(radius, "length", system, name="radius", parameter="radius") \
+                if isinstance(radius, str) else radius
+            if isinstance(value, bool) or not isinstance(value, (int, float)) or not (0 < value < math.inf):
+                raise InputError(f"inside radii must be positive lengths, got {radius!r}", parameter="radius")
+            out.append(float(value))
+        return out
+
+    checked_radii("atomic")  # before anything is solved (numbers and units; the system's are read below)
     res = solve(potential, l=l, count=n if units == "nuclear" else max(n - l, 1), mass=mass, tol=tol,
                 method=method, plugins=plugins, units=units, equation=equation,
                 **({"scalar": True} if scalar else {}))
@@ -661,7 +677,7 @@ def relativistic_state(potential, n: int, l: int, j=None, *, equation: str = "di
     quantities = [("E - mc^2", energy)] + [(f"<r^{k:g}>", moment(res, wanted.label, k)) for k in moments]
     length = "bohr" if res.units == "atomic" else "fm"
     quantities += [(f"P(r < {radius:g} {length})", probability_inside(res, wanted.label, radius))
-                   for radius in inside]
+                   for radius in checked_radii(res.units)]
     return DiracStateSummary(label=wanted.label, n=wanted.n, l=l, j=j, quantities=quantities,
                              potential=res.potential, mass=res.mass, tol=res.tol, units=res.units, result=res,
                              equation=equation)

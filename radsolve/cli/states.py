@@ -97,7 +97,8 @@ def wave_command(
 
         pot = potential(name, plugins=plugin_dirs(plugins), **params)
         if validated_equation(equation) != SCHRODINGER:
-            _relativistic_wave(pot, n, l, j, mass, tol, method, equation, scalar, radii, moment, limits,
+            # lengths go to the API as given: it reads them in the family's own units (bohr or fm)
+            _relativistic_wave(pot, n, l, j, mass, tol, method, equation, scalar, at or [], moment, inside or [],
                                hellmann_feynman, fmt, out, plot, file_format if out is not None else None,
                                unit)
             return
