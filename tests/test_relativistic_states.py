@@ -308,3 +308,149 @@ def test_first_order_rounding_rule_covers_the_measured_noise(Z, l, monkeypatch):
             assert spread <= firstorder.shooting_rounding(sample.r.size) * scale, (lev.label, sample.r.size, spread)
             checked += 1
     assert checked >= 8
+
+
+# ------------------------------------------------------------------ confining Lorentz-scalar potentials
+
+LINEAR_SCALAR = '''
+import numpy as np
+
+NAME = "linear_scalar_test"
+UNITS = "nuclear"
+PARAMETERS = {"tension": 900.0, "charge": 0.0}
+
+
+def V(r, tension, charge):
+    return -charge / r
+
+
+def scalar_potential(r, tension, charge):
+    return tension * r
+
+
+def breakpoints(tension, charge):
+    return []
+'''
+
+HBARC = physical_constants["reduced Planck constant times c in MeV fm"][0]
+
+
+def _dirac_scalar_reference(kappa, nodes, bracket, mass, tension, charge=0.0):
+    """W = E - mc^2 (MeV) of G' = -kappa G/r + (E - V + m + S) F/hc, F' = kappa F/r - (E - V - m - S) G/hc,
+    S = tension r, V = -charge/r: DOP853 outward from the regular start and inward from where the level has
+    decayed, Brent's method on G_out F_in - F_out G_in (independent of radsolve)."""
+    from scipy.integrate import solve_ivp
+    from scipy.optimize import brentq
+
+    def rhs(E):
+        def f(r, y):
+            v, s = -charge / r, tension * r
+            return [-kappa * y[0] / r + (E - v + mass + s) * y[1] / HBARC,
+                    kappa * y[1] / r - (E - v - mass - s) * y[0] / HBARC]
+        return f
+
+    r0 = 1e-6
+    gamma = math.sqrt(kappa * kappa - (charge / HBARC) ** 2)
+    # leading terms at the origin: (G, F) ~ r^gamma (charge/hc, gamma + kappa) for a Coulomb term, else the
+    # regular free-particle start
+    if charge:
+        start = [charge / HBARC * r0**gamma, (gamma + kappa) * r0**gamma]
+    elif kappa < 0:
+        start = [r0**gamma, 0.0]
+    else:
+        start = [0.0, r0**gamma]
+    r_far = 4.0 * math.sqrt(HBARC / tension) + 2.0
+    r_match = 0.5 * math.sqrt(HBARC / tension)
+
+    def parts(W):
+        E = W + mass
+        with np.errstate(all="ignore"):  # the first step's size estimate meets a zero component
+            out = solve_ivp(rhs(E), (r0, r_match), start, method="DOP853", rtol=1e-12, atol=1e-300)
+            inn = solve_ivp(rhs(E), (r_far, r_match), [1.0, -1.0], method="DOP853", rtol=1e-12, atol=1e-300)
+        g = np.concatenate([out.y[0], inn.y[0][::-1]])
+        return out.y[:, -1], inn.y[:, -1], g
+
+    def mismatch(W):
+        yo, yi, _ = parts(W)
+        return (yo[0] * yi[1] - yo[1] * yi[0]) / (math.hypot(*yo) * math.hypot(*yi))
+
+    W = brentq(mismatch, *bracket, xtol=1e-12, rtol=1e-13)
+    g = parts(W)[2]
+    g = g[np.abs(g) > 1e-9 * np.max(np.abs(g))]
+    assert int(np.sum(np.signbit(g[1:]) != np.signbit(g[:-1]))) == nodes
+    return W
+
+
+def _klein_gordon_scalar_reference(l, count, mass, tension, points=4000):
+    """The lowest ``count`` W = E - mc^2 of -u'' + [l(l+1)/r^2 + ((m + S)^2 - E^2)/hc^2] u = 0, S = tension r:
+    E^2 as eigenvalues of the three-point matrix on a uniform grid (scipy's eigh_tridiagonal), on two grids,
+    Richardson for h^2 (independent of radsolve)."""
+    from scipy.linalg import eigh_tridiagonal
+
+    r_max = 5.0 * math.sqrt(HBARC / tension) + 1.0
+    out = []
+    for n in (points, 2 * points):
+        h = r_max / n
+        r = h * np.arange(1, n)
+        diag = 2.0 / h**2 + l * (l + 1) / r**2 + ((mass + tension * r) / HBARC) ** 2
+        off = -np.ones(n - 2) / h**2
+        out.append(eigh_tridiagonal(diag, off, select="i", select_range=(0, count - 1), eigvals_only=True))
+    e2 = out[1] + (out[1] - out[0]) / 3.0
+    return HBARC * np.sqrt(e2) - mass
+
+
+@pytest.mark.parametrize("method", ["fd", "first-order"])
+def test_dirac_levels_of_a_confining_linear_scalar_against_an_independent_solver(method, tmp_path):
+    # light-quark-like: m = 300 MeV, S = 900 MeV/fm r (a scenario of our own); every level is bound and
+    # labelled by the nodes of G.  Reference: first-order equations shot with DOP853 (above).
+    (tmp_path / "linear_scalar_test.py").write_text(LINEAR_SCALAR)
+    for charge in (0.0, 0.4 * HBARC):
+        pot = radsolve.potential("linear_scalar_test", plugins=[tmp_path], charge=charge)
+        res = radsolve.solve(pot, l=[0, 1], count=3, equation="dirac", scalar=True, mass="300MeV", method=method)
+        assert res.success, res.message
+        assert [lev.label for lev in res.levels] == ["1s1/2", "2s1/2", "3s1/2", "1p1/2", "2p1/2", "3p1/2",
+                                                     "1p3/2", "2p3/2", "3p3/2"]
+        for lev in res.levels:
+            kappa = -(lev.l + 1) if lev.j == lev.l + 0.5 else lev.l
+            nodes = lev.n - 1
+            reference = _dirac_scalar_reference(kappa, nodes, (0.995 * lev.energy, 1.005 * lev.energy), 300.0,
+                                                900.0, charge)
+            assert abs(lev.energy - reference) <= max(1e-8 * abs(reference), 3 * lev.error_estimate), \
+                (lev.label, lev.energy, reference, lev.error_estimate)
+    # a scalar that falls without bound is refused, naming the input
+    falling = LINEAR_SCALAR.replace("linear_scalar_test", "falling_scalar").replace("return tension * r",
+                                                                                     "return -tension * r")
+    (tmp_path / "falling_scalar.py").write_text(falling)
+    with pytest.raises(InputError) as info:
+        radsolve.solve(radsolve.potential("falling_scalar", plugins=[tmp_path]), equation="dirac", scalar=True,
+                       mass="300MeV")
+    assert info.value.parameter == "scalar" and "falls without bound" in str(info.value)
+
+
+def test_klein_gordon_levels_of_a_confining_linear_scalar_against_an_independent_solver(tmp_path):
+    (tmp_path / "linear_scalar_test.py").write_text(LINEAR_SCALAR)
+    pot = radsolve.potential("linear_scalar_test", plugins=[tmp_path])
+    res = radsolve.solve(pot, l=[0, 1, 4], count=4, equation="klein-gordon", scalar=True, mass="300MeV")
+    assert res.success, res.message
+    for l in (0, 1, 4):
+        ours = [lev.energy for lev in res.levels if lev.l == l]
+        assert [lev.n for lev in res.levels if lev.l == l] == [1, 2, 3, 4]
+        reference = _klein_gordon_scalar_reference(l, 4, 300.0, 900.0)
+        assert np.allclose(ours, reference, rtol=1e-7, atol=0), (l, ours, reference)
+
+
+def test_dirac_moment_with_a_confining_scalar_against_hellmann_feynman(tmp_path):
+    # V = -q/r beside S = tension r: dW/dq = -<1/r> with the density G^2 + F^2 (Hellmann-Feynman, textbook);
+    # dW/dq from the independent DOP853 reference at q +- dq (central difference, error ~ dq^2)
+    (tmp_path / "linear_scalar_test.py").write_text(LINEAR_SCALAR)
+    charge, dq = 0.4 * HBARC, 0.002 * HBARC
+    pot = radsolve.potential("linear_scalar_test", plugins=[tmp_path], charge=charge)
+    for n, l, j, kappa in ((1, 0, None, -1), (1, 1, "1/2", 1), (2, 1, "3/2", -2)):
+        st = relativistic_state(pot, n, l, j, scalar=True, mass="300MeV", moments=(-1,))
+        W = st.quantities[0][1].value
+        ends = [_dirac_scalar_reference(kappa, n - 1, (0.98 * W, 1.02 * W), 300.0, 900.0, q)
+                for q in (charge + dq, charge - dq)]
+        inverse_r = -(ends[0] - ends[1]) / (2.0 * dq)
+        est = dict(st.quantities)["<r^-1>"]
+        assert est.value == pytest.approx(inverse_r, rel=2e-5), (st.label, est.value, inverse_r)
+        assert est.error <= 1e-8 * est.value and st.quantities[0][1].converged

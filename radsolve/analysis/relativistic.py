@@ -49,6 +49,9 @@ def _components(result, level, sample):
     with np.errstate(all="ignore"):
         v = np.asarray(channel.raw(r), dtype=float)
     hc = hbar_c(result.units)
+    if getattr(result, "scalar", False):
+        with np.errstate(all="ignore"):
+            v = v - np.asarray(pot.scalar(r, finite=False), dtype=float)  # A = W - V + S + 2mc^2
     big_a = sample.energy - v + 2.0 * rest_energy(result.units, result.mass)
     inside = u != 0.0
     g = np.where(inside, np.sqrt(np.where(inside, big_a, 1.0)) * u, 0.0)
@@ -182,8 +185,14 @@ def _integral_estimate(result, label, weight, unit, upto=None) -> Estimate:
                           if upto > r[first] else float(np.sum(terms)))
         scale = float(np.sum(np.abs(terms)))
         # what the wall may cut off (the last decay length), taken whole as uncertain
-        w_rel = sample.energy - (result.v_infinity if math.isfinite(result.v_infinity) else 0.0)
-        decay = math.sqrt(max(-w_rel * (w_rel + 2.0 * rest), 1e-300)) / hbar_c(result.units)
+        if math.isfinite(result.v_infinity):
+            w_rel = sample.energy - result.v_infinity
+            decay = math.sqrt(max(-w_rel * (w_rel + 2.0 * rest), 1e-300)) / hbar_c(result.units)
+        else:  # confining (a growing scalar): the density's own e-folding rate before the wall
+            a, b = max(r.size - 20, 0), max(r.size - 10, 1)
+            with np.errstate(all="ignore"):
+                decay = 0.5 * math.log(abs(density[a]) / abs(density[b])) / (r[b] - r[a])
+            decay = decay if math.isfinite(decay) and decay > 0 else 1e-300
         edges = float(np.sum(np.abs(terms[r > r[-1] - 1.0 / decay]))) + below_error
     rounding = 1e-13
     if len(values) < 3:
@@ -657,7 +666,13 @@ def relativistic_state(potential, n: int, l: int, j=None, *, equation: str = "di
         return out
 
     checked_radii("atomic")  # before anything is solved (numbers and units; the system's are read below)
-    res = solve(potential, l=l, count=n if units == "nuclear" else max(n - l, 1), mass=mass, tol=tol,
+    from radsolve.potentials import as_potential
+    from radsolve.units import family_unit_system
+
+    potential = as_potential(potential, plugins)
+    system = family_unit_system(potential.family, units).name
+    # n = nodes + l + 1 (atomic) or nodes + 1 (nuclear): the level is the (nodes + 1)-th of its channel
+    res = solve(potential, l=l, count=max(n - l, 1) if system == "atomic" else n, mass=mass, tol=tol,
                 method=method, plugins=plugins, units=units, equation=equation,
                 **({"scalar": True} if scalar else {}))
     if res.units == "atomic" and n < l + 1:
