@@ -36,6 +36,10 @@ with lifetime None, never as an infinite or zero number.
 This is a model calculation (nonrelativistic, spinless, E1 only, no
 hyperfine, QED or field effects); for rates used in diagnostics or safety
 assessments, use evaluated data compilations.
+
+``equation="dirac"`` gives the same tables for j levels
+(:func:`radsolve.analysis.relativistic.dirac_transitions_from`: g = 2j + 1,
+radial integrals of G G + F F in the long-wavelength length form).
 """
 
 from __future__ import annotations
