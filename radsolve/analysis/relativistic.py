@@ -114,7 +114,7 @@ def dirac_components(result, label: str):
     return r, g, f
 
 
-def moment(result, label: str, k: float) -> Estimate:
+def moment(result, label: str, k: float, tol: float | None = None) -> Estimate:
     """<r^k> of a Dirac (G^2 + F^2) or Klein-Gordon (rho u^2) level (bohr^k or fm^k), extrapolated over its grids.
 
     Needs k > -(2 gamma + 1), gamma the origin exponent of G (a point charge: sqrt(kappa^2 - (Z alpha)^2)).
@@ -122,15 +122,16 @@ def moment(result, label: str, k: float) -> Estimate:
     if isinstance(k, bool) or not isinstance(k, (int, float)) or not math.isfinite(float(k)):
         raise InputError(f"k must be a finite real number, got {k!r}", parameter="k")
     return _integral_estimate(result, label, lambda r: r ** float(k),
-                              ("bohr" if result.units == "atomic" else "fm") + ("" if k == 1 else f"^{k:g}"))
+                              ("bohr" if result.units == "atomic" else "fm") + ("" if k == 1 else f"^{k:g}"),
+                              tol=tol)
 
 
-def probability_inside(result, label: str, radius: float) -> Estimate:
+def probability_inside(result, label: str, radius: float, tol: float | None = None) -> Estimate:
     """P(r < radius) of a Dirac or Klein-Gordon level, from the same density as :func:`moment`."""
     if isinstance(radius, bool) or not isinstance(radius, (int, float)) or not radius > 0 \
             or not math.isfinite(radius):
         raise InputError(f"radius must be a positive length, got {radius!r}", parameter="radius")
-    return _integral_estimate(result, label, None, "", upto=float(radius))
+    return _integral_estimate(result, label, None, "", upto=float(radius), tol=tol)
 
 
 def _partial_sum(r, w, density, radius):
@@ -157,7 +158,8 @@ def _power_law_start(r, f, first):
     return float(shares[0]), float(abs(shares[0] - shares[1]) + 1e-3 * abs(shares[0]))
 
 
-def _integral_estimate(result, label, weight, unit, upto=None) -> Estimate:
+def _integral_estimate(result, label, weight, unit, upto=None, tol=None) -> Estimate:
+    """The integral of density * weight (or up to ``upto``), judged against 10 tol (default the solve's)."""
     from radsolve.core.extrapolation import richardson
     from radsolve.core.relativistic.front import hbar_c, rest_energy
 
@@ -202,7 +204,7 @@ def _integral_estimate(result, label, weight, unit, upto=None) -> Estimate:
     # understated the error up to 3-fold for k = 3: widened tenfold.
     estimate = 10.0 * max(estimate, rounding * scale) + edges
     return Estimate(float(value), float(estimate), unit, observed,
-                    bool(math.isfinite(estimate) and estimate <= 10.0 * result.tol * max(abs(value), 1e-300)))
+                    bool(math.isfinite(estimate) and estimate <= 10.0 * (tol or result.tol) * max(abs(value), 1e-300)))
 
 
 # ----------------------------------------------------------------------------- E1 lines
@@ -671,30 +673,42 @@ def relativistic_state(potential, n: int, l: int, j=None, *, equation: str = "di
 
     potential = as_potential(potential, plugins)
     system = family_unit_system(potential.family, units).name
-    # n = nodes + l + 1 (atomic) or nodes + 1 (nuclear): the level is the (nodes + 1)-th of its channel
-    res = solve(potential, l=l, count=max(n - l, 1) if system == "atomic" else n, mass=mass, tol=tol,
-                method=method, plugins=plugins, units=units, equation=equation,
-                **({"scalar": True} if scalar else {}))
-    if res.units == "atomic" and n < l + 1:
+    if system == "atomic" and n < l + 1:
         raise InputError(f"n must be at least l + 1 = {l + 1} for l = {l} (n = nodes + l + 1), got {n}",
                          parameter="n")
-    wanted = None
-    for lev in res.levels:
-        if lev.j == j and lev.n == n and lev.l == l:
-            wanted = lev
-    if wanted is None:
-        label = level_designation(max(n - (l + 1 if res.units == "atomic" else 1), 0), l, j, res.units)[1]
-        raise InputError(f"level {label} (n = {n}, l = {l}" + (f", j = {j:g}" if j else "") + ") is not among "
-                         f"the bound levels found: {', '.join(x.label for x in res.levels) or 'none'}; "
-                         f"{res.message}", parameter="n")
-    energy = Estimate(wanted.energy, wanted.error_estimate, "hartree" if res.units == "atomic" else "MeV",
-                      wanted.order, bool(wanted.converged))
-    quantities = [("E - mc^2", energy)] + [(f"<r^{k:g}>", moment(res, wanted.label, k)) for k in moments]
-    length = "bohr" if res.units == "atomic" else "fm"
-    quantities += [(f"P(r < {radius:g} {length})", probability_inside(res, wanted.label, radius))
-                   for radius in checked_radii(res.units)]
+    from radsolve.core.targets import TOL_RANGE, validated_tol
+
+    tol = validated_tol(tol)
+    energy = None
+    # The energies may settle on fewer grids than the integrals need (the first-order shooting's often
+    # do): when an integral misses its target, the level is solved once more at tol / 100 (not below the
+    # smallest tol allowed) and the integrals taken from that solve, still judged against 10 tol.
+    for solve_tol in (tol, max(tol / 100.0, TOL_RANGE[0])):
+        # n = nodes + l + 1 (atomic) or nodes + 1 (nuclear): the level is the (nodes + 1)-th of its channel
+        res = solve(potential, l=l, count=max(n - l, 1) if system == "atomic" else n, mass=mass, tol=solve_tol,
+                    method=method, plugins=plugins, units=units, equation=equation,
+                    **({"scalar": True} if scalar else {}))
+        wanted = None
+        for lev in res.levels:
+            if lev.j == j and lev.n == n and lev.l == l:
+                wanted = lev
+        if wanted is None:
+            label = level_designation(max(n - (l + 1 if res.units == "atomic" else 1), 0), l, j, res.units)[1]
+            raise InputError(f"level {label} (n = {n}, l = {l}" + (f", j = {j:g}" if j else "") + ") is not "
+                             f"among the bound levels found: {', '.join(x.label for x in res.levels) or 'none'}; "
+                             f"{res.message}", parameter="n")
+        if energy is None:
+            energy = Estimate(wanted.energy, wanted.error_estimate, "hartree" if res.units == "atomic" else "MeV",
+                              wanted.order, bool(wanted.converged))
+        quantities = [("E - mc^2", energy)] + [(f"<r^{k:g}>", moment(res, wanted.label, k, tol=tol))
+                                               for k in moments]
+        length = "bohr" if res.units == "atomic" else "fm"
+        quantities += [(f"P(r < {radius:g} {length})", probability_inside(res, wanted.label, radius, tol=tol))
+                       for radius in checked_radii(res.units)]
+        if all(est.converged for _, est in quantities[1:]) or solve_tol <= TOL_RANGE[0]:
+            break
     return DiracStateSummary(label=wanted.label, n=wanted.n, l=l, j=j, quantities=quantities,
-                             potential=res.potential, mass=res.mass, tol=res.tol, units=res.units, result=res,
+                             potential=res.potential, mass=res.mass, tol=tol, units=res.units, result=res,
                              equation=equation)
 
 
@@ -774,7 +788,7 @@ def dirac_transitions_from(result, nmax: int | None = None, *, dipole_charge: fl
 
     k = _constants()
     alpha, t_au = k["alpha"], k["time_au"]
-    ground_energy = min(lev.energy for lev in levels)
+    lowest = min(levels, key=lambda x: x.energy)  # with the levels degenerate with it, the ground
     asked = result.bound_counts
     lines, states, notes = [], [], []
     all_ok = bool(result.success)
@@ -833,7 +847,7 @@ def dirac_transitions_from(result, nmax: int | None = None, *, dipole_charge: fl
             label=lev.label, n=lev.n, l=lev.l, energy=lev.energy, energy_error=lev.error_estimate,
             total_A=float(total), lifetime_s=None if metastable or total <= 0 else float(1.0 / total),
             lifetime_error_s=None if metastable or total <= 0 else float(total_err / total**2),
-            metastable=metastable, ground=bool(lev.energy == ground_energy), branching=branching,
+            metastable=metastable, ground=bool(lev is lowest or _degenerate(lev, lowest)), branching=branching,
             degenerate_with=[x.label for x in degenerate], complete=complete, j=lev.j))
         lines.extend(own)
     if filled:
