@@ -454,3 +454,25 @@ def test_dirac_moment_with_a_confining_scalar_against_hellmann_feynman(tmp_path)
         est = dict(st.quantities)["<r^-1>"]
         assert est.value == pytest.approx(inverse_r, rel=2e-5), (st.label, est.value, inverse_r)
         assert est.error <= 1e-8 * est.value and st.quantities[0][1].converged
+
+
+@pytest.mark.parametrize("Z", [1, 50, 92])
+def test_dirac_inverse_r_of_levels_with_nodes_is_minus_de_dz(Z):
+    # Hellmann-Feynman for V = -Z/r: <1/r> (density G^2 + F^2) = -dE/dZ, with E from Sommerfeld's formula
+    # (textbook; Bethe and Salpeter 1957, eq. 14.29) differentiated by mpmath
+    import mpmath
+
+    mpmath.mp.dps = 30
+    alpha = mpmath.mpf(ALPHA)
+
+    def energy(z, n, kappa):
+        za = z * alpha
+        gamma = mpmath.sqrt(kappa**2 - za**2)
+        return (1 / alpha**2) * (1 / mpmath.sqrt(1 + (za / (n - abs(kappa) + gamma)) ** 2) - 1)
+
+    for n, l, j, kappa in ((2, 0, None, -1), (2, 1, "1/2", 1), (3, 2, "3/2", 2), (4, 1, "3/2", -2)):
+        st = relativistic_state(radsolve.potential("coulomb", Z=Z), n, l, j, moments=(-1,))
+        est = st.quantities[1][1]
+        exact = -float(mpmath.diff(lambda z: energy(z, n, kappa), Z))
+        assert abs(est.value - exact) <= est.error, (st.label, est.value, exact, est.error)
+        assert abs(est.value - exact) <= 1e-8 * exact
