@@ -476,3 +476,15 @@ def test_dirac_inverse_r_of_levels_with_nodes_is_minus_de_dz(Z):
         exact = -float(mpmath.diff(lambda z: energy(z, n, kappa), Z))
         assert abs(est.value - exact) <= est.error, (st.label, est.value, exact, est.error)
         assert abs(est.value - exact) <= 1e-8 * exact
+
+
+def test_a_divergent_moment_is_reported_infinite_not_as_a_number():
+    # Dirac 1s1/2 of a point charge: G^2 + F^2 ~ r^(2 gamma), so <r^-3> diverges when 2 gamma - 3 < -1
+    # (gamma = sqrt(1 - (Z alpha)^2) = 0.67 for Z = 92; textbook), while <r^-2> (2 gamma - 2 > -1) is finite
+    st = relativistic_state(radsolve.potential("coulomb", Z=92), 1, 0, moments=(-3, -2))
+    values = dict(st.quantities)
+    assert math.isinf(values["<r^-3>"].value) and not values["<r^-3>"].converged
+    assert [note.code for note in st.notes][:1] == ["divergent"] and not st.success
+    gamma = math.sqrt(1.0 - (92 * ALPHA) ** 2)
+    exact = math.exp(gammaln(2 * gamma - 1) - gammaln(2 * gamma + 1) + 2 * math.log(2 * 92))
+    assert abs(values["<r^-2>"].value - exact) <= max(values["<r^-2>"].error, 1e-9 * exact)

@@ -152,8 +152,10 @@ def _power_law_start(r, f, first):
         return 0.0, float(np.sum(np.abs(f[:first + 1]) * np.gradient(r)[:first + 1]))
     with np.errstate(all="ignore"):
         powers = [math.log(abs(f[first + k] / f[first])) / math.log(r[first + k] / r[first]) for k in (8, 16)]
+    if all(math.isfinite(p) and p < -1.0 - 1e-3 for p in powers):
+        return math.inf, math.inf  # f ~ r^p with p < -1: the integral diverges at the origin
     if not all(math.isfinite(p) and p > -1.0 for p in powers):
-        return 0.0, math.inf  # not integrable at the origin, or no clean law: no claim
+        return 0.0, math.inf  # no clean law: no claim
     shares = [f[first] * r[first] / (p + 1.0) for p in powers]
     return float(shares[0]), float(abs(shares[0] - shares[1]) + 1e-3 * abs(shares[0]))
 
@@ -197,6 +199,8 @@ def _integral_estimate(result, label, weight, unit, upto=None, tol=None) -> Esti
             decay = decay if math.isfinite(decay) and decay > 0 else 1e-300
         edges = float(np.sum(np.abs(terms[r > r[-1] - 1.0 / decay]))) + below_error
     rounding = 1e-13
+    if math.isinf(values[-1]):
+        return Estimate(math.inf, math.inf, unit, None, False)  # diverges (see _power_law_start)
     if len(values) < 3:
         return Estimate(values[-1], math.inf, unit, None, False)
     value, estimate, observed = richardson(values, _ORDERS, rounding)
@@ -512,10 +516,16 @@ class DiracStateSummary(ResultProtocol):
 
     @property
     def notes(self) -> tuple[Note, ...]:
-        if not self.unconverged:
-            return ()
-        return (Note("not_converged", "NOT CONVERGED to their targets: " + ", ".join(self.unconverged)
-                     + "; their estimates are what was achieved", ", ".join(self.unconverged)),)
+        divergent = [name for name, est in self.quantities if math.isinf(est.value)]
+        finite = [name for name in self.unconverged if name not in divergent]
+        notes = []
+        if divergent:
+            notes.append(Note("divergent", "infinite (the integrand grows faster than 1/r towards the origin): "
+                              + ", ".join(divergent), ", ".join(divergent)))
+        if finite:
+            notes.append(Note("not_converged", "NOT CONVERGED to their targets: " + ", ".join(finite)
+                              + "; their estimates are what was achieved", ", ".join(finite)))
+        return tuple(notes)
 
     @property
     def message(self) -> str:
