@@ -89,6 +89,7 @@ _EXPORTS = {
     # relativistic levels (issue 11)
     "DiracStateSummary": ("radsolve.analysis.relativistic", "DiracStateSummary"),
     "dirac_state": ("radsolve.analysis.relativistic", "dirac_state"),
+    "relativistic_state": ("radsolve.analysis.relativistic", "relativistic_state"),
     # potentials and methods
     "Potential": ("radsolve.potentials", "Potential"),
     "RadialSolver": ("radsolve.core.solvers", "RadialSolver"),

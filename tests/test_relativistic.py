@@ -509,9 +509,18 @@ def test_scalar_potential_spin_symmetry_and_klein_gordon_identity(mean_field):
     for lev, ref in zip(res.levels, plain.levels):
         assert lev.label == ref.label
         assert lev.energy + lev.energy**2 / (2.0 * MC2) == pytest.approx(ref.energy, rel=1e-10)
-    with pytest.raises(InputError) as err:
-        radsolve.solve(mean_field.with_parameters(slope=100.0), equation="dirac", scalar=True)
-    assert err.value.parameter == "scalar" and "confining" in str(err.value)
+    # the same identity with a confining scalar (slope > 0): every level bound
+    res = radsolve.solve(mean_field.with_parameters(V0=0.0, slope=100.0), l=[0, 1], count=2,
+                         equation="klein-gordon", scalar=True)
+    plain = radsolve.solve(formula_potential("(-S0*exp(-(r/a)**2) + k*r) + (-S0*exp(-(r/a)**2) + k*r)**2/(2*M)",
+                                             S0=2000.0, a=0.05, k=100.0, M=MC2), l=[0, 1], count=2)
+    assert res.success and plain.success and len(res.levels) == 4
+    for lev, ref in zip(res.levels, plain.levels):
+        assert lev.label == ref.label
+        assert lev.energy + lev.energy**2 / (2.0 * MC2) == pytest.approx(ref.energy, rel=1e-9)
+    with pytest.raises(InputError) as err:  # a scalar falling without bound: the mass term turns negative
+        radsolve.solve(mean_field.with_parameters(slope=-100.0), equation="dirac", scalar=True)
+    assert err.value.parameter == "scalar" and "falls without bound" in str(err.value)
 
 
 def test_fit_to_dirac_levels_recovers_the_charge():

@@ -36,6 +36,10 @@ with lifetime None, never as an infinite or zero number.
 This is a model calculation (nonrelativistic, spinless, E1 only, no
 hyperfine, QED or field effects); for rates used in diagnostics or safety
 assessments, use evaluated data compilations.
+
+``equation="dirac"`` gives the same tables for j levels
+(:func:`radsolve.analysis.relativistic.dirac_transitions_from`: g = 2j + 1,
+radial integrals of G G + F F in the long-wavelength length form).
 """
 
 from __future__ import annotations
@@ -67,6 +71,20 @@ CONVENTIONS = {
     "dipole_operator": "-e r, r the relative coordinate, times dipole_charge",
     "lifetime": "1 / sum of A over all lower levels; null when metastable (no E1 decay)",
 }
+
+
+DIRAC_MODEL_NOTE = ("model calculation: Dirac levels of one electron, electric-dipole only in the "
+                    "long-wavelength limit; for rates used in diagnostics or safety work use evaluated "
+                    "compilations")
+
+
+def dirac_conventions() -> dict[str, str]:
+    """CONVENTIONS of the Dirac E1 tables: j levels, the gauge named."""
+    from radsolve.analysis.relativistic import GAUGE
+
+    return dict(CONVENTIONS, line_strength="S = (2j_u+1)(2j_l+1) (j_l j_u 1; -1/2 1/2 0)^2 R^2, atomic units "
+                "(e^2 bohr^2), spin included", radial_integral="R = integral of (G_u G_l + F_u F_l) r dr, bohr; "
+                "both G > 0 as r -> 0", gauge=GAUGE)
 
 
 def _constants() -> dict[str, float]:
@@ -161,6 +179,7 @@ class StateDecay:
     branching: dict[str, float] = field(default_factory=dict)
     degenerate_with: list[str] = field(default_factory=list)
     complete: bool = True
+    j: float | None = None
 
     @property
     def status(self) -> str:
@@ -175,6 +194,7 @@ class StateDecay:
             "label": self.label,
             "n": self.n,
             "l": self.l,
+            **({} if self.j is None else {"j": self.j}),
             "energy": self.energy / unit_factor,
             "energy_error": self.energy_error / unit_factor,
             "lifetime_s": self.lifetime_s,
@@ -227,10 +247,16 @@ class TransitionResult(ResultProtocol):
     status: Outcome = Outcome.SUCCESS
     notes: tuple[Note, ...] = ()
     occupied: list[str] = field(default_factory=list)
+    equation: str = "schrodinger"
 
-    #: The model-calculation caveat in one line (CSV comment, table footer).
-    short_note = ("model calculation (nonrelativistic, spinless, E1 only); for rates used in "
-                  "diagnostics or safety work, use evaluated data compilations.")
+    @property
+    def short_note(self) -> str:
+        """The model-calculation caveat in one line (CSV comment, table footer)."""
+        if self.equation == "dirac":
+            return ("model calculation (Dirac levels of one electron, E1 only, long-wavelength length form); "
+                    "for rates used in diagnostics or safety work, use evaluated data compilations.")
+        return ("model calculation (nonrelativistic, spinless, E1 only); for rates used in "
+                "diagnostics or safety work, use evaluated data compilations.")
 
     @property
     def message(self) -> str:
@@ -335,13 +361,14 @@ class TransitionResult(ResultProtocol):
             "method": res.method,
             "tol": res.tol,
             "dipole_charge": self.dipole_charge,
+            **({} if self.equation == "schrodinger" else {"equation": self.equation}),
             "occupied": list(self.occupied),
             "success": bool(self.success),
             "status": str(self.status),
             "message": self.message,
             "notes": [n.to_dict() for n in self.notes],
-            "conventions": dict(CONVENTIONS),
-            "note": MODEL_NOTE,
+            "conventions": dict(CONVENTIONS) if self.equation != "dirac" else dirac_conventions(),
+            "note": MODEL_NOTE if self.equation != "dirac" else DIRAC_MODEL_NOTE,
             "lines": [x.to_dict(factor) for x in self.lines],
             "states": [s.to_dict(factor) for s in self.states],
         }
@@ -470,6 +497,10 @@ def transitions_from(result, nmax: int | None = None, *, dipole_charge: float = 
     from radsolve.core import probe
 
     _check_dipole_charge(dipole_charge)
+    if getattr(result, "equation", "schrodinger") == "dirac":
+        from radsolve.analysis.relativistic import dirac_transitions_from
+
+        return dirac_transitions_from(result, nmax, dipole_charge=dipole_charge, occupied=occupied)
     check_atomic_3d(result, "radiative transitions")
     levels = list(result.levels)
     if not levels:
@@ -649,7 +680,9 @@ def transitions(potential, nmax: int, *, mass=None, tol: float = 1e-10, method: 
     occupied : sequence of str or str
         Levels filled by core electrons, left out (see :func:`transitions_from`).
     equation : str
-        Only ``"schrodinger"`` so far (a relativistic one is refused with a message).
+        ``"schrodinger"`` (default) or ``"dirac"``: levels (n, l, j) with g = 2j + 1, radial integrals
+        of G G + F F in the long-wavelength length form (see
+        :func:`radsolve.analysis.relativistic.dirac_transitions_from`).  ``"klein-gordon"`` is refused.
 
     Returns
     -------
@@ -658,17 +691,17 @@ def transitions(potential, nmax: int, *, mass=None, tol: float = 1e-10, method: 
     from radsolve.core.relativistic import SCHRODINGER, validated_equation
     from radsolve.core.spectrum import solve
 
-    if validated_equation(equation) != SCHRODINGER:
-        raise InputError(f"E1 tables of {validated_equation(equation)} levels are not implemented yet; only "
-                         "equation='schrodinger' (from Python, radsolve.analysis.relativistic.e1_lines lists "
-                         "Dirac lines, lifetimes and branching)", parameter="equation")
+    equation = validated_equation(equation)
+    if equation not in (SCHRODINGER, "dirac"):
+        raise InputError(f"E1 tables of {equation} levels are not implemented (the spin-0 transition "
+                         "current is not); equation must be 'schrodinger' or 'dirac'", parameter="equation")
     nmax = _check_nmax(nmax)
     _check_dipole_charge(dipole_charge)  # before anything is solved
     _occupied_labels(occupied)
     count = nmax
     for attempt in range(3):
         result = solve(potential, l=list(range(nmax)), count=count, mass=mass, tol=tol,
-                       method=method, plugins=plugins)
+                       method=method, plugins=plugins, equation=equation)
         found = transitions_from(result, nmax, dipole_charge=dipole_charge, occupied=occupied)
         if all(s.complete for s in found.states) or attempt == 2:
             return found

@@ -192,6 +192,9 @@ class ThresholdResult(ResultProtocol):
         unit, so that E - V(inf) ~ slope * (p - p_c) there.  None otherwise
         (s levels leave the threshold quadratically).  For l = 1 the next
         correction goes as |p - p_c|**1.5, from the slowly converging norm.
+        Dirac and Klein-Gordon: dW/dp of W = E - mc^2, <dV_eff/dp> / (1 - <dV_eff/dW>)
+        with the zero-energy state u of the exact second-order form (the level is the root
+        of lambda(W) = W; Hellmann-Feynman for both derivatives).
     slope_error : float or None
         Estimated absolute error of ``slope``.
     fixed : dict
@@ -510,6 +513,7 @@ class _RelativisticZeroEnergy(_ZeroEnergy):
 
         self.equation, self.hbar_c, self.rest = equation, hbar_c(system_name), rest_energy(system_name, mu)
         self.system_name = system_name
+        self._channels: dict = {}
 
     def profile(self, p: float):
         from radsolve.core import probe
@@ -535,7 +539,19 @@ class _RelativisticZeroEnergy(_ZeroEnergy):
             prof = probe.profile(pot, self.mass, scan_breakpoints=self.scan_breakpoints)
             prof.check_bounded_below(self.effective, self.mass)
             self._profiles[key] = (pot, prof)
+            self._channels[float(p)] = channel
         return self._profiles[key]
+
+    def energy_derivative(self, p: float, r: np.ndarray) -> np.ndarray:
+        """dV_eff/dW at W = V(inf) on radii r (central difference at a step of 1e-4 mc^2; V_eff is a smooth
+        function of W -- quadratic for Klein-Gordon -- so its error is ~1e-8 relative)."""
+        self.profile(p)
+        channel = self._channels[float(p)]
+        step = 1e-4 * self.rest
+        with np.errstate(all="ignore"):
+            hi = channel.effective_function(channel.threshold + step)(r)
+            lo = channel.effective_function(channel.threshold - step)(r)
+        return (np.asarray(hi, dtype=float) - np.asarray(lo, dtype=float)) / (2.0 * step)
 
 
 def _narrow(problem: _ZeroEnergy, k: int, lo: float, hi: float, n_lo: int, n_hi: int) -> tuple[float, float]:
@@ -752,6 +768,13 @@ def _slope_on(problem: _ZeroEnergy, layout: _Layout, p_c: float, refinement: int
     weights[-1] *= 0.5
     tail = shot.decaying**2 * shot.r[-1] / (-2.0 * shot.exponents[1] - 1.0)
     norm = float(np.sum(weights * shot.u**2)) + tail
+    derivative = getattr(problem, "energy_derivative", None)
+    if derivative is not None:
+        # Relativistic: the level is the root of lambda(W; p) = W, lambda the level of V_eff(.; W, p), so
+        # dW/dp = <dV_eff/dp> / (1 - <dV_eff/dW>) (Hellmann-Feynman on the fixed problem, both at threshold;
+        # beyond the last point dV_eff/dW is taken as its last value)
+        dw = derivative(p_c, shot.r)
+        norm -= float(np.sum(weights * dw * shot.u**2)) + float(dw[-1]) * tail
     return float(np.sum(weights * dv * shot.u**2) / norm)
 
 
@@ -791,7 +814,8 @@ def threshold(potential, parameter: str, *, level: str = DEFAULT_LEVEL, bracket=
         The wave equation.  Relativistic: the threshold of the exact
         second-order form's effective potential at W = V(inf) (see
         :mod:`radsolve.core.relativistic`); Dirac levels carry j (``"1s1/2"``).
-        The slope dE/dp is not reported for them yet (None).
+        The slope is dW/dp of W = E - mc^2: <dV_eff/dp> / (1 - <dV_eff/dW>) over the zero-energy
+        state of the effective problem (see ``ThresholdResult.slope``).
 
     Returns
     -------
@@ -878,9 +902,6 @@ def threshold(potential, parameter: str, *, level: str = DEFAULT_LEVEL, bracket=
     # law's decaying solution, whose norm is added in closed form; on a much
     # larger box the last rounding of p_c (a tiny growing part) would dominate u.
     slope, slope_error = _slope(problem, first_layout, value, refinement)
-    if equation != SCHRODINGER:
-        # that is the slope of the effective problem's level, not of W = E - mc^2: not reported
-        slope, slope_error = None, None
     scale = abs(value) if value != 0 else max(abs(outer[0]), abs(outer[1]))
     return ThresholdResult(
         potential=family.name, parameter=parameter, parameter_unit=spec.unit,

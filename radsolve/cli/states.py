@@ -10,7 +10,7 @@ import typer
 from radsolve.cli.adapter import (OutputFormat, say, reported_errors, parse_assignments, plugin_dirs,
                                   with_option, write_output, solver_call, folder_exists)
 from radsolve.cli.options import (FormatOption, OutFileOption, NameArgument, ParamOption, MassOption, PluginsOption, MethodOption,
-                                  TolOption, AtomicOutputUnitOption, EquationOption)
+                                  TolOption, AtomicOutputUnitOption, EquationOption, ScalarOption)
 
 
 def wave_command(
@@ -18,11 +18,15 @@ def wave_command(
     n: Annotated[int, typer.Option(
         "--n", "-n", metavar="N", help="principal number n = nodes + l + 1")],
     l: Annotated[int, typer.Option("--l", "-l", metavar="L", help="orbital angular momentum")],
+    j: Annotated[Optional[str], typer.Option(
+        "--j", metavar="J", help="--equation dirac: total angular momentum l +- 1/2, e.g. 3/2 "
+        "(needed for l > 0)")] = None,
     param: ParamOption = None,
     mass: MassOption = None,
     tol: TolOption = 1e-10,
     method: MethodOption = "fd",
     equation: EquationOption = "schrodinger",
+    scalar: ScalarOption = False,
     unit: AtomicOutputUnitOption = "hartree",
     at: Annotated[Optional[list[str]], typer.Option(
         "--at", metavar="R",
@@ -58,8 +62,13 @@ def wave_command(
     with an error estimate from the grid refinement. u(r) and R(r) = u(r)/r
     are normalized (integral of u^2 dr = 1) with u > 0 as r -> 0. Exit 3
     when the energy or a quantity shown did not converge.
+
+    --equation dirac: level (N, L, J) with G and F (integral of G^2 + F^2
+    dr = 1); --equation klein-gordon: u normalized with the charge density.
+    The summary then gives E - mc^2, <1/r>, <r>, <r^2>, --moment and --inside.
     """
-    with reported_errors({"l": "--l", "parameter": "--hellmann-feynman"}):
+    with reported_errors({"l": "--l", "parameter": "--hellmann-feynman", "j": "--j", "n": "--n",
+                          "moments": "--moment", "radius": "--inside", "r": "--at"}):
         from radsolve.errors import InputError
 
         params = parse_assignments(param)
@@ -83,9 +92,19 @@ def wave_command(
             with_option("--plot", check_plot_path, plot)
 
         from radsolve.analysis.observables import state as make_state
+        from radsolve.core.relativistic import SCHRODINGER, validated_equation
         from radsolve.potentials import potential
 
         pot = potential(name, plugins=plugin_dirs(plugins), **params)
+        if validated_equation(equation) != SCHRODINGER:
+            # lengths go to the API as given: it reads them in the family's own units (bohr or fm)
+            _relativistic_wave(pot, n, l, j, mass, tol, method, equation, scalar, at or [], moment, inside or [],
+                               hellmann_feynman, fmt, out, plot, file_format if out is not None else None,
+                               unit)
+            return
+        if j is not None or scalar:
+            raise InputError(("--j" if j is not None else "--scalar") + " is for --equation dirac"
+                             + (" or klein-gordon" if scalar else "") + " only")
         st = solver_call(pot, make_state, pot, n, l, mass=mass, tol=tol, method=method, equation=equation)
 
         summary = st.summary(moments=moment or [], inside=limits, hellmann_feynman=hellmann_feynman or [])
@@ -114,6 +133,44 @@ def wave_command(
         if not summary.success:
             say("warning: " + summary.message)
             raise typer.Exit(summary.exit_code)
+
+
+def _relativistic_wave(pot, n, l, j, mass, tol, method, equation, scalar, radii, moment, limits,
+                       hellmann_feynman, fmt, out, plot, file_format, unit) -> None:
+    """``wave --equation dirac|klein-gordon``: the judged summary, (G, F) or u, and its plot."""
+    from radsolve.analysis.relativistic import relativistic_state
+    from radsolve.errors import InputError
+
+    if hellmann_feynman:
+        raise InputError("--hellmann-feynman is for the Schrodinger equation only (not implemented for "
+                         f"--equation {equation})")
+    moments = (-1, 1, 2) + tuple(k for k in moment or [] if k not in (-1, 1, 2))
+    st = solver_call(pot, relativistic_state, pot, n, l, j, equation=equation, mass=mass, tol=tol, method=method,
+                     moments=moments, inside=limits, **({"scalar": True} if scalar else {}))
+    wave = st.wavefunction(radii if radii else None)
+    stdout_format = (fmt or OutputFormat.table).value
+    if out is not None:
+        wave.save(out)
+        say(f"wrote the {st.label} wavefunction ({wave.r.size} radii, {file_format}) to {out}")
+    if stdout_format == "table" or out is not None:
+        from radsolve.output.report import render
+
+        typer.echo(render(st, unit if st.units == "atomic" else None, "table"), nl=False)
+        typer.echo("normalization: " + wave.metadata()["normalization"])
+        if radii:
+            typer.echo("\n" + wave.to_csv(), nl=False)
+    elif stdout_format == "csv":
+        typer.echo(wave.to_csv(), nl=False)
+    else:
+        typer.echo(wave.to_json(), nl=False)
+    if plot is not None:
+        from radsolve.output.plotting import plot_relativistic_wave
+
+        plot_relativistic_wave(st, plot)
+        say(f"wrote the plot to {plot}")
+    if not st.success:
+        say("warning: " + st.message)
+        raise typer.Exit(st.exit_code)
 
 
 def transitions_command(
@@ -147,8 +204,9 @@ def transitions_command(
     oscillator strength and Einstein A (s^-1); for each level: lifetime
     1/sum(A) over all lower levels and branching ratios, or 'metastable' when
     no lower level is reachable by an E1 transition. Model calculation
-    (nonrelativistic, spinless, E1 only). Exit 3 when something did not
-    converge or a lifetime may miss a lower level.
+    (nonrelativistic, spinless, E1 only; with --equation dirac: levels n l j,
+    radial integrals of G G + F F in the long-wavelength length form). Exit 3
+    when something did not converge or a lifetime may miss a lower level.
     """
     with reported_errors():
 

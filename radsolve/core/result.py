@@ -289,6 +289,8 @@ class SolveResult(ResultProtocol):
     notes: tuple[Note, ...] = ()
     statistics: dict = field(default_factory=dict)
     equation: str = "schrodinger"
+    #: relativistic solves: True when the family's Lorentz-scalar potential was added (``scalar=True``)
+    scalar: bool = False
 
     @property
     def convention(self) -> str | None:
@@ -390,7 +392,8 @@ class SolveResult(ResultProtocol):
             "method": self.method,
             "tol": self.tol,
             **({} if self.equation == "schrodinger" else {"equation": self.equation,
-                                                          "convention": self.convention}),
+                                                          "convention": self.convention,
+                                                          "scalar": bool(self.scalar)}),
             "success": bool(self.success),
             "status": str(self.status),
             "message": self.message,

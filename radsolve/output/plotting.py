@@ -65,6 +65,51 @@ def _params_text(potential) -> str:
     return ", ".join(parts)
 
 
+def plot_relativistic_wave(summary, path) -> Path:
+    """Draw a Dirac level's G(r) and F(r) (or a Klein-Gordon level's u(r)) against r on a log axis.
+
+    A log radius axis because F of a light ion is (Z alpha)/2 of G and lives at the same radii, while
+    both start as r^gamma far inside the Bohr radius; the lower panel shows the density (G^2 + F^2 or
+    rho u^2) and the share below each r.
+    """
+    path = check_plot_path(path)
+    wave = summary.wavefunction()
+    r = wave.r
+    length = "bohr" if summary.units == "atomic" else "fm"
+    if wave.equation == "dirac":
+        density = wave.columns["G"] ** 2 + wave.columns["F"] ** 2
+        curves = (("G", "large component G", "tab:blue"), ("F", "small component F", "tab:red"))
+    else:
+        density = wave.columns["rho"] * wave.columns["u"] ** 2
+        curves = (("u", "u (charge-density normalization)", "tab:blue"),)
+    share = np.concatenate([[0.0], np.cumsum(0.5 * (density[1:] + density[:-1]) * np.diff(r))])
+    share /= share[-1] if share[-1] > 0 else 1.0
+    keep = (share < 1.0 - 1e-7) | (np.arange(r.size) == 0)
+    last = min(int(np.nonzero(keep)[0][-1]) + 2, r.size)
+    r, density, share = r[:last], density[:last], share[:last]
+    fig = _figure(7.2, 6.0)
+    top, bottom = fig.subplots(2, 1, sharex=True, height_ratios=(3, 2))
+    for key, name, color in curves:
+        top.plot(r, wave.columns[key][:last], color=color, lw=1.4, label=name)
+    top.axhline(0.0, color="0.6", lw=0.7)
+    top.set_xscale("log")
+    top.set_ylabel(f"component / {length}$^{{-1/2}}$")
+    top.legend(fontsize=8, loc="upper left")
+    unit = "hartree" if summary.units == "atomic" else "MeV"
+    top.set_title(f"{summary.equation} level {summary.label} of {summary.potential.name}"
+                  + (f" ({_params_text(summary.potential)})" if summary.potential.parameters else "")
+                  + f"\nE − mc² = {wave.energy:.10g} {unit}", fontsize=10)
+    bottom.plot(r, density, color="black", lw=1.2, label="density per unit r")
+    bottom.set_ylabel(f"density / {length}$^{{-1}}$")
+    bottom.set_xlabel(f"r / {length}  (log scale)")
+    twin = bottom.twinx()
+    twin.plot(r, share, color="tab:green", lw=1.0, ls="--", label="P(r′ < r)")
+    twin.set_ylim(0.0, 1.05)
+    twin.set_ylabel("P(r′ < r)", color="tab:green")
+    bottom.legend(fontsize=8, loc="upper left")
+    return _save(fig, path)
+
+
 def _spread_labels(targets: np.ndarray, gap: float, low: float, high: float) -> np.ndarray:
     """Label heights near ``targets`` (sorted), at least ``gap`` apart, within [low, high].
 
@@ -226,7 +271,12 @@ def plot_level_diagram(transitions, path, unit: str = "hartree", scale: str = "a
     use_log = can_log and (scale == "log" or (
         scale == "auto" and max(binding.values()) / min(binding.values()) > 20.0))
     y = binding if use_log else energies
-    ls = sorted({s.l for s in states})
+    # one column per l, or per (l, j) for Dirac levels (the fine structure would stack their bars)
+    with_j = any(getattr(s, "j", None) is not None for s in states)
+    keys = sorted({(s.l, getattr(s, "j", None) or 0.0) for s in states})
+    place = {key: (i if with_j else key[0]) for i, key in enumerate(keys)}
+    col = {s.label: place[(s.l, getattr(s, "j", None) or 0.0)] for s in states}
+    ls = sorted(set(col.values()))
     half = 0.32
     fig = _figure(min(max(6.5, 0.72 * len(ls) + 3.6), 12.0), 6.4)
     ax = fig.add_subplot()
@@ -266,8 +316,8 @@ def plot_level_diagram(transitions, path, unit: str = "hartree", scale: str = "a
             x = lines[i]
             up, down = by_label[x.upper], by_label[x.lower]
             weight = float(norm(logs[i]))
-            xu = up.l - half if down.l < up.l else up.l + half
-            xl = down.l + half if down.l < up.l else down.l - half
+            xu = col[up.label] - half if col[down.label] < col[up.label] else col[up.label] + half
+            xl = col[down.label] + half if col[down.label] < col[up.label] else col[down.label] - half
             ax.plot([xu, xl], [y[x.upper], y[x.lower]], color=cmap(0.15 + 0.85 * weight),
                     lw=0.3 + 2.7 * weight, alpha=0.35 + 0.65 * weight, zorder=2,
                     solid_capstyle="round")
@@ -275,7 +325,7 @@ def plot_level_diagram(transitions, path, unit: str = "hartree", scale: str = "a
         bar.set_label("log$_{10}$(A / s$^{-1}$)")
     for s in states:
         color = "black" if s.ground else ("tab:orange" if s.metastable else "tab:blue")
-        ax.plot([s.l - half, s.l + half], [y[s.label]] * 2, color=color, lw=2.2,
+        ax.plot([col[s.label] - half, col[s.label] + half], [y[s.label]] * 2, color=color, lw=2.2,
                 solid_capstyle="butt", zorder=3)
     if not use_log and math.isfinite(v_inf):
         ax.axhline(v_inf, color="0.6", lw=0.8, ls=":", zorder=1)
@@ -291,7 +341,7 @@ def plot_level_diagram(transitions, path, unit: str = "hartree", scale: str = "a
     blend = blended_transform_factory(ax.transData, ax.transAxes)
     unlabelled_total = 0
     for l in ls:
-        column = sorted((s for s in states if s.l == l), key=lambda s: to_frac(y[s.label]))
+        column = sorted((s for s in states if col[s.label] == l), key=lambda s: to_frac(y[s.label]))
         fracs = np.array([to_frac(y[s.label]) for s in column])
         kept: list[int] = []
         for i in range(len(column)):
@@ -314,8 +364,12 @@ def plot_level_diagram(transitions, path, unit: str = "hartree", scale: str = "a
                 ax.text(l, above, text, transform=blend, fontsize=fontsize - 0.5, ha="center",
                         va="center", color="0.3", zorder=5)
                 unlabelled_total -= len(skipped)
-    ax.set_xticks(ls, [f"{l}\n{orbital_letter(l)}" for l in ls])
-    ax.set_xlabel("orbital angular momentum l")
+    if with_j:
+        ax.set_xticks(ls, [f"{orbital_letter(l)}{int(round(2 * j))}/2" for l, j in keys])
+        ax.set_xlabel("channel l j")
+    else:
+        ax.set_xticks(ls, [f"{l}\n{orbital_letter(l)}" for l in ls])
+        ax.set_xlabel("orbital angular momentum l")
     if use_log:
         ax.set_ylabel(f"binding energy V(∞) − E / {unit}  (log scale)")
     else:

@@ -26,7 +26,7 @@ from radsolve.potentials.parameters import (FAMILY_UNIT_SYSTEMS, RESERVED_PARAME
 
 #: before the parameters (see DEVELOPERS.md).
 HOOKS = {"v_infinity": 0, "small_r": 0, "exact_energy": 3, "breakpoints": 0, "validate": 0,
-         "V_l": 2, "spin_orbit": 1, "potential_error": 1}
+         "V_l": 2, "spin_orbit": 1, "potential_error": 1, "scalar_potential": 1}
 
 _NAME_RE = re.compile(r"^[A-Za-z][A-Za-z0-9_\-]*$")
 
@@ -63,6 +63,9 @@ class PotentialFamily:
         ``V_l(r, l, **params)``: the potential felt with orbital angular
         momentum l (semilocal families); ``spin_orbit(r, **params)``: the
         radial factor V_so(r) of the spin-orbit term V_so(r) <l.s>.
+    scalar_potential : callable or None
+        ``scalar_potential(r, **params)``: a Lorentz-scalar potential S(r) for
+        the relativistic equations (``solve(..., scalar=True)``).
 
     The family's unit system is the module's ``UNITS`` (``"atomic"`` when
     absent, or ``"nuclear"``: V takes r in fm and returns MeV, and length /
@@ -86,6 +89,7 @@ class PotentialFamily:
     V_l: Callable[..., Any] | None = None
     spin_orbit: Callable[..., Any] | None = None
     potential_error: Callable[..., Any] | None = None
+    scalar_potential: Callable[..., Any] | None = None
     file: str | None = field(default=None, repr=False)
 
     @property
@@ -532,6 +536,25 @@ class Potential:
     def l_dependent(self) -> bool:
         """True when the family defines V_l (a different potential per l)."""
         return self._family.V_l is not None
+
+    @property
+    def has_scalar(self) -> bool:
+        """True when the family defines a Lorentz-scalar potential (``scalar_potential``)."""
+        return self._family.scalar_potential is not None
+
+    def scalar(self, r, finite: bool = True) -> np.ndarray:
+        """The family's Lorentz-scalar potential S(r), checked like V (same shape, real; finite unless
+        ``finite=False``, which keeps infinities as :meth:`raw` does)."""
+        if not self.has_scalar:
+            raise InputError(f"potential {self.name!r} has no Lorentz-scalar part; "
+                             "families with one define scalar_potential(r, ...)", parameter="scalar")
+        r_arr = np.asarray(r, dtype=float)
+        view = r_arr.view()
+        view.flags.writeable = False
+        fam, params = self._family, self._params
+        with np.errstate(all="ignore"):
+            return self._checked("scalar_potential", lambda: fam.scalar_potential(view, **params), r_arr,
+                                 finite=finite)
 
     @property
     def has_spin_orbit(self) -> bool:

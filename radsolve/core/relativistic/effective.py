@@ -64,6 +64,8 @@ class RelativisticChannel:
         V(r) and S(r) (scalar None when there is none), finite arrays.
     threshold : float
         W at the continuum threshold: lim V(r) (0 for a confining scalar).
+    confining : bool
+        True when the scalar grows without bound: every level is bound, energies are measured from 0.
     breakpoints : tuple of float
         Radii where V or S is not smooth.
     """
@@ -78,6 +80,7 @@ class RelativisticChannel:
     scalar: Callable[[np.ndarray], np.ndarray] | None
     threshold: float
     breakpoints: tuple[float, ...] = ()
+    confining: bool = False
 
     @property
     def dirac(self) -> bool:

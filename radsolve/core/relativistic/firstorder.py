@@ -37,12 +37,24 @@ from scipy.optimize import brentq
 
 from radsolve.core.grids import potential_on_grid
 from radsolve.core.solvers.base import RadialSolver
-from radsolve.core.solvers.fd import FiniteDifference
 
 #: No run of steps grows by more than e**_CHUNK_GROWTH before it is renormalised.
 _CHUNK_GROWTH = 500.0
 #: Bisection steps on the count before giving up on a bracket.
 _MAX_BISECTIONS = 200
+
+
+def shooting_rounding(size: int) -> float:
+    """The first-order shooting's rounding noise of a level, relative to |E| + <|V_eff - E|>, on ``size`` points.
+
+    Measured: each grid energy's spread when V is perturbed by up to 4 ulps at random (six draws; point
+    charges Z = 1, 30, 92, l = 0, 1, 3, three levels each, 200 to 16000 points, tol 1e-12) is at most
+    4e-16 and shows no growth with the size (products of 2x2 steps renormalised in pieces, Brent to
+    rtol 1e-15).  The rule allows a random walk of one ulp a step, sqrt(size) * 2e-17, and never less
+    than 1e-15: 2.5 times the largest spread seen, or more.  (The finite-difference rule, 1.5e-18 size^1.5
+    and at least 1e-13, measures bisection on a graded matrix, not this method.)
+    """
+    return max(1e-15, 2e-17 * math.sqrt(size))
 
 
 def first_order(channel, z_alpha: float | None) -> type:
@@ -57,7 +69,7 @@ def first_order(channel, z_alpha: float | None) -> type:
 
         @classmethod
         def relative_rounding(cls, size: int) -> float:
-            return FiniteDifference.relative_rounding(size)  # the same rule (not measured for shooting yet)
+            return shooting_rounding(size)
 
         def __init__(self, grid, potential_values, l, mass, inner=0, origin_exponent=None, centrifugal=None):
             super().__init__(grid, potential_values, l, mass, inner, origin_exponent, centrifugal)

@@ -84,6 +84,7 @@ def solve_relativistic(equation, potential, l, *, count, mass, tol, method, plug
     hc = hbar_c(system.name)
     rest = rest_energy(system.name, mu)
     scalar_fn = _scalar_function(pot, scalar)
+    confining = _scalar_confines(pot, scalar_fn)
 
     channels = []
     for l_ in ls:
@@ -98,8 +99,8 @@ def solve_relativistic(equation, potential, l, *, count, mass, tol, method, plug
             _check_point_charge(z_alpha, l_, kappa, name)
             channels.append((RelativisticChannel(
                 equation=equation, l=l_, j=j, kappa=kappa, rest=rest, hbar_c=hc,
-                vector=raw, scalar=scalar_fn, threshold=0.0 if math.isinf(prof.v_infinity) else prof.v_infinity,
-                breakpoints=tuple(prof.breakpoints)), z_alpha))
+                vector=raw, scalar=scalar_fn, threshold=0.0 if confining else prof.v_infinity,
+                breakpoints=tuple(prof.breakpoints), confining=confining), z_alpha))
 
     results = []
     for ch, z_alpha in channels:
@@ -115,7 +116,8 @@ def solve_relativistic(equation, potential, l, *, count, mass, tol, method, plug
                              units=system.name)
         results.append((ch, z_alpha, res))
     method_name = method if isinstance(method, str) else getattr(method, "name", "custom")
-    return _joined(equation, pot, results, system.name, mu, tol, method_name, rest)
+    return replace(_joined(equation, pot, results, system.name, mu, tol, method_name, rest),
+                   scalar=scalar_fn is not None)
 
 
 #: The Dirac method that shoots the first-order equations for G and F (``firstorder.py``).
@@ -141,23 +143,33 @@ def _own_methods(equation, method):
 def _scalar_function(pot, scalar):
     if not scalar:
         return None
-    family = getattr(pot, "family", None)
-    hook = getattr(getattr(family, "module", None), "scalar_potential", None)
-    if hook is None:
+    if not getattr(pot, "has_scalar", False):
         raise InputError(f"scalar was asked for, but potential {pot.name!r} has no Lorentz-scalar part "
-                         "(families with one define scalar_potential(r, ...))", parameter="scalar")
-    params = dict(pot.parameters)
+                         "(families with one define the hook scalar_potential(r, ...))", parameter="scalar")
 
     def scalar_fn(r):
-        return np.asarray(hook(np.asarray(r, dtype=float), **params), dtype=float)
+        return pot.scalar(r)
 
-    with np.errstate(all="ignore"):
-        far = scalar_fn(probing.PROBE_RADII[-400:])
-    if not np.all(np.isfinite(far)) or abs(float(far[-1])) > 1e3 * max(abs(float(far[0])), 1.0):
-        raise InputError(f"the scalar potential of {pot.name!r} grows without bound at large r (confining): "
-                         "not supported yet; the relativistic solvers take scalar potentials with a finite "
-                         "limit", parameter="scalar")
     return scalar_fn
+
+
+def _scalar_confines(pot, scalar_fn) -> bool:
+    """True when the Lorentz scalar grows without bound (it confines every level); refuses one that falls.
+
+    A scalar S -> +inf adds to the mass: V_eff ~ S^2 / (2 mc^2), every level is bound and A = W - V + S + 2mc^2
+    stays positive.  S -> -inf would make the mass term negative (A crosses zero): refused.
+    """
+    if scalar_fn is None:
+        return False
+    with np.errstate(all="ignore"):
+        far = pot.scalar(probing.PROBE_RADII[-400:], finite=False)
+        near = float(np.max(np.abs(pot.scalar(probing.PROBE_RADII[:1], finite=False))))
+    grows = not np.all(np.isfinite(far)) or abs(float(far[-1])) > 1e3 * max(abs(float(far[0])), near, 1.0)
+    if grows and not (np.nan_to_num(far[-1], posinf=1.0, neginf=-1.0) > 0):
+        raise InputError(f"the scalar potential of {pot.name!r} falls without bound at large r: the effective mass "
+                         "mc^2 + S turns negative and no bound level is defined. Allowed: scalar potentials with a "
+                         "finite limit, or growing to +infinity (confining)", parameter="scalar")
+    return bool(grows)
 
 
 def _check_potential(raw, prof, name, hc, rest, scalar_fn) -> float | None:
@@ -237,7 +249,7 @@ def _effective_potential(ch: RelativisticChannel, system_name: str):
 
     v_eff = ch.effective_function(ch.threshold)
     tag = f"{ch.equation}_" + (f"l{ch.l}" if ch.kappa is None else f"kappa{ch.kappa}".replace("-", "m"))
-    hooks = {"v_infinity": lambda: ch.threshold}
+    hooks = {"v_infinity": (lambda: math.inf) if ch.confining else (lambda: ch.threshold)}
     if ch.breakpoints:
         hooks["breakpoints"] = lambda: list(ch.breakpoints)
     family = make_family(f"{getattr(ch.vector, 'name', 'potential')}_{tag}", lambda r: v_eff(r), {},
