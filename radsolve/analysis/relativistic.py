@@ -198,7 +198,9 @@ def _integral_estimate(result, label, weight, unit, upto=None, tol=None) -> Esti
                 decay = 0.5 * math.log(abs(density[a]) / abs(density[b])) / (r[b] - r[a])
             decay = decay if math.isfinite(decay) and decay > 0 else 1e-300
         edges = float(np.sum(np.abs(terms[r > r[-1] - 1.0 / decay]))) + below_error
-    rounding = 1e-13
+    # The states carry the rounding noise their energy shows (relative), 1e-13 at least.
+    floor = (level.convergence or {}).get("rounding_floor", 0.0) or 0.0
+    rounding = max(1e-13, float(floor) / max(abs(level.energy), 1e-300))
     if math.isinf(values[-1]):
         return Estimate(math.inf, math.inf, unit, None, False)  # diverges (see _power_law_start)
     if len(values) < 3:
