@@ -112,38 +112,3 @@ def test_start_vectors_of_the_wrong_states_never_give_a_wrong_index():
     guesses = 0.5 * (exact[lo : hi + 1] + exact[lo + 1 : hi + 2])
     values, _, _ = eigenpairs(d, e, lo, hi, guesses, starts=starts, stats=EigenStatistics())
     assert np.allclose(values, exact[lo : hi + 1], rtol=1e-12, atol=0)
-
-
-def test_close_start_vectors_need_one_solve_each_and_keep_full_accuracy():
-    # States good to 1e-7 and predictions good to 1e-9 (what the refinement hands over
-    # from a coarser grid), with a precision asked: the Kato-Temple bound (textbook) accepts
-    # each quotient after one solve, within a hundredth of the precision asked.
-    n = 2000
-    d, e, exact = _box(n)
-    lo, hi = 0, 5
-    x = np.linspace(0, 1, n)
-    starts = [_box_vector(n, k) * (1 + 1e-7 * x) for k in range(lo, hi + 1)]
-    stats = EigenStatistics()
-    precision = 1e-8 * exact[lo : hi + 1]
-    values, _, _ = eigenpairs(d, e, lo, hi, exact[lo : hi + 1] * (1 + 1e-9), starts=starts,
-                              precision=precision, stats=stats)
-    assert np.all(np.abs(values - exact[lo : hi + 1]) <= 0.01 * precision)
-    assert stats.missed == 0
-    assert stats.solves == hi - lo + 1
-
-
-def test_rough_start_vectors_are_iterated_until_the_bound_meets_the_precision():
-    # States good only to 1e-2: one solve leaves a residual whose Kato-Temple bound misses a
-    # tight precision, so the iteration must go on; the values still meet it.
-    n = 2000
-    d, e, exact = _box(n)
-    lo, hi = 0, 5
-    x = np.linspace(0, 1, n)
-    starts = [_box_vector(n, k) + 1e-2 * np.sin(40 * x) for k in range(lo, hi + 1)]
-    stats = EigenStatistics()
-    precision = 1e-13 * exact[lo : hi + 1]
-    values, _, noise = eigenpairs(d, e, lo, hi, exact[lo : hi + 1] * (1 + 1e-5), starts=starts,
-                                  precision=precision, stats=stats)
-    assert stats.solves > hi - lo + 1
-    # within the precision, or within the matrix's own rounding noise where that is larger
-    assert np.all(np.abs(values - exact[lo : hi + 1]) <= np.maximum(precision, noise))

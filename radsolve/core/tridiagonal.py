@@ -171,8 +171,7 @@ def _start_vector(n: int, row) -> np.ndarray:
     return start
 
 
-def _rayleigh(d, e, x: float, row, stats: EigenStatistics, start=None, enough: float = 0.0,
-              steps: int | None = None):
+def _rayleigh(d, e, x: float, row, stats: EigenStatistics, start=None, enough: float = 0.0):
     """Rayleigh quotient iteration from ``x``: (value, unit vector, residual bound).
 
     ``start``: a start vector (an interpolated state of a coarser grid), else
@@ -180,9 +179,6 @@ def _rayleigh(d, e, x: float, row, stats: EigenStatistics, start=None, enough: f
     bound at which the iteration may stop after any step -- the quotient is
     then within that bound of an eigenvalue (the residual bound of a
     symmetric matrix), which the caller's precision does not resolve.
-    ``steps``: stop after this many solves whatever the steps were, and
-    return the vector and its residual bound (which holds after any step);
-    the caller then judges the value (:func:`_temple_bound`).
     """
     if start is not None and start.size == d.size and np.all(np.isfinite(start)) and np.any(start):
         rhs = start / np.linalg.norm(start)
@@ -191,7 +187,7 @@ def _rayleigh(d, e, x: float, row, stats: EigenStatistics, start=None, enough: f
     rho = np.inf
     tiny = 64.0 * np.finfo(float).eps
     first = True
-    for done in range(1, (steps or _MAX_RAYLEIGH) + 1):
+    for _ in range(_MAX_RAYLEIGH):
         _, _, _, y, info = dgtsv(e, d - x, e, rhs)
         stats.solves += 1
         size = float(y @ y)
@@ -210,47 +206,14 @@ def _rayleigh(d, e, x: float, row, stats: EigenStatistics, start=None, enough: f
             # Convergence is cubic: after a second step this small the next would be below
             # rounding, and the vector, iterated twice with shifts this close, is as good as it gets.
             break
-        if steps is not None and done == steps:
-            break
         first = False
     else:
         return x, None, np.inf  # did not settle: let bisection decide
-    if rho > _RESIDUAL * abs(x) and steps is None:
+    if rho > _RESIDUAL * abs(x):
         # The value is a Rayleigh quotient, exact to ~rho**2 / gap: a large
         # residual leaves it less accurate than bisection would be.
         return x, None, np.inf
     return x, rhs, max(rho, tiny * abs(x))
-
-
-def _temple_bound(d, e, lo: int, hi: int, values, windows: list, rho, stats: EigenStatistics) -> np.ndarray:
-    """For each value, a bound on its distance to its eigenvalue from the residual and the gap.
-
-    Kato-Temple (textbook, e.g. Parlett, The Symmetric Eigenvalue Problem):
-    a unit vector with Rayleigh quotient x and residual rho, and an interval
-    (a, b) around x holding one eigenvalue lambda and nothing else, give
-    |lambda - x| <= rho**2 / min(b - x, x - a).  Called once the windows are
-    proven (each holds one eigenvalue, nothing lies between them), so a
-    neighbour's window edge bounds the gap; beyond the first and the last
-    window one more Sturm count each proves a gap of half the spacing (or
-    the first level is the lowest, lo = 0).  inf where no gap is proven.
-    """
-    count = len(values)
-    spacing = float(np.min(np.diff(values))) if count > 1 else 1e-3 * max(abs(float(values[0])), 1e-300)
-    below = np.empty(count)
-    above = np.empty(count)
-    below[1:] = values[1:] - np.array([w[1] for w in windows[:-1]])
-    above[:-1] = np.array([w[0] for w in windows[1:]]) - values[:-1]
-    if lo == 0:
-        below[0] = np.inf
-    else:
-        edge = float(values[0]) - 0.5 * spacing
-        below[0] = float(values[0]) - edge if edge < windows[0][0] and sturm_count(d, e, edge, stats) == lo else 0.0
-    edge = float(values[-1]) + 0.5 * spacing
-    above[-1] = edge - float(values[-1]) if edge > windows[-1][1] and sturm_count(d, e, edge, stats) == hi + 1 else 0.0
-    gap = np.minimum(below, above)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        bound = np.where((gap > 0) & (np.asarray(rho) ** 2 < below * above), np.asarray(rho) ** 2 / gap, np.inf)
-    return bound, gap
 
 
 def _proven(d, e, lo: int, hi: int, windows: list, stats: EigenStatistics) -> bool:
@@ -347,39 +310,16 @@ def eigenpairs(d: np.ndarray, e: np.ndarray, lo: int, hi: int, predictions=None,
         return values, vecs, rounding_sensitivity(d, e, vecs)
     vecs = np.zeros((d.size, count))
     values = np.full(count, np.nan)
-    residuals = np.full(count, np.inf)
     windows: list = [None] * count
     needed = None if precision is None else np.broadcast_to(np.asarray(precision, dtype=float), (count,))
-    # With a start vector from a coarser grid one solve is usually enough: its value
-    # is then judged by the Kato-Temple bound once the windows are proven.
-    one_step = needed is not None and starts is not None
     for j, guess in enumerate(predictions):
         enough = 0.0 if needed is None or not np.isfinite(needed[j]) else _RESIDUAL_SHARE_OF_PRECISION * needed[j]
-        first = None if starts is None else starts[j]
         x, z, rho = _rayleigh(d, e, float(guess), None if rows is None else rows[j], stats,
-                              start=first, enough=enough, steps=1 if one_step and first is not None else None)
-        if one_step and first is not None and (z is None or rho > _RESIDUAL * abs(x)):
-            # the start was not close enough for one solve: iterate on from where it got
-            x, z, rho = _rayleigh(d, e, x, None if rows is None else rows[j], stats, start=z, enough=enough)
+                              start=None if starts is None else starts[j], enough=enough)
         if z is not None:
             half = max(_RESIDUAL_SAFETY * rho, _POLISH_WINDOW * abs(x))
-            windows[j], values[j], vecs[:, j], residuals[j] = (x - half, x + half), x, z, rho
-    proven = None not in windows and _proven(d, e, lo, hi, windows, stats)
-    if one_step and proven:
-        bound, gap = _temple_bound(d, e, lo, hi, values, windows, residuals, stats)
-        # Accepted when the value is within a hundredth of its precision and the vector's
-        # angle to the eigenvector (at most rho / gap, Davis-Kahan) is below _SETTLED_STEP.
-        rest = np.flatnonzero((bound > _RESIDUAL_SHARE_OF_PRECISION * needed) | ~(residuals <= _SETTLED_STEP * gap))
-        for j in rest:
-            x, z, rho = _rayleigh(d, e, float(values[j]), None, stats, start=vecs[:, j])
-            if z is None:
-                windows[j] = None
-                continue
-            half = max(_RESIDUAL_SAFETY * rho, _POLISH_WINDOW * abs(x))
             windows[j], values[j], vecs[:, j] = (x - half, x + half), x, z
-        if rest.size:  # windows moved: prove them again
-            proven = None not in windows and _proven(d, e, lo, hi, windows, stats)
-    if proven:
+    if None not in windows and _proven(d, e, lo, hi, windows, stats):
         good = np.ones(count, dtype=bool)
     else:
         good = _proven_each(d, e, lo, windows, stats)
