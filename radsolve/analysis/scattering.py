@@ -15,10 +15,10 @@ failure, never averaged away.
 
 a_l comes from the zero-energy solution u0 = A r**(l+1) + B r**(-l) beyond
 the potential: a_l = -B / (A (2l+1)!! (2l-1)!!) (textbook), computed on
-halving grids (Richardson) and two radii.  r_l is read from a polynomial fit
-in k**2 of k**(2l+1) cot(delta_l) at low energies; its estimate is the
-spread of two fits of different degree plus the effect of the phases'
-own errors.  A tail falling as r**-q leaves a_l finite only for q > 2l + 3
+halving grids (Richardson) and two radii.  r_l comes from the energy
+derivative u1 = du/dE of the same solution (integrated beside it): beyond the
+potential u1 = A1 r**(l+1) + B1 r**(-l) plus the energy derivatives of the free
+solutions, and r_l = (2l+1)!! (2l-1)!! (A1 B - A B1) / (m B**2).  A tail falling as r**-q leaves a_l finite only for q > 2l + 3
 and r_l only for q > 2l + 5 (textbook threshold laws); beyond that they are
 refused with a note.  For a Coulomb tail the phase shift is the one relative
 to Coulomb waves (the Coulomb phase sigma_l is reported beside it) and
@@ -356,10 +356,6 @@ def phase_shifts(potential, energies, l=0, *, mass=None, tol: float = 1e-8, hard
 # --------------------------------------------------------------------------- scattering parameters
 
 
-#: Low energies of the effective-range fit: k**2 at Chebyshev points of (0, k_fit**2].
-_FIT_POINTS = 14
-#: k_fit times the size of the potential.
-_FIT_REACH = 0.3
 
 
 @dataclass(frozen=True)
@@ -397,7 +393,7 @@ class ScatteringResult(ResultProtocol):
     Note codes: ``levinson_failed`` (delta(0) - delta(inf) is not pi times the
     bound count: one of the two is wrong; status ``failed``),
     ``levinson_uncertain`` (status ``incomplete``), ``not_converged``,
-    ``no_effective_range`` (the tail is too long for r_l, or the fit failed).
+    ``no_effective_range`` (the tail is too long for r_l, or a_l = 0).
     """
 
     potential: str
@@ -475,34 +471,6 @@ class ScatteringResult(ResultProtocol):
                 "bound_levels", "levinson_count", "levinson"]
 
 
-def _effective_range(cpot, prof, L, l, kinetic, size, a_l, a_error, tol, hard_core):
-    """r_l from k**(2l+1) cot(delta) at low energies, with the intercept -1/a_l known from zero energy.
-
-    z = (k**(2l+1) cot(delta) + 1/a_l) / k**2 = r_l/2 + c k**2 + ... is fitted in k**2 on
-    Chebyshev points of [0.1, 1] k_fit**2 with two degrees; the estimate is their spread
-    plus the effect of the phases' errors and of a_l's error (largest at the lowest k).
-    """
-    from radsolve.core.continuum import channel_phases
-
-    k_fit = _FIT_REACH / size
-    x = 0.1 + 0.9 * 0.5 * (1.0 - np.cos(np.pi * (np.arange(_FIT_POINTS) + 0.5) / _FIT_POINTS))
-    k = k_fit * np.sqrt(x)
-    energies = k**2 / (2.0 * kinetic)
-    ch = channel_phases(cpot, prof, L, l, kinetic, energies, min(tol, 1e-11), hard_core=hard_core)
-    y = k ** (2 * l + 1) / np.tan(ch.phase)
-    z = (y + 1.0 / a_l) / k**2
-    dz = (k ** (2 * l + 1) * ch.error / np.sin(ch.phase) ** 2 + a_error / a_l**2) / k**2
-    fits = []
-    for degree in (4, 5):
-        V = np.vander(x * k_fit**2, degree + 1, increasing=True)
-        pinv = np.linalg.pinv(V)
-        fits.append((pinv @ z, np.abs(pinv) @ dz))
-    (c4, _), (c5, s5) = fits
-    r_l = 2.0 * float(c5[0])
-    error = 2.0 * (abs(float(c5[0] - c4[0])) + float(s5[0]))
-    return r_l, error, 0.0, bool(np.all(ch.converged))
-
-
 def scattering(potential, l=0, *, mass=None, tol: float = 1e-8, hard_core: float | None = None, plugins=None,
                units: str | None = None, dimension: int = 3) -> ScatteringResult:
     """Scattering length, effective range and the Levinson check of each partial wave ``l``.
@@ -544,14 +512,9 @@ def scattering(potential, l=0, *, mass=None, tol: float = 1e-8, hard_core: float
             why = f"the tail r**-{q:.3g} is too long for an effective range (needs faster than r**-{2 * L + 5:g})"
         elif zero.effective_range is not None:
             r_l, r_err = zero.effective_range, zero.effective_range_error
-            ok = ok and r_err <= tol * max(abs(r_l), size)
+            ok = ok and r_err <= tol * max(abs(r_l), size ** (1 - 2 * L))
         else:
-            r_l, r_err, gap, phases_ok = _effective_range(cpot, prof, L, li, kinetic, size, a_l, zero.error, tol,
-                                                          hard_core)
-            if not math.isfinite(r_l) or not math.isfinite(r_err):
-                why, r_l, r_err = "the low-energy fit of k**(2l+1) cot(delta) failed (a_l near 0?)", None, None
-            else:
-                ok = ok and r_err <= tol * max(abs(r_l), size ** (1 - 2 * L))
+            why = "a_l = 0 to the precision reached: k**(2l+1) cot(delta) has no finite expansion at k = 0"
         if why is not None:
             notes.append(Note("no_effective_range", f"l = {li}: {why}", f"l={li}"))
         if not ok:
