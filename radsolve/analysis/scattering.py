@@ -687,6 +687,13 @@ def photoionization(potential, level: str = "1s", photon_energies=None, *, mass=
     energy V(inf) - E_nl.  ``tol`` is the target relative error of the radial
     integrals.  See :class:`PhotoionizationResult`.
     """
+    return _photoionization(potential, level, photon_energies, mass=mass, tol=tol, plugins=plugins)
+
+
+def _photoionization(potential, level, photon_energies, *, mass, tol, plugins, electron_energies=None,
+                     bound_state=None) -> PhotoionizationResult:
+    """:func:`photoionization`; with ``electron_energies`` (a function of the ionization energy giving
+    photoelectron energies) in place of ``photon_energies``, and ``bound_state`` a State already solved."""
     from scipy.constants import alpha, physical_constants
 
     from radsolve.analysis.observables import state
@@ -705,7 +712,7 @@ def photoionization(potential, level: str = "1s", photon_energies=None, *, mass=
 
         channel_tail(channels[0][2], channels[0][3], kinetic, 1.0, 1.0, tol, 1.0)  # raises: no continuum
     try:
-        st = state(pot, n, l, mass=mass, tol=max(min(0.01 * tol, 1e-10), 1e-12))
+        st = bound_state or state(pot, n, l, mass=mass, tol=max(min(0.01 * tol, 1e-10), 1e-12))
     except InputError as exc:
         if exc.parameter is not None:
             raise
@@ -713,6 +720,8 @@ def photoionization(potential, level: str = "1s", photon_energies=None, *, mass=
     e_b = float(st.energy.value)
     v_inf = channels[0][3].v_infinity
     ionization = v_inf - e_b
+    if electron_energies is not None:
+        photon_energies = ionization + np.asarray(electron_energies(ionization), dtype=float)
     if photon_energies is None:
         raise InputError("photon_energies: give the photon energies (hartree), each above the ionization "
                          f"energy {ionization:.10g}", parameter="photon_energies")
@@ -805,6 +814,104 @@ def photoionization(potential, level: str = "1s", photon_energies=None, *, mass=
                                  sigma_l_error=sig_err[:, :-1], sigma_velocity=sig_v[:-1],
                                  converged=converged[:-1], threshold_cross_section=float(total[-1]),
                                  threshold_error=float(sig_err[:, -1].sum()), notes=notes)
+
+
+#: Gauss-Legendre orders of the two rules of :func:`continuum_strength` (their difference is the estimate).
+STRENGTH_RULES = (40, 56)
+#: Photoelectron energies above this many ionization energies are not computed: a power law fitted
+#: below carries the integrand there (a share of order CAP**-(5/2) of the whole for an s level).
+STRENGTH_CAP = 2000.0
+
+
+@dataclass
+class ContinuumStrength:
+    """The bound-free oscillator strength of one level: the integral of df/dE over the continuum.
+
+    df/dE = (2/3) omega (l_> / (2l + 1)) R_E**2 (electron-mass convention, R_E the
+    radial integral with the continuum normalized per unit energy; textbook, e.g.
+    Bethe and Salpeter 1957, sec. 69), summed over l' = l +- 1 and integrated over
+    the photoelectron energy E in (0, inf).  ``by_l`` maps l' to its share.
+    """
+
+    level: str
+    value: float
+    error: float
+    by_l: dict
+    converged: bool
+    notes: list = field(default_factory=list)
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"level": self.level, "value": self.value, "error": self.error,
+                "by_l": {str(k): v for k, v in self.by_l.items()}, "converged": self.converged,
+                "notes": [n.to_dict() for n in self.notes]}
+
+
+def continuum_strength(potential, level: str = "1s", *, mass=None, tol: float = 1e-8, plugins=None,
+                       bound_state=None) -> ContinuumStrength:
+    """The integral of df/dE over the continuum of a bound ``level`` (atomic units), with its estimate.
+
+    The photoelectron energy is mapped as E = I (x / (1 - x))**2, I the ionization
+    energy, x in (0, 1): the integrand then vanishes smoothly at both ends (df/dE is
+    finite at threshold for a Coulomb tail and grows like E**(l'+1/2) for a short one;
+    it falls like a power of E far out).  Two Gauss-Legendre rules
+    (:data:`STRENGTH_RULES`) give the value and the estimate (their difference, plus
+    the integrals' own estimates); nodes above :data:`STRENGTH_CAP` I use the power
+    law through the two highest nodes computed, and that part's size is added to
+    the estimate.  ``tol`` is handed to :func:`photoionization`.
+    """
+    from scipy.constants import alpha, physical_constants
+
+    rules = [np.polynomial.legendre.leggauss(m) for m in STRENGTH_RULES]
+    xs = np.concatenate([0.5 * (x + 1.0) for x, _ in rules])
+
+    capped = (xs / (1.0 - xs)) ** 2 > STRENGTH_CAP  # the same nodes whatever I
+
+    def energies(ionization):
+        return ionization * (xs[~capped] / (1.0 - xs[~capped])) ** 2
+
+    res = _photoionization(potential, level, None, mass=mass, tol=tol, plugins=plugins,
+                           electron_energies=energies, bound_state=bound_state)
+    ionization = res.binding_energy
+    a0_cm = physical_constants["Bohr radius"][0] * 100.0
+    to_f = 1.0 / (2.0 * math.pi**2 * alpha * a0_cm**2)  # sigma = 2 pi**2 alpha a0**2 df/dE
+    e = ionization * (xs / (1.0 - xs)) ** 2
+    jac = 2.0 * ionization * xs / (1.0 - xs) ** 3  # dE/dx
+    sigma_l = np.zeros((len(res.final_ls), xs.size))
+    sigma_err = np.zeros_like(sigma_l)
+    sigma_l[:, ~capped], sigma_err[:, ~capped] = res.sigma_l, res.sigma_l_error
+    by_l, err_l = {}, {}
+    tail_total = 0.0
+    start = 0
+    totals = []
+    for (x, wts), m in zip(rules, STRENGTH_RULES):
+        sl = slice(start, start + m)
+        start += m
+        dfde = sigma_l[:, sl] * to_f
+        ddfde = sigma_err[:, sl] * to_f
+        cap = capped[sl]
+        ee = e[sl]
+        if cap.any():
+            # a power law through the two highest computed nodes carries the capped ones
+            free = np.nonzero(~cap)[0][-2:]
+            with np.errstate(all="ignore"):
+                slope = np.log(dfde[:, free[1]] / dfde[:, free[0]]) / math.log(ee[free[1]] / ee[free[0]])
+                dfde[:, cap] = dfde[:, free[1], None] * (ee[None, cap] / ee[free[1]]) ** slope[:, None]
+            dfde = np.where(np.isfinite(dfde), dfde, 0.0)
+        w = 0.5 * wts * jac[sl]
+        totals.append(dfde @ w)
+        tail_total = max(tail_total, float(np.sum(dfde[:, cap] @ w[cap])))
+        for i, lf in enumerate(res.final_ls):
+            by_l[lf] = float(totals[-1][i])
+            err_l[lf] = float(ddfde[i] @ w)
+    value = float(np.sum(totals[-1]))
+    error = float(abs(np.sum(totals[-1]) - np.sum(totals[0])) + sum(err_l.values()) + tail_total)
+    notes = list(res.notes)
+    # oscillator strengths sum to order 1: the estimate is judged against that scale, not against a
+    # continuum share that may be tiny (a deeply bound level of a short-range well)
+    converged = error <= max(10.0 * tol, 1e-12) * max(abs(value), 1.0)
+    if not converged:
+        notes.append(Note("not_converged", f"continuum strength of {level}: estimate {error:.2g}"))
+    return ContinuumStrength(level=level, value=value, error=error, by_l=by_l, converged=converged, notes=notes)
 
 
 # --------------------------------------------------------------------------- logarithmic derivatives

@@ -214,8 +214,11 @@ def coulomb_waves(L: int, eta: np.ndarray, rho: np.ndarray, iterations: int = 40
     the WKB phase; points where that is not clear by a margin, where CF2 did not
     converge, or below 0.7 of the turning point are marked untrusted.
     """
-    eta = np.asarray(eta, dtype=float)
-    rho = np.asarray(rho, dtype=float)
+    with np.errstate(all="ignore"):  # overflow far below the turning point: those points are marked untrusted
+        return _steed(L, np.asarray(eta, dtype=float), np.asarray(rho, dtype=float), iterations)
+
+
+def _steed(L: int, eta: np.ndarray, rho: np.ndarray, iterations: int):
     tiny = 1e-300
 
     def s_(m):
