@@ -221,23 +221,22 @@ def coulomb_waves(L: int, eta: np.ndarray, rho: np.ndarray, iterations: int = 40
 def _steed(L: int, eta: np.ndarray, rho: np.ndarray, iterations: int):
     tiny = 1e-300
 
-    def s_(m):
-        return m / rho + eta / m
-
-    f = s_(L + 1.0) + 0.0 * rho
+    inv_rho = 1.0 / rho
+    eta2 = eta * eta
+    f = (L + 1.0) * inv_rho + eta / (L + 1.0) + 0.0 * rho
     c = np.where(f == 0.0, tiny, f)
     d = np.zeros_like(f)
     for n in range(1, iterations):
         m = L + n
-        a = -(1.0 + (eta / m) ** 2)
-        b = s_(m) + s_(m + 1.0)
+        a = -(1.0 + eta2 / (m * m))
+        b = (2.0 * m + 1.0) * inv_rho + eta * (1.0 / m + 1.0 / (m + 1.0))
         d = b + a * d
         d = 1.0 / np.where(d == 0.0, tiny, d)
         c = b + a / c
         c = np.where(c == 0.0, tiny, c)
         step = c * d
-        f = f * step
-        if n > 2 and np.all(np.abs(step - 1.0) < 1e-16):
+        f *= step
+        if n > 2 and n % 8 == 0 and np.all(np.abs(step - 1.0) < 1e-16):
             break
     a0, b0 = 1.0 + L + 1j * eta, -L + 1j * eta
     fr = np.full(rho.shape, tiny, dtype=complex)
@@ -285,16 +284,16 @@ def _reference_phase(L: int, x: np.ndarray, eta: np.ndarray | None) -> np.ndarra
         with np.errstate(all="ignore"):
             inside = np.sqrt(np.maximum(x**2 - nu**2, 0.0)) - nu * np.arccos(np.minimum(nu / x, 1.0))
         return np.where(x > nu, inside + 0.25 * math.pi, 0.0)
-    from scipy.integrate import quad
-
-    out = np.zeros(x.shape)
-    for i, (xx, e) in enumerate(zip(x.flat, np.broadcast_to(eta, x.shape).flat)):
-        turn = e + math.sqrt(e * e + nu * nu)
-        if xx > turn:
-            val, _ = quad(lambda s: math.sqrt(max(1.0 - 2.0 * e / s - nu * nu / (s * s), 0.0)), turn, xx,
-                          limit=200)
-            out.flat[i] = val + 0.25 * math.pi
-    return out
+    # int_turn^x sqrt(1 - 2 eta/s - nu**2/s**2) ds in closed form (the elementary integral of
+    # sqrt(s**2 + b s + c)/s, textbook tables); at eta = 0 it is the free phase above
+    eta = np.broadcast_to(np.asarray(eta, dtype=float), np.shape(x))
+    big_r = np.sqrt(eta**2 + nu**2)
+    turn = eta + big_r
+    with np.errstate(all="ignore"):
+        root = np.sqrt(np.maximum(x * x - 2.0 * eta * x - nu * nu, 0.0))
+        arg = np.clip(-(eta * x + nu * nu) / (x * big_r), -1.0, 1.0)
+        phase = root - eta * np.log((root + x - eta) / big_r) - nu * (np.arcsin(arg) + 0.5 * math.pi)
+    return np.where(x > turn, phase + 0.25 * math.pi, 0.0)
 
 
 def _basis_phase(J: np.ndarray, Y: np.ndarray, reference: np.ndarray) -> np.ndarray:
