@@ -286,7 +286,8 @@ def _unit_name(system: str, unit: str | None) -> str:
 
 def phase_shifts(potential, energies, l=0, *, mass=None, tol: float = 1e-8, hard_core: float | None = None,
                  plugins=None, units: str | None = None, dimension: int = 3,
-                 spin_orbit: bool = False) -> PhaseShiftResult:
+                 spin_orbit: bool = False, workers: int | None = None,
+                 progress: bool | None = False) -> PhaseShiftResult:
     """Phase shifts delta_l(E) at ``energies`` (the unit system's energy unit, each above V(inf)).
 
     Parameters
@@ -305,6 +306,12 @@ def phase_shifts(potential, energies, l=0, *, mass=None, tol: float = 1e-8, hard
         One phase shift per (l, j = l -+ 1/2) with the family's V_so(r) <l.s>.
     units, plugins, dimension
         As for :func:`radsolve.solve` (odd dimensions only).
+    workers : int, optional
+        Worker processes (default 1: this process).  The energies are cut into
+        fixed pieces (:mod:`radsolve.analysis.energy_pieces`) whatever the count,
+        so the rows do not depend on it.
+    progress : bool, optional
+        A progress bar on stderr (None: only when stderr is a terminal).
 
     Returns
     -------
@@ -313,9 +320,11 @@ def phase_shifts(potential, energies, l=0, *, mass=None, tol: float = 1e-8, hard
         regular at the origin; for a Coulomb tail the phase relative to
         Coulomb waves, with ``coulomb_phase`` = arg Gamma(l + 1 + i eta).
     """
-    from radsolve.core.continuum import channel_phases
+    from radsolve.analysis.energy_pieces import pieces, run_pieces, validated_workers
+    from radsolve.core.continuum import channel_phases, joined_pieces
 
     tol = _validated_phase_tol(tol)
+    workers = validated_workers(workers)
     pot, system, mu, kinetic, channels, hard_core = _setup(potential, l, mass, plugins, units, dimension,
                                                           hard_core, bool(spin_orbit))
     v_inf = channels[0][3].v_infinity
@@ -327,8 +336,13 @@ def phase_shifts(potential, energies, l=0, *, mass=None, tol: float = 1e-8, hard
     phase, error, conv, coul = [], [], [], []
     notes: list[Note] = []
     tail_kind = "short"
-    for li, L, cpot, prof in channels:
-        ch = channel_phases(cpot, prof, L, li, kinetic, e - prof.v_infinity, tol, hard_core=hard_core)
+    slices = pieces(e.size)
+    tasks = [(cpot, prof, L, li, kinetic, e[sl] - prof.v_infinity, tol, hard_core)
+             for li, L, cpot, prof in channels for sl in slices]
+    done = run_pieces(channel_phases, tasks, workers, progress, "phase shifts",
+                      [t[5].size for t in tasks])
+    for c, (li, L, cpot, prof) in enumerate(channels):
+        ch = joined_pieces(done[c * len(slices):(c + 1) * len(slices)], slices, e.size)
         phase.append(ch.phase)
         error.append(ch.error)
         conv.append(ch.converged)
@@ -680,25 +694,73 @@ def _radial_derivative(grid, values: np.ndarray) -> np.ndarray:
 
 
 def photoionization(potential, level: str = "1s", photon_energies=None, *, mass=None, tol: float = 1e-8,
-                    plugins=None) -> PhotoionizationResult:
+                    plugins=None, workers: int | None = None, progress: bool | None = False) -> PhotoionizationResult:
     """Photoionization cross sections sigma(omega) of a bound ``level`` at ``photon_energies`` (hartree).
 
     Atomic units only.  Each photon energy must exceed the level's ionization
     energy V(inf) - E_nl.  ``tol`` is the target relative error of the radial
-    integrals.  See :class:`PhotoionizationResult`.
+    integrals.  ``workers`` and ``progress`` as for :func:`phase_shifts`.  See
+    :class:`PhotoionizationResult`.
     """
-    return _photoionization(potential, level, photon_energies, mass=mass, tol=tol, plugins=plugins)
+    return _photoionization(potential, level, photon_energies, mass=mass, tol=tol, plugins=plugins,
+                            workers=workers, progress=progress)
+
+
+class _BoundDipole:
+    """The integrands r u_nl and (d/dr + shift/r) u_nl of the photoionization integrals on a grid.
+
+    A class (not a closure) so that worker processes receive it.  Beyond r_c the
+    level's tail is the decaying solution at E_nl integrated inward (see
+    :func:`photoionization`).
+    """
+
+    def __init__(self, st, r_c, l, kinetic, e_b, bound_pot, bound_prof, shift):
+        self.st, self.r_c, self.l, self.kinetic, self.e_b = st, r_c, l, kinetic, e_b
+        self.bound_pot, self.bound_prof, self.shift = bound_pot, bound_prof, shift
+
+    def bound_on(self, grid):
+        from radsolve.core.grids import potential_on_grid
+
+        u = np.zeros(grid.size)
+        near = grid.r <= self.r_c
+        u[near] = self.st.wavefunction(grid.r[near]).u
+        ic = int(np.count_nonzero(near)) - 1
+        if ic < grid.size - 1:
+            values = potential_on_grid(self.bound_pot, grid.r, ()) - self.bound_prof.v_infinity
+            _, q = grid.liouville_coefficients(values, self.l, self.kinetic)
+            t = grid.step**2 * 2.0 * self.kinetic * (q - (self.e_b - self.bound_prof.v_infinity)
+                                                     * grid.jacobian**2) / 12.0
+            t = np.minimum(t, 0.9)
+            d = 2.0 + 12.0 * t / (1.0 - t)
+            y = np.zeros(grid.size)
+            y[-2] = 1e-300
+            for i in range(grid.size - 2, ic, -1):  # y[i - 1] = d[i] y[i] - y[i + 1]
+                y[i - 1] = d[i] * y[i] - y[i + 1]
+                if abs(y[i - 1]) > 1e250:
+                    y[i - 1:] *= 1e-250
+            tail = np.sqrt(grid.jacobian) * y / (1.0 - t)
+            u[ic:] = tail[ic:] * (u[ic] / tail[ic])
+        return u
+
+    def __call__(self, grid):
+        u = self.bound_on(grid)
+        return np.vstack((grid.r * u, _radial_derivative(grid, u) + self.shift * u / grid.r))
+
+
+def _photo_piece(cpot, prof, L, lf, kinetic, electron, tol, integrand, reach):
+    from radsolve.core.continuum import channel_phases
+
+    return channel_phases(cpot, prof, L, lf, kinetic, electron, tol, integrand=integrand, min_radius=reach)
 
 
 def _photoionization(potential, level, photon_energies, *, mass, tol, plugins, electron_energies=None,
-                     bound_state=None) -> PhotoionizationResult:
+                     bound_state=None, workers=None, progress=False) -> PhotoionizationResult:
     """:func:`photoionization`; with ``electron_energies`` (a function of the ionization energy giving
     photoelectron energies) in place of ``photon_energies``, and ``bound_state`` a State already solved."""
     from scipy.constants import alpha, physical_constants
 
     from radsolve.analysis.observables import state
     from radsolve.analysis.thresholds import parse_level
-    from radsolve.core.continuum import channel_phases
 
     tol = _validated_phase_tol(tol)
     key = parse_level(level, "atomic", parameter="level")
@@ -736,9 +798,11 @@ def _photoionization(potential, level, photon_energies, *, mass, tol, plugins, e
         raise InputError(f"photon_energies must exceed the ionization energy of {level}, {ionization:.10g} "
                          f"hartree (got {float(w.min()):.10g}): below it no electron is freed",
                          parameter="photon_energies")
+    from radsolve.analysis.energy_pieces import pieces, run_pieces, validated_workers
     from radsolve.core import probe as probing
-    from radsolve.core.grids import potential_on_grid
+    from radsolve.core.continuum import joined_pieces
 
+    workers = validated_workers(workers)
     wave = st.wavefunction()
     big = np.abs(wave.u)
     peak = int(np.argmax(big))
@@ -755,41 +819,21 @@ def _photoionization(potential, level, photon_energies, *, mass, tol, plugins, e
     u_rel = float(np.max(wave.u_error[: inside.size])) / u_scale if u_scale > 0 else math.inf
     electron = np.concatenate((w - ionization, [1e-6 * ionization]))  # last: the threshold value
 
-    def bound_on(grid):
-        u = np.zeros(grid.size)
-        near = grid.r <= r_c
-        u[near] = st.wavefunction(grid.r[near]).u
-        ic = int(np.count_nonzero(near)) - 1
-        if ic < grid.size - 1:
-            values = potential_on_grid(bound_pot, grid.r, ()) - bound_prof.v_infinity
-            _, q = grid.liouville_coefficients(values, l, kinetic)
-            t = grid.step**2 * 2.0 * kinetic * (q - (e_b - bound_prof.v_infinity) * grid.jacobian**2) / 12.0
-            t = np.minimum(t, 0.9)
-            d = 2.0 + 12.0 * t / (1.0 - t)
-            y = np.zeros(grid.size)
-            y[-2] = 1e-300
-            for i in range(grid.size - 2, ic, -1):  # y[i - 1] = d[i] y[i] - y[i + 1]
-                y[i - 1] = d[i] * y[i] - y[i + 1]
-                if abs(y[i - 1]) > 1e250:
-                    y[i - 1:] *= 1e-250
-            tail = np.sqrt(grid.jacobian) * y / (1.0 - t)
-            u[ic:] = tail[ic:] * (u[ic] / tail[ic])
-        return u
-
     a0_cm = physical_constants["Bohr radius"][0] * 100.0
     final = [lf for lf in (l - 1, l + 1) if lf >= 0]
     sig, sig_err, sig_v, conv = [], [], [], []
     notes: list[Note] = []
     omega = electron + ionization
+    slices = pieces(electron.size)
+    tasks = []
     for lf in final:
         _, L, cpot, prof = next(c for c in channels if c[0] == lf)
         shift = -(l + 1) if lf == l + 1 else l  # d/dr - (l+1)/r  or  d/dr + l/r
-
-        def integrand(grid, shift=shift):
-            u = bound_on(grid)
-            return np.vstack((grid.r * u, _radial_derivative(grid, u) + shift * u / grid.r))
-
-        ch = channel_phases(cpot, prof, L, lf, kinetic, electron, tol, integrand=integrand, min_radius=reach)
+        integrand = _BoundDipole(st, r_c, l, kinetic, e_b, bound_pot, bound_prof, shift)
+        tasks += [(cpot, prof, L, lf, kinetic, electron[sl], tol, integrand, reach) for sl in slices]
+    done = run_pieces(_photo_piece, tasks, workers, progress, "cross sections", [t[5].size for t in tasks])
+    for i, lf in enumerate(final):
+        ch = joined_pieces(done[i * len(slices):(i + 1) * len(slices)], slices, electron.size)
         length, velocity = ch.integrals
         factor = 4.0 * math.pi**2 * alpha * omega / 3.0 * max(l, lf) / (2 * l + 1) * a0_cm**2
         s_len = factor * length**2
@@ -1019,7 +1063,8 @@ class LogDerivativeResult(ResultProtocol):
 
 
 def log_derivatives(potential, energies, l=0, *, radius: float, reference=None, mass=None, tol: float = 1e-8,
-                    tolerance: float | None = None, plugins=None, units: str | None = None) -> LogDerivativeResult:
+                    tolerance: float | None = None, plugins=None, units: str | None = None,
+                    workers: int | None = None, progress: bool | None = False) -> LogDerivativeResult:
     """L_l(E) = u'(r_c)/u(r_c) of ``potential`` (and of ``reference``, when given) at ``energies``.
 
     Energies are absolute (any finite values: below and above the threshold).
@@ -1027,11 +1072,14 @@ def log_derivatives(potential, energies, l=0, *, radius: float, reference=None, 
     (default 10 ``tol``, relative to max(|L|, 1/r_c)) is the gap between model
     and reference reported as a difference.  Ghost states are found from the
     node counts (see :class:`LogDerivativeResult`), which do not depend on how
-    fine the energy grid is between two energies.
+    fine the energy grid is between two energies.  ``workers`` and ``progress`` as
+    for :func:`phase_shifts`.
     """
+    from radsolve.analysis.energy_pieces import pieces, run_pieces, validated_workers
     from radsolve.core.continuum import log_derivatives as channel_log_derivatives
 
     tol = _validated_phase_tol(tol)
+    workers = validated_workers(workers)
     if not (isinstance(radius, (int, float)) and not isinstance(radius, bool) and math.isfinite(radius) and radius > 0):
         raise InputError(f"radius must be a radius > 0 (got {radius!r})", parameter="radius")
     pot, system, mu, kinetic, channels, _ = _setup(potential, l, mass, plugins, units, 3, None)
@@ -1054,24 +1102,29 @@ def log_derivatives(potential, energies, l=0, *, radius: float, reference=None, 
             raise InputError(f"the reference is in {ref_system.name} units, the model in {system.name}: "
                              "both must use one unit system", parameter="reference")
 
-    def run(chs):
+    slices = pieces(e.size)
+
+    def run(chs, what):
+        tasks = [(cpot, prof, L, kinetic, e[sl] - (0.0 if prof.confining else prof.v_infinity), float(radius), tol)
+                 for li, L, cpot, prof in chs for sl in slices]
+        done = run_pieces(channel_log_derivatives, tasks, workers, progress, what, [t[4].size for t in tasks])
+        per = len(slices)
         vals, errs, nods, convs = [], [], [], []
-        for li, L, cpot, prof in chs:
-            ref_e = 0.0 if prof.confining else prof.v_infinity
-            ld = channel_log_derivatives(cpot, prof, L, kinetic, e - ref_e, float(radius), tol)
-            vals.append(ld.value)
-            errs.append(ld.error)
-            nods.append(ld.nodes)
-            convs.append(ld.converged)
+        for c in range(len(chs)):
+            part = done[c * per:(c + 1) * per]
+            vals.append(np.concatenate([p.value for p in part]))
+            errs.append(np.concatenate([p.error for p in part]))
+            nods.append(np.concatenate([p.nodes for p in part]))
+            convs.append(np.concatenate([p.converged for p in part]))
         return np.array(vals), np.array(errs), np.array(nods), np.array(convs)
 
-    model, model_err, model_nodes, conv = run(channels)
+    model, model_err, model_nodes, conv = run(channels, "log derivatives")
     ref = ref_err = ref_nodes = None
     notes: list[Note] = []
     ghosts = []
     ls = [c[0] for c in channels]
     if ref_channels is not None:
-        ref, ref_err, ref_nodes, ref_conv = run(ref_channels)
+        ref, ref_err, ref_nodes, ref_conv = run(ref_channels, "reference")
         conv = conv & ref_conv
         for i, li in enumerate(ls):
             d = model_nodes[i] - ref_nodes[i]

@@ -117,6 +117,16 @@ def _joined(parts: list, masks: list, size: int) -> ChannelPhases:
                          integrals=merge("integrals"), integral_error=merge("integral_error"))
 
 
+def joined_pieces(parts: list, slices: list, size: int) -> ChannelPhases:
+    """One ChannelPhases from the results of consecutive energy ``slices`` computed apart."""
+    masks = []
+    for sl in slices:
+        m = np.zeros(size, dtype=bool)
+        m[sl] = True
+        masks.append(m)
+    return _joined(parts, masks, size) if len(parts) > 1 else parts[0]
+
+
 def channel_tail(potential, profile, mass: float, k_min: float, k_max: float, tol: float,
                  start: float) -> Tail:
     """The matching rule and radius of one channel; InputError when there is none.
