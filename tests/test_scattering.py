@@ -542,3 +542,68 @@ def test_a_resonance_keeps_the_label_of_the_level_it_was_while_bound():
     bound = radsolve.solve(radsolve.formula_potential("-V0*step(1-r)", V0=10.5), l=2, count=1)
     res = resonances(radsolve.formula_potential("-V0*step(1-r)", V0=9.8), l=2, window=(0.01, 3.0))
     assert bound.levels[0].label == res.resonances[0].label == "3d"
+
+
+def _coulomb_barrier_well():
+    # a square well inside a Coulomb barrier: V = -V0 (r < R), Zc/r (r > R): a quasi-bound p level
+    return radsolve.formula_potential("-V0*step(R-r) + Zc/r*step(r-R)", V0=5.0, R=1.0, Zc=2.0)
+
+
+def test_resonance_behind_a_coulomb_barrier_against_mpmath():
+    mpmath = pytest.importorskip("mpmath")
+    # Independent reference: the Siegert pole of the same potential in closed form, the inside wave
+    # r j_1(K r) matched at R to the outgoing Coulomb wave H+ = G_1 + i F_1 (mpmath's Coulomb functions at
+    # complex eta and rho), the complex root found by mpmath.findroot (textbook matching condition).
+    V0, R, Zc, l = 5.0, 1.0, 2.0, 1
+    with mpmath.workdps(30):
+        def mismatch(E):
+            K, k = mpmath.sqrt(2 * (E + V0)), mpmath.sqrt(2 * E)
+            k = -k if mpmath.im(k) > 0 else k
+
+            def jl(z):
+                return mpmath.sqrt(mpmath.pi / (2 * z)) * mpmath.besselj(l + 0.5, z)
+
+            def H(z):
+                return mpmath.coulombg(l, Zc / k, z) + 1j * mpmath.coulombf(l, Zc / k, z)
+
+            return 1 / R + K * mpmath.diff(jl, K * R) / jl(K * R) - k * mpmath.diff(H, k * R) / H(k * R)
+
+        pole = mpmath.findroot(mismatch, mpmath.mpc(0.6259, -0.0048))
+    e_ref, g_ref = float(pole.real), float(-2 * pole.imag)
+    res = resonances(_coulomb_barrier_well(), l=1, window=(0.3, 1.0), scan_points=200, tol=1e-8)
+    (r,) = res.resonances
+    assert r.agree and res.status == "success"
+    # measured: pole within 2e-10 (E) and 3e-10 (Gamma) of the reference
+    assert abs(r.pole_energy - e_ref) < 1e-8 and abs(r.pole_energy - e_ref) <= 3 * r.pole_error + 1e-12
+    assert abs(r.pole_width - g_ref) < 1e-8
+    assert abs(r.phase_energy - e_ref) <= 3 * r.phase_energy_error + 1e-9
+
+
+def test_levinson_with_a_repulsive_coulomb_tail():
+    mpmath = pytest.importorskip("mpmath")
+    # The phase shift relative to Coulomb waves obeys Levinson's theorem, delta(0+) = N pi (textbook, for
+    # a repulsive Coulomb tail plus a short-range part).  N from an independent count: the zeros in
+    # (-V0, 0) of the Wronskian of sin(K r) with the decaying Whittaker function W_{-nu, 1/2}(2 kappa r),
+    # nu = Zc/kappa, at R (mpmath.whitw; textbook form of the repulsive Coulomb bound-state tail).
+    V0, R, Zc = 5.0, 1.0, 2.0
+
+    def wronskian(E):
+        K, kappa = mpmath.sqrt(2 * (E + V0)), mpmath.sqrt(-2 * E)
+
+        def W(r):
+            return mpmath.whitw(-Zc / kappa, 0.5, 2 * kappa * r)
+
+        return K * mpmath.cos(K * R) * W(R) - mpmath.sin(K * R) * mpmath.diff(W, R)
+
+    energies = np.linspace(-V0 + 1e-3, -1e-3, 200)
+    values = [float(wronskian(e)) for e in energies]
+    n_ref = int(np.count_nonzero(np.diff(np.sign(values)) != 0))
+    assert n_ref == 1
+    res = scattering(_coulomb_barrier_well(), l=[0, 1], tol=1e-8)
+    s, p = res.waves
+    assert s.bound_levels == n_ref and s.levinson == "agrees" and round(s.delta_low / math.pi) == 1
+    assert p.bound_levels == 0 and p.levinson == "agrees"
+    assert s.scattering_length is None and "Coulomb" in s.why_no_range
+    with pytest.raises(InputError) as err:
+        scattering(radsolve.formula_potential("-1/r - exp(-r)"), l=0)
+    assert err.value.parameter == "potential" and "attractive Coulomb" in str(err.value)

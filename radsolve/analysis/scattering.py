@@ -384,8 +384,8 @@ class PartialWaveScattering:
     """
 
     l: int
-    scattering_length: float
-    scattering_length_error: float
+    scattering_length: float | None  # None: a Coulomb tail with l >= 1 (see why_no_range)
+    scattering_length_error: float | None
     effective_range: float | None
     effective_range_error: float | None
     bound_levels: int | None
@@ -475,7 +475,10 @@ class ScatteringResult(ResultProtocol):
             r_text = f"{w.effective_range:>18.12g}" if w.effective_range is not None else f"{'-':>18}"
             re_text = f"{w.effective_range_error:>8.1e}" if w.effective_range_error is not None else f"{'-':>8}"
             bound = "inf" if w.bound_levels is None else str(w.bound_levels)
-            lines.append(f"{w.l:>3}  {w.scattering_length:>18.12g}  {w.scattering_length_error:>8.1e}  {r_text}  "
+            a_text = f"{w.scattering_length:>18.12g}" if w.scattering_length is not None else f"{'-':>18}"
+            ae_text = (f"{w.scattering_length_error:>8.1e}" if w.scattering_length_error is not None
+                       else f"{'-':>8}")
+            lines.append(f"{w.l:>3}  {a_text}  {ae_text}  {r_text}  "
                          f"{re_text}  {bound:>5}  {w.delta_low / math.pi:>11.4f}  {w.levinson}")
         lines += ["", f"status: {self.status}; {self.message}", f"note: {MODEL_NOTE}"]
         return "\n".join(lines) + "\n"
@@ -507,22 +510,28 @@ def scattering(potential, l=0, *, mass=None, tol: float = 1e-8, hard_core: float
         if prof.confining:
             channel_tail(cpot, prof, kinetic, 1.0, 1.0, tol, 1.0)  # raises: no continuum
         tail = prof.tail
-        if tail.kind == "long" and tail.power == 1.0:
-            raise InputError("a Coulomb tail has no scattering length, and binds infinitely many levels "
-                             "(Levinson's theorem does not apply); the Coulomb-modified effective-range "
-                             "expansion is not implemented: use phase_shifts()", parameter="potential")
+        coulomb = tail.kind == "long" and tail.power == 1.0
+        if coulomb and tail.coefficient < 0:
+            raise InputError("an attractive Coulomb tail binds infinitely many levels: Levinson's theorem does "
+                             "not apply and there is no scattering length; use phase_shifts() (a repulsive "
+                             "Coulomb tail is allowed)", parameter="potential")
         q = tail.power if tail.kind == "short" else 2.0
-        if tail.kind in ("inverse_square", "long", "irregular") or q <= 2 * L + 3:
+        if not coulomb and (tail.kind in ("inverse_square", "long", "irregular") or q <= 2 * L + 3):
             raise InputError(f"l = {li}: V - V(inf) falls off like r**-{q:.3g}; a scattering length exists "
                              f"only for tails faster than r**-{2 * L + 3:g} (textbook threshold law)",
                              parameter="l")
-        zero = scattering_length(cpot, prof, L, kinetic, tol, hard_core=hard_core)
-        a_l = zero.length
-        size = max(strength_radius(cpot, prof, kinetic), hard_core or 0.0)
+        # a repulsive Coulomb tail needs the Coulomb-modified expansion (not implemented): Levinson only
+        zero = None if coulomb else scattering_length(cpot, prof, L, kinetic, tol, hard_core=hard_core)
+        a_l = None if zero is None else zero.length
+        size = max(strength_radius(cpot, prof, kinetic, coulomb=tail.coefficient if coulomb else 0.0),
+                   hard_core or 0.0)
         r_l = r_err = None
         why = None
-        ok = zero.error <= tol * abs(a_l)
-        if q <= 2 * L + 5:
+        ok = zero is None or zero.error <= tol * abs(a_l)
+        if zero is None:
+            why = ("repulsive Coulomb tail: a_l and r_l of the Coulomb-modified effective-range expansion are "
+                   "not implemented (Levinson's theorem is checked)")
+        elif q <= 2 * L + 5:
             why = f"the tail r**-{q:.3g} is too long for an effective range (needs faster than r**-{2 * L + 5:g})"
         elif zero.effective_range is not None:
             r_l, r_err = zero.effective_range, zero.effective_range_error
@@ -536,12 +545,16 @@ def scattering(potential, l=0, *, mass=None, tol: float = 1e-8, hard_core: float
                                                f"(estimates {zero.error:.2g}, {r_err if r_err is None else f'{r_err:.2g}'})",
                               f"l={li}"))
         # Levinson: delta(0+) - delta(inf) against the bound count
-        length = max(size, abs(a_l) ** (1.0 / (2 * L + 1)) if math.isfinite(a_l) else size)
+        length = max(size, abs(a_l) ** (1.0 / (2 * L + 1)) if a_l is not None and math.isfinite(a_l) else size)
         k_low = 1e-3 / length
+        if coulomb:
+            # below the barrier the phase relative to Coulomb waves has settled to N pi to within
+            # exp(-2 pi eta) (the barrier's penetrability; textbook): eta = 12 at E_low
+            k_low = kinetic * tail.coefficient / 12.0
         r_in = prof.inner_length if math.isfinite(prof.inner_length) else size
         r_grid = np.geomspace(max(r_in * 1e-3, 1e-12), size * 4.0, 4000)
         with np.errstate(all="ignore"):
-            vv = np.abs(cpot(r_grid) - prof.v_infinity)
+            vv = np.abs(cpot(r_grid) - prof.v_infinity - (tail.coefficient / r_grid if coulomb else 0.0))
         born = 2.0 * kinetic * float(np.trapezoid(vv, r_grid))
         k_high = max(min(20.0 * born, 300.0 / size), 10.0 / size, 4.0 * k_low)
         e_pair = np.array([k_low, k_high]) ** 2 / (2.0 * kinetic)
@@ -565,6 +578,11 @@ def scattering(potential, l=0, *, mass=None, tol: float = 1e-8, hard_core: float
                               f"l = {li}: delta(0) = {d_low / math.pi:.3f} pi is not close to a whole multiple of "
                               f"pi, or delta = {d_high:.3g} at E = {e_pair[1]:.4g} is not small (a level at the "
                               "threshold, or energies not low or high enough)", f"l={li}"))
+        elif coulomb and n_lev > cert.count:
+            verdict = "uncertain"
+            notes.append(Note("levinson_uncertain",
+                              f"l = {li}: delta(0) = {n_lev} pi but {cert.count} bound level(s): with a Coulomb "
+                              f"barrier, a quasi-bound level below E = {e_pair[0]:.4g} also adds pi", f"l={li}"))
         elif n_lev != cert.count:
             verdict = "disagrees"
             notes.append(Note("levinson_failed",
@@ -574,7 +592,8 @@ def scattering(potential, l=0, *, mass=None, tol: float = 1e-8, hard_core: float
         else:
             verdict = "agrees"
         waves.append(PartialWaveScattering(
-            l=li, scattering_length=a_l, scattering_length_error=zero.error, effective_range=r_l,
+            l=li, scattering_length=a_l, scattering_length_error=None if zero is None else zero.error,
+            effective_range=r_l,
             effective_range_error=r_err, bound_levels=cert.count, bound_count_certain=cert.certain,
             delta_low=d_low, energy_low=float(e_pair[0] + prof.v_infinity), delta_high=d_high,
             energy_high=float(e_pair[1] + prof.v_infinity),

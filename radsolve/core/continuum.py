@@ -202,14 +202,18 @@ def _coulomb(L: int, eta: np.ndarray, x: np.ndarray):
     """
     x = np.asarray(x, dtype=float)
     eta = np.broadcast_to(np.asarray(eta, dtype=float), x.shape)
-    F, G, ok = coulomb_waves(L, eta, x)
+    # Steed's first fraction needs about rho terms
+    F, G, ok = coulomb_waves(L, eta, x, iterations=max(4000, int(2.0 * float(np.max(x, initial=0.0))) + 200))
     if not ok.all():
         import mpmath
 
         with mpmath.workdps(20):
             for i in np.nonzero(~ok.ravel())[0]:
-                F.flat[i] = float(mpmath.coulombf(L, eta.flat[i], x.flat[i]))
-                G.flat[i] = float(mpmath.coulombg(L, eta.flat[i], x.flat[i]))
+                try:
+                    F.flat[i] = float(mpmath.coulombf(L, eta.flat[i], x.flat[i], maxterms=10**6))
+                    G.flat[i] = float(mpmath.coulombg(L, eta.flat[i], x.flat[i], maxterms=10**6))
+                except (mpmath.libmp.NoConvergence, ZeroDivisionError, ValueError):
+                    F.flat[i] = G.flat[i] = math.nan  # the phase there is NaN: not converged, said so
     return F, -G
 
 
@@ -754,11 +758,14 @@ def _double_factorial(n: int) -> float:
     return float(math.prod(range(n, 0, -2))) if n > 0 else 1.0
 
 
-def strength_radius(potential, profile, mass: float, level: float = 1e-2) -> float:
-    """The radius beyond which 2 m r**2 |V - V(inf)| stays below ``level``: the size of the potential."""
+def strength_radius(potential, profile, mass: float, level: float = 1e-2, coulomb: float = 0.0) -> float:
+    """The radius beyond which 2 m r**2 |V - V(inf) - coulomb/r| stays below ``level``: the size of the
+    potential (of its short-range part, with a Coulomb tail's coefficient given)."""
     r = probing.PROBE_RADII
     with np.errstate(all="ignore"):
-        s = 2.0 * mass * r**2 * np.abs(probing._raw(potential, r) - profile.v_infinity)
+        rest = np.abs(probing._raw(potential, r) - profile.v_infinity - coulomb / r)
+        rest = np.where(rest <= 1e-9 * abs(coulomb) / r, 0.0, rest)  # the fitted C's last digits
+        s = 2.0 * mass * r**2 * rest
     s = np.where(np.isfinite(s), s, np.inf)
     strong = np.nonzero(s >= level)[0]
     if strong.size == 0:
@@ -961,11 +968,21 @@ def _outgoing(L: int, z):
     return z * (-spherical_yn(L, z) + 1j * spherical_jn(L, z))
 
 
-def siegert_mismatch(grid, values, L: float, mass: float, energy: complex, exponent: float, rows) -> complex:
+def _outgoing_coulomb(L: int, eta: complex, z: complex) -> complex:
+    """H+ = G_L + i F_L at complex eta and rho (mpmath: its hypergeometric forms continue analytically)."""
+    import mpmath
+
+    with mpmath.workdps(20):
+        return complex(mpmath.coulombg(L, eta, z, maxterms=10**6) + 1j * mpmath.coulombf(L, eta, z, maxterms=10**6))
+
+
+def siegert_mismatch(grid, values, L: float, mass: float, energy: complex, exponent: float, rows,
+                     coulomb: float = 0.0) -> complex:
     """Wronskian-type mismatch of u with the outgoing wave at two radii (zero at a resonance pole).
 
     u is integrated outward with Numerov at the complex ``energy`` (measured from
-    V(inf)); the outgoing wave exp(ikr) with Im k < 0 is the Siegert condition.
+    V(inf)); the outgoing wave exp(ikr) with Im k < 0 is the Siegert condition; with
+    a tail ``coulomb``/r the outgoing Coulomb wave H+ = G + i F at eta = m C / k.
     """
     _, q = grid.liouville_coefficients(values, 0, mass, centrifugal=L * (L + 1.0))
     b = grid.jacobian**2
@@ -992,7 +1009,11 @@ def siegert_mismatch(grid, values, L: float, mass: float, energy: complex, expon
     if k.imag > 0:
         k = -k
     Lint = int(round(L))
-    h1, h2 = _outgoing(Lint, k * grid.r[i1]), _outgoing(Lint, k * grid.r[i2])
+    if coulomb:
+        eta = mass * coulomb / k
+        h1, h2 = _outgoing_coulomb(Lint, eta, k * grid.r[i1]), _outgoing_coulomb(Lint, eta, k * grid.r[i2])
+    else:
+        h1, h2 = _outgoing(Lint, k * grid.r[i1]), _outgoing(Lint, k * grid.r[i2])
     return complex((u1 * h2 - u2 * h1) / (abs(u1) * abs(h2) + abs(u2) * abs(h1)))
 
 
@@ -1001,16 +1022,14 @@ def siegert_pole(potential, profile, L: float, mass: float, guess: complex, tol:
     """The complex energy E_r - i Gamma/2 (from V(inf)) of a resonance pole near ``guess``.
 
     Secant iterations on :func:`siegert_mismatch` on halving grids, Richardson
-    over the grids; returns (pole, estimate, grids).  Short-range tails only.
+    over the grids; returns (pole, estimate, grids).  Short-range or Coulomb tails.
     """
     exponent = profile.origin_exponent(L, mass)
     e_max = abs(guess) * 2.0
     r_min = profile.inner_cutoff(L, mass, boundary_share * tol)
     k_scale = math.sqrt(2.0 * mass * abs(guess))
     tail = channel_tail(potential, profile, mass, k_scale, k_scale, tol, r_min)
-    if tail.kind != "short":
-        raise InputError("resonance poles are found for tails faster than 1/r**2 only (outgoing Coulomb "
-                         "waves at complex energy are not implemented)", parameter="potential")
+    coulomb = tail.coefficient if tail.kind == "coulomb" else 0.0
     r_end = END_FACTOR * tail.radius
     anchors = [b for b in profile.breakpoints if r_min < b < r_end]
     span = _span(r_min, r_end, 0.1, anchors)
@@ -1031,14 +1050,14 @@ def siegert_pole(potential, profile, L: float, mass: float, guess: complex, tol:
         values = potential_on_grid(potential, grid.r, span.anchors) - profile.v_infinity
         rows = (ia * 2**g, ib * 2**g)
         e0, e1 = pole, pole * (1.0 + 1e-4) + 1e-6j * abs(pole)
-        f0 = siegert_mismatch(grid, values, L, mass, e0, exponent, rows)
-        f1 = siegert_mismatch(grid, values, L, mass, e1, exponent, rows)
+        f0 = siegert_mismatch(grid, values, L, mass, e0, exponent, rows, coulomb)
+        f1 = siegert_mismatch(grid, values, L, mass, e1, exponent, rows, coulomb)
         for _ in range(60):
             if f1 == f0:
                 break
             e2 = e1 - f1 * (e1 - e0) / (f1 - f0)
             e0, f0 = e1, f1
-            e1, f1 = e2, siegert_mismatch(grid, values, L, mass, e2, exponent, rows)
+            e1, f1 = e2, siegert_mismatch(grid, values, L, mass, e2, exponent, rows, coulomb)
             if abs(e1 - e0) <= 1e-15 * abs(e1):
                 break
         pole = e1
