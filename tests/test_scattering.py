@@ -607,3 +607,21 @@ def test_levinson_with_a_repulsive_coulomb_tail():
     with pytest.raises(InputError) as err:
         scattering(radsolve.formula_potential("-1/r - exp(-r)"), l=0)
     assert err.value.parameter == "potential" and "attractive Coulomb" in str(err.value)
+
+
+def test_deep_square_well_with_twenty_levels():
+    # V0 = 500, R = 2 (K R = 63.2): a_0 = R - tan(K R)/K and a_1, a_2 by matching (textbook formulas); the
+    # s-wave bound count is the number of n with (n - 1/2) pi < K R (textbook), 20.  Levinson must agree
+    # although delta stays ~ 7 rad at the highest energy checked (the eikonal phase of a deep well).
+    V0, R = 500.0, 2.0
+    K = math.sqrt(2 * V0)
+    res = scattering(radsolve.formula_potential("-V0*step(R-r)", V0=V0, R=R), l=[0, 1, 2], tol=1e-8)
+    s = res.waves[0]
+    a0 = R - math.tan(K * R) / K
+    assert abs(s.scattering_length - a0) < 1e-9 * abs(a0)  # measured 6e-11
+    assert s.bound_levels == int(K * R / math.pi + 0.5) == 20
+    for w in res.waves:
+        assert w.levinson == "agrees", (w.l, res.message)
+        if w.l:
+            exact = _square_well_a(w.l, V0, R)
+            assert abs(w.scattering_length - exact) <= max(w.scattering_length_error, 1e-12 * abs(exact))

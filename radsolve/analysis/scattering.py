@@ -554,9 +554,17 @@ def scattering(potential, l=0, *, mass=None, tol: float = 1e-8, hard_core: float
         r_in = prof.inner_length if math.isfinite(prof.inner_length) else size
         r_grid = np.geomspace(max(r_in * 1e-3, 1e-12), size * 4.0, 4000)
         with np.errstate(all="ignore"):
-            vv = np.abs(cpot(r_grid) - prof.v_infinity - (tail.coefficient / r_grid if coulomb else 0.0))
+            v_signed = cpot(r_grid) - prof.v_infinity - (tail.coefficient / r_grid if coulomb else 0.0)
+        vv = np.abs(v_signed)
         born = 2.0 * kinetic * float(np.trapezoid(vv, r_grid))
         k_high = max(min(20.0 * born, 300.0 / size), 10.0 / size, 4.0 * k_low)
+        # at a high energy delta approaches the eikonal phase int (sqrt(k**2 - 2 m V) - k) dr (textbook
+        # semiclassical limit), which a deep well keeps large long after the levels are resolved
+        with np.errstate(all="ignore"):
+            eikonal = float(np.trapezoid(np.sqrt(np.maximum(k_high**2 - 2.0 * kinetic * v_signed, 0.0)) - k_high,
+                                         r_grid))
+        if not math.isfinite(eikonal):
+            eikonal = 0.0
         e_pair = np.array([k_low, k_high]) ** 2 / (2.0 * kinetic)
         ch = channel_phases(cpot, prof, L, li, kinetic, e_pair, 1e-6, hard_core=hard_core)
         d_low, d_high = float(ch.phase[0]), float(ch.phase[1])
@@ -564,7 +572,7 @@ def scattering(potential, l=0, *, mass=None, tol: float = 1e-8, hard_core: float
         with np.errstate(all="ignore"):
             cert = count_bound(cpot, prof, L, kinetic, inner, 1e30)
         # delta(inf) = 0 by construction (the phase is fixed by the zeros of u, see
-        # radsolve.core.continuum); d_high checks that it is small at a high energy
+        # radsolve.core.continuum); d_high checks that it approaches 0 as the eikonal phase does
         n_lev = round(d_low / math.pi)
         applicable = hard_core is None and prof.origin.kind == "regular"
         if not applicable:
@@ -572,12 +580,13 @@ def scattering(potential, l=0, *, mass=None, tol: float = 1e-8, hard_core: float
         elif cert.count is None or not cert.certain:
             verdict = "uncertain"
             notes.append(Note("levinson_uncertain", f"l = {li}: the bound count is uncertain ({cert.note})", f"l={li}"))
-        elif abs(d_low - math.pi * n_lev) > 0.25 or abs(d_high) > 0.5 * math.pi:
+        elif abs(d_low - math.pi * n_lev) > 0.25 or abs(d_high - eikonal) > 0.5 * math.pi:
             verdict = "uncertain"
             notes.append(Note("levinson_uncertain",
                               f"l = {li}: delta(0) = {d_low / math.pi:.3f} pi is not close to a whole multiple of "
-                              f"pi, or delta = {d_high:.3g} at E = {e_pair[1]:.4g} is not small (a level at the "
-                              "threshold, or energies not low or high enough)", f"l={li}"))
+                              f"pi, or delta = {d_high:.3g} at E = {e_pair[1]:.4g} is not near its eikonal value "
+                              f"{eikonal:.3g} (a level at the threshold, or energies not low or high enough)",
+                              f"l={li}"))
         elif coulomb and n_lev > cert.count:
             verdict = "uncertain"
             notes.append(Note("levinson_uncertain",
