@@ -603,7 +603,8 @@ def test_levinson_with_a_repulsive_coulomb_tail():
     s, p = res.waves
     assert s.bound_levels == n_ref and s.levinson == "agrees" and round(s.delta_low / math.pi) == 1
     assert p.bound_levels == 0 and p.levinson == "agrees"
-    assert s.scattering_length is None and "Coulomb" in s.why_no_range
+    # a_B = 0.5 against a range of 1: no expansion at reachable energies, and it says so
+    assert s.scattering_length is None and "too strong" in s.why_no_range
     with pytest.raises(InputError) as err:
         scattering(radsolve.formula_potential("-1/r - exp(-r)"), l=0)
     assert err.value.parameter == "potential" and "attractive Coulomb" in str(err.value)
@@ -625,3 +626,41 @@ def test_deep_square_well_with_twenty_levels():
         if w.l:
             exact = _square_well_a(w.l, V0, R)
             assert abs(w.scattering_length - exact) <= max(w.scattering_length_error, 1e-12 * abs(exact))
+
+
+def test_coulomb_modified_scattering_length_against_mpmath():
+    # K(k**2) = C0**2 k cot(delta) + (2/a_B) h(eta) = -1/a_c + r_c k**2/2 (Bethe 1949; Jackson and Blatt,
+    # Rev. Mod. Phys. 22, 77, 1950).  Reference: a square well inside a weak Coulomb tail (a_B = 20 against
+    # a range of 1, proton-proton-like), tan(delta) by matching sin(K r) to F_0, G_0 at R (mpmath's Coulomb
+    # functions, 40 digits) at k**2 = 1e-6, 2e-6, 3e-6, and the quadratic through K there taken to k = 0.
+    mpmath = pytest.importorskip("mpmath")
+    V0, R, C = 1.0, 1.0, 0.05
+    with mpmath.workdps(40):
+        a_b = 1 / mpmath.mpf(C)
+
+        def big_k(k2):
+            k, K = mpmath.sqrt(k2), mpmath.sqrt(k2 + 2 * V0)
+            eta = 1 / (k * a_b)
+            g = K * mpmath.cot(K * R)
+
+            def F(z):
+                return mpmath.coulombf(0, eta, z)
+
+            def G(z):
+                return mpmath.coulombg(0, eta, z)
+
+            t = -(k * mpmath.diff(F, k * R) - g * F(k * R)) / (k * mpmath.diff(G, k * R) - g * G(k * R))
+            h = mpmath.re(mpmath.digamma(1 + 1j * eta)) - mpmath.log(eta)
+            return 2 * mpmath.pi * eta / mpmath.expm1(2 * mpmath.pi * eta) * k / t + 2 / a_b * h
+
+        ts = [mpmath.mpf("1e-6") * j for j in (1, 2, 3)]
+        c = mpmath.lu_solve(mpmath.matrix([[1, x, x * x] for x in ts]), mpmath.matrix([big_k(x) for x in ts]))
+        a_ref, r_ref = float(-1 / c[0]), float(2 * c[1])
+    pot = radsolve.formula_potential("-V0*step(R-r) + C/r*step(r-R)", V0=V0, R=R, C=C)
+    w = scattering(pot, l=0, tol=1e-8).waves[0]
+    # measured: a_c within 6e-10, r_c within 7e-8 relative; both inside their estimates
+    assert abs(w.scattering_length - a_ref) <= w.scattering_length_error
+    assert abs(w.scattering_length - a_ref) < 1e-8 * abs(a_ref)
+    assert abs(w.effective_range - r_ref) <= w.effective_range_error
+    assert abs(w.effective_range - r_ref) < 1e-6 * abs(r_ref)
+    assert w.levinson == "agrees"

@@ -21,8 +21,11 @@ potential u1 = A1 r**(l+1) + B1 r**(-l) plus the energy derivatives of the free
 solutions, and r_l = (2l+1)!! (2l-1)!! (A1 B - A B1) / (m B**2).  A tail falling as r**-q leaves a_l finite only for q > 2l + 3
 and r_l only for q > 2l + 5 (textbook threshold laws); beyond that they are
 refused with a note.  For a Coulomb tail the phase shift is the one relative
-to Coulomb waves (the Coulomb phase sigma_l is reported beside it) and
-scattering lengths and Levinson's theorem do not apply.
+to Coulomb waves (the Coulomb phase sigma_l is reported beside it).  A
+repulsive one keeps Levinson's theorem, and for l = 0 has the Coulomb-modified
+expansion C0**2 k cot(delta) + (2/a_B) h(eta) = -1/a_c + r_c k**2/2 (reported as
+a_l, r_l; :func:`_coulomb_effective_range`); an attractive one binds infinitely
+many levels and is refused.
 
 Model calculations: phase shifts of a model potential are not measured cross
 sections of a real system; for safety or dosimetry work use established data
@@ -457,7 +460,9 @@ class ScatteringResult(ResultProtocol):
                 "length_unit": length, "energy_unit": _unit_name(self.units, unit), "mass": self.mass,
                 "tol": self.tol, "hard_core": self.hard_core,
                 "convention": "k**(2l+1) cot(delta_l) = -1/a_l + r_l k**2/2; a_l in length**(2l+1), "
-                              "r_l in length**(1-2l)", "note": MODEL_NOTE, "rows": self.records(unit)}
+                              "r_l in length**(1-2l); with a repulsive Coulomb tail (l = 0): C0(eta)**2 k "
+                              "cot(delta) + (2/a_B) h(eta) = -1/a_l + r_l k**2/2, delta relative to Coulomb waves",
+                "note": MODEL_NOTE, "rows": self.records(unit)}
 
     def _header(self):
         return [("potential", self.potential), ("l", [w.l for w in self.waves]), ("tol", self.tol)]
@@ -486,6 +491,69 @@ class ScatteringResult(ResultProtocol):
     def _table_columns(self):
         return ["l", "scattering_length", "scattering_length_error", "effective_range", "effective_range_error",
                 "bound_levels", "levinson_count", "levinson"]
+
+
+@dataclass
+class _CoulombRange:
+    length: float
+    error: float
+    effective_range: float
+    effective_range_error: float
+
+
+#: Coulomb-modified expansion: phases at eta <= this (the barrier leaves delta ~ exp(-2 pi eta): below
+#: that the phase's absolute precision is no relative precision of cot(delta)).
+_COULOMB_ETA_MAX = 1.0
+#: ... up to k times the range of the short-range part.
+_COULOMB_K_RANGE = 0.3
+
+
+def _coulomb_effective_range(cpot, prof, L, li, kinetic, tol, hard_core, size):
+    """a_c and r_c of the Coulomb-modified expansion (l = 0), or a reason why not.
+
+    K(k**2) = C0(eta)**2 k cot(delta) + (2/a_B) h(eta) = -1/a_c + r_c k**2/2 + ..., with
+    C0**2 = 2 pi eta / (exp(2 pi eta) - 1), h(eta) = Re psi(1 + i eta) - ln(eta), eta = 1/(k a_B),
+    a_B = 1/(m C) (Bethe, Phys. Rev. 76, 38, 1949; Jackson and Blatt, Rev. Mod. Phys. 22, 77, 1950),
+    delta the phase relative to Coulomb waves.  K is fitted in k**2 on Chebyshev points of
+    [k_lo**2, k_hi**2], k_lo where eta = 1 (below, delta is too small to give cot(delta)), k_hi =
+    0.3 / range, with degrees 3 and 4 (their difference is the estimate, with the phases' own).
+    Needs a_B well above the range (a proton-proton-like system): returns a reason otherwise.
+    """
+    from scipy.special import psi
+
+    from radsolve.core.continuum import channel_phases
+
+    if li != 0:
+        return "the Coulomb-modified effective-range expansion is implemented for l = 0 only"
+    a_b = 1.0 / (kinetic * prof.tail.coefficient)
+    k_lo = 1.0 / (_COULOMB_ETA_MAX * a_b)
+    k_hi = _COULOMB_K_RANGE / size
+    if not k_lo < k_hi / 3.0:
+        return (f"the Coulomb barrier is too strong for the Coulomb-modified expansion: a_B = {a_b:.3g} is not "
+                f"well above the range {size:.3g} of the short-range part")
+    m = 16
+    x = 0.5 * (1.0 - np.cos(np.pi * (np.arange(m) + 0.5) / m))
+    k2 = k_lo**2 + (k_hi**2 - k_lo**2) * x
+    k = np.sqrt(k2)
+    ch = channel_phases(cpot, prof, L, li, kinetic, k2 / (2.0 * kinetic), min(tol, 1e-11) * 1e-2,
+                        hard_core=hard_core)
+    eta = 1.0 / (k * a_b)
+    c2 = 2.0 * np.pi * eta / np.expm1(2.0 * np.pi * eta)
+    h = np.real(psi(1.0 + 1j * eta)) - np.log(eta)
+    big_k = c2 * k / np.tan(ch.phase) + 2.0 / a_b * h
+    d_k = c2 * k * ch.error / np.sin(ch.phase) ** 2
+    fits = []
+    for degree in (3, 4):
+        V = np.vander(k2 / k_hi**2, degree + 1, increasing=True)
+        pinv = np.linalg.pinv(V)
+        fits.append((pinv @ big_k / k_hi ** (2 * np.arange(degree + 1)), (np.abs(pinv) @ d_k)
+                     / k_hi ** (2 * np.arange(degree + 1))))
+    (c3, _), (c4, s4) = fits
+    if not (np.all(np.isfinite(c4)) and c4[0] != 0):
+        return "the low-energy fit of the Coulomb-modified function failed (a_c near 0 or infinite?)"
+    a_c = -1.0 / c4[0]
+    a_err = (abs(c4[0] - c3[0]) + s4[0]) * a_c**2
+    return _CoulombRange(float(a_c), float(a_err), float(2.0 * c4[1]), float(2.0 * (abs(c4[1] - c3[1]) + s4[1])))
 
 
 def scattering(potential, l=0, *, mass=None, tol: float = 1e-8, hard_core: float | None = None, plugins=None,
@@ -520,17 +588,23 @@ def scattering(potential, l=0, *, mass=None, tol: float = 1e-8, hard_core: float
             raise InputError(f"l = {li}: V - V(inf) falls off like r**-{q:.3g}; a scattering length exists "
                              f"only for tails faster than r**-{2 * L + 3:g} (textbook threshold law)",
                              parameter="l")
-        # a repulsive Coulomb tail needs the Coulomb-modified expansion (not implemented): Levinson only
-        zero = None if coulomb else scattering_length(cpot, prof, L, kinetic, tol, hard_core=hard_core)
-        a_l = None if zero is None else zero.length
         size = max(strength_radius(cpot, prof, kinetic, coulomb=tail.coefficient if coulomb else 0.0),
                    hard_core or 0.0)
-        r_l = r_err = None
         why = None
+        if coulomb:  # the Coulomb-modified expansion (l = 0), fitted
+            zero = _coulomb_effective_range(cpot, prof, L, li, kinetic, tol, hard_core, size)
+            if isinstance(zero, str):
+                why, zero = zero, None
+        else:
+            zero = scattering_length(cpot, prof, L, kinetic, tol, hard_core=hard_core)
+        a_l = None if zero is None else zero.length
+        r_l = r_err = None
         ok = zero is None or zero.error <= tol * abs(a_l)
         if zero is None:
-            why = ("repulsive Coulomb tail: a_l and r_l of the Coulomb-modified effective-range expansion are "
-                   "not implemented (Levinson's theorem is checked)")
+            pass
+        elif coulomb:
+            r_l, r_err = zero.effective_range, zero.effective_range_error
+            ok = ok and r_err <= tol * max(abs(r_l), size)
         elif q <= 2 * L + 5:
             why = f"the tail r**-{q:.3g} is too long for an effective range (needs faster than r**-{2 * L + 5:g})"
         elif zero.effective_range is not None:
