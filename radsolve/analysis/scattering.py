@@ -1033,7 +1033,10 @@ def continuum_strength(potential, level: str = "1s", *, mass=None, tol: float = 
         sl = slice(start, start + m)
         start += m
         dfde = sigma_l[:, sl] * to_f
-        ddfde = sigma_err[:, sl] * to_f
+        # a node whose estimate exceeds its own (positive) value, or is not finite, counts its whole
+        # value as the estimate (far out, where the integrand is small)
+        ddfde = np.where(np.isfinite(sigma_err[:, sl]), np.minimum(sigma_err[:, sl], np.abs(sigma_l[:, sl])),
+                         np.abs(sigma_l[:, sl])) * to_f
         cap = capped[sl]
         ee = e[sl]
         if cap.any():
