@@ -767,9 +767,9 @@ def transitions(potential, nmax: int, *, mass=None, tol: float = 1e-10, method: 
         Levels filled by core electrons, left out (see :func:`transitions_from`).
     equation : str
         Only ``"schrodinger"`` so far (a relativistic one is refused with a message).
-    continuum : bool or sequence of str
-        Also the bound-free oscillator strength of each level (True) or of the
-        levels named (``"1s,2p"`` or a list), and the Thomas-Reiche-Kuhn check
+    continuum : bool, "all" or sequence of str
+        Also the bound-free oscillator strength of each level (True or ``"all"``) or
+        of the levels named (``"1s,2p"`` or a list), and the Thomas-Reiche-Kuhn check
         (``sum_rules``; see :func:`sum_rules`).  Atomic units; seconds per level.
 
     Returns
@@ -786,9 +786,11 @@ def transitions(potential, nmax: int, *, mass=None, tol: float = 1e-10, method: 
     nmax = _check_nmax(nmax)
     _check_dipole_charge(dipole_charge)  # before anything is solved
     _occupied_labels(occupied)
+    if isinstance(continuum, str) and continuum.strip().lower() == "all":
+        continuum = True
     wanted = None if continuum is True or continuum is False or continuum is None else _labels(continuum, "continuum")
     if wanted is not None and not wanted:
-        raise InputError("continuum: name at least one level (e.g. '1s'), or pass True for every level",
+        raise InputError("continuum: name at least one level (e.g. '1s'), or 'all' for every level",
                          parameter="continuum")
     count = nmax
     for attempt in range(3):

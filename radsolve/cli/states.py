@@ -173,7 +173,7 @@ def transitions_command(
         pot = potential(name, plugins=plugin_dirs(plugins), **params)
         tr = solver_call(pot, transitions, pot, nmax, mass=mass, tol=tol, method=method,
                           dipole_charge=dipole_charge, occupied=occupied or (), equation=equation,
-                          continuum=True if sum_rule == "all" else (sum_rule or False))
+                          continuum=sum_rule or False)
         from radsolve.output.report import render
 
         text = render(tr, unit, fmt.value)
