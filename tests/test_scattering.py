@@ -664,3 +664,35 @@ def test_coulomb_modified_scattering_length_against_mpmath():
     assert abs(w.effective_range - r_ref) <= w.effective_range_error
     assert abs(w.effective_range - r_ref) < 1e-6 * abs(r_ref)
     assert w.levinson == "agrees"
+
+
+def test_kink_of_the_potential_against_an_independent_ode_solution():
+    # V = -V0 (1 - r/R) inside R, 0 outside: continuous, with a kink at R (the step correction's F' term).
+    # Reference: u integrated to R by mpmath.odefun (Taylor series, 30 digits) from u = r**(l+1), matched
+    # to the Riccati-Bessel functions (mpmath) at R: tan(delta) = (k J' - g J)/(k Y' - g Y), g = u'/u
+    # (textbook matching) -- no code shared with radsolve.
+    mpmath = pytest.importorskip("mpmath")
+    V0, R = 3.0, 2.0
+    energies = np.array([0.3, 4.0])
+    res = phase_shifts(radsolve.formula_potential("-V0*(1-r/R)*step(R-r)", V0=V0, R=R), energies, l=[0, 1],
+                       tol=1e-11)
+    with mpmath.workdps(30):
+        for i, l in enumerate([0, 1]):
+            for j, e in enumerate(energies):
+                def rhs(r, y, l=l, e=e):
+                    return [y[1], (l * (l + 1) / r**2 + 2 * (-V0 * (1 - r / R) - e)) * y[0]]
+
+                r0 = mpmath.mpf("1e-6")
+                u, du = mpmath.odefun(rhs, r0, [r0 ** (l + 1), (l + 1) * r0**l])(R)
+                k, g = mpmath.sqrt(2 * e), du / u
+
+                def J(z, l=l):
+                    return z * mpmath.sqrt(mpmath.pi / (2 * z)) * mpmath.besselj(l + 0.5, z)
+
+                def Y(z, l=l):
+                    return z * mpmath.sqrt(mpmath.pi / (2 * z)) * mpmath.bessely(l + 0.5, z)
+
+                t = (k * mpmath.diff(J, k * R) - g * J(k * R)) / (k * mpmath.diff(Y, k * R) - g * Y(k * R))
+                gap = _mod_pi(res.phase[i, j] - float(mpmath.atan(t)))
+                # measured: within 1.2e-12
+                assert abs(gap) < 1e-10 and abs(gap) <= res.error[i, j] + 1e-12, (l, e, gap)
