@@ -963,7 +963,7 @@ def _photoionization(potential, level, photon_energies, *, mass, tol, plugins, e
 
 
 #: Gauss-Legendre orders of the two rules of :func:`continuum_strength` (their difference is the estimate).
-STRENGTH_RULES = (40, 56)
+STRENGTH_RULES = (56, 80)
 #: Photoelectron energies above this many ionization energies are not computed: a power law fitted
 #: below carries the integrand there (a share of order CAP**-(5/2) of the whole for an s level).
 STRENGTH_CAP = 2000.0
