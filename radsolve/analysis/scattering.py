@@ -290,7 +290,7 @@ def _unit_name(system: str, unit: str | None) -> str:
 def phase_shifts(potential, energies, l=0, *, mass=None, tol: float = 1e-8, hard_core: float | None = None,
                  plugins=None, units: str | None = None, dimension: int = 3,
                  spin_orbit: bool = False, workers: int | None = None,
-                 progress: bool | None = False) -> PhaseShiftResult:
+                 progress: bool | None = None) -> PhaseShiftResult:
     """Phase shifts delta_l(E) at ``energies`` (the unit system's energy unit, each above V(inf)).
 
     Parameters
@@ -796,7 +796,7 @@ def _radial_derivative(grid, values: np.ndarray) -> np.ndarray:
 
 
 def photoionization(potential, level: str = "1s", photon_energies=None, *, mass=None, tol: float = 1e-8,
-                    plugins=None, workers: int | None = None, progress: bool | None = False) -> PhotoionizationResult:
+                    plugins=None, workers: int | None = None, progress: bool | None = None) -> PhotoionizationResult:
     """Photoionization cross sections sigma(omega) of a bound ``level`` at ``photon_energies`` (hartree).
 
     Atomic units only.  Each photon energy must exceed the level's ionization
@@ -1169,7 +1169,7 @@ class LogDerivativeResult(ResultProtocol):
 
 def log_derivatives(potential, energies, l=0, *, radius: float, reference=None, mass=None, tol: float = 1e-8,
                     tolerance: float | None = None, plugins=None, units: str | None = None,
-                    workers: int | None = None, progress: bool | None = False) -> LogDerivativeResult:
+                    workers: int | None = None, progress: bool | None = None) -> LogDerivativeResult:
     """L_l(E) = u'(r_c)/u(r_c) of ``potential`` (and of ``reference``, when given) at ``energies``.
 
     Energies are absolute (any finite values: below and above the threshold).

@@ -973,7 +973,10 @@ def _outgoing_coulomb(L: int, eta: complex, z: complex) -> complex:
     import mpmath
 
     with mpmath.workdps(20):
-        return complex(mpmath.coulombg(L, eta, z, maxterms=10**6) + 1j * mpmath.coulombf(L, eta, z, maxterms=10**6))
+        try:
+            return complex(mpmath.coulombg(L, eta, z, maxterms=10**6) + 1j * mpmath.coulombf(L, eta, z, maxterms=10**6))
+        except (mpmath.libmp.NoConvergence, ZeroDivisionError, ValueError):
+            return complex(math.nan, math.nan)  # the pole is then NaN: the methods "disagree", said so
 
 
 def siegert_mismatch(grid, values, L: float, mass: float, energy: complex, exponent: float, rows,
