@@ -660,11 +660,13 @@ def channel_phases(potential, profile, L: float, l: int, mass: float, energies: 
         phase = np.full(energies.size, np.nan)  # not even the coarsest grid fits: reported unconverged
         notes.append(f"energies up to {e_max:.4g} need more than {MAX_POINTS} grid points: not computed")
     elif len(history) < 3:
-        notes.append(f"only {len(history)} grid(s) fit in {MAX_POINTS} points for energies up to {e_max:.4g}: "
-                     "no error estimate")
-    elif grids_used < 3:
-        # too few grids for an estimate: keep the finest value, flagged
+        # too few grids for Richardson: the finest value, and as its estimate the whole change from the
+        # grid before (Numerov's h**4 makes that about 15 times the finest grid's own error), or none
         phase = history[-1][0]
+        grid_error = np.abs(history[-1][0] - history[-2][0]) if len(history) == 2 else np.full(energies.size, np.inf)
+        radius_error = np.abs(history[-1][0] - history[-1][1])
+        notes.append(f"only {len(history)} grid(s) fit in {MAX_POINTS} points for energies up to {e_max:.4g}: "
+                     + ("the estimate is the change between them" if len(history) == 2 else "no error estimate"))
     error = grid_error + radius_error
     converged = error <= tol
     if integrand is not None:
