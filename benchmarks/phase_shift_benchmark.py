@@ -2,7 +2,8 @@
 
 - phase shifts delta_0 ... delta_5 of a Yukawa potential on 1000 energies at tol 1e-8 (goal <= 1 s);
 - photoionization from hydrogen 1s on 500 photon energies at tol 1e-8 (goal <= 1 s), with the
-  largest deviation from the closed form (Bethe and Salpeter 1957, sec. 71; from memory).
+  largest deviation from the closed form (Bethe and Salpeter 1957, sec. 71; from memory);
+- the continuum oscillator strength of hydrogen 1s (no goal yet), against 1 - sum of the bound f.
 
 Run: python benchmarks/phase_shift_benchmark.py
 """
@@ -45,6 +46,21 @@ def main() -> None:
     print(f"photoionization of hydrogen 1s on {photons.size} photon energies, tol 1e-8: {elapsed:.2f} s "
           f"(goal <= 1 s), status {ion.status}; largest |sigma/exact - 1|: length {np.max(np.abs(ion.sigma / exact - 1)):.1e}, "
           f"velocity {np.max(np.abs(ion.sigma_velocity / exact - 1)):.1e}; threshold {ion.threshold_cross_section:.5e} cm^2")
+
+    # bound-free oscillator strength of hydrogen 1s: 1 minus the bound series sum_n f(1s -> np), the
+    # closed form f = 2**8 n**5 (n - 1)**(2n - 4) / (3 (n + 1)**(2n + 4)) (textbook) summed by mpmath
+    import mpmath
+
+    from radsolve.analysis.scattering import continuum_strength
+
+    with mpmath.workdps(30):
+        bound = float(mpmath.nsum(lambda n: mpmath.mpf(2) ** 8 * n**5 * (n - 1) ** (2 * n - 4)
+                                  / (3 * (n + 1) ** (2 * n + 4)), [2, mpmath.inf]))
+    start = time.perf_counter()
+    cs = continuum_strength("coulomb", "1s", tol=1e-8)
+    elapsed = time.perf_counter() - start
+    print(f"continuum oscillator strength of hydrogen 1s, tol 1e-8: {elapsed:.2f} s; {cs.value:.12f} against "
+          f"{1.0 - bound:.12f} (difference {cs.value - (1.0 - bound):.1e}, estimate {cs.error:.1e})")
 
 
 if __name__ == "__main__":

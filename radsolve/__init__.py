@@ -65,6 +65,7 @@ _EXPORTS = {
     "scattering": ("radsolve.analysis.scattering", "scattering"),
     "energy_grid": ("radsolve.analysis.scattering", "energy_grid"),
     "photoionization": ("radsolve.analysis.scattering", "photoionization"),
+    "continuum_strength": ("radsolve.analysis.scattering", "continuum_strength"),
     "log_derivatives": ("radsolve.analysis.scattering", "log_derivatives"),
     "resonances": ("radsolve.analysis.scattering", "resonances"),
     "scattering_sweep": ("radsolve.analysis.scattering", "scattering_sweep"),

@@ -220,3 +220,41 @@ def test_sodium_resonance_line_with_an_occupied_core():
     assert tr.occupied == ["1s", "2s", "2p"] and "occupied" in tr.message
     with pytest.raises(InputError, match="no computed level '2x'"):
         transitions(pot, 3, occupied=["1s", "2x"])
+
+
+def test_hydrogen_1s_oscillator_strengths_sum_to_one_with_the_continuum():
+    # Thomas-Reiche-Kuhn: the f of one electron sum to 1 (textbook).  Bound part of 1s: the closed form
+    # f(1s -> np) = 2**8 n**5 (n - 1)**(2n - 4) / (3 (n + 1)**(2n + 4)) (textbook formula, e.g. Bethe and
+    # Salpeter 1957, sec. 63) summed by mpmath, 0.5650 (textbook value, from memory); the continuum then
+    # holds 1 - 0.5650 = 0.4350.
+    with mpmath.workdps(30):
+        bound = float(mpmath.nsum(lambda n: mpmath.mpf(2) ** 8 * n**5 * (n - 1) ** (2 * n - 4)
+                                  / (3 * (n + 1) ** (2 * n + 4)), [2, mpmath.inf]))
+    assert bound == pytest.approx(0.5650, abs=5e-5)
+    tr = transitions("coulomb", 8, tol=1e-10, continuum="1s")
+    (rule,) = tr.sum_rules
+    assert rule["level"] == "1s" and rule["complete"] and rule["converged"]
+    assert rule["expected"] == 1.0
+    # measured: sum 1 - 1.4e-8, estimate 3e-7
+    assert abs(rule["total"] - 1.0) < 1e-6
+    assert abs(rule["total"] - 1.0) <= rule["total_error"]
+    assert abs(rule["bound"] + rule["rydberg_tail"] - bound) < 1e-6
+    assert abs(rule["continuum"] - (1.0 - bound)) < 1e-8
+    assert tr.to_dict()["sum_rules"][0]["level"] == "1s"
+
+
+def test_short_range_well_sum_rule_with_reduced_mass_and_dipole_charge():
+    # A Gaussian well binds finitely many levels: bound partners plus the continuum must give
+    # dipole_charge**2 m_e / mu (Thomas-Reiche-Kuhn for the relative coordinate; textbook), with
+    # emission strengths counted negative for the excited levels.
+    pot = radsolve.formula_potential("-V0*exp(-(r/b)**2)", V0=3.0, b=2.0)
+    tr = transitions(pot, 4, tol=1e-10, mass=2.0, dipole_charge=1.5, continuum="1s,3d")
+    for rule in tr.sum_rules:
+        assert rule["complete"], rule
+        assert rule["expected"] == pytest.approx(1.5**2 / 2.0, rel=1e-15)
+        # measured within 1e-9 of 1.125
+        assert abs(rule["total"] - rule["expected"]) < 1e-7
+    assert [r["level"] for r in tr.sum_rules] == ["1s", "3d"]
+    with pytest.raises(InputError) as err:
+        transitions(pot, 3, tol=1e-8, continuum="7q")
+    assert err.value.parameter == "continuum"

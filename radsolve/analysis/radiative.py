@@ -248,6 +248,8 @@ class TransitionResult(ResultProtocol):
     notes: tuple[Note, ...] = ()
     occupied: list[str] = field(default_factory=list)
     equation: str = "schrodinger"
+    #: With ``transitions(continuum=True)``: one :func:`sum_rules` record per level.
+    sum_rules: list[dict] = field(default_factory=list)
 
     @property
     def short_note(self) -> str:
@@ -371,6 +373,7 @@ class TransitionResult(ResultProtocol):
             "note": MODEL_NOTE if self.equation != "dirac" else DIRAC_MODEL_NOTE,
             "lines": [x.to_dict(factor) for x in self.lines],
             "states": [s.to_dict(factor) for s in self.states],
+            **({"sum_rules": [dict(r) for r in self.sum_rules]} if self.sum_rules else {}),
         }
 
 
@@ -462,15 +465,20 @@ def _degenerate(a, b) -> bool:
 
 
 def _occupied_labels(occupied) -> list[str]:
-    if occupied is None:
+    return _labels(occupied, "occupied")
+
+
+def _labels(value, parameter: str) -> list[str]:
+    """Level labels from ``"1s,2p"`` or a sequence of strings."""
+    if value is None:
         return []
-    if isinstance(occupied, str):
-        occupied = [part for part in occupied.replace(" ", ",").split(",") if part]
+    if isinstance(value, str):
+        value = [part for part in value.replace(" ", ",").split(",") if part]
     labels = []
-    for item in occupied:
+    for item in value:
         if not isinstance(item, str) or not item.strip():
-            raise InputError(f"occupied must be level labels such as '1s', got {item!r}",
-                             parameter="occupied")
+            raise InputError(f"{parameter} must be level labels such as '1s', got {item!r}",
+                             parameter=parameter)
         labels.append(item.strip())
     return labels
 
@@ -652,9 +660,118 @@ def transitions_from(result, nmax: int | None = None, *, dipole_charge: float = 
                             notes=tuple(notes), occupied=filled)
 
 
+def _rydberg_tail(points: list[tuple[float, float]]) -> tuple[float, float]:
+    """Sum of f over the levels above the computed ones of a Coulomb series, and its estimate.
+
+    ``points`` are (nu, f) of the highest computed levels, nu the effective quantum
+    number.  f nu**3 tends to a constant with corrections in 1/nu**2 (the Rydberg
+    series' oscillator strengths; textbook), and the levels beyond lie at nu + 1,
+    nu + 2, ...: the tail is c0 zeta(3, nu + 1) + c1 zeta(5, nu + 1) + ...
+    (Hurwitz zeta, scipy.special).  Fits through the last four and the last three
+    levels (or three and two); their difference is the estimate.
+    """
+    from scipy.special import zeta
+
+    pts = sorted(points)[-4:]
+    nu_top = pts[-1][0]
+    sums = []
+    for m in (len(pts), len(pts) - 1):
+        use = pts[-m:]
+        a = np.array([[nu ** (-2 * j) for j in range(m)] for nu, _ in use])
+        c = np.linalg.solve(a, np.array([f * nu**3 for nu, f in use]))
+        sums.append(float(sum(cj * zeta(3 + 2 * j, nu_top + 1.0) for j, cj in enumerate(c))))
+    return sums[0], abs(sums[0] - sums[1])
+
+
+def sum_rules(tr: TransitionResult, tol: float = 1e-8, levels=None) -> list[dict]:
+    """Bound and bound-free oscillator strengths of each level against the Thomas-Reiche-Kuhn sum.
+
+    For a level i: the bound part sum_j f(i -> j) over the computed E1 partners
+    (absorption positive, emission f = -(g_j/g_i) f(j -> i) negative), plus for a
+    Coulomb tail the Rydberg series beyond the computed levels (:func:`_rydberg_tail`),
+    plus the continuum integral of df/dE
+    (:func:`radsolve.analysis.scattering.continuum_strength`).  The total is
+    dipole_charge**2 m_e/mu for one electron (Thomas-Reiche-Kuhn; textbook).  A level
+    whose partner channels were not all computed, or whose channel binds levels that
+    were not, is marked ``complete: false`` and its continuum is not computed (null).
+    ``levels``: labels to check (default every level of ``tr``).
+    """
+    from radsolve.analysis.observables import State
+    from radsolve.analysis.scattering import continuum_strength
+    from radsolve.core import probe
+
+    res = tr.result
+    q2 = tr.dipole_charge**2
+    by_label = {lev.label: lev for lev in res.levels}
+    out = []
+    wanted = None if levels is None else set(levels)
+    for st in tr.states:
+        if wanted is not None and st.label not in wanted:
+            continue
+        lev = by_label[st.label]
+        prof = probe.profile(channel_potential(res.potential, lev), res.mass)
+        record: dict[str, Any] = {"level": st.label, "expected": q2 / res.mass}
+        why = []
+        bound = 0.0
+        bound_err = 0.0
+        ups: dict[int, list] = {}
+        for x in tr.lines:
+            if x.lower == st.label:
+                bound += x.oscillator_strength
+                bound_err += x.oscillator_strength_error
+                ups.setdefault(by_label[x.upper].l, []).append((by_label[x.upper], x.oscillator_strength))
+            elif x.upper == st.label:
+                g = (2 * by_label[x.lower].l + 1) / (2 * lev.l + 1)
+                bound -= g * x.oscillator_strength
+                bound_err += g * x.oscillator_strength_error
+        tail = tail_err = 0.0
+        coulomb = prof.tail.kind == "long" and prof.tail.power == 1.0 and prof.tail.coefficient < 0
+        left_out = [x for x in tr.occupied if x in by_label and abs(by_label[x].l - lev.l) == 1]
+        if left_out:
+            why.append("E1 partners treated as occupied are left out (" + ", ".join(left_out)
+                       + "): the sum rule counts every level of the model")
+        for lf in (lev.l - 1, lev.l + 1):
+            if lf < 0:
+                continue
+            if lf not in res.bound_counts:
+                why.append(f"l = {lf} was not computed")
+                continue
+            reached = ups.get(lf, [])
+            if coulomb:
+                if len(reached) < 3:
+                    why.append(f"fewer than three levels of l = {lf} above {st.label} to continue the Rydberg "
+                               "series (use a larger nmax)")
+                    continue
+                pts = [(-prof.tail.coefficient * math.sqrt(res.mass / (2.0 * (prof.v_infinity - other.energy))), f)
+                       for other, f in reached]
+                t, e = _rydberg_tail(pts)
+                tail += t
+                tail_err += e
+                continue
+            cert = res.certificates.get(lf)
+            above = [x for x in res.levels if x.l == lf and x.energy > lev.energy]
+            if cert is None or cert.count is None or not cert.certain:
+                why.append(f"the number of bound levels of l = {lf} is uncertain")
+            elif cert.count > len([x for x in res.levels if x.l == lf]) or len(reached) < len(above):
+                why.append(f"l = {lf} binds levels that were not computed or reached (use a larger nmax)")
+        record.update(bound=bound, bound_error=bound_err, rydberg_tail=tail, rydberg_tail_error=tail_err,
+                      continuum=None, continuum_error=None, continuum_by_l=None, total=None, total_error=None,
+                      complete=not why, converged=False, why=("; ".join(why) or None))
+        if not why:  # the continuum is the costly part: only where the sum can be checked
+            cs = continuum_strength(res.potential, st.label, mass=res.mass, tol=tol,
+                                    bound_state=State.from_result(res, st.label))
+            continuum = q2 * cs.value
+            record.update(continuum=continuum, continuum_error=q2 * cs.error,
+                          continuum_by_l={str(k): q2 * v for k, v in cs.by_l.items()},
+                          total=bound + tail + continuum, total_error=bound_err + tail_err + q2 * cs.error,
+                          converged=cs.converged and bound_err + tail_err <= max(10.0 * tol, 1e-6))
+        out.append(record)
+    return out
+
+
 def transitions(potential, nmax: int, *, mass=None, tol: float = 1e-10, method: str = "fd",
                 plugins=None, dipole_charge: float = 1.0, occupied=(),
-                equation: str = "schrodinger") -> TransitionResult:
+                equation: str = "schrodinger", continuum: bool = False) -> TransitionResult:
     """Every E1 line, lifetime and branching ratio among the bound levels with n <= nmax.
 
     One :func:`radsolve.solve` call computes l = 0 ... nmax-1 with nmax
@@ -683,6 +800,10 @@ def transitions(potential, nmax: int, *, mass=None, tol: float = 1e-10, method: 
         ``"schrodinger"`` (default) or ``"dirac"``: levels (n, l, j) with g = 2j + 1, radial integrals
         of G G + F F in the long-wavelength length form (see
         :func:`radsolve.analysis.relativistic.dirac_transitions_from`).  ``"klein-gordon"`` is refused.
+    continuum : bool, "all" or sequence of str
+        Also the bound-free oscillator strength of each level (True or ``"all"``) or
+        of the levels named (``"1s,2p"`` or a list), and the Thomas-Reiche-Kuhn check
+        (``sum_rules``; see :func:`sum_rules`).  Schrodinger levels in atomic units; seconds per level.
 
     Returns
     -------
@@ -698,13 +819,48 @@ def transitions(potential, nmax: int, *, mass=None, tol: float = 1e-10, method: 
     nmax = _check_nmax(nmax)
     _check_dipole_charge(dipole_charge)  # before anything is solved
     _occupied_labels(occupied)
+    if isinstance(continuum, str) and continuum.strip().lower() == "all":
+        continuum = True
+    wanted = None if continuum is True or continuum is False or continuum is None else _labels(continuum, "continuum")
+    if wanted is not None and not wanted:
+        raise InputError("continuum: name at least one level (e.g. '1s'), or 'all' for every level",
+                         parameter="continuum")
+    if (continuum is True or wanted) and equation != SCHRODINGER:
+        raise InputError(f"continuum (the bound-free strength and the sum rule) is implemented for "
+                         f"Schrodinger levels only, not {equation}; leave it out or use "
+                         "equation='schrodinger'", parameter="continuum")
     count = nmax
     for attempt in range(3):
         result = solve(potential, l=list(range(nmax)), count=count, mass=mass, tol=tol,
                        method=method, plugins=plugins, equation=equation)
         found = transitions_from(result, nmax, dipole_charge=dipole_charge, occupied=occupied)
         if all(s.complete for s in found.states) or attempt == 2:
-            return found
+            break
         # the next levels of the l-1 channels are what a lifetime may miss
         count += 2
+    if continuum is True or wanted:
+        _add_sum_rules(found, tol, wanted)
     return found
+
+
+def _add_sum_rules(found: TransitionResult, tol: float, levels) -> None:
+    """``found.sum_rules``, and their verdict in its notes and status."""
+    known = {s.label for s in found.states}
+    unknown = [x for x in (levels or ()) if x not in known]
+    if unknown:
+        raise InputError(f"continuum: no computed level {unknown[0]!r}; levels: " + ", ".join(sorted(known)),
+                         parameter="continuum")
+    found.sum_rules = sum_rules(found, tol=min(max(100.0 * tol, 1e-10), 1e-6), levels=levels)
+    off = [r["level"] for r in found.sum_rules
+           if r["total"] is not None and abs(r["total"] - r["expected"]) > 10.0 * r["total_error"] + 1e-9]
+    bad = [r["level"] for r in found.sum_rules if not (r["complete"] and r["converged"])]
+    notes = list(found.notes)
+    if off:
+        notes.append(Note("sum_rule_fails", "the oscillator strengths of " + ", ".join(off) + " miss the "
+                          "Thomas-Reiche-Kuhn sum beyond their estimates (a non-local potential, or levels not "
+                          "resolved)"))
+        found.status = worst([found.status, Outcome.FAILED])
+    if bad:
+        notes.append(Note("sum_rule_incomplete", "sum rule incomplete or not converged for " + ", ".join(bad)))
+        found.status = worst([found.status, Outcome.INCOMPLETE])
+    found.notes = tuple(notes)

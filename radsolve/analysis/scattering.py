@@ -15,14 +15,17 @@ failure, never averaged away.
 
 a_l comes from the zero-energy solution u0 = A r**(l+1) + B r**(-l) beyond
 the potential: a_l = -B / (A (2l+1)!! (2l-1)!!) (textbook), computed on
-halving grids (Richardson) and two radii.  r_l is read from a polynomial fit
-in k**2 of k**(2l+1) cot(delta_l) at low energies; its estimate is the
-spread of two fits of different degree plus the effect of the phases'
-own errors.  A tail falling as r**-q leaves a_l finite only for q > 2l + 3
+halving grids (Richardson) and two radii.  r_l comes from the energy
+derivative u1 = du/dE of the same solution (integrated beside it): beyond the
+potential u1 = A1 r**(l+1) + B1 r**(-l) plus the energy derivatives of the free
+solutions, and r_l = (2l+1)!! (2l-1)!! (A1 B - A B1) / (m B**2).  A tail falling as r**-q leaves a_l finite only for q > 2l + 3
 and r_l only for q > 2l + 5 (textbook threshold laws); beyond that they are
 refused with a note.  For a Coulomb tail the phase shift is the one relative
-to Coulomb waves (the Coulomb phase sigma_l is reported beside it) and
-scattering lengths and Levinson's theorem do not apply.
+to Coulomb waves (the Coulomb phase sigma_l is reported beside it).  A
+repulsive one keeps Levinson's theorem, and for l = 0 has the Coulomb-modified
+expansion C0**2 k cot(delta) + (2/a_B) h(eta) = -1/a_c + r_c k**2/2 (reported as
+a_l, r_l; :func:`_coulomb_effective_range`); an attractive one binds infinitely
+many levels and is refused.
 
 Model calculations: phase shifts of a model potential are not measured cross
 sections of a real system; for safety or dosimetry work use established data
@@ -286,7 +289,8 @@ def _unit_name(system: str, unit: str | None) -> str:
 
 def phase_shifts(potential, energies, l=0, *, mass=None, tol: float = 1e-8, hard_core: float | None = None,
                  plugins=None, units: str | None = None, dimension: int = 3,
-                 spin_orbit: bool = False) -> PhaseShiftResult:
+                 spin_orbit: bool = False, workers: int | None = None,
+                 progress: bool | None = None) -> PhaseShiftResult:
     """Phase shifts delta_l(E) at ``energies`` (the unit system's energy unit, each above V(inf)).
 
     Parameters
@@ -305,6 +309,12 @@ def phase_shifts(potential, energies, l=0, *, mass=None, tol: float = 1e-8, hard
         One phase shift per (l, j = l -+ 1/2) with the family's V_so(r) <l.s>.
     units, plugins, dimension
         As for :func:`radsolve.solve` (odd dimensions only).
+    workers : int, optional
+        Worker processes (default 1: this process).  The energies are cut into
+        fixed pieces (:mod:`radsolve.analysis.energy_pieces`) whatever the count,
+        so the rows do not depend on it.
+    progress : bool, optional
+        A progress bar on stderr (None: only when stderr is a terminal).
 
     Returns
     -------
@@ -313,9 +323,11 @@ def phase_shifts(potential, energies, l=0, *, mass=None, tol: float = 1e-8, hard
         regular at the origin; for a Coulomb tail the phase relative to
         Coulomb waves, with ``coulomb_phase`` = arg Gamma(l + 1 + i eta).
     """
-    from radsolve.core.continuum import channel_phases
+    from radsolve.analysis.energy_pieces import pieces, run_pieces, validated_workers
+    from radsolve.core.continuum import channel_phases, joined_pieces
 
     tol = _validated_phase_tol(tol)
+    workers = validated_workers(workers)
     pot, system, mu, kinetic, channels, hard_core = _setup(potential, l, mass, plugins, units, dimension,
                                                           hard_core, bool(spin_orbit))
     v_inf = channels[0][3].v_infinity
@@ -327,8 +339,13 @@ def phase_shifts(potential, energies, l=0, *, mass=None, tol: float = 1e-8, hard
     phase, error, conv, coul = [], [], [], []
     notes: list[Note] = []
     tail_kind = "short"
-    for li, L, cpot, prof in channels:
-        ch = channel_phases(cpot, prof, L, li, kinetic, e - prof.v_infinity, tol, hard_core=hard_core)
+    slices = pieces(e.size)
+    tasks = [(cpot, prof, L, li, kinetic, e[sl] - prof.v_infinity, tol, hard_core)
+             for li, L, cpot, prof in channels for sl in slices]
+    done = run_pieces(channel_phases, tasks, workers, progress, "phase shifts",
+                      [t[5].size for t in tasks])
+    for c, (li, L, cpot, prof) in enumerate(channels):
+        ch = joined_pieces(done[c * len(slices):(c + 1) * len(slices)], slices, e.size)
         phase.append(ch.phase)
         error.append(ch.error)
         conv.append(ch.converged)
@@ -356,10 +373,6 @@ def phase_shifts(potential, energies, l=0, *, mass=None, tol: float = 1e-8, hard
 # --------------------------------------------------------------------------- scattering parameters
 
 
-#: Low energies of the effective-range fit: k**2 at Chebyshev points of (0, k_fit**2].
-_FIT_POINTS = 14
-#: k_fit times the size of the potential.
-_FIT_REACH = 0.3
 
 
 @dataclass(frozen=True)
@@ -374,8 +387,8 @@ class PartialWaveScattering:
     """
 
     l: int
-    scattering_length: float
-    scattering_length_error: float
+    scattering_length: float | None  # None: a Coulomb tail with l >= 1 (see why_no_range)
+    scattering_length_error: float | None
     effective_range: float | None
     effective_range_error: float | None
     bound_levels: int | None
@@ -397,7 +410,7 @@ class ScatteringResult(ResultProtocol):
     Note codes: ``levinson_failed`` (delta(0) - delta(inf) is not pi times the
     bound count: one of the two is wrong; status ``failed``),
     ``levinson_uncertain`` (status ``incomplete``), ``not_converged``,
-    ``no_effective_range`` (the tail is too long for r_l, or the fit failed).
+    ``no_effective_range`` (the tail is too long for r_l, or a_l = 0).
     """
 
     potential: str
@@ -447,7 +460,9 @@ class ScatteringResult(ResultProtocol):
                 "length_unit": length, "energy_unit": _unit_name(self.units, unit), "mass": self.mass,
                 "tol": self.tol, "hard_core": self.hard_core,
                 "convention": "k**(2l+1) cot(delta_l) = -1/a_l + r_l k**2/2; a_l in length**(2l+1), "
-                              "r_l in length**(1-2l)", "note": MODEL_NOTE, "rows": self.records(unit)}
+                              "r_l in length**(1-2l); with a repulsive Coulomb tail (l = 0): C0(eta)**2 k "
+                              "cot(delta) + (2/a_B) h(eta) = -1/a_l + r_l k**2/2, delta relative to Coulomb waves",
+                "note": MODEL_NOTE, "rows": self.records(unit)}
 
     def _header(self):
         return [("potential", self.potential), ("l", [w.l for w in self.waves]), ("tol", self.tol)]
@@ -465,7 +480,10 @@ class ScatteringResult(ResultProtocol):
             r_text = f"{w.effective_range:>18.12g}" if w.effective_range is not None else f"{'-':>18}"
             re_text = f"{w.effective_range_error:>8.1e}" if w.effective_range_error is not None else f"{'-':>8}"
             bound = "inf" if w.bound_levels is None else str(w.bound_levels)
-            lines.append(f"{w.l:>3}  {w.scattering_length:>18.12g}  {w.scattering_length_error:>8.1e}  {r_text}  "
+            a_text = f"{w.scattering_length:>18.12g}" if w.scattering_length is not None else f"{'-':>18}"
+            ae_text = (f"{w.scattering_length_error:>8.1e}" if w.scattering_length_error is not None
+                       else f"{'-':>8}")
+            lines.append(f"{w.l:>3}  {a_text}  {ae_text}  {r_text}  "
                          f"{re_text}  {bound:>5}  {w.delta_low / math.pi:>11.4f}  {w.levinson}")
         lines += ["", f"status: {self.status}; {self.message}", f"note: {MODEL_NOTE}"]
         return "\n".join(lines) + "\n"
@@ -475,32 +493,67 @@ class ScatteringResult(ResultProtocol):
                 "bound_levels", "levinson_count", "levinson"]
 
 
-def _effective_range(cpot, prof, L, l, kinetic, size, a_l, a_error, tol, hard_core):
-    """r_l from k**(2l+1) cot(delta) at low energies, with the intercept -1/a_l known from zero energy.
+@dataclass
+class _CoulombRange:
+    length: float
+    error: float
+    effective_range: float
+    effective_range_error: float
 
-    z = (k**(2l+1) cot(delta) + 1/a_l) / k**2 = r_l/2 + c k**2 + ... is fitted in k**2 on
-    Chebyshev points of [0.1, 1] k_fit**2 with two degrees; the estimate is their spread
-    plus the effect of the phases' errors and of a_l's error (largest at the lowest k).
+
+#: Coulomb-modified expansion: phases at eta <= this (the barrier leaves delta ~ exp(-2 pi eta): below
+#: that the phase's absolute precision is no relative precision of cot(delta)).
+_COULOMB_ETA_MAX = 1.0
+#: ... up to k times the range of the short-range part.
+_COULOMB_K_RANGE = 0.3
+
+
+def _coulomb_effective_range(cpot, prof, L, li, kinetic, tol, hard_core, size):
+    """a_c and r_c of the Coulomb-modified expansion (l = 0), or a reason why not.
+
+    K(k**2) = C0(eta)**2 k cot(delta) + (2/a_B) h(eta) = -1/a_c + r_c k**2/2 + ..., with
+    C0**2 = 2 pi eta / (exp(2 pi eta) - 1), h(eta) = Re psi(1 + i eta) - ln(eta), eta = 1/(k a_B),
+    a_B = 1/(m C) (Bethe, Phys. Rev. 76, 38, 1949; Jackson and Blatt, Rev. Mod. Phys. 22, 77, 1950),
+    delta the phase relative to Coulomb waves.  K is fitted in k**2 on Chebyshev points of
+    [k_lo**2, k_hi**2], k_lo where eta = 1 (below, delta is too small to give cot(delta)), k_hi =
+    0.3 / range, with degrees 3 and 4 (their difference is the estimate, with the phases' own).
+    Needs a_B well above the range (a proton-proton-like system): returns a reason otherwise.
     """
+    from scipy.special import psi
+
     from radsolve.core.continuum import channel_phases
 
-    k_fit = _FIT_REACH / size
-    x = 0.1 + 0.9 * 0.5 * (1.0 - np.cos(np.pi * (np.arange(_FIT_POINTS) + 0.5) / _FIT_POINTS))
-    k = k_fit * np.sqrt(x)
-    energies = k**2 / (2.0 * kinetic)
-    ch = channel_phases(cpot, prof, L, l, kinetic, energies, min(tol, 1e-11), hard_core=hard_core)
-    y = k ** (2 * l + 1) / np.tan(ch.phase)
-    z = (y + 1.0 / a_l) / k**2
-    dz = (k ** (2 * l + 1) * ch.error / np.sin(ch.phase) ** 2 + a_error / a_l**2) / k**2
+    if li != 0:
+        return "the Coulomb-modified effective-range expansion is implemented for l = 0 only"
+    a_b = 1.0 / (kinetic * prof.tail.coefficient)
+    k_lo = 1.0 / (_COULOMB_ETA_MAX * a_b)
+    k_hi = _COULOMB_K_RANGE / size
+    if not k_lo < k_hi / 3.0:
+        return (f"the Coulomb barrier is too strong for the Coulomb-modified expansion: a_B = {a_b:.3g} is not "
+                f"well above the range {size:.3g} of the short-range part")
+    m = 16
+    x = 0.5 * (1.0 - np.cos(np.pi * (np.arange(m) + 0.5) / m))
+    k2 = k_lo**2 + (k_hi**2 - k_lo**2) * x
+    k = np.sqrt(k2)
+    ch = channel_phases(cpot, prof, L, li, kinetic, k2 / (2.0 * kinetic), min(tol, 1e-11) * 1e-2,
+                        hard_core=hard_core)
+    eta = 1.0 / (k * a_b)
+    c2 = 2.0 * np.pi * eta / np.expm1(2.0 * np.pi * eta)
+    h = np.real(psi(1.0 + 1j * eta)) - np.log(eta)
+    big_k = c2 * k / np.tan(ch.phase) + 2.0 / a_b * h
+    d_k = c2 * k * ch.error / np.sin(ch.phase) ** 2
     fits = []
-    for degree in (4, 5):
-        V = np.vander(x * k_fit**2, degree + 1, increasing=True)
+    for degree in (3, 4):
+        V = np.vander(k2 / k_hi**2, degree + 1, increasing=True)
         pinv = np.linalg.pinv(V)
-        fits.append((pinv @ z, np.abs(pinv) @ dz))
-    (c4, _), (c5, s5) = fits
-    r_l = 2.0 * float(c5[0])
-    error = 2.0 * (abs(float(c5[0] - c4[0])) + float(s5[0]))
-    return r_l, error, 0.0, bool(np.all(ch.converged))
+        fits.append((pinv @ big_k / k_hi ** (2 * np.arange(degree + 1)), (np.abs(pinv) @ d_k)
+                     / k_hi ** (2 * np.arange(degree + 1))))
+    (c3, _), (c4, s4) = fits
+    if not (np.all(np.isfinite(c4)) and c4[0] != 0):
+        return "the low-energy fit of the Coulomb-modified function failed (a_c near 0 or infinite?)"
+    a_c = -1.0 / c4[0]
+    a_err = (abs(c4[0] - c3[0]) + s4[0]) * a_c**2
+    return _CoulombRange(float(a_c), float(a_err), float(2.0 * c4[1]), float(2.0 * (abs(c4[1] - c3[1]) + s4[1])))
 
 
 def scattering(potential, l=0, *, mass=None, tol: float = 1e-8, hard_core: float | None = None, plugins=None,
@@ -525,33 +578,40 @@ def scattering(potential, l=0, *, mass=None, tol: float = 1e-8, hard_core: float
         if prof.confining:
             channel_tail(cpot, prof, kinetic, 1.0, 1.0, tol, 1.0)  # raises: no continuum
         tail = prof.tail
-        if tail.kind == "long" and tail.power == 1.0:
-            raise InputError("a Coulomb tail has no scattering length, and binds infinitely many levels "
-                             "(Levinson's theorem does not apply); the Coulomb-modified effective-range "
-                             "expansion is not implemented: use phase_shifts()", parameter="potential")
+        coulomb = tail.kind == "long" and tail.power == 1.0
+        if coulomb and tail.coefficient < 0:
+            raise InputError("an attractive Coulomb tail binds infinitely many levels: Levinson's theorem does "
+                             "not apply and there is no scattering length; use phase_shifts() (a repulsive "
+                             "Coulomb tail is allowed)", parameter="potential")
         q = tail.power if tail.kind == "short" else 2.0
-        if tail.kind in ("inverse_square", "long", "irregular") or q <= 2 * L + 3:
+        if not coulomb and (tail.kind in ("inverse_square", "long", "irregular") or q <= 2 * L + 3):
             raise InputError(f"l = {li}: V - V(inf) falls off like r**-{q:.3g}; a scattering length exists "
                              f"only for tails faster than r**-{2 * L + 3:g} (textbook threshold law)",
                              parameter="l")
-        zero = scattering_length(cpot, prof, L, kinetic, tol, hard_core=hard_core)
-        a_l = zero.length
-        size = max(strength_radius(cpot, prof, kinetic), hard_core or 0.0)
-        r_l = r_err = None
+        size = max(strength_radius(cpot, prof, kinetic, coulomb=tail.coefficient if coulomb else 0.0),
+                   hard_core or 0.0)
         why = None
-        ok = zero.error <= tol * abs(a_l)
-        if q <= 2 * L + 5:
+        if coulomb:  # the Coulomb-modified expansion (l = 0), fitted
+            zero = _coulomb_effective_range(cpot, prof, L, li, kinetic, tol, hard_core, size)
+            if isinstance(zero, str):
+                why, zero = zero, None
+        else:
+            zero = scattering_length(cpot, prof, L, kinetic, tol, hard_core=hard_core)
+        a_l = None if zero is None else zero.length
+        r_l = r_err = None
+        ok = zero is None or zero.error <= tol * abs(a_l)
+        if zero is None:
+            pass
+        elif coulomb:
+            r_l, r_err = zero.effective_range, zero.effective_range_error
+            ok = ok and r_err <= tol * max(abs(r_l), size)
+        elif q <= 2 * L + 5:
             why = f"the tail r**-{q:.3g} is too long for an effective range (needs faster than r**-{2 * L + 5:g})"
         elif zero.effective_range is not None:
             r_l, r_err = zero.effective_range, zero.effective_range_error
-            ok = ok and r_err <= tol * max(abs(r_l), size)
+            ok = ok and r_err <= tol * max(abs(r_l), size ** (1 - 2 * L))
         else:
-            r_l, r_err, gap, phases_ok = _effective_range(cpot, prof, L, li, kinetic, size, a_l, zero.error, tol,
-                                                          hard_core)
-            if not math.isfinite(r_l) or not math.isfinite(r_err):
-                why, r_l, r_err = "the low-energy fit of k**(2l+1) cot(delta) failed (a_l near 0?)", None, None
-            else:
-                ok = ok and r_err <= tol * max(abs(r_l), size ** (1 - 2 * L))
+            why = "a_l = 0 to the precision reached: k**(2l+1) cot(delta) has no finite expansion at k = 0"
         if why is not None:
             notes.append(Note("no_effective_range", f"l = {li}: {why}", f"l={li}"))
         if not ok:
@@ -559,14 +619,26 @@ def scattering(potential, l=0, *, mass=None, tol: float = 1e-8, hard_core: float
                                                f"(estimates {zero.error:.2g}, {r_err if r_err is None else f'{r_err:.2g}'})",
                               f"l={li}"))
         # Levinson: delta(0+) - delta(inf) against the bound count
-        length = max(size, abs(a_l) ** (1.0 / (2 * L + 1)) if math.isfinite(a_l) else size)
+        length = max(size, abs(a_l) ** (1.0 / (2 * L + 1)) if a_l is not None and math.isfinite(a_l) else size)
         k_low = 1e-3 / length
+        if coulomb:
+            # below the barrier the phase relative to Coulomb waves has settled to N pi to within
+            # exp(-2 pi eta) (the barrier's penetrability; textbook): eta = 12 at E_low
+            k_low = kinetic * tail.coefficient / 12.0
         r_in = prof.inner_length if math.isfinite(prof.inner_length) else size
         r_grid = np.geomspace(max(r_in * 1e-3, 1e-12), size * 4.0, 4000)
         with np.errstate(all="ignore"):
-            vv = np.abs(cpot(r_grid) - prof.v_infinity)
+            v_signed = cpot(r_grid) - prof.v_infinity - (tail.coefficient / r_grid if coulomb else 0.0)
+        vv = np.abs(v_signed)
         born = 2.0 * kinetic * float(np.trapezoid(vv, r_grid))
         k_high = max(min(20.0 * born, 300.0 / size), 10.0 / size, 4.0 * k_low)
+        # at a high energy delta approaches the eikonal phase int (sqrt(k**2 - 2 m V) - k) dr (textbook
+        # semiclassical limit), which a deep well keeps large long after the levels are resolved
+        with np.errstate(all="ignore"):
+            eikonal = float(np.trapezoid(np.sqrt(np.maximum(k_high**2 - 2.0 * kinetic * v_signed, 0.0)) - k_high,
+                                         r_grid))
+        if not math.isfinite(eikonal):
+            eikonal = 0.0
         e_pair = np.array([k_low, k_high]) ** 2 / (2.0 * kinetic)
         ch = channel_phases(cpot, prof, L, li, kinetic, e_pair, 1e-6, hard_core=hard_core)
         d_low, d_high = float(ch.phase[0]), float(ch.phase[1])
@@ -574,7 +646,7 @@ def scattering(potential, l=0, *, mass=None, tol: float = 1e-8, hard_core: float
         with np.errstate(all="ignore"):
             cert = count_bound(cpot, prof, L, kinetic, inner, 1e30)
         # delta(inf) = 0 by construction (the phase is fixed by the zeros of u, see
-        # radsolve.core.continuum); d_high checks that it is small at a high energy
+        # radsolve.core.continuum); d_high checks that it approaches 0 as the eikonal phase does
         n_lev = round(d_low / math.pi)
         applicable = hard_core is None and prof.origin.kind == "regular"
         if not applicable:
@@ -582,12 +654,18 @@ def scattering(potential, l=0, *, mass=None, tol: float = 1e-8, hard_core: float
         elif cert.count is None or not cert.certain:
             verdict = "uncertain"
             notes.append(Note("levinson_uncertain", f"l = {li}: the bound count is uncertain ({cert.note})", f"l={li}"))
-        elif abs(d_low - math.pi * n_lev) > 0.25 or abs(d_high) > 0.5 * math.pi:
+        elif abs(d_low - math.pi * n_lev) > 0.25 or abs(d_high - eikonal) > 0.5 * math.pi:
             verdict = "uncertain"
             notes.append(Note("levinson_uncertain",
                               f"l = {li}: delta(0) = {d_low / math.pi:.3f} pi is not close to a whole multiple of "
-                              f"pi, or delta = {d_high:.3g} at E = {e_pair[1]:.4g} is not small (a level at the "
-                              "threshold, or energies not low or high enough)", f"l={li}"))
+                              f"pi, or delta = {d_high:.3g} at E = {e_pair[1]:.4g} is not near its eikonal value "
+                              f"{eikonal:.3g} (a level at the threshold, or energies not low or high enough)",
+                              f"l={li}"))
+        elif coulomb and n_lev > cert.count:
+            verdict = "uncertain"
+            notes.append(Note("levinson_uncertain",
+                              f"l = {li}: delta(0) = {n_lev} pi but {cert.count} bound level(s): with a Coulomb "
+                              f"barrier, a quasi-bound level below E = {e_pair[0]:.4g} also adds pi", f"l={li}"))
         elif n_lev != cert.count:
             verdict = "disagrees"
             notes.append(Note("levinson_failed",
@@ -597,7 +675,8 @@ def scattering(potential, l=0, *, mass=None, tol: float = 1e-8, hard_core: float
         else:
             verdict = "agrees"
         waves.append(PartialWaveScattering(
-            l=li, scattering_length=a_l, scattering_length_error=zero.error, effective_range=r_l,
+            l=li, scattering_length=a_l, scattering_length_error=None if zero is None else zero.error,
+            effective_range=r_l,
             effective_range_error=r_err, bound_levels=cert.count, bound_count_certain=cert.certain,
             delta_low=d_low, energy_low=float(e_pair[0] + prof.v_infinity), delta_high=d_high,
             energy_high=float(e_pair[1] + prof.v_infinity),
@@ -717,18 +796,73 @@ def _radial_derivative(grid, values: np.ndarray) -> np.ndarray:
 
 
 def photoionization(potential, level: str = "1s", photon_energies=None, *, mass=None, tol: float = 1e-8,
-                    plugins=None) -> PhotoionizationResult:
+                    plugins=None, workers: int | None = None, progress: bool | None = None) -> PhotoionizationResult:
     """Photoionization cross sections sigma(omega) of a bound ``level`` at ``photon_energies`` (hartree).
 
     Atomic units only.  Each photon energy must exceed the level's ionization
     energy V(inf) - E_nl.  ``tol`` is the target relative error of the radial
-    integrals.  See :class:`PhotoionizationResult`.
+    integrals.  ``workers`` and ``progress`` as for :func:`phase_shifts`.  See
+    :class:`PhotoionizationResult`.
     """
+    return _photoionization(potential, level, photon_energies, mass=mass, tol=tol, plugins=plugins,
+                            workers=workers, progress=progress)
+
+
+class _BoundDipole:
+    """The integrands r u_nl and (d/dr + shift/r) u_nl of the photoionization integrals on a grid.
+
+    A class (not a closure) so that worker processes receive it.  Beyond r_c the
+    level's tail is the decaying solution at E_nl integrated inward (see
+    :func:`photoionization`).
+    """
+
+    def __init__(self, st, r_c, l, kinetic, e_b, bound_pot, bound_prof, shift):
+        self.st, self.r_c, self.l, self.kinetic, self.e_b = st, r_c, l, kinetic, e_b
+        self.bound_pot, self.bound_prof, self.shift = bound_pot, bound_prof, shift
+
+    def bound_on(self, grid):
+        from radsolve.core.grids import potential_on_grid
+
+        u = np.zeros(grid.size)
+        near = grid.r <= self.r_c
+        u[near] = self.st.wavefunction(grid.r[near]).u
+        ic = int(np.count_nonzero(near)) - 1
+        if ic < grid.size - 1:
+            values = potential_on_grid(self.bound_pot, grid.r, ()) - self.bound_prof.v_infinity
+            _, q = grid.liouville_coefficients(values, self.l, self.kinetic)
+            t = grid.step**2 * 2.0 * self.kinetic * (q - (self.e_b - self.bound_prof.v_infinity)
+                                                     * grid.jacobian**2) / 12.0
+            t = np.minimum(t, 0.9)
+            d = 2.0 + 12.0 * t / (1.0 - t)
+            y = np.zeros(grid.size)
+            y[-2] = 1e-300
+            for i in range(grid.size - 2, ic, -1):  # y[i - 1] = d[i] y[i] - y[i + 1]
+                y[i - 1] = d[i] * y[i] - y[i + 1]
+                if abs(y[i - 1]) > 1e250:
+                    y[i - 1:] *= 1e-250
+            tail = np.sqrt(grid.jacobian) * y / (1.0 - t)
+            u[ic:] = tail[ic:] * (u[ic] / tail[ic])
+        return u
+
+    def __call__(self, grid):
+        u = self.bound_on(grid)
+        return np.vstack((grid.r * u, _radial_derivative(grid, u) + self.shift * u / grid.r))
+
+
+def _photo_piece(cpot, prof, L, lf, kinetic, electron, tol, integrand, reach):
+    from radsolve.core.continuum import channel_phases
+
+    return channel_phases(cpot, prof, L, lf, kinetic, electron, tol, integrand=integrand, min_radius=reach)
+
+
+def _photoionization(potential, level, photon_energies, *, mass, tol, plugins, electron_energies=None,
+                     bound_state=None, workers=None, progress=False) -> PhotoionizationResult:
+    """:func:`photoionization`; with ``electron_energies`` (a function of the ionization energy giving
+    photoelectron energies) in place of ``photon_energies``, and ``bound_state`` a State already solved."""
     from scipy.constants import alpha, physical_constants
 
     from radsolve.analysis.observables import state
     from radsolve.analysis.thresholds import parse_level
-    from radsolve.core.continuum import channel_phases
 
     tol = _validated_phase_tol(tol)
     key = parse_level(level, "atomic", parameter="level")
@@ -742,7 +876,7 @@ def photoionization(potential, level: str = "1s", photon_energies=None, *, mass=
 
         channel_tail(channels[0][2], channels[0][3], kinetic, 1.0, 1.0, tol, 1.0)  # raises: no continuum
     try:
-        st = state(pot, n, l, mass=mass, tol=max(min(0.01 * tol, 1e-10), 1e-12))
+        st = bound_state or state(pot, n, l, mass=mass, tol=max(min(0.01 * tol, 1e-10), 1e-12))
     except InputError as exc:
         if exc.parameter is not None:
             raise
@@ -750,6 +884,8 @@ def photoionization(potential, level: str = "1s", photon_energies=None, *, mass=
     e_b = float(st.energy.value)
     v_inf = channels[0][3].v_infinity
     ionization = v_inf - e_b
+    if electron_energies is not None:
+        photon_energies = ionization + np.asarray(electron_energies(ionization), dtype=float)
     if photon_energies is None:
         raise InputError("photon_energies: give the photon energies (hartree), each above the ionization "
                          f"energy {ionization:.10g}", parameter="photon_energies")
@@ -764,9 +900,11 @@ def photoionization(potential, level: str = "1s", photon_energies=None, *, mass=
         raise InputError(f"photon_energies must exceed the ionization energy of {level}, {ionization:.10g} "
                          f"hartree (got {float(w.min()):.10g}): below it no electron is freed",
                          parameter="photon_energies")
+    from radsolve.analysis.energy_pieces import pieces, run_pieces, validated_workers
     from radsolve.core import probe as probing
-    from radsolve.core.grids import potential_on_grid
+    from radsolve.core.continuum import joined_pieces
 
+    workers = validated_workers(workers)
     wave = st.wavefunction()
     big = np.abs(wave.u)
     peak = int(np.argmax(big))
@@ -783,41 +921,21 @@ def photoionization(potential, level: str = "1s", photon_energies=None, *, mass=
     u_rel = float(np.max(wave.u_error[: inside.size])) / u_scale if u_scale > 0 else math.inf
     electron = np.concatenate((w - ionization, [1e-6 * ionization]))  # last: the threshold value
 
-    def bound_on(grid):
-        u = np.zeros(grid.size)
-        near = grid.r <= r_c
-        u[near] = st.wavefunction(grid.r[near]).u
-        ic = int(np.count_nonzero(near)) - 1
-        if ic < grid.size - 1:
-            values = potential_on_grid(bound_pot, grid.r, ()) - bound_prof.v_infinity
-            _, q = grid.liouville_coefficients(values, l, kinetic)
-            t = grid.step**2 * 2.0 * kinetic * (q - (e_b - bound_prof.v_infinity) * grid.jacobian**2) / 12.0
-            t = np.minimum(t, 0.9)
-            d = 2.0 + 12.0 * t / (1.0 - t)
-            y = np.zeros(grid.size)
-            y[-2] = 1e-300
-            for i in range(grid.size - 2, ic, -1):  # y[i - 1] = d[i] y[i] - y[i + 1]
-                y[i - 1] = d[i] * y[i] - y[i + 1]
-                if abs(y[i - 1]) > 1e250:
-                    y[i - 1:] *= 1e-250
-            tail = np.sqrt(grid.jacobian) * y / (1.0 - t)
-            u[ic:] = tail[ic:] * (u[ic] / tail[ic])
-        return u
-
     a0_cm = physical_constants["Bohr radius"][0] * 100.0
     final = [lf for lf in (l - 1, l + 1) if lf >= 0]
     sig, sig_err, sig_v, conv = [], [], [], []
     notes: list[Note] = []
     omega = electron + ionization
+    slices = pieces(electron.size)
+    tasks = []
     for lf in final:
         _, L, cpot, prof = next(c for c in channels if c[0] == lf)
         shift = -(l + 1) if lf == l + 1 else l  # d/dr - (l+1)/r  or  d/dr + l/r
-
-        def integrand(grid, shift=shift):
-            u = bound_on(grid)
-            return np.vstack((grid.r * u, _radial_derivative(grid, u) + shift * u / grid.r))
-
-        ch = channel_phases(cpot, prof, L, lf, kinetic, electron, tol, integrand=integrand, min_radius=reach)
+        integrand = _BoundDipole(st, r_c, l, kinetic, e_b, bound_pot, bound_prof, shift)
+        tasks += [(cpot, prof, L, lf, kinetic, electron[sl], tol, integrand, reach) for sl in slices]
+    done = run_pieces(_photo_piece, tasks, workers, progress, "cross sections", [t[5].size for t in tasks])
+    for i, lf in enumerate(final):
+        ch = joined_pieces(done[i * len(slices):(i + 1) * len(slices)], slices, electron.size)
         length, velocity = ch.integrals
         factor = 4.0 * math.pi**2 * alpha * omega / 3.0 * max(l, lf) / (2 * l + 1) * a0_cm**2
         s_len = factor * length**2
@@ -842,6 +960,107 @@ def photoionization(potential, level: str = "1s", photon_energies=None, *, mass=
                                  sigma_l_error=sig_err[:, :-1], sigma_velocity=sig_v[:-1],
                                  converged=converged[:-1], threshold_cross_section=float(total[-1]),
                                  threshold_error=float(sig_err[:, -1].sum()), notes=notes)
+
+
+#: Gauss-Legendre orders of the two rules of :func:`continuum_strength` (their difference is the estimate).
+STRENGTH_RULES = (56, 80)
+#: Photoelectron energies above this many ionization energies are not computed: a power law fitted
+#: below carries the integrand there (a share of order CAP**-(5/2) of the whole for an s level).
+STRENGTH_CAP = 2000.0
+
+
+@dataclass
+class ContinuumStrength:
+    """The bound-free oscillator strength of one level: the integral of df/dE over the continuum.
+
+    df/dE = (2/3) omega (l_> / (2l + 1)) R_E**2 (electron-mass convention, R_E the
+    radial integral with the continuum normalized per unit energy; textbook, e.g.
+    Bethe and Salpeter 1957, sec. 69), summed over l' = l +- 1 and integrated over
+    the photoelectron energy E in (0, inf).  ``by_l`` maps l' to its share.
+    """
+
+    level: str
+    value: float
+    error: float
+    by_l: dict
+    converged: bool
+    notes: list = field(default_factory=list)
+
+    def to_dict(self) -> dict[str, Any]:
+        return {"level": self.level, "value": self.value, "error": self.error,
+                "by_l": {str(k): v for k, v in self.by_l.items()}, "converged": self.converged,
+                "notes": [n.to_dict() for n in self.notes]}
+
+
+def continuum_strength(potential, level: str = "1s", *, mass=None, tol: float = 1e-8, plugins=None,
+                       bound_state=None) -> ContinuumStrength:
+    """The integral of df/dE over the continuum of a bound ``level`` (atomic units), with its estimate.
+
+    The photoelectron energy is mapped as E = I (x / (1 - x))**2, I the ionization
+    energy, x in (0, 1): the integrand then vanishes smoothly at both ends (df/dE is
+    finite at threshold for a Coulomb tail and grows like E**(l'+1/2) for a short one;
+    it falls like a power of E far out).  Two Gauss-Legendre rules
+    (:data:`STRENGTH_RULES`) give the value and the estimate (their difference, plus
+    the integrals' own estimates); nodes above :data:`STRENGTH_CAP` I use the power
+    law through the two highest nodes computed, and that part's size is added to
+    the estimate.  ``tol`` is handed to :func:`photoionization`.
+    """
+    from scipy.constants import alpha, physical_constants
+
+    rules = [np.polynomial.legendre.leggauss(m) for m in STRENGTH_RULES]
+    xs = np.concatenate([0.5 * (x + 1.0) for x, _ in rules])
+
+    capped = (xs / (1.0 - xs)) ** 2 > STRENGTH_CAP  # the same nodes whatever I
+
+    def energies(ionization):
+        return ionization * (xs[~capped] / (1.0 - xs[~capped])) ** 2
+
+    res = _photoionization(potential, level, None, mass=mass, tol=tol, plugins=plugins,
+                           electron_energies=energies, bound_state=bound_state)
+    ionization = res.binding_energy
+    a0_cm = physical_constants["Bohr radius"][0] * 100.0
+    to_f = 1.0 / (2.0 * math.pi**2 * alpha * a0_cm**2)  # sigma = 2 pi**2 alpha a0**2 df/dE
+    e = ionization * (xs / (1.0 - xs)) ** 2
+    jac = 2.0 * ionization * xs / (1.0 - xs) ** 3  # dE/dx
+    sigma_l = np.zeros((len(res.final_ls), xs.size))
+    sigma_err = np.zeros_like(sigma_l)
+    sigma_l[:, ~capped], sigma_err[:, ~capped] = res.sigma_l, res.sigma_l_error
+    by_l, err_l = {}, {}
+    tail_total = 0.0
+    start = 0
+    totals = []
+    for (x, wts), m in zip(rules, STRENGTH_RULES):
+        sl = slice(start, start + m)
+        start += m
+        dfde = sigma_l[:, sl] * to_f
+        # a node whose estimate exceeds its own (positive) value, or is not finite, counts its whole
+        # value as the estimate (far out, where the integrand is small)
+        ddfde = np.where(np.isfinite(sigma_err[:, sl]), np.minimum(sigma_err[:, sl], np.abs(sigma_l[:, sl])),
+                         np.abs(sigma_l[:, sl])) * to_f
+        cap = capped[sl]
+        ee = e[sl]
+        if cap.any():
+            # a power law through the two highest computed nodes carries the capped ones
+            free = np.nonzero(~cap)[0][-2:]
+            with np.errstate(all="ignore"):
+                slope = np.log(dfde[:, free[1]] / dfde[:, free[0]]) / math.log(ee[free[1]] / ee[free[0]])
+                dfde[:, cap] = dfde[:, free[1], None] * (ee[None, cap] / ee[free[1]]) ** slope[:, None]
+            dfde = np.where(np.isfinite(dfde), dfde, 0.0)
+        w = 0.5 * wts * jac[sl]
+        totals.append(dfde @ w)
+        tail_total = max(tail_total, float(np.sum(dfde[:, cap] @ w[cap])))
+        for i, lf in enumerate(res.final_ls):
+            by_l[lf] = float(totals[-1][i])
+            err_l[lf] = float(ddfde[i] @ w)
+    value = float(np.sum(totals[-1]))
+    error = float(abs(np.sum(totals[-1]) - np.sum(totals[0])) + sum(err_l.values()) + tail_total)
+    notes = list(res.notes)
+    # oscillator strengths sum to order 1: the estimate is judged against that scale, not against a
+    # continuum share that may be tiny (a deeply bound level of a short-range well)
+    converged = error <= max(10.0 * tol, 1e-12) * max(abs(value), 1.0)
+    if not converged:
+        notes.append(Note("not_converged", f"continuum strength of {level}: estimate {error:.2g}"))
+    return ContinuumStrength(level=level, value=value, error=error, by_l=by_l, converged=converged, notes=notes)
 
 
 # --------------------------------------------------------------------------- logarithmic derivatives
@@ -949,7 +1168,8 @@ class LogDerivativeResult(ResultProtocol):
 
 
 def log_derivatives(potential, energies, l=0, *, radius: float, reference=None, mass=None, tol: float = 1e-8,
-                    tolerance: float | None = None, plugins=None, units: str | None = None) -> LogDerivativeResult:
+                    tolerance: float | None = None, plugins=None, units: str | None = None,
+                    workers: int | None = None, progress: bool | None = None) -> LogDerivativeResult:
     """L_l(E) = u'(r_c)/u(r_c) of ``potential`` (and of ``reference``, when given) at ``energies``.
 
     Energies are absolute (any finite values: below and above the threshold).
@@ -957,11 +1177,14 @@ def log_derivatives(potential, energies, l=0, *, radius: float, reference=None, 
     (default 10 ``tol``, relative to max(|L|, 1/r_c)) is the gap between model
     and reference reported as a difference.  Ghost states are found from the
     node counts (see :class:`LogDerivativeResult`), which do not depend on how
-    fine the energy grid is between two energies.
+    fine the energy grid is between two energies.  ``workers`` and ``progress`` as
+    for :func:`phase_shifts`.
     """
+    from radsolve.analysis.energy_pieces import pieces, run_pieces, validated_workers
     from radsolve.core.continuum import log_derivatives as channel_log_derivatives
 
     tol = _validated_phase_tol(tol)
+    workers = validated_workers(workers)
     if not (isinstance(radius, (int, float)) and not isinstance(radius, bool) and math.isfinite(radius) and radius > 0):
         raise InputError(f"radius must be a radius > 0 (got {radius!r})", parameter="radius")
     pot, system, mu, kinetic, channels, _ = _setup(potential, l, mass, plugins, units, 3, None)
@@ -984,24 +1207,29 @@ def log_derivatives(potential, energies, l=0, *, radius: float, reference=None, 
             raise InputError(f"the reference is in {ref_system.name} units, the model in {system.name}: "
                              "both must use one unit system", parameter="reference")
 
-    def run(chs):
+    slices = pieces(e.size)
+
+    def run(chs, what):
+        tasks = [(cpot, prof, L, kinetic, e[sl] - (0.0 if prof.confining else prof.v_infinity), float(radius), tol)
+                 for li, L, cpot, prof in chs for sl in slices]
+        done = run_pieces(channel_log_derivatives, tasks, workers, progress, what, [t[4].size for t in tasks])
+        per = len(slices)
         vals, errs, nods, convs = [], [], [], []
-        for li, L, cpot, prof in chs:
-            ref_e = 0.0 if prof.confining else prof.v_infinity
-            ld = channel_log_derivatives(cpot, prof, L, kinetic, e - ref_e, float(radius), tol)
-            vals.append(ld.value)
-            errs.append(ld.error)
-            nods.append(ld.nodes)
-            convs.append(ld.converged)
+        for c in range(len(chs)):
+            part = done[c * per:(c + 1) * per]
+            vals.append(np.concatenate([p.value for p in part]))
+            errs.append(np.concatenate([p.error for p in part]))
+            nods.append(np.concatenate([p.nodes for p in part]))
+            convs.append(np.concatenate([p.converged for p in part]))
         return np.array(vals), np.array(errs), np.array(nods), np.array(convs)
 
-    model, model_err, model_nodes, conv = run(channels)
+    model, model_err, model_nodes, conv = run(channels, "log derivatives")
     ref = ref_err = ref_nodes = None
     notes: list[Note] = []
     ghosts = []
     ls = [c[0] for c in channels]
     if ref_channels is not None:
-        ref, ref_err, ref_nodes, ref_conv = run(ref_channels)
+        ref, ref_err, ref_nodes, ref_conv = run(ref_channels, "reference")
         conv = conv & ref_conv
         for i, li in enumerate(ls):
             d = model_nodes[i] - ref_nodes[i]

@@ -55,7 +55,7 @@ OPTION_OF = {
     "bracket": "--bracket",
     "targets": "--targets", "free": "--free", "bounds": "--free", "max_evaluations": "--max-evaluations",
     "n": "--n", "k": "--moment", "radius": "--inside", "r": "--at",
-    "dipole_charge": "--dipole-charge", "occupied": "--occupied",
+    "dipole_charge": "--dipole-charge", "occupied": "--occupied", "continuum": "--sum-rule",
     # above the threshold (cli/continuum.py)
     "energies": "--energies", "hard_core": "--hard-core", "photon_energies": "--photons",
     "reference": "--reference",

@@ -24,6 +24,15 @@ HardCoreOption = Annotated[Optional[float], typer.Option(
     help="a hard sphere: the wave vanishes for r < R (length unit of the potential: bohr or fm)")]
 
 
+#: --workers and --progress of the commands over energy grids (rows do not depend on the worker count).
+WorkersOption = Annotated[Optional[int], typer.Option(
+    "--workers", "-w", metavar="N",
+    help="worker processes over pieces of the energy grid [default: 1, this process]; the rows do not "
+         "depend on N")]
+ProgressOption = Annotated[Optional[bool], typer.Option(
+    "--progress/--no-progress", help="progress bar on stderr [default: only when stderr is a terminal]")]
+
+
 def _potential(name, params, plugins, units, expr):
     """A family, or a formula (NAME 'formula' with --expr), as ``radsolve levels`` makes them."""
     from radsolve.cli.levels import _levels_potential
@@ -104,6 +113,8 @@ def phases_command(
     out: OutFileOption = None,
     plot: Annotated[Optional[Path], typer.Option(
         "--plot", metavar="FILE", help="draw delta_l(E)/pi: FILE.png, .svg or .pdf")] = None,
+    workers: WorkersOption = None,
+    progress: ProgressOption = None,
     plugins: PluginsOption = None,
 ) -> None:
     """Phase shifts delta_l(E) of NAME at energies above the threshold.
@@ -122,7 +133,8 @@ def phases_command(
         values = _energies(energies, log, unit, pot, units)
         ls = l_values(l, lmax)
         result = solver_call(pot, phase_shifts, pot, values, **({"l": ls} if ls is not None else {}), mass=mass,
-                             tol=tol, hard_core=hard_core, units=units, spin_orbit=spin_orbit)
+                             tol=tol, hard_core=hard_core, units=units, spin_orbit=spin_orbit, workers=workers,
+                             progress=progress)
         from radsolve.output.report import render
 
         write_output(render(result, unit, fmt.value), out, f"{result.phase.size} phase shifts ({fmt.value})")
@@ -209,6 +221,8 @@ def photoionization_command(
     out: OutFileOption = None,
     plot: Annotated[Optional[Path], typer.Option(
         "--plot", metavar="FILE", help="draw sigma against the photon energy: FILE.png, .svg or .pdf")] = None,
+    workers: WorkersOption = None,
+    progress: ProgressOption = None,
     plugins: PluginsOption = None,
 ) -> None:
     """Photoionization cross sections of one bound level of NAME (atomic units).
@@ -225,7 +239,8 @@ def photoionization_command(
 
         pot = _potential(name, params, plugins, None, expr)
         values = _energies(photons, log, unit, pot, None, option="--photons")
-        result = solver_call(pot, photoionization, pot, level, values, mass=mass, tol=tol)
+        result = solver_call(pot, photoionization, pot, level, values, mass=mass, tol=tol, workers=workers,
+                             progress=progress)
         from radsolve.output.report import render
 
         write_output(render(result, unit, fmt.value), out,
@@ -267,6 +282,8 @@ def logderiv_command(
     plot: Annotated[Optional[Path], typer.Option(
         "--plot", metavar="FILE", help="draw arctan(r_c u'/u) of model and reference: FILE.png, .svg or .pdf")
     ] = None,
+    workers: WorkersOption = None,
+    progress: ProgressOption = None,
     plugins: PluginsOption = None,
 ) -> None:
     """Logarithmic derivatives u'/u at r_c of NAME, beside a --reference.
@@ -294,7 +311,8 @@ def logderiv_command(
         values = _energies(energies, log, unit, pot, units)
         ls = l_values(l, lmax)
         result = solver_call(pot, log_derivatives, pot, values, **({"l": ls} if ls is not None else {}),
-                             radius=radius, reference=ref, mass=mass, tol=tol, units=units)
+                             radius=radius, reference=ref, mass=mass, tol=tol, units=units, workers=workers,
+                             progress=progress)
         from radsolve.output.report import render
 
         write_output(render(result, unit, fmt.value), out, f"{result.model.size} logarithmic derivatives ({fmt.value})")

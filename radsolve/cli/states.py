@@ -196,6 +196,10 @@ def transitions_command(
         "--occupied", metavar="LABELS",
         help="levels filled by core electrons, comma-separated, left out: no line ends on "
              "them (e.g. 1s,2s,2p for the sodium core of alkali_model)")] = None,
+    sum_rule: Annotated[Optional[str], typer.Option(
+        "--sum-rule", metavar="LABELS",
+        help="also the bound-free oscillator strength of these levels (comma-separated, or 'all') and "
+             "the Thomas-Reiche-Kuhn sum check; seconds per level")] = None,
     plugins: PluginsOption = None,
 ) -> None:
     """Electric-dipole lines, lifetimes and branching ratios of the levels with n <= N.
@@ -226,7 +230,8 @@ def transitions_command(
 
         pot = potential(name, plugins=plugin_dirs(plugins), **params)
         tr = solver_call(pot, transitions, pot, nmax, mass=mass, tol=tol, method=method,
-                          dipole_charge=dipole_charge, occupied=occupied or (), equation=equation)
+                          dipole_charge=dipole_charge, occupied=occupied or (), equation=equation,
+                          continuum=sum_rule or False)
         from radsolve.output.report import render
 
         text = render(tr, unit, fmt.value)

@@ -117,6 +117,16 @@ def _joined(parts: list, masks: list, size: int) -> ChannelPhases:
                          integrals=merge("integrals"), integral_error=merge("integral_error"))
 
 
+def joined_pieces(parts: list, slices: list, size: int) -> ChannelPhases:
+    """One ChannelPhases from the results of consecutive energy ``slices`` computed apart."""
+    masks = []
+    for sl in slices:
+        m = np.zeros(size, dtype=bool)
+        m[sl] = True
+        masks.append(m)
+    return _joined(parts, masks, size) if len(parts) > 1 else parts[0]
+
+
 def channel_tail(potential, profile, mass: float, k_min: float, k_max: float, tol: float,
                  start: float) -> Tail:
     """The matching rule and radius of one channel; InputError when there is none.
@@ -192,14 +202,18 @@ def _coulomb(L: int, eta: np.ndarray, x: np.ndarray):
     """
     x = np.asarray(x, dtype=float)
     eta = np.broadcast_to(np.asarray(eta, dtype=float), x.shape)
-    F, G, ok = coulomb_waves(L, eta, x)
+    # Steed's first fraction needs about rho terms
+    F, G, ok = coulomb_waves(L, eta, x, iterations=max(4000, int(2.0 * float(np.max(x, initial=0.0))) + 200))
     if not ok.all():
         import mpmath
 
         with mpmath.workdps(20):
             for i in np.nonzero(~ok.ravel())[0]:
-                F.flat[i] = float(mpmath.coulombf(L, eta.flat[i], x.flat[i]))
-                G.flat[i] = float(mpmath.coulombg(L, eta.flat[i], x.flat[i]))
+                try:
+                    F.flat[i] = float(mpmath.coulombf(L, eta.flat[i], x.flat[i], maxterms=10**6))
+                    G.flat[i] = float(mpmath.coulombg(L, eta.flat[i], x.flat[i], maxterms=10**6))
+                except (mpmath.libmp.NoConvergence, ZeroDivisionError, ValueError):
+                    F.flat[i] = G.flat[i] = math.nan  # the phase there is NaN: not converged, said so
     return F, -G
 
 
@@ -214,27 +228,29 @@ def coulomb_waves(L: int, eta: np.ndarray, rho: np.ndarray, iterations: int = 40
     the WKB phase; points where that is not clear by a margin, where CF2 did not
     converge, or below 0.7 of the turning point are marked untrusted.
     """
-    eta = np.asarray(eta, dtype=float)
-    rho = np.asarray(rho, dtype=float)
+    with np.errstate(all="ignore"):  # overflow far below the turning point: those points are marked untrusted
+        return _steed(L, np.asarray(eta, dtype=float), np.asarray(rho, dtype=float), iterations)
+
+
+def _steed(L: int, eta: np.ndarray, rho: np.ndarray, iterations: int):
     tiny = 1e-300
 
-    def s_(m):
-        return m / rho + eta / m
-
-    f = s_(L + 1.0) + 0.0 * rho
+    inv_rho = 1.0 / rho
+    eta2 = eta * eta
+    f = (L + 1.0) * inv_rho + eta / (L + 1.0) + 0.0 * rho
     c = np.where(f == 0.0, tiny, f)
     d = np.zeros_like(f)
     for n in range(1, iterations):
         m = L + n
-        a = -(1.0 + (eta / m) ** 2)
-        b = s_(m) + s_(m + 1.0)
+        a = -(1.0 + eta2 / (m * m))
+        b = (2.0 * m + 1.0) * inv_rho + eta * (1.0 / m + 1.0 / (m + 1.0))
         d = b + a * d
         d = 1.0 / np.where(d == 0.0, tiny, d)
         c = b + a / c
         c = np.where(c == 0.0, tiny, c)
         step = c * d
-        f = f * step
-        if n > 2 and np.all(np.abs(step - 1.0) < 1e-16):
+        f *= step
+        if n > 2 and n % 8 == 0 and np.all(np.abs(step - 1.0) < 1e-16):
             break
     a0, b0 = 1.0 + L + 1j * eta, -L + 1j * eta
     fr = np.full(rho.shape, tiny, dtype=complex)
@@ -282,16 +298,16 @@ def _reference_phase(L: int, x: np.ndarray, eta: np.ndarray | None) -> np.ndarra
         with np.errstate(all="ignore"):
             inside = np.sqrt(np.maximum(x**2 - nu**2, 0.0)) - nu * np.arccos(np.minimum(nu / x, 1.0))
         return np.where(x > nu, inside + 0.25 * math.pi, 0.0)
-    from scipy.integrate import quad
-
-    out = np.zeros(x.shape)
-    for i, (xx, e) in enumerate(zip(x.flat, np.broadcast_to(eta, x.shape).flat)):
-        turn = e + math.sqrt(e * e + nu * nu)
-        if xx > turn:
-            val, _ = quad(lambda s: math.sqrt(max(1.0 - 2.0 * e / s - nu * nu / (s * s), 0.0)), turn, xx,
-                          limit=200)
-            out.flat[i] = val + 0.25 * math.pi
-    return out
+    # int_turn^x sqrt(1 - 2 eta/s - nu**2/s**2) ds in closed form (the elementary integral of
+    # sqrt(s**2 + b s + c)/s, textbook tables); at eta = 0 it is the free phase above
+    eta = np.broadcast_to(np.asarray(eta, dtype=float), np.shape(x))
+    big_r = np.sqrt(eta**2 + nu**2)
+    turn = eta + big_r
+    with np.errstate(all="ignore"):
+        root = np.sqrt(np.maximum(x * x - 2.0 * eta * x - nu * nu, 0.0))
+        arg = np.clip(-(eta * x + nu * nu) / (x * big_r), -1.0, 1.0)
+        phase = root - eta * np.log((root + x - eta) / big_r) - nu * (np.arcsin(arg) + 0.5 * math.pi)
+    return np.where(x > turn, phase + 0.25 * math.pi, 0.0)
 
 
 def _basis_phase(J: np.ndarray, Y: np.ndarray, reference: np.ndarray) -> np.ndarray:
@@ -300,15 +316,56 @@ def _basis_phase(J: np.ndarray, Y: np.ndarray, reference: np.ndarray) -> np.ndar
     return angle + 2.0 * math.pi * np.round((reference - angle) / (2.0 * math.pi))
 
 
+def jump_terms(potential, grid, anchors, mass: float) -> dict:
+    """Corrections of Numerov's step at the grid points where V jumps or has a kink.
+
+    Where F of w'' = F w jumps at a grid point x0 = x[n] (Taylor expansion on either
+    side; w and w' are continuous): the formulas centred at n - 1 and n + 1 need
+    the one-sided limits F- w[n] and F+ w[n], and the one centred at n (with the mean
+    of F, as stored) leaves the defect h**3 (F'+ - F'-) w / 12 + h**3 (F+ - F-) w' / 12
+    + O(h**5).  Uncorrected these make the solution's error an h**2 series; corrected,
+    it starts at h**4.  Returns {n: (a, b, dt)}: the step centred at n gains
+    a w[n] + b w'[n] (w' in xi), and dt = h**2 (F+ - F-) / 12 (the same for every
+    energy: the energy term of F is continuous).
+    """
+    out = {}
+    h = grid.step
+    r = grid.r
+    for bpt in anchors:
+        n = int(np.searchsorted(r, bpt))
+        n = n if n < r.size and abs(r[n] - bpt) <= 1e-12 * bpt else n - 1
+        if not (2 <= n <= r.size - 2 and abs(r[n] - bpt) <= 1e-12 * bpt):
+            continue
+        d = 1e-5 * bpt
+        with np.errstate(all="ignore"):
+            vm = np.asarray(potential(np.array([bpt * (1 - 1e-12), bpt - d, bpt - 2 * d])), dtype=float)
+            vp = np.asarray(potential(np.array([bpt * (1 + 1e-12), bpt + d, bpt + 2 * d])), dtype=float)
+        if not (np.all(np.isfinite(vm)) and np.all(np.isfinite(vp))):
+            continue
+        jump = float(vp[0] - vm[0])
+        # one-sided second-order differences for dV/dr on either side
+        slope_jump = float((-3 * vp[0] + 4 * vp[1] - vp[2]) / (2 * d) - (3 * vm[0] - 4 * vm[1] + vm[2]) / (2 * d))
+        jac = float(grid.jacobian[n])
+        b = jac * jac
+        db = float(grid.jacobian[n + 1] ** 2 - grid.jacobian[n - 1] ** 2) / (2 * h)
+        c = h**3 / 12.0 * 2.0 * mass
+        out[n] = (c * (slope_jump * jac * b + jump * db), c * jump * b, h * h / 12.0 * 2.0 * mass * jump * b)
+    return out
+
+
 def _shoot(grid, values: np.ndarray, centrifugal: float, mass: float, energies: np.ndarray, start: int,
-           exponent: float, hard_core: bool, keep_from: int, mark: int, weights: np.ndarray | None = None):
+           exponent: float, hard_core: bool, keep_from: int, mark: int, weights: np.ndarray | None = None,
+           jumps: dict | None = None):
     """Numerov outward for every energy at once.
 
     Returns u on grid points keep_from ... end (rows) for each energy
     (columns), the number of zeros of u on (0, r[mark]] and on (0, r[end]],
     and, with ``weights`` (m rows over the grid points), the sums
     sum_i weights[j, i] u_i for each row j and energy (on u's scale).
+    ``jumps`` are the corrections of :func:`jump_terms` at breakpoints of V.
     """
+    jumps = {n: ab for n, ab in (jumps or {}).items() if n >= start + 3}
+    near = {m for n in jumps for m in (n - 1, n, n + 1)}
     _, q = grid.liouville_coefficients(values, 0, mass, centrifugal=centrifugal)
     b = grid.jacobian**2
     h2 = grid.step**2
@@ -325,6 +382,7 @@ def _shoot(grid, values: np.ndarray, centrifugal: float, mass: float, energies: 
     ghost = 0.0 if hard_core else math.exp(-(exponent - 0.5) * grid.step)
     y_prev = ghost * (1.0 - t0[0])
     y_cur = 1.0 - t0[1]
+    y_back = y_prev  # y two points back, for w' at a breakpoint
     zeros = np.zeros(ne, dtype=np.int64)
     zeros_mark = zeros.copy()
     kept = np.empty((n - keep_from, ne))
@@ -346,8 +404,20 @@ def _shoot(grid, values: np.ndarray, centrifugal: float, mass: float, energies: 
             inv_next = 1.0 / (1.0 - t_rows(lo + 1, hi + 1))
         for i in range(lo, hi):  # y[i + 1] = d[i] y[i] - y[i - 1]
             y_new = d[i - lo] * y_cur - y_prev
+            if i in near:
+                if i + 1 in jumps:  # (1 - t-) w[n] is what the step gives
+                    t_n = t_rows(i + 1, i + 2)[0]
+                    y_new = y_new * (1.0 - t_n) / (1.0 - t_n + 0.5 * jumps[i + 1][2])
+                elif i in jumps:
+                    a_j, b_j, _ = jumps[i]
+                    tj = t_rows(i - 2, i + 1)
+                    w0, w1, w2 = y_back / (1.0 - tj[0]), y_prev / (1.0 - tj[1]), y_cur / (1.0 - tj[2])
+                    y_new = y_new + a_j * w2 + b_j * (3.0 * w2 - 4.0 * w1 + w0) / (2.0 * grid.step)
+                else:  # centred at n + 1: (1 - t+) w[n] in place of (1 - t) w[n]
+                    t_n = t_rows(i - 1, i)[0]
+                    y_new = y_new + y_prev * 0.5 * jumps[i - 1][2] / (1.0 - t_n)
             zeros += (y_new * y_cur < 0.0)
-            y_prev, y_cur = y_cur, y_new
+            y_back, y_prev, y_cur = y_prev, y_cur, y_new
             if sums is not None:
                 sums += wj[:, i + 1, None] * (y_cur * inv_next[i - lo])[None, :]
             if i + 1 >= keep_from:
@@ -357,7 +427,7 @@ def _shoot(grid, values: np.ndarray, centrifugal: float, mass: float, energies: 
         if hi + 1 < keep_from:
             big = np.maximum(np.abs(y_cur), np.abs(y_prev))
             scale = np.where(big > 1e100, 1.0 / big, 1.0)
-            y_cur, y_prev = y_cur * scale, y_prev * scale
+            y_cur, y_prev, y_back = y_cur * scale, y_prev * scale, y_back * scale
             if sums is not None:
                 sums *= scale[None, :]
     kept_t = t_rows(keep_from, n)
@@ -488,10 +558,12 @@ def channel_phases(potential, profile, L: float, l: int, mass: float, energies: 
                                 integrand, min_radius, keep_waves) for sel in (low, ~low)]
         return _joined(parts, [low, ~low], energies.size)
 
-    # Numerov's error is a series in h**4, h**6, ...; a jump of V at a grid point adds every
-    # whole power from h**2 on (as for the levels, radsolve.core.extrapolation)
+    # Numerov's error is a series in h**4, h**6, ...; a jump or kink of V at a grid point, with
+    # its defect added back (jump_terms), adds every whole power from h**4 on.  The integrals'
+    # trapezoid sums keep an h**2 series there (their integrand's slope jumps).
     jumps = [b for b in span.anchors if hard_core is None or b != r_min]
-    orders = (2, 3, 4, 5, 6, 7) if jumps else (4, 6, 8, 10)
+    orders = (4, 5, 6, 7, 8) if jumps else (4, 6, 8, 10)
+    int_orders = (2, 3, 4, 5, 6, 7) if jumps else orders
     int_history: list[np.ndarray] = []
     integrals = integral_error = None
     notes: list[str] = []
@@ -538,7 +610,7 @@ def channel_phases(potential, profile, L: float, l: int, mass: float, energies: 
                 integrals = np.full((weights.shape[0], energies.size), np.nan)
                 integral_error = np.full((weights.shape[0], energies.size), np.inf)
         shot = _shoot(grid, values, L * (L + 1.0), mass, energies[sub], start, exponent,
-                      hard_core is not None, keep_from, ra_row, weights)
+                      hard_core is not None, keep_from, ra_row, weights, jump_terms(potential, grid, jumps, mass))
         u, zeros_a, zeros_b = shot[:3]
         row_b = last - keep_from
         cols = np.arange(sub.size)
@@ -574,7 +646,7 @@ def channel_phases(potential, profile, L: float, l: int, mass: float, energies: 
             radius_error[sub] = rad[sub]
             done = (est[sub] + rad[sub]) <= tol
             if integrand is not None:
-                ibest, iest = _richardson(int_history, orders)
+                ibest, iest = _richardson(int_history, int_orders)
                 iest = iest + np.abs(ibest) * amp_change[None, :] + 64.0 * np.finfo(float).eps * \
                     math.sqrt(grid.size) * np.abs(ibest)
                 integrals[:, sub] = ibest[:, sub]
@@ -588,11 +660,13 @@ def channel_phases(potential, profile, L: float, l: int, mass: float, energies: 
         phase = np.full(energies.size, np.nan)  # not even the coarsest grid fits: reported unconverged
         notes.append(f"energies up to {e_max:.4g} need more than {MAX_POINTS} grid points: not computed")
     elif len(history) < 3:
-        notes.append(f"only {len(history)} grid(s) fit in {MAX_POINTS} points for energies up to {e_max:.4g}: "
-                     "no error estimate")
-    elif grids_used < 3:
-        # too few grids for an estimate: keep the finest value, flagged
+        # too few grids for Richardson: the finest value, and as its estimate the whole change from the
+        # grid before (Numerov's h**4 makes that about 15 times the finest grid's own error), or none
         phase = history[-1][0]
+        grid_error = np.abs(history[-1][0] - history[-2][0]) if len(history) == 2 else np.full(energies.size, np.inf)
+        radius_error = np.abs(history[-1][0] - history[-1][1])
+        notes.append(f"only {len(history)} grid(s) fit in {MAX_POINTS} points for energies up to {e_max:.4g}: "
+                     + ("the estimate is the change between them" if len(history) == 2 else "no error estimate"))
     error = grid_error + radius_error
     converged = error <= tol
     if integrand is not None:
@@ -621,7 +695,7 @@ class ZeroEnergy:
 
     length: float  # a_l, length**(2L+1)
     error: float
-    effective_range: float | None  # r_0 = 2 int (psi0**2 - u0**2) dr for L = 0, else None
+    effective_range: float | None  # r_l from the energy derivative of the threshold solution
     effective_range_error: float | None
     grid_error: float
     radius_error: float
@@ -629,15 +703,71 @@ class ZeroEnergy:
     grids: int
 
 
+def threshold_solutions(grid, values: np.ndarray, L: float, mass: float, start: int, ghost: float,
+                        jumps: dict) -> tuple[np.ndarray, np.ndarray]:
+    """u0 and u1 = du/dE at E = 0 (from V(inf)) of the regular solution, on grid points start ... end.
+
+    Numerov in xi for w0'' = F w0 and its energy derivative w1'' = F w1 - 2 m r'**2 w0
+    (the inhomogeneous Numerov formula, source weights 1, 10, 1), both started as
+    u ~ r**lambda with an energy-independent coefficient (w1 = 0 at the first two
+    points: its share there is of order r_min**2).  Breakpoints of V are corrected as
+    in :func:`jump_terms` (the source is continuous there, so the same corrections
+    serve both).  Both carry one common scale.
+    """
+    _, q = grid.liouville_coefficients(values, 0, mass, centrifugal=L * (L + 1.0))
+    h = grid.step
+    b = grid.jacobian**2
+    t_arr = np.minimum(h * h * 2.0 * mass * q / 12.0, 0.9)
+    t = t_arr.tolist()
+    inv = (1.0 / (1.0 - t_arr)).tolist()
+    d = (2.0 + 12.0 * t_arr / (1.0 - t_arr)).tolist()  # 2 + O(h**2) kept apart, as in _shoot
+    src = (h * h / 12.0 * -2.0 * mass * b / (1.0 - t_arr)).tolist()  # s_j = src_j y0_j
+    n = grid.size
+    # y = (1 - t) w for both
+    y0 = [0.0] * n
+    y1 = [0.0] * n
+    y0[start], y0[start + 1] = ghost * (1.0 - t[start]), 1.0 - t[start + 1]
+    jumps = {m: v for m, v in jumps.items() if m >= start + 3}
+    for i in range(start + 1, n - 1):
+        a0 = d[i] * y0[i] - y0[i - 1]
+        a1 = d[i] * y1[i] - y1[i - 1] + 10.0 * src[i] * y0[i] + src[i - 1] * y0[i - 1]
+        if i + 1 in jumps:  # the left limit of F at the breakpoint: (1 - t-) w = a
+            f = (1.0 - t[i + 1]) / (1.0 - t[i + 1] + 0.5 * jumps[i + 1][2])
+            y0[i + 1] = a0 * f
+            y1[i + 1] = (a1 + src[i + 1] * y0[i + 1]) * f
+            continue
+        if i in jumps:
+            a_j, b_j, _ = jumps[i]
+            w = [y0[i - 2] * inv[i - 2], y0[i - 1] * inv[i - 1], y0[i] * inv[i]]
+            a0 += a_j * w[2] + b_j * (3.0 * w[2] - 4.0 * w[1] + w[0]) / (2.0 * h)
+            w = [y1[i - 2] * inv[i - 2], y1[i - 1] * inv[i - 1], y1[i] * inv[i]]
+            a1 += a_j * w[2] + b_j * (3.0 * w[2] - 4.0 * w[1] + w[0]) / (2.0 * h)
+        elif i - 1 in jumps:  # the right limit of F at the breakpoint
+            half = 0.5 * jumps[i - 1][2] * inv[i - 1]
+            a0 += half * y0[i - 1]
+            a1 += half * y1[i - 1]
+        y0[i + 1] = a0
+        y1[i + 1] = a1 + src[i + 1] * a0
+        if abs(a0) > 1e150:
+            scale = 1.0 / abs(a0)
+            y0[:i + 2] = [v * scale for v in y0[:i + 2]]
+            y1[:i + 2] = [v * scale for v in y1[:i + 2]]
+    root = np.sqrt(grid.jacobian[start:]) / (1.0 - t_arr[start:])
+    return root * np.array(y0[start:]), root * np.array(y1[start:])
+
+
 def _double_factorial(n: int) -> float:
     return float(math.prod(range(n, 0, -2))) if n > 0 else 1.0
 
 
-def strength_radius(potential, profile, mass: float, level: float = 1e-2) -> float:
-    """The radius beyond which 2 m r**2 |V - V(inf)| stays below ``level``: the size of the potential."""
+def strength_radius(potential, profile, mass: float, level: float = 1e-2, coulomb: float = 0.0) -> float:
+    """The radius beyond which 2 m r**2 |V - V(inf) - coulomb/r| stays below ``level``: the size of the
+    potential (of its short-range part, with a Coulomb tail's coefficient given)."""
     r = probing.PROBE_RADII
     with np.errstate(all="ignore"):
-        s = 2.0 * mass * r**2 * np.abs(probing._raw(potential, r) - profile.v_infinity)
+        rest = np.abs(probing._raw(potential, r) - profile.v_infinity - coulomb / r)
+        rest = np.where(rest <= 1e-9 * abs(coulomb) / r, 0.0, rest)  # the fitted C's last digits
+        s = 2.0 * mass * r**2 * rest
     s = np.where(np.isfinite(s), s, np.inf)
     strong = np.nonzero(s >= level)[0]
     if strong.size == 0:
@@ -647,21 +777,21 @@ def strength_radius(potential, profile, mass: float, level: float = 1e-2) -> flo
 
 def scattering_length(potential, profile, L: float, mass: float, tol: float,
                       hard_core: float | None = None, boundary_share: float = 1e-3) -> ZeroEnergy:
-    """a_L = -B / (A (2L+1)!! (2L-1)!!) of u0 = A r**(L+1) + B r**(-L) (textbook), refined on grids and radii.
+    """a_L and r_L of the threshold expansion k**(2L+1) cot(delta) = -1/a_L + r_L k**2/2 + ... (textbook).
 
-    u0 is the regular zero-energy solution (:func:`radsolve.core.counting.zero_energy_solution`),
-    integrated on halving grids (Richardson) to a radius R and to 2 R; the
-    estimate is the sum of the last grid change and the change with R.
-    ``tol`` is relative to |a_L|.
+    u0 (regular, E = 0) and u1 = du/dE come from :func:`threshold_solutions` on
+    halving grids (Richardson).  Beyond the potential u0 = A r**(L+1) + B r**(-L),
+    so a_L = -B / (A (2L+1)!! (2L-1)!!); u1 holds the same two powers (A1, B1)
+    besides the energy derivatives of the free solutions, and r_L = N (A1 B - A B1)
+    / (m B**2), N = (2L+1)!! (2L-1)!! (the free solutions' power series, textbook).
+    Both are read at a radius R and at 1.5 R; the estimate is the last grid change
+    plus the change with the radius.  ``tol`` is relative to |a_L|.
     """
-    from radsolve.core.counting import zero_energy_solution
-    from radsolve.core.grids import RadialGrid
-
     Lint = int(round(L))
     size = strength_radius(potential, profile, mass)
+    exponent = 0.0
     if hard_core is not None:
         r_min = float(hard_core)
-        exponent = 1e6  # w = 0 at the first point: the ghost value exp(-(lambda - 1/2) h) underflows
     else:
         r_min = profile.inner_cutoff(L, mass, boundary_share * tol)
         exponent = profile.origin_exponent(L, mass)
@@ -670,7 +800,6 @@ def scattering_length(potential, profile, L: float, mass: float, tol: float,
     if tail.kind != "short":
         raise InputError("a Coulomb tail has no scattering length (the Coulomb-modified effective-range "
                          "expansion is not implemented)", parameter="potential")
-    nu = (L + 1.0, -L)
     norm = _double_factorial(2 * Lint + 1) * _double_factorial(2 * Lint - 1)
     # V beyond R changes B/A by about 2 m int_R^inf |V| r**(2L+2) dr (first order in V; textbook):
     # below a share of tol times the natural size**(2L+1)
@@ -695,66 +824,63 @@ def scattering_length(potential, profile, L: float, mass: float, tol: float,
     step = _coarse_step(potential, profile, span, L, mass, 0.0)
     span = _span(span_min, r_end, step, anchors)
     jumps = [b for b in span.anchors if hard_core is None or b != r_min]
-    orders = (2, 3, 4, 5, 6, 7) if jumps else (4, 6, 8, 10)
+    # Numerov's h**4, h**6 series; breakpoints (corrected, jump_terms) add every whole power from h**4
+    orders = (4, 5, 6, 7, 8) if jumps else (4, 6, 8, 10)
     coarse = span.grid(0)
     picks = [min(int(np.searchsorted(coarse.r, f * radius)), coarse.size - 1) for f in (1.0, 1.5, 2.0)]
     history = []
-    best = est = np.full(3, math.nan)
+    best = est = np.full(4, math.nan)
     grids = 0
+    c_part, d_part = -mass / (2.0 * L + 3.0), mass / (2.0 * L - 1.0)
     for g in range(ZERO_ENERGY_HALVINGS + 1):
         if span.intervals(g) + 1 > MAX_POINTS:
             break
         grid = span.grid(g)
-        i0 = 0
-        if hard_core is not None:
-            i0 = int(np.argmin(np.abs(grid.r - r_min)))
-            grid = RadialGrid(step=grid.step, scale=grid.scale, x=grid.x[i0:], r=grid.r[i0:],
-                              jacobian=grid.jacobian[i0:], schwarzian=grid.schwarzian[i0:], mapping=grid.mapping)
+        i0 = int(np.argmin(np.abs(grid.r - r_min))) if hard_core is not None else 0
         values = potential_on_grid(potential, grid.r, span.anchors) - profile.v_infinity
-        shot = zero_energy_solution(values, grid, L, mass, exponent, nu)
-        # shot.r is grid.r[1:]: the coarse point p is index p * 2**g - i0 - 1 there
-        rows = [p * 2**g - i0 - 1 for p in picks]
-        ab = []
+        ghost = 0.0 if hard_core is not None else math.exp(-(exponent - 0.5) * grid.step)
+        u0, u1 = threshold_solutions(grid, values, L, mass, i0, ghost, jump_terms(potential, grid, jumps, mass))
+        rows = [p * 2**g - i0 for p in picks]
+        r_all = grid.r[i0:]
+        read = []
         for j1, j2 in ((rows[0], rows[1]), (rows[1], rows[2])):
-            r1, r2 = shot.r[j1], shot.r[j2]
+            r1, r2 = r_all[j1], r_all[j2]
             m = np.array([[r1 ** (L + 1), r1 ** (-L)], [r2 ** (L + 1), r2 ** (-L)]])
-            ab.append(np.linalg.solve(m, np.array([shot.u[j1], shot.u[j2]])))
-        (A_in, B_in), (A, B) = ab
-        a_in = -B_in / (A_in * norm) if A_in != 0 else math.inf
-        a_l = -B / (A * norm) if A != 0 else math.inf
-        r_0 = math.nan
-        if Lint == 0 and A != 0 and a_l != 0:
-            # r_0 = 2 int (psi0**2 - u0**2) dr, u0 scaled to psi0 = 1 - r/a beyond the potential
-            # (textbook: Bethe 1949); below the first point u0 ~ 0
-            u0 = -shot.u / (A * a_l)
-            psi = 1.0 - shot.r / a_l
-            r1 = float(shot.r[0])
-            below = r1 - r1**2 / a_l + r1**3 / (3.0 * a_l**2)  # int_0^r1 psi0**2 dr
-            r_0 = 2.0 * (float(np.sum(shot.weights * (psi**2 - u0**2))) - 0.5 * float(shot.weights[0])
-                         * (psi[0] ** 2 - u0[0] ** 2) + below)
-        history.append(np.array([a_l, r_0, a_in]))
+            A, B = np.linalg.solve(m, np.array([u0[j1], u0[j2]]))
+            # beyond the potential u1 = A1 r**(L+1) + B1 r**-L + c A r**(L+3) + d B r**(2-L)
+            # (the E-derivatives of the free solutions' power series, textbook)
+            rest = [u1[j] - c_part * A * rr ** (L + 3) - d_part * B * rr ** (2 - L) for j, rr in ((j1, r1), (j2, r2))]
+            A1, B1 = np.linalg.solve(m, np.array(rest))
+            a_l = -B / (A * norm) if A != 0 else math.inf
+            # k**(2L+1) cot(delta) = N alpha(E) / beta(E) with u = alpha f + beta g, so
+            # r_l = 2 d/d(k**2) of it = N (A1 B - A B1) / (m B**2)
+            r_l = norm * (A1 * B - A * B1) / (mass * B * B) if B != 0 else math.nan
+            read.append((a_l, r_l))
+        (a_in, r_in), (a_l, r_l) = read
+        history.append(np.array([a_l, r_l, a_in, r_in]))
         grids = g + 1
         if len(history) >= 3:
-            # the sums are trapezoid rules in xi: h**2 terms besides Numerov's
-            b_, e_ = _richardson(history, tuple(sorted({2, *orders})) if Lint == 0 else orders)
+            b_, e_ = _richardson(history, orders)
             # past the rounding floor finer grids only add noise (B/A is read off where B r**-L is
             # small beside A r**(L+1)): keep the grid whose estimate was smallest
             def badness(values, errors):
                 return max(errors[0] / max(abs(values[0]), 1e-300),
-                           errors[1] / max(abs(values[1]), size) if Lint == 0 else 0.0)
+                           errors[1] / max(abs(values[1]), size ** (1 - 2 * L)))
 
             if not np.isfinite(est[0]) or badness(b_, e_) <= badness(best, est):
                 best, est = b_, e_
-            else:  # the noise seen beyond the chosen grid belongs in its estimate
+            else:  # past the rounding floor: the noise seen beyond the chosen grid belongs in its estimate
                 est = np.maximum(est, np.abs(b_ - best))
-            if est[0] <= 0.1 * tol * abs(best[0]) and (Lint > 0 or est[1] <= 0.1 * tol * max(abs(best[1]), size)):
+                break
+            if badness(best, est) <= 0.1 * tol:
                 break
     rounding = 1e-14 * np.abs(best)
     radius_error = abs(best[0] - best[2])
+    range_radius_error = abs(best[1] - best[3])
     err = est + rounding
-    r_e = float(best[1]) if Lint == 0 and math.isfinite(best[1]) else None
+    r_e = float(best[1]) if math.isfinite(best[1]) else None
     return ZeroEnergy(length=float(best[0]), error=float(err[0] + radius_error), effective_range=r_e,
-                      effective_range_error=float(err[1]) if r_e is not None else None,
+                      effective_range_error=float(err[1] + range_radius_error) if r_e is not None else None,
                       grid_error=float(est[0]), radius_error=float(radius_error), radius=radius, grids=grids)
 
 
@@ -844,11 +970,24 @@ def _outgoing(L: int, z):
     return z * (-spherical_yn(L, z) + 1j * spherical_jn(L, z))
 
 
-def siegert_mismatch(grid, values, L: float, mass: float, energy: complex, exponent: float, rows) -> complex:
+def _outgoing_coulomb(L: int, eta: complex, z: complex) -> complex:
+    """H+ = G_L + i F_L at complex eta and rho (mpmath: its hypergeometric forms continue analytically)."""
+    import mpmath
+
+    with mpmath.workdps(20):
+        try:
+            return complex(mpmath.coulombg(L, eta, z, maxterms=10**6) + 1j * mpmath.coulombf(L, eta, z, maxterms=10**6))
+        except (mpmath.libmp.NoConvergence, ZeroDivisionError, ValueError):
+            return complex(math.nan, math.nan)  # the pole is then NaN: the methods "disagree", said so
+
+
+def siegert_mismatch(grid, values, L: float, mass: float, energy: complex, exponent: float, rows,
+                     coulomb: float = 0.0) -> complex:
     """Wronskian-type mismatch of u with the outgoing wave at two radii (zero at a resonance pole).
 
     u is integrated outward with Numerov at the complex ``energy`` (measured from
-    V(inf)); the outgoing wave exp(ikr) with Im k < 0 is the Siegert condition.
+    V(inf)); the outgoing wave exp(ikr) with Im k < 0 is the Siegert condition; with
+    a tail ``coulomb``/r the outgoing Coulomb wave H+ = G + i F at eta = m C / k.
     """
     _, q = grid.liouville_coefficients(values, 0, mass, centrifugal=L * (L + 1.0))
     b = grid.jacobian**2
@@ -875,7 +1014,11 @@ def siegert_mismatch(grid, values, L: float, mass: float, energy: complex, expon
     if k.imag > 0:
         k = -k
     Lint = int(round(L))
-    h1, h2 = _outgoing(Lint, k * grid.r[i1]), _outgoing(Lint, k * grid.r[i2])
+    if coulomb:
+        eta = mass * coulomb / k
+        h1, h2 = _outgoing_coulomb(Lint, eta, k * grid.r[i1]), _outgoing_coulomb(Lint, eta, k * grid.r[i2])
+    else:
+        h1, h2 = _outgoing(Lint, k * grid.r[i1]), _outgoing(Lint, k * grid.r[i2])
     return complex((u1 * h2 - u2 * h1) / (abs(u1) * abs(h2) + abs(u2) * abs(h1)))
 
 
@@ -884,16 +1027,14 @@ def siegert_pole(potential, profile, L: float, mass: float, guess: complex, tol:
     """The complex energy E_r - i Gamma/2 (from V(inf)) of a resonance pole near ``guess``.
 
     Secant iterations on :func:`siegert_mismatch` on halving grids, Richardson
-    over the grids; returns (pole, estimate, grids).  Short-range tails only.
+    over the grids; returns (pole, estimate, grids).  Short-range or Coulomb tails.
     """
     exponent = profile.origin_exponent(L, mass)
     e_max = abs(guess) * 2.0
     r_min = profile.inner_cutoff(L, mass, boundary_share * tol)
     k_scale = math.sqrt(2.0 * mass * abs(guess))
     tail = channel_tail(potential, profile, mass, k_scale, k_scale, tol, r_min)
-    if tail.kind != "short":
-        raise InputError("resonance poles are found for tails faster than 1/r**2 only (outgoing Coulomb "
-                         "waves at complex energy are not implemented)", parameter="potential")
+    coulomb = tail.coefficient if tail.kind == "coulomb" else 0.0
     r_end = END_FACTOR * tail.radius
     anchors = [b for b in profile.breakpoints if r_min < b < r_end]
     span = _span(r_min, r_end, 0.1, anchors)
@@ -914,14 +1055,14 @@ def siegert_pole(potential, profile, L: float, mass: float, guess: complex, tol:
         values = potential_on_grid(potential, grid.r, span.anchors) - profile.v_infinity
         rows = (ia * 2**g, ib * 2**g)
         e0, e1 = pole, pole * (1.0 + 1e-4) + 1e-6j * abs(pole)
-        f0 = siegert_mismatch(grid, values, L, mass, e0, exponent, rows)
-        f1 = siegert_mismatch(grid, values, L, mass, e1, exponent, rows)
+        f0 = siegert_mismatch(grid, values, L, mass, e0, exponent, rows, coulomb)
+        f1 = siegert_mismatch(grid, values, L, mass, e1, exponent, rows, coulomb)
         for _ in range(60):
             if f1 == f0:
                 break
             e2 = e1 - f1 * (e1 - e0) / (f1 - f0)
             e0, f0 = e1, f1
-            e1, f1 = e2, siegert_mismatch(grid, values, L, mass, e2, exponent, rows)
+            e1, f1 = e2, siegert_mismatch(grid, values, L, mass, e2, exponent, rows, coulomb)
             if abs(e1 - e0) <= 1e-15 * abs(e1):
                 break
         pole = e1

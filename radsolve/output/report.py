@@ -408,6 +408,20 @@ def transitions_table(tr, unit: str | None = "hartree") -> str:
                      _sci(s.lifetime_s) if s.lifetime_s is not None else "-", status])
     lines += format_columns(["level", f"energy/{unit}", "lifetime/s", "decay"], rows, {1, 2})
     lines.append("")
+    if tr.sum_rules:
+        rows = []
+        for r in tr.sum_rules:
+            def num(v):
+                return "-" if v is None else f"{v:.9f}"
+            rows.append([r["level"], num(r["bound"]), num(r["rydberg_tail"]), num(r["continuum"]), num(r["total"]),
+                         "-" if r["total_error"] is None else f"{r['total_error']:.1e}", num(r["expected"]),
+                         ("ok" if r["converged"] else "NOT CONVERGED") if r["complete"] else "INCOMPLETE: " + r["why"]])
+        lines += format_columns(["level", "f bound", "f beyond nmax", "f continuum", "sum", "estimate",
+                                 "TRK", "status"], rows, {1, 2, 3, 4, 5, 6})
+        lines += _wrap("Oscillator-strength sums of each level: bound partners (emission counted negative), the "
+                       "Rydberg series beyond the computed levels (Coulomb tails), and the continuum integral of "
+                       "df/dE; TRK is the Thomas-Reiche-Kuhn sum dipole_charge^2 m_e/mu.")
+        lines.append("")
     lines += _wrap("f(abs): absorption oscillator strength lower -> upper (electron-mass "
                    "convention); A: spontaneous emission rate; branch: A / sum of A of the upper "
                    "level. Levels degenerate within their error estimates are not connected.")

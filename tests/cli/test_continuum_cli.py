@@ -124,6 +124,9 @@ def test_resonances_command_finds_the_square_well_d_resonance():
     (["resonances", "yukawa", "--window=-1:1"], ["--window", "above the threshold"]),
     (["resonances", "yukawa", "--window", "1"], ["--window", "E1:E2"]),
     (["logderiv", "yukawa", "--energies", "0.1", "--radius", "1", "--ref-param", "Z=2"], ["--reference"]),
+    (["phases", "yukawa", "--energies", "0.1:1:3", "--workers", "0"], ["--workers", "1 to"]),
+    (["photoionization", "coulomb", "--photons", "1", "--workers", "-2"], ["--workers", "1 to"]),
+    (["transitions", "coulomb", "--nmax", "2", "--sum-rule", "5g"], ["--sum-rule", "5g"]),
 ])
 def test_more_bad_input_exits_2(args, words):
     result = invoke(*args)
@@ -143,3 +146,24 @@ def test_scattering_along_the_screening_length():
     a = [r["scattering_length"] for r in rows]
     assert a[1] < a[0] < 0 < a[3] < a[2]
     assert [r["bound_levels"] for r in rows] == [0, 0, 1, 1] and all(r["levinson"] == "agrees" for r in rows)
+
+
+def test_rows_do_not_depend_on_the_worker_count(tmp_path):
+    # 1100 energies make three pieces of the energy grid; serial and two worker processes give the
+    # same rows, bit for bit (the pieces are fixed, not chosen by the worker count)
+    args = ["phases", "yukawa", "--energies", "0.01:3:1100", "--lmax", "1", "--tol", "1e-6", "--format", "csv",
+            "--no-progress"]
+    one = invoke(*args)
+    two = invoke(*args, "--workers", "2")
+    assert one.exit_code == 0 and two.exit_code == 0, (one.stderr, two.stderr)
+    assert one.stdout == two.stdout
+    assert len(one.stdout.splitlines()) > 2200
+    args = ["photoionization", "coulomb", "--photons", "0.6:4:1030", "--format", "csv", "--no-progress"]
+    one, two = invoke(*args, "--workers", "1"), invoke(*args, "--workers", "2")
+    assert one.exit_code == 0 and one.stdout == two.stdout
+
+
+def test_progress_bar_on_request():
+    result = invoke("phases", "yukawa", "--energies", "0.1:2:600", "--progress", "--format", "csv")
+    assert result.exit_code == 0, result.stderr
+    assert "phase shifts" in result.stderr and "600/600" in result.stderr

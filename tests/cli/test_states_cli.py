@@ -148,3 +148,19 @@ def test_wave_hellmann_feynman_rows():
     assert float(_row(result.stdout, "dE/dZ")[3]) == pytest.approx(-0.25, rel=1e-7)
     bad = invoke("wave", "coulomb", "--n", "1", "--l", "0", "--hellmann-feynman", "depth")
     assert bad.exit_code == 2 and "--hellmann-feynman" in bad.stderr and "depth" in bad.stderr
+
+
+def test_transitions_sum_rule_table_and_json():
+    # Thomas-Reiche-Kuhn (textbook): with the electron-proton reduced mass the f of hydrogen 1s sum to
+    # m_e/mu (the f use the electron-mass convention); mu from scipy.constants (CODATA).
+    from scipy.constants import m_e, m_p
+
+    mu = m_e * m_p / (m_e + m_p) / m_e
+    args = ["transitions", "coulomb", "--nmax", "7", "--mass", "electron+proton", "--sum-rule", "1s"]
+    doc = json.loads(invoke(*args, "--format", "json").stdout)
+    (rule,) = doc["sum_rules"]
+    assert rule["level"] == "1s" and rule["complete"]
+    assert rule["expected"] == pytest.approx(1 / mu, rel=1e-12)
+    assert abs(rule["total"] - 1 / mu) < 1e-5 and abs(rule["total"] - 1 / mu) <= rule["total_error"]
+    table = invoke(*args)
+    assert "f continuum" in table.stdout and "TRK" in table.stdout
