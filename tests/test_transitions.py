@@ -258,3 +258,11 @@ def test_short_range_well_sum_rule_with_reduced_mass_and_dipole_charge():
     with pytest.raises(InputError) as err:
         transitions(pot, 3, tol=1e-8, continuum="7q")
     assert err.value.parameter == "continuum"
+
+
+def test_continuum_strength_with_a_relativistic_equation_is_refused_before_solving():
+    # The bound-free strength is computed for Schrodinger levels only: asking it of Dirac
+    # levels must say so (naming the argument), not return a Schrodinger number.
+    with pytest.raises(InputError, match="continuum") as caught:
+        radsolve.transitions(radsolve.potential("coulomb", Z=1), 2, equation="dirac", continuum=True)
+    assert caught.value.parameter == "continuum"

@@ -827,8 +827,8 @@ def transitions(potential, nmax: int, *, mass=None, tol: float = 1e-10, method: 
                          parameter="continuum")
     if (continuum is True or wanted) and equation != SCHRODINGER:
         raise InputError(f"continuum (the bound-free strength and the sum rule) is implemented for "
-                         f"Schrodinger levels only, not {equation}; leave it out or use "
-                         "equation='schrodinger'", parameter="continuum")
+                         f"Schrodinger levels only, not {equation} levels; leave it out or solve the "
+                         "Schrodinger equation", parameter="continuum")
     count = nmax
     for attempt in range(3):
         result = solve(potential, l=list(range(nmax)), count=count, mass=mass, tol=tol,
