@@ -533,6 +533,11 @@ def test_hard_sphere_in_five_dimensions_uses_the_effective_angular_momentum():
     res = phase_shifts(radsolve.formula_potential("0*r"), ENERGIES[:10], l=0, hard_core=a, tol=1e-10, dimension=5)
     exact = np.arctan(spherical_jn(1, K[:10] * a) / spherical_yn(1, K[:10] * a))
     assert np.max(np.abs(_mod_pi(res.phase[0] - exact))) < 1e-9
+    # the three-dimensional cross section formula does not apply: none is given, and asking says why
+    assert "cross_section" not in res.records()[0]
+    with pytest.raises(InputError, match="three dimensions"):
+        res.cross_sections()
+    assert "cross section (" not in res.to_table()
 
 
 def test_a_resonance_keeps_the_label_of_the_level_it_was_while_bound():

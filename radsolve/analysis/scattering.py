@@ -175,6 +175,7 @@ class PhaseShiftResult(ResultProtocol):
     hard_core: float | None
     notes: list = field(default_factory=list)
     js: list | None = None  # j of each row of ``phase`` with spin-orbit, else None
+    dimension: int = 3
 
     @property
     def status(self) -> Outcome:
@@ -190,6 +191,10 @@ class PhaseShiftResult(ResultProtocol):
 
         return np.sqrt(2.0 * unit_system(self.units).kinetic_mass(self.mass) * (self.energies - self.v_infinity))
 
+    @property
+    def _has_cross_sections(self) -> bool:
+        return self.coulomb_phase is None and self.dimension == 3
+
     def cross_sections(self) -> tuple[np.ndarray, np.ndarray]:
         """Elastic partial cross sections sigma_l = 4 pi (2l+1) sin(delta_l)**2 / k**2 (textbook; with
         spin-orbit, 4 pi (2j+1)/2 sin(delta_lj)**2 / k**2, spin-averaged) and their
@@ -201,6 +206,10 @@ class PhaseShiftResult(ResultProtocol):
         if self.coulomb_phase is not None:
             raise InputError("elastic cross sections of a Coulomb tail diverge (Rutherford scattering); "
                              "only the phase shifts are given", parameter="potential")
+        if self.dimension != 3:
+            raise InputError(f"elastic cross sections are given in three dimensions only (these phase shifts "
+                             f"are of dimension {self.dimension}); only the phase shifts are given",
+                             parameter="dimension")
         k = self.wavenumbers
         # spin 1/2 with a spin-orbit term: (2j + 1)/2 per (l, j), summing to 2l + 1 over j (textbook)
         two_l = np.array([2 * l + 1 for l in self.ls] if self.js is None else [j + 0.5 for j in self.js],
@@ -212,7 +221,7 @@ class PhaseShiftResult(ResultProtocol):
     def records(self, unit: str | None = None) -> list[dict[str, Any]]:
         factor = _energy_factor(self.units, unit)
         k = self.wavenumbers
-        partial = self.cross_sections()[0] if self.coulomb_phase is None else None
+        partial = self.cross_sections()[0] if self._has_cross_sections else None
         rows = []
         for i, l in enumerate(self.ls):
             for j, e in enumerate(self.energies):
@@ -221,7 +230,7 @@ class PhaseShiftResult(ResultProtocol):
                        "error_estimate": float(self.error[i, j]), "converged": bool(self.converged[i, j])}
                 if self.coulomb_phase is not None:
                     row["coulomb_phase"] = float(self.coulomb_phase[i, j])
-                else:
+                elif partial is not None:
                     row["cross_section"] = float(partial[i, j])
                 rows.append(row)
         return rows
@@ -232,7 +241,8 @@ class PhaseShiftResult(ResultProtocol):
                 "potential": self.potential, "parameters": self.parameters, "units": self.units,
                 "energy_unit": _unit_name(self.units, unit), "mass": self.mass, "tol": self.tol,
                 "v_infinity": self.v_infinity / _energy_factor(self.units, unit), "tail": self.tail,
-                "hard_core": self.hard_core, "note": MODEL_NOTE, "rows": self.records(unit)}
+                "hard_core": self.hard_core, "dimension": self.dimension, "note": MODEL_NOTE,
+                "rows": self.records(unit)}
 
     def _header(self):
         return [("potential", self.potential), ("l", self.ls), ("energies", int(self.energies.size)),
@@ -249,7 +259,7 @@ class PhaseShiftResult(ResultProtocol):
         length = "bohr" if self.units == "atomic" else "fm"
         if self.coulomb_phase is not None:
             cols += f"  {'sigma_l (rad)':>16}"
-        else:
+        elif self._has_cross_sections:
             cols += f"  {'cross section (' + length + '^2)':>22}"
         lines = head + ["", cols]
         for row in self.records(unit):
@@ -258,7 +268,7 @@ class PhaseShiftResult(ResultProtocol):
                     f"{row['error_estimate']:>8.1e}")
             if "coulomb_phase" in row:
                 text += f"  {row['coulomb_phase']:>16.12f}"
-            else:
+            elif "cross_section" in row:
                 text += f"  {row['cross_section']:>22.10g}"
             lines.append(text + ("" if row["converged"] else "  not converged"))
         lines += ["", f"status: {self.status}; {self.message}", f"note: {MODEL_NOTE}"]
@@ -367,7 +377,7 @@ def phase_shifts(potential, energies, l=0, *, mass=None, tol: float = 1e-8, hard
                             v_infinity=v_inf, energies=e, ls=[c[0] for c in channels], phase=np.array(phase),
                             error=np.array(error), converged=np.array(conv), tail=tail_kind,
                             coulomb_phase=np.array(coul) if coul else None, hard_core=hard_core, notes=notes,
-                            js=[c.j for c in channels] if spin_orbit else None)
+                            js=[c.j for c in channels] if spin_orbit else None, dimension=dimension)
 
 
 # --------------------------------------------------------------------------- scattering parameters
