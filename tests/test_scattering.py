@@ -102,7 +102,8 @@ def test_phase_is_continuous_and_vanishes_at_high_energy():
     (lambda: phase_shifts(radsolve.formula_potential("-1/r**1.5"), [1.0]), "potential", "no matching rule"),
     (lambda: phase_shifts("yukawa", [1.0], tol=0.0), "tol", "tol"),
     (lambda: phase_shifts("yukawa", [1.0], hard_core=-1.0), "hard_core", "radius"),
-    (lambda: phase_shifts("yukawa", [1.0], dimension=2), "dimension", "odd"),
+    (lambda: scattering("yukawa", dimension=2), "dimension", "odd"),
+    (lambda: phase_shifts(radsolve.formula_potential("-1/r + exp(-r)"), [1.0], dimension=2), "dimension", "odd"),
     (lambda: energy_grid(2.0, 1.0, 10), "energies", "inverted"),
 ])
 def test_bad_input_names_the_input(call, parameter, words):
@@ -538,6 +539,30 @@ def test_hard_sphere_in_five_dimensions_uses_the_effective_angular_momentum():
     with pytest.raises(InputError, match="three dimensions"):
         res.cross_sections()
     assert "cross section (" not in res.to_table()
+
+
+def test_hard_disk_and_square_well_in_two_dimensions():
+    # d = 2: L = l - 1/2 and the free waves are sqrt(pi x / 2) (J_l(x), Y_l(x)) (textbook, cylindrical
+    # partial waves).  Hard disk of radius a: tan(delta_l) = J_l(ka) / Y_l(ka).  Square well of depth
+    # V0 and radius R: matching sqrt(r) J_l(K r) inside, tan(delta_l) = (k J_l'(kR) J_l(KR) - K J_l(kR)
+    # J_l'(KR)) / (k Y_l'(kR) J_l(KR) - K Y_l(kR) J_l'(KR)), K = sqrt(k**2 + 2 V0) (textbook).
+    from scipy.special import jv, jvp, yv, yvp
+
+    a, R, V0 = 0.8, 1.3, 2.0
+    k = K[:12]
+    disk = phase_shifts(radsolve.formula_potential("0*r"), ENERGIES[:12], l=[0, 1, 2], hard_core=a, tol=1e-10,
+                        dimension=2)
+    well = phase_shifts(radsolve.formula_potential("-V0*step(R-r)", V0=V0, R=R), ENERGIES[:12], l=[0, 1, 2],
+                        tol=1e-10, dimension=2)
+    assert disk.success and well.success, (disk.message, well.message)
+    q = np.sqrt(k**2 + 2 * V0)
+    for i, l in enumerate((0, 1, 2)):
+        exact_disk = np.arctan(jv(l, k * a) / yv(l, k * a))
+        assert np.max(np.abs(_mod_pi(disk.phase[i] - exact_disk))) < 1e-9, l
+        num = k * jvp(l, k * R) * jv(l, q * R) - q * jv(l, k * R) * jvp(l, q * R)
+        den = k * yvp(l, k * R) * jv(l, q * R) - q * yv(l, k * R) * jvp(l, q * R)
+        assert np.max(np.abs(_mod_pi(well.phase[i] - np.arctan(num / den)))) < 1e-9, l
+    assert "cross_section" not in disk.records()[0]
 
 
 def test_a_resonance_keeps_the_label_of_the_level_it_was_while_bound():

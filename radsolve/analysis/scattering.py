@@ -95,7 +95,8 @@ def _validated_phase_tol(tol) -> float:
     return validated_tol(tol, limits=PHASE_TOL_RANGE)
 
 
-def _setup(potential, l, mass, plugins, units, dimension, hard_core, spin_orbit: bool = False):
+def _setup(potential, l, mass, plugins, units, dimension, hard_core, spin_orbit: bool = False,
+           even_dimensions: bool = False):
     from radsolve.core import probe as probing
     from radsolve.core.inputs import validated_dimension, validated_l
     from radsolve.potentials import as_potential
@@ -103,9 +104,11 @@ def _setup(potential, l, mass, plugins, units, dimension, hard_core, spin_orbit:
 
     ls = validated_l(l)
     dimension = validated_dimension(dimension)
-    if dimension % 2 == 0:
-        raise InputError(f"dimension {dimension}: phase shifts are matched to Riccati-Bessel functions of whole "
-                         "order, so the space dimension must be odd (3, 5, ...)", parameter="dimension")
+    if dimension % 2 == 0 and not even_dimensions:
+        raise InputError(f"dimension {dimension}: the low-energy expansion (scattering length, effective "
+                         "range, Levinson's theorem) differs in even dimensions (logarithms at l = 0) and is "
+                         "implemented for odd ones (3, 5, ...); phase shifts take any dimension >= 2",
+                         parameter="dimension")
     pot = as_potential(potential, plugins)
     system = family_unit_system(getattr(pot, "family", pot), units)
     mu = system.parse_mass(mass)
@@ -118,7 +121,7 @@ def _setup(potential, l, mass, plugins, units, dimension, hard_core, spin_orbit:
         raise InputError(f"spin_orbit was asked for, but potential {pot.name!r} has no spin-orbit term "
                          "(families with one define spin_orbit(r, ...))", parameter="spin_orbit")
     channels = []
-    shift = (dimension - 3) // 2
+    shift = 0.5 * (dimension - 3)  # L = l + (d - 3)/2: half-integer in even dimensions
     for li in ls:
         for j in (([0.5] if li == 0 else [li - 0.5, li + 0.5]) if spin_orbit else [None]):
             cpot = pot.channel(li, j) if hasattr(pot, "channel") else pot
@@ -318,7 +321,7 @@ def phase_shifts(potential, energies, l=0, *, mass=None, tol: float = 1e-8, hard
     spin_orbit : bool
         One phase shift per (l, j = l -+ 1/2) with the family's V_so(r) <l.s>.
     units, plugins, dimension
-        As for :func:`radsolve.solve` (odd dimensions only).
+        As for :func:`radsolve.solve` (any dimension >= 2; a Coulomb tail in odd ones only).
     workers : int, optional
         Worker processes (default 1: this process).  The energies are cut into
         fixed pieces (:mod:`radsolve.analysis.energy_pieces`) whatever the count,
@@ -339,7 +342,7 @@ def phase_shifts(potential, energies, l=0, *, mass=None, tol: float = 1e-8, hard
     tol = _validated_phase_tol(tol)
     workers = validated_workers(workers)
     pot, system, mu, kinetic, channels, hard_core = _setup(potential, l, mass, plugins, units, dimension,
-                                                          hard_core, bool(spin_orbit))
+                                                          hard_core, bool(spin_orbit), even_dimensions=True)
     v_inf = channels[0][3].v_infinity
     if math.isinf(v_inf):
         from radsolve.core.continuum import channel_tail

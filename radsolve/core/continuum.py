@@ -186,11 +186,18 @@ def channel_tail(potential, profile, mass: float, k_min: float, k_max: float, to
     return Tail(kind, coefficient, radius, limited)
 
 
-def _riccati(L: int, x: np.ndarray):
-    """(J, Y) = (x j_L(x), x y_L(x)) from scipy.special."""
-    from scipy.special import spherical_jn, spherical_yn
+def _riccati(L: float, x: np.ndarray):
+    """(J, Y) = (x j_L(x), x y_L(x)) from scipy.special; for a half-integer L (even
+    dimensions) sqrt(pi x / 2) (J_{L+1/2}(x), Y_{L+1/2}(x)), the same functions of any order."""
+    if abs(L - round(L)) < 1e-12:
+        from scipy.special import spherical_jn, spherical_yn
 
-    return x * spherical_jn(L, x), x * spherical_yn(L, x)
+        Lint = int(round(L))
+        return x * spherical_jn(Lint, x), x * spherical_yn(Lint, x)
+    from scipy.special import jv, yv
+
+    scale = np.sqrt(0.5 * math.pi * x)
+    return scale * jv(L + 0.5, x), scale * yv(L + 0.5, x)
 
 
 def _coulomb(L: int, eta: np.ndarray, x: np.ndarray):
@@ -518,9 +525,10 @@ def channel_phases(potential, profile, L: float, l: int, mass: float, energies: 
         return _joined(parts, [low, ~low], energies.size)
     e_max = float(energies.max())
     Lint = int(round(L))
-    if abs(L - Lint) > 1e-12:
-        raise InputError("phase shifts are matched to Riccati-Bessel functions of whole order: the "
-                         "space dimension must be odd (3, 5, ...)", parameter="dimension")
+    whole = abs(L - Lint) <= 1e-12
+    if not whole and integrand is not None:
+        raise InputError("continuum integrals are implemented for odd space dimensions (3, 5, ...)",
+                         parameter="dimension")
     exponent = profile.origin_exponent(L, mass)
     if hard_core is not None:
         r_min = float(hard_core)
@@ -541,6 +549,10 @@ def channel_phases(potential, profile, L: float, l: int, mass: float, energies: 
     if min_radius > tail.radius:
         tail = Tail(tail.kind, tail.coefficient, float(min_radius), tail.limited)
     eta = mass * tail.coefficient / k if tail.kind == "coulomb" else None
+    if eta is not None and not whole:
+        raise InputError("a Coulomb tail in an even space dimension needs Coulomb functions of half-integer "
+                         "order, which are not implemented: use an odd dimension (3, 5, ...)",
+                         parameter="dimension")
     r_end = END_FACTOR * tail.radius
     anchors = [b for b in profile.breakpoints if r_min < b < r_end]
     if hard_core is not None:
@@ -583,8 +595,9 @@ def channel_phases(potential, profile, L: float, l: int, mass: float, energies: 
     spacing = np.minimum(0.5 * math.pi / k, 0.3 * tail.radius)
     rows_a0 = np.clip(np.searchsorted(coarse_r, coarse_r[ra_coarse] + spacing), ra_coarse + 1, last_coarse)
     rows_b0 = np.clip(np.searchsorted(coarse_r, coarse_r[last_coarse] - spacing), ra_coarse, last_coarse - 1)
-    basis_a = _basis(Lint, k, eta, coarse_r[rows_a0], np.full(k.size, coarse_r[ra_coarse]))
-    basis_b = _basis(Lint, k, eta, coarse_r[rows_b0], np.full(k.size, coarse_r[last_coarse]))
+    order = Lint if whole else float(L)
+    basis_a = _basis(order, k, eta, coarse_r[rows_a0], np.full(k.size, coarse_r[ra_coarse]))
+    basis_b = _basis(order, k, eta, coarse_r[rows_b0], np.full(k.size, coarse_r[last_coarse]))
     for g in range(MAX_HALVINGS + 1):
         if span.intervals(g) + 1 > MAX_POINTS:
             break
