@@ -208,6 +208,42 @@ def test_levinson_holds_for_built_in_families(name, params):
     assert res.status is not radsolve.Outcome.FAILED
 
 
+# Every built-in family: Levinson's theorem (Levinson 1949; with a repulsive Coulomb tail, the phase
+# relative to Coulomb waves) holds where it applies, and where it does not (confining potentials: no
+# continuum; attractive Coulomb tails: infinitely many levels) scattering() says why instead of a count.
+_LEVINSON_FAMILIES = {
+    "alkali_model": ({}, "infinitely many"),
+    "cornell": ({"mass": "proton+neutron"}, "confines"),
+    "coulomb": ({}, "infinitely many"),
+    "empty_core": ({}, "infinitely many"),
+    "finite_nucleus": ({}, "infinitely many"),
+    "flat_core": ({}, "infinitely many"),
+    "harmonic": ({}, "confines"),
+    "linear": ({}, "confines"),
+    "rytova_keldysh": ({}, "infinitely many"),
+    "woods_saxon": ({"mass": "neutron"}, None),
+    "yukawa": ({}, None),
+}
+
+
+def test_every_built_in_family_is_covered_by_the_levinson_table():
+    assert set(_LEVINSON_FAMILIES) == set(radsolve.families())
+
+
+@pytest.mark.parametrize("name", sorted(_LEVINSON_FAMILIES))
+def test_levinson_holds_or_says_why_not_for_every_built_in_family(name):
+    kwargs, refusal = _LEVINSON_FAMILIES[name]
+    settings = [{}] + ([{"A": 16, "depth": 40}, {"A": 40, "coulomb_Z": 20}] if name == "woods_saxon" else [])
+    for params in settings:
+        extra = dict(kwargs) | ({"mass": "proton"} if "coulomb_Z" in params else {})
+        if refusal is not None:
+            with pytest.raises(InputError, match=refusal):
+                scattering(radsolve.potential(name, **params), l=[0, 1], tol=1e-6, **extra)
+            continue
+        res = scattering(radsolve.potential(name, **params), l=[0, 1, 2], tol=1e-6, **extra)
+        assert all(w.levinson == "agrees" for w in res.waves), (name, params, res.message)
+
+
 def test_levinson_along_a_yukawa_sweep_through_the_critical_screening():
     # The 1s level of -exp(-r/D)/r binds for D > 0.8399 bohr (Rogers, Graboske & Harwood, Phys.
     # Rev. A 1, 1577 (1970); from memory, 4 digits): delta_0(0) jumps from 0 to pi there and the
