@@ -64,10 +64,10 @@ def final_grid_matrices(nmax: int, tol: float):
     seen = []
     original = fd.FiniteDifference.levels
 
-    def record(self, indices, guesses=None, peaks=None, precision=None):
+    def record(self, indices, guesses=None, peaks=None, precision=None, **hints):
         d, e, _ = self._cached_matrix()
         seen.append((d.copy(), e.copy(), list(indices)))
-        return original(self, indices, guesses, peaks, precision)
+        return original(self, indices, guesses, peaks, precision, **hints)
 
     fd.FiniteDifference.levels = record
     finals = []
