@@ -71,6 +71,8 @@ def self_consistent(base: type, channel) -> type:
             self._rel_reference = float(np.median((eff0 - values)[ok])) if np.any(ok) else 0.0
             self._rel_lowest = channel.lowest_allowed(self._rel_parts) - self._rel_reference
             self._rel_slopes = type(self)._rel_known_slopes
+            #: the state of each level at the last W its root search evaluated: (W, u)
+            self._rel_states: dict = {}
 
         def _rel_effective(self, w: float) -> np.ndarray:
             values = channel.effective(w, self._rel_parts, self._rel_r)
@@ -85,10 +87,11 @@ def self_consistent(base: type, channel) -> type:
             return base(grid, values, l, mass, inner, lam, cent)
 
         def _rel_base_energy(self, energy: float, k: int) -> float:
-            solver = self._rel_at(energy)
-            if hasattr(solver, "energies"):
-                return float(solver.energies([k], guesses=[energy])[0])
-            return float(solver.levels([k], guesses=[energy])[0][0])
+            # the state comes almost free with the value: kept for levels() (a root is a step
+            # from the last W evaluated, far closer than the state can tell)
+            values, u = self._rel_at(energy).levels([k], guesses=[energy], precision=[np.inf])
+            self._rel_states[k] = (energy, u[0])
+            return float(values[0])
 
         def count_below(self, energy: float) -> int:
             if energy == 0.0:
@@ -151,8 +154,14 @@ def self_consistent(base: type, channel) -> type:
             indices = list(indices)
             energies = self.energies(indices, guesses)
             rows = []
+            settled = 10.0 * base.relative_rounding(self.grid.size)
             for k, e in zip(indices, energies):
-                _, u = self._rel_at(float(e)).levels([k], guesses=[float(e)])
+                last = self._rel_states.get(k)
+                if last is not None and abs(last[0] - e) <= settled * max(abs(e), 1e-300):
+                    rows.append(last[1])
+                    continue
+                # only the state is taken here (the energy is the root's): no bisection to polish a value
+                _, u = self._rel_at(float(e)).levels([k], guesses=[float(e)], precision=[np.inf])
                 rows.append(u[0])
             return energies, np.array(rows)
 
