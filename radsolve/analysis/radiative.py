@@ -519,15 +519,7 @@ def transitions_from(result, nmax: int | None = None, *, dipole_charge: float = 
                          "solve without spin_orbit")
     if nmax is None:
         nmax = max(lev.n for lev in levels)
-    filled = _occupied_labels(occupied)
-    known = {lev.label for lev in levels}
-    unknown = [x for x in filled if x not in known]
-    if unknown:
-        raise InputError(f"occupied: no computed level {unknown[0]!r}; computed levels: "
-                         + ", ".join(lev.label for lev in levels), parameter="occupied")
-    levels = [lev for lev in levels if lev.label not in filled]
-    if not levels:
-        raise InputError("occupied: every computed level is marked occupied", parameter="occupied")
+    levels, filled = unoccupied_levels(levels, occupied)
     profiles: dict[int, Any] = {}
     for lev in levels:
         if lev.l not in profiles:
@@ -540,30 +532,12 @@ def transitions_from(result, nmax: int | None = None, *, dipole_charge: float = 
         by_l.setdefault(lev.l, []).append(lev)
 
     def partners(lev):
-        lower, degenerate = [], []
-        for c in (lev.l - 1, lev.l + 1):
-            for other in by_l.get(c, []):
-                if _degenerate(lev, other):
-                    degenerate.append(other)
-                elif other.energy < lev.energy:
-                    lower.append(other)
-        return lower, degenerate
+        return lower_and_degenerate(lev, [o for c in (lev.l - 1, lev.l + 1) for o in by_l.get(c, [])])
 
-    # The levels asked for, then every level below one of them that they reach.
-    chosen = [lev for lev in levels if lev.n <= nmax]
-    seen = {id(lev) for lev in chosen}
-    queue = list(chosen)
-    while queue:
-        lev = queue.pop()
-        for other in partners(lev)[0]:
-            if id(other) not in seen:
-                seen.add(id(other))
-                chosen.append(other)
-                queue.append(other)
+    chosen = levels_reached(levels, nmax, lambda lev: partners(lev)[0])
     chosen.sort(key=lambda x: (x.n, x.l))
 
     k = _constants()
-    alpha, t_au = k["alpha"], k["time_au"]
     ground_energy = min(lev.energy for lev in levels)
     asked = result.bound_counts
     lines: list[Line] = []
@@ -598,47 +572,105 @@ def transitions_from(result, nmax: int | None = None, *, dipole_charge: float = 
             omega = lev.energy - other.energy
             omega_err = lev.error_estimate + other.error_estimate
             l_big = max(lev.l, other.l)
-            S = l_big * d_val**2
-            g_up, g_low = 2 * lev.l + 1, 2 * other.l + 1
-            f = (2.0 / 3.0) * omega * S / g_low
-            A_au = (4.0 / 3.0) * alpha**3 * omega**3 * S / g_up
-            A = A_au / t_au
-            rel_d = 2.0 * d_err / abs(d_val) if d_val else math.inf
-            rel_w = omega_err / omega
-            energy_J = omega * k["hartree_J"]
-            own.append(Line(
-                upper=lev.label, lower=other.label, energy=float(omega), energy_error=float(omega_err),
-                radial_integral=Estimate(d_val, d_err, "bohr", d.order, d.converged),
-                line_strength=float(S), oscillator_strength=float(f),
-                oscillator_strength_error=float(f * (rel_w + rel_d)) if f else float(omega * l_big * 2 * abs(d_val) * d_err),
-                einstein_A=float(A), einstein_A_error=float(A * (3.0 * rel_w + rel_d)) if A else 0.0,
-                wavelength_nm=float(k["h"] * k["c"] / energy_J * 1e9),
-                frequency_hz=float(energy_J / k["h"]),
-            ))
-        total = math.fsum(x.einstein_A for x in own)
-        total_err = math.fsum(x.einstein_A_error for x in own)
-        branching: dict[str, float] = {}
-        if own and total > 0:
-            for x in own:
-                x.branching_ratio = x.einstein_A / total
-            for x in sorted(own, key=lambda y: -y.einstein_A):
-                branching[x.lower] = x.branching_ratio
-        metastable = not own
-        is_ground = lev.energy == ground_energy
+            own.append(e1_line(lev, other, omega, omega_err, Estimate(d_val, d_err, "bohr", d.order, d.converged),
+                               l_big * d_val**2, 2 * lev.l + 1, 2 * other.l + 1, k,
+                               no_f_error=float(omega * l_big * 2 * abs(d_val) * d_err)))
         if not complete:
             all_ok = False
             notes.append(Note("lifetime_incomplete", f"{lev.label}: a lower level with l = {lev.l - 1} or "
                               f"{lev.l + 1} may be missing from the computed set, so its lifetime is an upper "
                               "bound", lev.label))
-        states.append(StateDecay(
-            label=lev.label, n=lev.n, l=lev.l, energy=lev.energy, energy_error=lev.error_estimate,
-            total_A=float(total),
-            lifetime_s=None if metastable or total <= 0 else float(1.0 / total),
-            lifetime_error_s=None if metastable or total <= 0 else float(total_err / total**2),
-            metastable=metastable, ground=bool(is_ground),
-            branching=branching, degenerate_with=[x.label for x in degenerate], complete=complete,
-        ))
+        states.append(decay_of(lev, own, degenerate, complete, ground=lev.energy == ground_energy))
         lines.extend(own)
+    return assembled_transitions(lines, states, result, nmax, dipole_charge, chosen, filled, notes, all_ok)
+
+
+def e1_line(upper, lower, omega: float, omega_err: float, radial: Estimate, strength: float, g_up: float,
+            g_low: float, k: dict, no_f_error: float = math.inf) -> Line:
+    """One E1 line from its radial dipole (e bohr, with its estimate) and line strength S:
+    f = (2/3) omega S / g_lower, A = (4/3) alpha**3 omega**3 S / g_upper (atomic units,
+    textbook), their estimates from those of omega and the dipole; ``no_f_error`` stands
+    for f's estimate where f is 0."""
+    d_val, d_err = radial.value, radial.error
+    f = (2.0 / 3.0) * omega * strength / g_low
+    rate = (4.0 / 3.0) * k["alpha"] ** 3 * omega**3 * strength / g_up / k["time_au"]
+    rel_d = 2.0 * d_err / abs(d_val) if d_val else math.inf
+    rel_w = omega_err / omega
+    energy_J = omega * k["hartree_J"]
+    return Line(
+        upper=upper.label, lower=lower.label, energy=float(omega), energy_error=float(omega_err),
+        radial_integral=radial, line_strength=float(strength), oscillator_strength=float(f),
+        oscillator_strength_error=float(f * (rel_w + rel_d)) if f else no_f_error,
+        einstein_A=float(rate), einstein_A_error=float(rate * (3.0 * rel_w + rel_d)) if rate else 0.0,
+        wavelength_nm=float(k["h"] * k["c"] / energy_J * 1e9), frequency_hz=float(energy_J / k["h"]))
+
+
+def decay_of(level, own: list, degenerate: list, complete: bool, ground: bool, j=None) -> StateDecay:
+    """The decay of ``level`` by its lines ``own`` (their branching ratios are set here)."""
+    total = math.fsum(x.einstein_A for x in own)
+    total_err = math.fsum(x.einstein_A_error for x in own)
+    branching: dict[str, float] = {}
+    if own and total > 0:
+        for x in own:
+            x.branching_ratio = x.einstein_A / total
+        for x in sorted(own, key=lambda y: -y.einstein_A):
+            branching[x.lower] = x.branching_ratio
+    metastable = not own
+    return StateDecay(
+        label=level.label, n=level.n, l=level.l, energy=level.energy, energy_error=level.error_estimate,
+        total_A=float(total), lifetime_s=None if metastable or total <= 0 else float(1.0 / total),
+        lifetime_error_s=None if metastable or total <= 0 else float(total_err / total**2),
+        metastable=metastable, ground=bool(ground), branching=branching,
+        degenerate_with=[x.label for x in degenerate], complete=complete, **({} if j is None else {"j": j}))
+
+
+def lower_and_degenerate(level, others) -> tuple[list, list]:
+    """(the ``others`` below ``level``, those degenerate with it): its possible E1 partners split."""
+    lower, degenerate = [], []
+    for other in others:
+        if _degenerate(level, other):
+            degenerate.append(other)
+        elif other.energy < level.energy:
+            lower.append(other)
+    return lower, degenerate
+
+
+def levels_reached(levels: list, nmax: int, lower_of) -> list:
+    """The levels with n <= nmax, then every level below one of them that a line reaches
+    (``lower_of(level)``: its lower E1 partners), each once."""
+    chosen = [lev for lev in levels if lev.n <= nmax]
+    seen = {id(lev) for lev in chosen}
+    queue = list(chosen)
+    while queue:
+        for other in lower_of(queue.pop()):
+            if id(other) not in seen:
+                seen.add(id(other))
+                chosen.append(other)
+                queue.append(other)
+    return chosen
+
+
+def unoccupied_levels(levels: list, occupied) -> tuple[list, list[str]]:
+    """(the levels no core electron fills, the labels filled); InputError for a label not computed
+    or when every level is filled."""
+    filled = _occupied_labels(occupied)
+    known = {lev.label for lev in levels}
+    unknown = [x for x in filled if x not in known]
+    if unknown:
+        raise InputError(f"occupied: no computed level {unknown[0]!r}; computed levels: "
+                         + ", ".join(lev.label for lev in levels), parameter="occupied")
+    levels = [lev for lev in levels if lev.label not in filled]
+    if not levels:
+        raise InputError("occupied: every computed level is marked occupied", parameter="occupied")
+    return levels, filled
+
+
+def assembled_transitions(lines, states, result, nmax, dipole_charge, chosen, filled, notes, all_ok,
+                          equation: str = "schrodinger") -> "TransitionResult":
+    """The :class:`TransitionResult` of lines and states, with the notes and status every
+    table carries (occupied levels, lower levels added, unconverged integrals, the solve's
+    own verdict, incomplete lifetimes); shared by the Schrodinger and Dirac tables."""
+
     if filled:
         notes.append(Note("occupied", "treated as occupied (no line ends on them): " + ", ".join(filled)))
     extra = [lev.label for lev in chosen if lev.n > nmax]
@@ -657,7 +689,7 @@ def transitions_from(result, nmax: int | None = None, *, dipole_charge: float = 
         outcomes.append(Outcome.INCOMPLETE)
     return TransitionResult(lines=lines, states=states, result=result, nmax=int(nmax),
                             dipole_charge=float(dipole_charge), status=worst(outcomes),
-                            notes=tuple(notes), occupied=filled)
+                            notes=tuple(notes), occupied=filled, equation=equation)
 
 
 def _rydberg_tail(points: list[tuple[float, float]]) -> tuple[float, float]:

@@ -446,29 +446,9 @@ class RelativisticWave:
 
     def save(self, path):
         """Write to ``path`` in the format its extension names (.csv, .json, .npz)."""
-        import json
-        from pathlib import Path
+        from radsolve.core.wavefunctions import save_export
 
-        from radsolve.core.serialize import plain
-        from radsolve.core.wavefunctions import export_format
-
-        path = Path(path)
-        fmt = export_format(path)
-        folder = path.parent if str(path.parent) else Path(".")
-        if not folder.is_dir():
-            raise InputError(f"{str(path)!r}: folder {str(folder)!r} does not exist")
-        try:
-            if fmt == "csv":
-                path.write_text(self.to_csv(), encoding="utf-8")
-            elif fmt == "json":
-                path.write_text(self.to_json(), encoding="utf-8")
-            else:
-                with open(path, "wb") as handle:
-                    np.savez(handle, metadata=np.array(json.dumps(plain(self.metadata()))), r=self.r,
-                             **self.columns)
-        except OSError as exc:
-            raise InputError(f"{str(path)!r}: cannot write: {exc.strerror}") from None
-        return path
+        return save_export(path, self.to_csv, self.to_json, self.metadata(), {"r": self.r, **self.columns})
 
 
 @dataclass(repr=False)
@@ -743,9 +723,9 @@ def dirac_transitions_from(result, nmax: int | None = None, *, dipole_charge: fl
     Levels that agree within 10x their summed estimates (2s1/2 and 2p1/2 of a point charge) are
     degenerate: no line.  The completeness rule of the Schrodinger tables holds per (l, j) channel.
     """
-    from radsolve.analysis.radiative import (Line, StateDecay, TransitionResult, _check_dipole_charge,
-                                              _constants, _degenerate, _occupied_labels)
-    from radsolve.core.protocol import worst
+    from radsolve.analysis.radiative import (_check_dipole_charge, _constants, _degenerate, assembled_transitions,
+                                              decay_of, e1_line, levels_reached, lower_and_degenerate,
+                                              unoccupied_levels)
     from radsolve.core.result import certificate_key
 
     _check_dipole_charge(dipole_charge)
@@ -758,15 +738,7 @@ def dirac_transitions_from(result, nmax: int | None = None, *, dipole_charge: fl
         raise InputError(f"potential {result.potential.name!r} has no bound level to connect ({result.message})")
     if nmax is None:
         nmax = max(lev.n for lev in levels)
-    filled = _occupied_labels(occupied)
-    known = {lev.label for lev in levels}
-    unknown = [x for x in filled if x not in known]
-    if unknown:
-        raise InputError(f"occupied: no computed level {unknown[0]!r}; computed levels: "
-                         + ", ".join(lev.label for lev in levels), parameter="occupied")
-    levels = [lev for lev in levels if lev.label not in filled]
-    if not levels:
-        raise InputError("occupied: every computed level is marked occupied", parameter="occupied")
+    levels, filled = unoccupied_levels(levels, occupied)
     by_channel: dict = {key: [] for key in result.bound_counts}
     for lev in levels:
         by_channel.setdefault(certificate_key(lev.l, lev.j), []).append(lev)
@@ -778,28 +750,13 @@ def dirac_transitions_from(result, nmax: int | None = None, *, dipole_charge: fl
                     yield l2, j2
 
     def partners(lev):
-        lower, degenerate = [], []
-        for l2, j2 in partner_channels(lev):
-            for other in by_channel.get(certificate_key(l2, j2), []):
-                if _degenerate(lev, other):
-                    degenerate.append(other)
-                elif other.energy < lev.energy:
-                    lower.append(other)
-        return lower, degenerate
+        return lower_and_degenerate(lev, [o for l2, j2 in partner_channels(lev)
+                                          for o in by_channel.get(certificate_key(l2, j2), [])])
 
-    chosen = [lev for lev in levels if lev.n <= nmax]
-    seen = {id(lev) for lev in chosen}
-    queue = list(chosen)
-    while queue:
-        for other in partners(queue.pop())[0]:
-            if id(other) not in seen:
-                seen.add(id(other))
-                chosen.append(other)
-                queue.append(other)
+    chosen = levels_reached(levels, nmax, lambda lev: partners(lev)[0])
     chosen.sort(key=lambda x: (x.n, x.l, x.j))
 
     k = _constants()
-    alpha, t_au = k["alpha"], k["time_au"]
     lowest = min(levels, key=lambda x: x.energy)  # with the levels degenerate with it, the ground
     asked = result.bound_counts
     lines, states, notes = [], [], []
@@ -825,59 +782,16 @@ def dirac_transitions_from(result, nmax: int | None = None, *, dipole_charge: fl
             radial = radial_e1(result, lev, other)
             all_ok &= radial.converged
             d_val, d_err = dipole_charge * radial.value, dipole_charge * radial.error
-            omega = lev.energy - other.energy
-            omega_err = lev.error_estimate + other.error_estimate
-            strength = _angular(lev, other) * d_val**2
-            g_up, g_low = 2 * lev.j + 1, 2 * other.j + 1
-            f = (2.0 / 3.0) * omega * strength / g_low
-            rate = (4.0 / 3.0) * alpha**3 * omega**3 * strength / g_up / t_au
-            rel_d = 2.0 * d_err / abs(d_val) if d_val else math.inf
-            rel_w = omega_err / omega
-            energy_J = omega * k["hartree_J"]
-            own.append(Line(
-                upper=lev.label, lower=other.label, energy=float(omega), energy_error=float(omega_err),
-                radial_integral=Estimate(d_val, d_err, "bohr", radial.order, radial.converged),
-                line_strength=float(strength), oscillator_strength=float(f),
-                oscillator_strength_error=float(f * (rel_w + rel_d)) if f else math.inf,
-                einstein_A=float(rate), einstein_A_error=float(rate * (3.0 * rel_w + rel_d)) if rate else 0.0,
-                wavelength_nm=float(k["h"] * k["c"] / energy_J * 1e9), frequency_hz=float(energy_J / k["h"])))
-        total = math.fsum(x.einstein_A for x in own)
-        total_err = math.fsum(x.einstein_A_error for x in own)
-        branching = {}
-        if own and total > 0:
-            for x in own:
-                x.branching_ratio = x.einstein_A / total
-            for x in sorted(own, key=lambda y: -y.einstein_A):
-                branching[x.lower] = x.branching_ratio
-        metastable = not own
+            own.append(e1_line(lev, other, lev.energy - other.energy, lev.error_estimate + other.error_estimate,
+                               Estimate(d_val, d_err, "bohr", radial.order, radial.converged),
+                               _angular(lev, other) * d_val**2, 2 * lev.j + 1, 2 * other.j + 1, k))
         if not complete:
             all_ok = False
             notes.append(Note("lifetime_incomplete", f"{lev.label}: a lower level in a channel l = {lev.l - 1} "
                               f"or {lev.l + 1} may be missing from the computed set, so its lifetime is an "
                               "upper bound", lev.label))
-        states.append(StateDecay(
-            label=lev.label, n=lev.n, l=lev.l, energy=lev.energy, energy_error=lev.error_estimate,
-            total_A=float(total), lifetime_s=None if metastable or total <= 0 else float(1.0 / total),
-            lifetime_error_s=None if metastable or total <= 0 else float(total_err / total**2),
-            metastable=metastable, ground=bool(lev is lowest or _degenerate(lev, lowest)), branching=branching,
-            degenerate_with=[x.label for x in degenerate], complete=complete, j=lev.j))
+        states.append(decay_of(lev, own, degenerate, complete, ground=lev is lowest or _degenerate(lev, lowest),
+                               j=lev.j))
         lines.extend(own)
-    if filled:
-        notes.append(Note("occupied", "treated as occupied (no line ends on them): " + ", ".join(filled)))
-    extra = [lev.label for lev in chosen if lev.n > nmax]
-    if extra:
-        notes.append(Note("lower_levels_added", "included as lower levels of n <= nmax: " + ", ".join(extra)))
-    unconverged = sorted({x.upper + "->" + x.lower for x in lines if not x.radial_integral.converged})
-    if unconverged:
-        notes.append(Note("not_converged", "radial integrals NOT CONVERGED: " + ", ".join(unconverged[:8]),
-                          ", ".join(unconverged)))
-    if not result.success:
-        notes.append(Note("solve", result.message))
-    outcomes = [result.status]
-    if unconverged or not all_ok:
-        outcomes.append(Outcome.NOT_CONVERGED)
-    if not all(st.complete for st in states):
-        outcomes.append(Outcome.INCOMPLETE)
-    return TransitionResult(lines=lines, states=states, result=result, nmax=int(nmax),
-                            dipole_charge=float(dipole_charge), status=worst(outcomes),
-                            notes=tuple(notes), occupied=filled, equation="dirac")
+    return assembled_transitions(lines, states, result, nmax, dipole_charge, chosen, filled, notes, all_ok,
+                                 equation="dirac")

@@ -513,29 +513,40 @@ class Wavefunction:
         InputError
             For another extension or a folder that does not exist.
         """
-        path = Path(path)
-        fmt = export_format(path)
-        folder = path.parent if str(path.parent) else Path(".")
-        if not folder.is_dir():
-            raise InputError(f"{str(path)!r}: folder {str(folder)!r} does not exist")
-        try:
-            if fmt == "csv":
-                path.write_text(self.to_csv(), encoding="utf-8")
-            elif fmt == "json":
-                path.write_text(self.to_json(), encoding="utf-8")
-            else:
-                from radsolve.core.serialize import plain as plain_data
+        arrays = {"r": self.r, "u": self.u, "u_error": self.u_error, "R": self.R, "R_error": self.R_error}
+        if self.weights is not None:
+            arrays["weights"] = self.weights
+        return save_export(path, self.to_csv, self.to_json, self.metadata(), arrays)
 
-                arrays = {"r": self.r, "u": self.u, "u_error": self.u_error, "R": self.R,
-                          "R_error": self.R_error}
-                if self.weights is not None:
-                    arrays["weights"] = self.weights
-                meta = json.dumps(plain_data(self.metadata()), allow_nan=False)
-                with open(path, "wb") as handle:
-                    np.savez(handle, metadata=np.array(meta), **arrays)
-        except OSError as exc:
-            raise InputError(f"{str(path)!r}: cannot write: {exc.strerror}") from None
-        return path
+
+def save_export(path, to_csv, to_json, metadata: dict, arrays: dict) -> Path:
+    """Write a state to ``path`` in the format its extension names: ``to_csv()`` or
+    ``to_json()`` text, or an .npz of ``arrays`` with ``metadata`` as JSON.
+
+    Raises
+    ------
+    InputError
+        For another extension, a folder that does not exist, or a file that cannot be written.
+    """
+    from radsolve.core.serialize import plain as plain_data
+
+    path = Path(path)
+    fmt = export_format(path)
+    folder = path.parent if str(path.parent) else Path(".")
+    if not folder.is_dir():
+        raise InputError(f"{str(path)!r}: folder {str(folder)!r} does not exist")
+    try:
+        if fmt == "csv":
+            path.write_text(to_csv(), encoding="utf-8")
+        elif fmt == "json":
+            path.write_text(to_json(), encoding="utf-8")
+        else:
+            meta = json.dumps(plain_data(metadata), allow_nan=False)
+            with open(path, "wb") as handle:
+                np.savez(handle, metadata=np.array(meta), **arrays)
+    except OSError as exc:
+        raise InputError(f"{str(path)!r}: cannot write: {exc.strerror}") from None
+    return path
 
 
 def export_format(path) -> str:
