@@ -110,8 +110,10 @@ def test_dirac_transitions_json_csv_and_command_line(tmp_path):
     assert table.exit_code == 0 and "2p3/2" in table.stdout and "length form" in table.stdout
     csv_run = invoke("transitions", "coulomb", "--nmax", 2, "--equation", "dirac", "--format", "csv")
     assert csv_run.stdout.startswith("# Note: model calculation (Dirac")
-    refused = invoke("transitions", "coulomb", "--nmax", 2, "--equation", "klein-gordon")
-    assert refused.exit_code == 2 and "--equation" in refused.stderr and "Traceback" not in refused.stderr
+    spin_zero = invoke("transitions", "coulomb", "--nmax", 2, "--equation", "klein-gordon")
+    assert spin_zero.exit_code == 0 and "Klein-Gordon" in spin_zero.stdout  # see tests/test_klein_gordon_e1.py
+    refused = invoke("transitions", "alkali_model", "--nmax", 3, "--equation", "klein-gordon")
+    assert refused.exit_code == 2 and "l-dependent" in refused.stderr and "Traceback" not in refused.stderr
 
 
 # ------------------------------------------------------------------ observables of relativistic states

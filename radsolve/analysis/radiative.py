@@ -78,6 +78,19 @@ DIRAC_MODEL_NOTE = ("model calculation: Dirac levels of one electron, electric-d
                     "compilations")
 
 
+KLEIN_GORDON_MODEL_NOTE = ("model calculation: Klein-Gordon (spin-0) levels, electric-dipole only in the "
+                           "long-wavelength limit; for rates used in diagnostics or safety work use evaluated "
+                           "compilations")
+
+
+def klein_gordon_conventions() -> dict[str, str]:
+    """CONVENTIONS of the Klein-Gordon E1 tables: the mixed-density dipole named."""
+    from radsolve.analysis.relativistic import KG_GAUGE
+
+    return dict(CONVENTIONS, radial_integral="R = integral of u_u u_l r (W_u + W_l + 2 mc^2 - 2 V)/(2 mc^2) dr, "
+                "bohr; u normalized with the charge density, both > 0 as r -> 0", gauge=KG_GAUGE)
+
+
 def dirac_conventions() -> dict[str, str]:
     """CONVENTIONS of the Dirac E1 tables: j levels, the gauge named."""
     from radsolve.analysis.relativistic import GAUGE
@@ -257,6 +270,9 @@ class TransitionResult(ResultProtocol):
         if self.equation == "dirac":
             return ("model calculation (Dirac levels of one electron, E1 only, long-wavelength length form); "
                     "for rates used in diagnostics or safety work, use evaluated data compilations.")
+        if self.equation == "klein-gordon":
+            return ("model calculation (Klein-Gordon spin-0 levels, E1 only, long-wavelength length form); "
+                    "for rates used in diagnostics or safety work, use evaluated data compilations.")
         return ("model calculation (nonrelativistic, spinless, E1 only); for rates used in "
                 "diagnostics or safety work, use evaluated data compilations.")
 
@@ -369,8 +385,10 @@ class TransitionResult(ResultProtocol):
             "status": str(self.status),
             "message": self.message,
             "notes": [n.to_dict() for n in self.notes],
-            "conventions": dict(CONVENTIONS) if self.equation != "dirac" else dirac_conventions(),
-            "note": MODEL_NOTE if self.equation != "dirac" else DIRAC_MODEL_NOTE,
+            "conventions": {"dirac": dirac_conventions, "klein-gordon": klein_gordon_conventions}.get(
+                self.equation, lambda: dict(CONVENTIONS))(),
+            "note": {"dirac": DIRAC_MODEL_NOTE, "klein-gordon": KLEIN_GORDON_MODEL_NOTE}.get(self.equation,
+                                                                                            MODEL_NOTE),
             "lines": [x.to_dict(factor) for x in self.lines],
             "states": [s.to_dict(factor) for s in self.states],
             **({"sum_rules": [dict(r) for r in self.sum_rules]} if self.sum_rules else {}),
@@ -509,6 +527,10 @@ def transitions_from(result, nmax: int | None = None, *, dipole_charge: float = 
         from radsolve.analysis.relativistic import dirac_transitions_from
 
         return dirac_transitions_from(result, nmax, dipole_charge=dipole_charge, occupied=occupied)
+    if getattr(result, "equation", "schrodinger") == "klein-gordon":
+        from radsolve.analysis.relativistic import klein_gordon_transitions_from
+
+        return klein_gordon_transitions_from(result, nmax, dipole_charge=dipole_charge, occupied=occupied)
     check_atomic_3d(result, "radiative transitions")
     levels = list(result.levels)
     if not levels:
@@ -831,7 +853,9 @@ def transitions(potential, nmax: int, *, mass=None, tol: float = 1e-10, method: 
     equation : str
         ``"schrodinger"`` (default) or ``"dirac"``: levels (n, l, j) with g = 2j + 1, radial integrals
         of G G + F F in the long-wavelength length form (see
-        :func:`radsolve.analysis.relativistic.dirac_transitions_from`).  ``"klein-gordon"`` is refused.
+        :func:`radsolve.analysis.relativistic.dirac_transitions_from`); ``"klein-gordon"``: spin-0
+        levels (n, l), the dipole of the charge-normalized states with the weight
+        (W_u + W_l + 2 mc^2 - 2 V)/(2 mc^2) (see ``klein_gordon_transitions_from``).
     continuum : bool, "all" or sequence of str
         Also the bound-free oscillator strength of each level (True or ``"all"``) or
         of the levels named (``"1s,2p"`` or a list), and the Thomas-Reiche-Kuhn check
@@ -845,9 +869,7 @@ def transitions(potential, nmax: int, *, mass=None, tol: float = 1e-10, method: 
     from radsolve.core.spectrum import solve
 
     equation = validated_equation(equation)
-    if equation not in (SCHRODINGER, "dirac"):
-        raise InputError(f"E1 tables of {equation} levels are not implemented (the spin-0 transition "
-                         "current is not); equation must be 'schrodinger' or 'dirac'", parameter="equation")
+
     nmax = _check_nmax(nmax)
     _check_dipole_charge(dipole_charge)  # before anything is solved
     _occupied_labels(occupied)

@@ -251,12 +251,15 @@ def _on(r_from, y_from, r_to):
 #: The gauge and limit of every Dirac E1 quantity, written into docs and output.
 GAUGE = ("long-wavelength limit (omega r / c -> 0) of the length form (Babushkin gauge): "
          "R = integral of (G_u G_l + F_u F_l) r dr")
+#: ... and of the Klein-Gordon ones.
+KG_GAUGE = ("long-wavelength limit (omega r / c -> 0) of the length form: R = integral of u_u u_l r "
+            "(W_u + W_l + 2 mc^2 - 2 V) / (2 mc^2) dr, u normalized with the charge density")
 
 
 def _e1_pair(result, upper: str, lower: str):
     """The two levels of an E1 line, checked: l changes by 1, |delta j| <= 1, upper above lower."""
     up, low = _dirac_level(result, upper), _dirac_level(result, lower)
-    if (up.l + low.l) % 2 == 0 or abs(up.j - low.j) > 1.0 or abs(up.l - low.l) != 1:
+    if abs(up.l - low.l) != 1 or (up.j is not None and abs(up.j - low.j) > 1.0):
         raise InputError(f"{upper} -> {lower} is not an E1 line (needs l changing by 1 and |delta j| <= 1)",
                          parameter="level")
     if up.energy - low.energy <= 0:
@@ -284,13 +287,14 @@ def radial_e1(result, up, low) -> Estimate:
         a, b = (result, up, su), (result, low, sl)
         if su.r[-1] < sl.r[-1]:
             a, b = b, a  # integrate on the grid that reaches further; continue the other beyond its box
-        ra, wa, ga, fa = _components(*a)
-        rb, _, gb, fb = _components(*b)
+        ra, wa, parts_a, weight = _e1_parts(*a)
+        rb, _, parts_b, _ = _e1_parts(*b)
         inside = ra <= rb[-1]
         beyond = _decay_factor(result, b[1], b[2], rb[-1], ra[~inside])
-        gb_on = np.concatenate([_on(rb, gb, ra[inside]), gb[-1] * beyond])
-        fb_on = np.concatenate([_on(rb, fb, ra[inside]), fb[-1] * beyond])
-        terms = wa * (ga * gb_on + fa * fb_on) * ra
+        terms = wa * ra * sum(pa * np.concatenate([_on(rb, pb, ra[inside]), pb[-1] * beyond])
+                              for pa, pb in zip(parts_a, parts_b))
+        if result.equation == "klein-gordon":
+            terms = terms * _kg_mixed_weight(result, a[2].energy + b[2].energy, ra, weight)
         values.append(float(np.sum(terms)))
         tails.append(float(np.sum(np.abs(terms[~inside]))))
     if len(values) >= 3:
@@ -309,6 +313,34 @@ def radial_e1(result, up, low) -> Estimate:
     # relative (Z = 92): the estimate carries 3 tol^0.7 |R| beside the series' part.
     spread += 3.0 * result.tol ** 0.7 * abs(radial)
     return Estimate(float(radial), spread, "bohr", observed, converged)
+
+
+def _e1_parts(result, level, sample):
+    """(r, weights, the components whose products make the dipole integrand, V on r) of one level
+    on one grid: (G, F) for Dirac, (u,) normalized with the charge density for Klein-Gordon."""
+    if result.equation == "dirac":
+        r, w, g, f = _components(result, level, sample)
+        return r, w, (g, f), None
+    r, w, u, rho = _kg_components(result, level, sample)
+    from radsolve.core.relativistic.front import rest_energy
+
+    rest = rest_energy(result.units, result.mass)
+    potential = sample.energy + rest - rho * rest  # V, recovered from rho = (W - V + mc^2)/mc^2
+    return r, w, (u,), potential
+
+
+def _kg_mixed_weight(result, energy_sum: float, r, potential):
+    """(W_u + W_l + 2 mc^2 - 2 V) / (2 mc^2): the Klein-Gordon dipole's weight.
+
+    For a spin-0 particle in V, p^2 u = ((W - V + mc^2)^2 - m^2 c^4) u / c^2, so the commutator
+    [p^2, r] = -2i p gives <u|p|l> = (i/2)(W_u - W_l) <u| r (W_u + W_l + 2 mc^2 - 2V) |l> / c^2 with
+    states normalized by their charge density (textbook construction; it becomes the Schrodinger
+    dipole as (W - V)/mc^2 -> 0).  This is the length form of the velocity-form current element.
+    """
+    from radsolve.core.relativistic.front import rest_energy
+
+    rest = rest_energy(result.units, result.mass)
+    return (energy_sum + 2.0 * rest - 2.0 * potential) / (2.0 * rest)
 
 
 def _decay_factor(result, level, sample, r_end, r):
@@ -723,16 +755,36 @@ def dirac_transitions_from(result, nmax: int | None = None, *, dipole_charge: fl
     Levels that agree within 10x their summed estimates (2s1/2 and 2p1/2 of a point charge) are
     degenerate: no line.  The completeness rule of the Schrodinger tables holds per (l, j) channel.
     """
+    return _relativistic_transitions(result, "dirac", nmax, dipole_charge, occupied)
+
+
+def klein_gordon_transitions_from(result, nmax: int | None = None, *, dipole_charge: float = 1.0, occupied=()):
+    """E1 lines, lifetimes and branching among the Klein-Gordon (spin-0) levels of one result.
+
+    The Schrodinger tables' angular rules (l -> l +- 1, g = 2l + 1, S = max(l_u, l_l) R^2), with R
+    the dipole of the charge-normalized states weighted by (W_u + W_l + 2 mc^2 - 2 V)/(2 mc^2)
+    (:data:`KG_GAUGE`, :func:`radial_e1`).  A local V only: an l-dependent potential is refused
+    (the weight comes from a commutator that needs one V for both levels).
+    """
+    return _relativistic_transitions(result, "klein-gordon", nmax, dipole_charge, occupied)
+
+
+def _relativistic_transitions(result, equation: str, nmax, dipole_charge, occupied):
     from radsolve.analysis.radiative import (_check_dipole_charge, _constants, _degenerate, assembled_transitions,
                                               decay_of, e1_line, levels_reached, lower_and_degenerate,
                                               unoccupied_levels)
     from radsolve.core.result import certificate_key
 
+    name = "Dirac" if equation == "dirac" else "Klein-Gordon"
     _check_dipole_charge(dipole_charge)
-    if getattr(result, "equation", "schrodinger") != "dirac":
-        raise InputError("dirac_transitions_from needs a result of equation='dirac'", parameter="equation")
+    if getattr(result, "equation", "schrodinger") != equation:
+        raise InputError(f"E1 tables of {name} levels need a result of equation={equation!r}",
+                         parameter="equation")
     if result.units != "atomic":
-        raise InputError("E1 tables of Dirac levels are implemented in atomic units only", parameter="units")
+        raise InputError(f"E1 tables of {name} levels are implemented in atomic units only", parameter="units")
+    if equation == "klein-gordon" and getattr(result.potential, "l_dependent", False):
+        raise InputError(f"E1 tables of Klein-Gordon levels need one local V for every l; "
+                         f"{result.potential.name} is l-dependent", parameter="potential")
     levels = [lev for lev in result.levels if lev.samples]
     if not levels:
         raise InputError(f"potential {result.potential.name!r} has no bound level to connect ({result.message})")
@@ -745,6 +797,10 @@ def dirac_transitions_from(result, nmax: int | None = None, *, dipole_charge: fl
 
     def partner_channels(lev):
         for l2 in (lev.l - 1, lev.l + 1):
+            if lev.j is None:  # spin 0
+                if l2 >= 0:
+                    yield l2, None
+                continue
             for j2 in ((0.5,) if l2 == 0 else (l2 - 0.5, l2 + 0.5)):
                 if l2 >= 0 and abs(j2 - lev.j) <= 1.0:
                     yield l2, j2
@@ -753,8 +809,11 @@ def dirac_transitions_from(result, nmax: int | None = None, *, dipole_charge: fl
         return lower_and_degenerate(lev, [o for l2, j2 in partner_channels(lev)
                                           for o in by_channel.get(certificate_key(l2, j2), [])])
 
+    def order(x):
+        return (x.n, x.l, x.j or 0.0)
+
     chosen = levels_reached(levels, nmax, lambda lev: partners(lev)[0])
-    chosen.sort(key=lambda x: (x.n, x.l, x.j))
+    chosen.sort(key=order)
 
     k = _constants()
     lowest = min(levels, key=lambda x: x.energy)  # with the levels degenerate with it, the ground
@@ -778,13 +837,17 @@ def dirac_transitions_from(result, nmax: int | None = None, *, dipole_charge: fl
             if more_may_exist and highest.energy < lev.energy and not _degenerate(highest, lev):
                 complete = False
         own = []
-        for other in sorted(lower, key=lambda x: (x.n, x.l, x.j)):
+        for other in sorted(lower, key=order):
             radial = radial_e1(result, lev, other)
             all_ok &= radial.converged
             d_val, d_err = dipole_charge * radial.value, dipole_charge * radial.error
+            if lev.j is None:  # spin 0: the Schrodinger angular factor
+                strength, g_up, g_low = max(lev.l, other.l) * d_val**2, 2 * lev.l + 1, 2 * other.l + 1
+            else:
+                strength, g_up, g_low = _angular(lev, other) * d_val**2, 2 * lev.j + 1, 2 * other.j + 1
             own.append(e1_line(lev, other, lev.energy - other.energy, lev.error_estimate + other.error_estimate,
                                Estimate(d_val, d_err, "bohr", radial.order, radial.converged),
-                               _angular(lev, other) * d_val**2, 2 * lev.j + 1, 2 * other.j + 1, k))
+                               strength, g_up, g_low, k))
         if not complete:
             all_ok = False
             notes.append(Note("lifetime_incomplete", f"{lev.label}: a lower level in a channel l = {lev.l - 1} "
@@ -794,4 +857,4 @@ def dirac_transitions_from(result, nmax: int | None = None, *, dipole_charge: fl
                                j=lev.j))
         lines.extend(own)
     return assembled_transitions(lines, states, result, nmax, dipole_charge, chosen, filled, notes, all_ok,
-                                 equation="dirac")
+                                 equation=equation)

@@ -98,8 +98,8 @@ CASES = [
          lambda: relativistic_state("coulomb", 1, 1, "1/2", equation="dirac"), "n", "--n"),
     Case(["wave", "coulomb", "--n", "1", "--l", "0", "--equation", "dirac", "--scalar"],
          lambda: relativistic_state("coulomb", 1, 0, equation="dirac", scalar=True), "scalar", "--scalar"),
-    Case(["transitions", "coulomb", "--nmax", "2", "--equation", "klein-gordon"],
-         lambda: transitions("coulomb", 2, equation="klein-gordon"), "equation", "--equation"),
+    Case(["transitions", "alkali_model", "--nmax", "3", "--equation", "klein-gordon"],
+         lambda: transitions("alkali_model", 3, equation="klein-gordon"), "potential", None),
     Case(["levels", "coulomb", "--equation", "dirac", "-d", "2"], S(equation="dirac", dimension=2),
          "dimension", "--dimension"),
     # test_bad_input: values a potential parameter does not accept (the message names it)
