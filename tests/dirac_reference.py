@@ -72,11 +72,7 @@ def level(V, V0, kappa, nodes, bracket, r_match, r0=1e-9, cuts=()):
         yo, yi, _ = parts(W)
         return yo[0] * yi[1] - yo[1] * yi[0]
 
-    W = brentq(mismatch, *bracket, xtol=1e-300, rtol=4e-15, maxiter=200)
-    found = parts(W)[2]
-    if found != nodes:
-        raise AssertionError(f"reference: {found} nodes of G at W = {W}, expected {nodes}")
-    return W
+    return _root_with_nodes(parts, mismatch, bracket, nodes, "of G ")
 
 
 def klein_gordon_level(V, V0, l, nodes, bracket, r_match, r0=1e-9, cuts=()):
@@ -114,8 +110,13 @@ def klein_gordon_level(V, V0, l, nodes, bracket, r_match, r0=1e-9, cuts=()):
         yo, yi, _ = parts(W)
         return yo[1] * yi[0] - yi[1] * yo[0]
 
+    return _root_with_nodes(parts, mismatch, bracket, nodes, "")
+
+
+def _root_with_nodes(parts, mismatch, bracket, nodes: int, of: str) -> float:
+    """Brent's root of the mismatch in ``bracket``, checked to be the level with ``nodes`` nodes."""
     W = brentq(mismatch, *bracket, xtol=1e-300, rtol=4e-15, maxiter=200)
     found = parts(W)[2]
     if found != nodes:
-        raise AssertionError(f"reference: {found} nodes at W = {W}, expected {nodes}")
+        raise AssertionError(f"reference: {found} nodes {of}at W = {W}, expected {nodes}")
     return W

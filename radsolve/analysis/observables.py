@@ -628,9 +628,9 @@ class State(ResultProtocol):
     # sec. 12), with the reduced mass mu in place of the particle mass, as the Dirac solver has it.
 
     def _mc2(self) -> float:
-        from scipy.constants import fine_structure
+        from radsolve.core.relativistic.front import rest_energy
 
-        return self.mass / fine_structure**2
+        return rest_energy("atomic", self.mass)
 
     def mass_velocity(self) -> Estimate:
         """-<p^4>/(8 mu^3 c^2) = -<(E - V)^2>/(2 mu c^2), hartree (using p^2/(2 mu) = E - V on the state)."""
@@ -1061,15 +1061,14 @@ def state(potential, n: int, l: int, *, mass=None, tol: float = 1e-10, method: s
         When n <= l, or the level is not bound.
     """
     from radsolve.core.result import level_label
+    from radsolve.core.relativistic import SCHRODINGER, validated_equation
     from radsolve.core.spectrum import solve
 
-    from radsolve.core.relativistic import SCHRODINGER, validated_equation
-
-    if validated_equation(equation) != SCHRODINGER:
-        raise InputError(f"states of {validated_equation(equation)} levels are not implemented yet; only "
+    equation = validated_equation(equation)
+    if equation != SCHRODINGER:
+        raise InputError(f"states of {equation} levels are not implemented yet; only "
                          "equation='schrodinger' (from Python, radsolve.analysis.relativistic.dirac_state "
                          "judges a Dirac level's <r^k>; dirac_components gives (G, F))", parameter="equation")
-
 
     n = _check_positive_int(n, "n")
     l = _check_positive_int(l, "l")

@@ -652,7 +652,7 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
             energies, u, _, values, noise = _levels_on(cls, grid, ch, mass, inner, want, guesses, peaks=peaks,
                                                        statistics=statistics, precision=precision,
                                                        count_threshold=False, previous=previous)
-            last_grid[ch.key] = (grid, inner)
+            last_grid[ch.key] = (grid, inner, values)
             history[ch.key].append([(float(energies[k]) + ch.reference, u[k], grid) for k in range(want)])
             levels = best[ch.key]
             profile = ch.potential.potential_error(grid.r) if hasattr(ch.potential, "potential_error") else None
@@ -714,8 +714,7 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
     # one Sturm count per channel, not one per grid.
     for ch in channels:
         if ch.key in last_grid and not ch.confining:
-            grid, inner = last_grid[ch.key]
-            values = potential_on_grid(ch.potential, grid.r, _anchors_of(grid)) - ch.reference
+            grid, inner, values = last_grid[ch.key]
             solver = _solver(cls, grid, values, ch, mass, inner)
             grid_counts[ch.key].append(solver.count_below(0.0))
             statistics.add(solver.statistics)

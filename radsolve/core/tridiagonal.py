@@ -232,16 +232,12 @@ def _proven(d, e, lo: int, hi: int, windows: list, stats: EigenStatistics) -> bo
             and sturm_count(d, e, windows[-1][1], stats) == hi + 1)
 
 
-def _bisected_in(d, e, windows: list, stats: EigenStatistics) -> np.ndarray | None:
-    """Each window's eigenvalue by bisection inside it (LAPACK stebz), or None if one holds not exactly one."""
-    values = np.empty(len(windows))
-    for j, (low, high) in enumerate(windows):
-        m, w, *_rest, info = dstebz(d, e, 1, low, high, 1, 1, ABSOLUTE_TOLERANCE, b"E")
-        stats.sturm_counts += 2
-        if info != 0 or m != 1:
-            return None
-        values[j] = w[0]
-    return values
+def _bisected_in(d, e, window: tuple, stats: EigenStatistics) -> float | None:
+    """The eigenvalue inside ``window`` by bisection (LAPACK stebz), or None if it holds not exactly one."""
+    low, high = window
+    m, w, *_rest, info = dstebz(d, e, 1, low, high, 1, 1, ABSOLUTE_TOLERANCE, b"E")
+    stats.sturm_counts += 2
+    return float(w[0]) if info == 0 and m == 1 else None
 
 
 def vectors_at(d: np.ndarray, e: np.ndarray, values: np.ndarray,
@@ -326,11 +322,11 @@ def eigenpairs(d: np.ndarray, e: np.ndarray, lo: int, hi: int, predictions=None,
     noise = RAYLEIGH_NOISE_FACTOR * rounding_sensitivity(d, e, vecs)
     for j in np.flatnonzero(good):
         if needed is None or noise[j] > _NOISE_SHARE_OF_PRECISION * needed[j]:
-            polished = _bisected_in(d, e, [windows[j]], stats)
+            polished = _bisected_in(d, e, windows[j], stats)
             if polished is None:
                 good[j] = False
                 continue
-            values[j] = polished[0]
+            values[j] = polished
             noise[j] /= RAYLEIGH_NOISE_FACTOR
             stats.polished += 1
     stats.confirmed += int(np.count_nonzero(good))

@@ -105,6 +105,8 @@ class FiniteDifference(RadialSolver):
         states are not on the grid this one halves.
         """
         n = self.grid.size
+        sl = slice(self.inner + 1, n - 1)
+        scale = np.sqrt(b / self.grid.jacobian[sl])  # z = u sqrt(b / (dr/dx)) on this matrix's rows
         out = []
         for u in previous:
             u = np.asarray(u, dtype=float)
@@ -113,6 +115,5 @@ class FiniteDifference(RadialSolver):
             fine = np.empty(n)
             fine[0::2] = u
             fine[1::2] = 0.5 * (u[:-1] + u[1:])
-            sl = slice(self.inner + 1, n - 1)
-            out.append(fine[sl] / np.sqrt(self.grid.jacobian[sl]) * np.sqrt(b))
+            out.append(fine[sl] * scale)
         return out
