@@ -58,27 +58,21 @@ QUICK_SET = {"charges": (1, 92), "masses": (1.0,), "nmax": 4}
 
 
 def exact_relativistic_energy(equation: str, n: int, l: int, j: float | None, Z: float, mass: float) -> float | None:
-    """E - mu c^2 of the point charge for the Dirac (with j) or Klein-Gordon equation, hartree (textbook formulas).
+    """E - mu c^2 of the point charge for the Dirac (with j) or Klein-Gordon equation, hartree (textbook
+    formulas, :mod:`radsolve.core.relativistic.exact`).
 
-    None where the point-charge level does not exist (Z alpha too large).  Written with expm1/log1p so
-    that weak binding keeps its digits.
+    None where the point-charge level does not exist (Z alpha too large).
     """
-    import math
-
     from scipy.constants import fine_structure
 
-    za = Z * fine_structure
-    rest = mass / fine_structure**2
+    from radsolve.core.relativistic.effective import kappa_of
+    from radsolve.core.relativistic.exact import dirac_coulomb, klein_gordon_coulomb
+    from radsolve.core.relativistic.front import rest_energy
+
+    za, rest = Z * fine_structure, rest_energy("atomic", mass)
     if equation == "dirac":
-        k = l + 1 if j > l else l
-        if za >= k:
-            return None
-        nu = n - k + math.sqrt(k * k - za * za)
-    else:
-        if za >= l + 0.5:
-            return None
-        nu = n - l - 0.5 + math.sqrt((l + 0.5) ** 2 - za * za)
-    return rest * math.expm1(-0.5 * math.log1p((za / nu) ** 2))
+        return dirac_coulomb(n, kappa_of(l, j), za, rest)
+    return klein_gordon_coulomb(n, l, za, rest)
 
 
 def exact_coulomb_energy(n: int, Z: float, mass: float) -> float:

@@ -44,10 +44,8 @@ def _components(result, level, sample):
     from radsolve.core.relativistic.front import hbar_c, rest_energy
 
     pot = result.potential
-    channel = pot.channel(level.l, None) if getattr(pot, "l_dependent", False) else pot
     r, w, u = sample.r, sample.weights, sample.u
-    with np.errstate(all="ignore"):
-        v = np.asarray(channel.raw(r), dtype=float)
+    v = _potential_on(result, level, r)
     hc = hbar_c(result.units)
     if getattr(result, "scalar", False):
         with np.errstate(all="ignore"):
@@ -62,6 +60,14 @@ def _components(result, level, sample):
     return r, w, g / norm, f / norm
 
 
+def _potential_on(result, level, r) -> np.ndarray:
+    """V of the level's channel (the family's V_l where it has one) at radii r, infinities kept."""
+    pot = result.potential
+    channel = pot.channel(level.l, None) if getattr(pot, "l_dependent", False) else pot
+    with np.errstate(all="ignore"):
+        return np.asarray(channel.raw(r), dtype=float)
+
+
 def _kg_components(result, level, sample):
     """(r, weights, u, rho) of a Klein-Gordon level on one grid, normalized with the charge density.
 
@@ -72,11 +78,8 @@ def _kg_components(result, level, sample):
     """
     from radsolve.core.relativistic.front import rest_energy
 
-    pot = result.potential
-    channel = pot.channel(level.l, None) if getattr(pot, "l_dependent", False) else pot
     r, w, u = sample.r, sample.weights, sample.u
-    with np.errstate(all="ignore"):
-        v = np.asarray(channel.raw(r), dtype=float)
+    v = _potential_on(result, level, r)
     rest = rest_energy(result.units, result.mass)
     rho = np.where(u != 0.0, (sample.energy - v + rest) / rest, 0.0)
     norm = math.sqrt(float(np.sum(w * rho * u * u)))
@@ -321,12 +324,9 @@ def _e1_parts(result, level, sample):
     if result.equation == "dirac":
         r, w, g, f = _components(result, level, sample)
         return r, w, (g, f), None
-    r, w, u, rho = _kg_components(result, level, sample)
-    from radsolve.core.relativistic.front import rest_energy
-
-    rest = rest_energy(result.units, result.mass)
-    potential = sample.energy + rest - rho * rest  # V, recovered from rho = (W - V + mc^2)/mc^2
-    return r, w, (u,), potential
+    r, w, u, _ = _kg_components(result, level, sample)
+    v = _potential_on(result, level, r)
+    return r, w, (u,), np.where(np.isfinite(v), v, 0.0)  # u vanishes where V is infinite
 
 
 def _kg_mixed_weight(result, energy_sum: float, r, potential):

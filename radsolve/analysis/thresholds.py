@@ -548,9 +548,11 @@ class _RelativisticZeroEnergy(_ZeroEnergy):
         self.profile(p)
         channel = self._channels[float(p)]
         step = 1e-4 * self.rest
+        r = np.asarray(r, dtype=float)
         with np.errstate(all="ignore"):
-            hi = channel.effective_function(channel.threshold + step)(r)
-            lo = channel.effective_function(channel.threshold - step)(r)
+            parts = channel.parts(r)  # independent of W: evaluated once for both sides
+            hi = channel.effective(channel.threshold + step, parts, r)
+            lo = channel.effective(channel.threshold - step, parts, r)
         return (np.asarray(hi, dtype=float) - np.asarray(lo, dtype=float)) / (2.0 * step)
 
 

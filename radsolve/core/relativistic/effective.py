@@ -216,7 +216,3 @@ def coulomb_strength(coefficient: float, power: float, hbar_c: float) -> float |
     if abs(power + 1.0) < 1e-9 and coefficient < 0:
         return -coefficient / hbar_c
     return None
-
-
-def near_equal(a: float, b: float) -> bool:
-    return math.isclose(a, b, rel_tol=1e-12, abs_tol=0.0)

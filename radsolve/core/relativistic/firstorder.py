@@ -214,21 +214,23 @@ def first_order(channel, z_alpha: float | None) -> type:
                 step = 1.0
                 while self.count_below(hi) <= k:
                     hi, step = hi + step, 2.0 * step
-            if self.count_below(lo) > k:
+            n_lo = self.count_below(lo)
+            if n_lo > k:
                 from radsolve.core.relativistic.selfconsistent import DivingLevel
 
                 raise DivingLevel(f"the {channel.text} level with {k} nodes would lie below -2mc^2 (it dives "
                                   "into the negative-energy continuum): the potential is supercritical for this "
                                   "particle", parameter="potential")
+            n_hi = self.count_below(hi)
             for _ in range(_MAX_BISECTIONS):
-                n_lo, n_hi = self.count_below(lo), self.count_below(hi)
                 if n_lo == k and n_hi == k + 1:
                     break
                 mid = 0.5 * (lo + hi)
-                if self.count_below(mid) > k:
-                    hi = mid
+                n_mid = self.count_below(mid)  # one shooting run a step: the other end's count is known
+                if n_mid > k:
+                    hi, n_hi = mid, n_mid
                 else:
-                    lo = mid
+                    lo, n_lo = mid, n_mid
             return lo, hi
 
         def _gf_level(self, k: int, guess: float | None, bracket=None) -> float:
