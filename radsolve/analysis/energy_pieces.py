@@ -35,41 +35,43 @@ def pieces(size: int) -> list[slice]:
 
 def run_pieces(function, tasks: list, workers: int, progress: bool | None, what: str,
                weights: list[int] | None = None) -> list:
-    """``[function(*task) for task in tasks]``, on ``workers`` processes when more than one.
+    """``[function(*task) for task in tasks]``, on ``workers`` processes when more than one
+    (the sweeps' pool, :func:`radsolve.analysis.sweeps.backends.run_processes`).
 
     ``function`` must be a module-level function and the tasks picklable.  The
     bar counts ``weights`` (energies) per task.  Ctrl-C stops the workers and
     re-raises.
     """
+    from functools import partial
+
     from radsolve.analysis.sweeps.progress import Progress
 
     weights = weights or [1] * len(tasks)
     bar = Progress(sum(weights), what, progress)
     out: list = [None] * len(tasks)
     done = 0
+
+    def collect(indexed) -> None:
+        nonlocal done
+        i, value = indexed
+        out[i] = value
+        done += weights[i]
+        bar.update(done)
+
     try:
         if workers <= 1 or len(tasks) <= 1:
             for i, task in enumerate(tasks):
-                out[i] = function(*task)
-                done += weights[i]
-                bar.update(done)
-            return out
-        from concurrent.futures import ProcessPoolExecutor, as_completed
+                collect((i, function(*task)))
+        else:
+            from radsolve.analysis.sweeps.backends import run_processes
 
-        from radsolve.analysis.sweeps.backends import _ignore_sigint
-
-        executor = ProcessPoolExecutor(max_workers=min(workers, len(tasks)), initializer=_ignore_sigint)
-        try:
-            futures = {executor.submit(function, *task): i for i, task in enumerate(tasks)}
-            for future in as_completed(futures):
-                i = futures[future]
-                out[i] = future.result()
-                done += weights[i]
-                bar.update(done)
-        except BaseException:
-            executor.shutdown(wait=False, cancel_futures=True)
-            raise
-        executor.shutdown(wait=True)
+            run_processes(partial(_indexed, function), list(enumerate(tasks)), min(workers, len(tasks)), collect)
         return out
     finally:
         bar.close()
+
+
+def _indexed(function, item):
+    """(i, function(*task)) of an item (i, task): results keep their place whatever finishes first."""
+    i, task = item
+    return i, function(*task)

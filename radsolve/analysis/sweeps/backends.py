@@ -152,11 +152,20 @@ def backend_for(workers: int | None, cluster, executor, points: int,
 
 def run_pool(settings, chunks, workers: int, collect) -> None:
     """The chunks on ``workers`` local processes (started and stopped here)."""
+    from functools import partial
+
+    run_processes(partial(solve_chunk, settings), chunks, workers, collect)
+
+
+def run_processes(function, items, workers: int, collect) -> None:
+    """``collect(function(item))`` for every item, on ``workers`` local processes (started and
+    stopped here), in the order they finish.  ``function`` must be picklable (a module-level
+    function or a partial of one); Ctrl-C lets the running items finish, collects them and re-raises."""
     from concurrent.futures import ProcessPoolExecutor
 
     executor = ProcessPoolExecutor(max_workers=workers, initializer=_ignore_sigint)
     try:
-        _run_windowed(executor, settings, chunks, 4 * workers, collect)
+        _run_windowed(executor, function, items, 4 * workers, collect)
     except KeyboardInterrupt:
         # Chunks already running finish (they are small); their rows were kept.
         executor.shutdown(wait=True, cancel_futures=True)
@@ -180,7 +189,7 @@ def run_executor(settings, chunks, executor, collect) -> None:
 
     if isinstance(executor, Executor):
         width = getattr(executor, "_max_workers", None) or usable_cores()
-        _run_windowed(executor, settings, chunks, 4 * int(width), collect)
+        _run_windowed(executor, partial(solve_chunk, settings), chunks, 4 * int(width), collect)
     elif callable(getattr(executor, "map", None)):
         for pairs in executor.map(partial(solve_chunk, settings), chunks):
             collect(pairs)
@@ -189,14 +198,14 @@ def run_executor(settings, chunks, executor, collect) -> None:
                          f"method; got {type(executor).__name__}", parameter="executor")
 
 
-def _run_windowed(executor, settings, chunks, window: int, collect) -> None:
-    """Submit chunks keeping at most ``window`` in flight; collect each as it finishes."""
+def _run_windowed(executor, function, items, window: int, collect) -> None:
+    """Submit ``function(item)`` keeping at most ``window`` in flight; collect each as it finishes."""
     from concurrent.futures import FIRST_COMPLETED, wait
 
     pending: set = set()
     try:
-        for chunk in chunks:
-            pending.add(executor.submit(solve_chunk, settings, chunk))
+        for item in items:
+            pending.add(executor.submit(function, item))
             if len(pending) >= window:
                 done, pending = wait(pending, return_when=FIRST_COMPLETED)
                 for future in done:
