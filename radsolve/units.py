@@ -648,3 +648,17 @@ def family_unit_system(family, units: str | None = None) -> UnitSystem:
                          f"another unit system is not supported for it; allowed for it: {declared}",
                          parameter="units")
     return system
+
+
+def stored_energy_factor(system: str, unit: str | None) -> float:
+    """Energies stored in ``system``'s unit (hartree or MeV) per one ``unit``: divide a stored energy
+    by it to express it in ``unit`` (1 when ``unit`` is None: the system's own unit)."""
+    if unit is None:
+        return 1.0
+    factor = energy_unit_factor(unit)
+    return factor if system == "atomic" else factor / unit_system(system).energy_factor()
+
+
+def stored_energy_unit(system: str, unit: str | None) -> str:
+    """``unit``, or the system's own energy unit when it is None."""
+    return unit if unit is not None else ("hartree" if system == "atomic" else "MeV")

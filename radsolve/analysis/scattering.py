@@ -41,6 +41,8 @@ from typing import Any
 import numpy as np
 
 from radsolve.core.protocol import Note, Outcome, ResultProtocol, message_of, worst
+from radsolve.units import stored_energy_factor as _energy_factor
+from radsolve.units import stored_energy_unit as _unit_name
 from radsolve.errors import InputError
 
 #: The one-line caveat carried by the results.
@@ -95,8 +97,7 @@ def _validated_phase_tol(tol) -> float:
     return validated_tol(tol, limits=PHASE_TOL_RANGE)
 
 
-def _setup(potential, l, mass, plugins, units, dimension, hard_core, spin_orbit: bool = False,
-           even_dimensions: bool = False):
+def _setup(potential, l, mass, plugins, units, dimension, hard_core, spin_orbit: bool = False):
     from radsolve.core import probe as probing
     from radsolve.core.inputs import validated_dimension, validated_l
     from radsolve.potentials import as_potential
@@ -104,11 +105,6 @@ def _setup(potential, l, mass, plugins, units, dimension, hard_core, spin_orbit:
 
     ls = validated_l(l)
     dimension = validated_dimension(dimension)
-    if dimension % 2 == 0 and not even_dimensions:
-        raise InputError(f"dimension {dimension}: the low-energy expansion (scattering length, effective "
-                         "range, Levinson's theorem) differs in even dimensions (logarithms at l = 0) and is "
-                         "implemented for odd ones (3, 5, ...); phase shifts take any dimension >= 2",
-                         parameter="dimension")
     pot = as_potential(potential, plugins)
     system = family_unit_system(getattr(pot, "family", pot), units)
     mu = system.parse_mass(mass)
@@ -286,18 +282,6 @@ def _param_text(parameters: dict) -> str:
     return " ".join(f"{k}={v:.10g}" if isinstance(v, float) else f"{k}={v}" for k, v in parameters.items())
 
 
-def _energy_factor(system: str, unit: str | None) -> float:
-    """Stored energy units per output unit (1 when ``unit`` is None)."""
-    if unit is None:
-        return 1.0
-    from radsolve.units import energy_unit_factor, unit_system
-
-    factor = energy_unit_factor(unit)
-    return factor if system == "atomic" else factor / unit_system(system).energy_factor()
-
-
-def _unit_name(system: str, unit: str | None) -> str:
-    return unit if unit is not None else ("hartree" if system == "atomic" else "MeV")
 
 
 def phase_shifts(potential, energies, l=0, *, mass=None, tol: float = 1e-8, hard_core: float | None = None,
@@ -342,7 +326,7 @@ def phase_shifts(potential, energies, l=0, *, mass=None, tol: float = 1e-8, hard
     tol = _validated_phase_tol(tol)
     workers = validated_workers(workers)
     pot, system, mu, kinetic, channels, hard_core = _setup(potential, l, mass, plugins, units, dimension,
-                                                          hard_core, bool(spin_orbit), even_dimensions=True)
+                                                          hard_core, bool(spin_orbit))
     v_inf = channels[0][3].v_infinity
     if math.isinf(v_inf):
         from radsolve.core.continuum import channel_tail
@@ -584,6 +568,11 @@ def scattering(potential, l=0, *, mass=None, tol: float = 1e-8, hard_core: float
     tol = _validated_phase_tol(tol)
     pot, system, mu, kinetic, channels, hard_core = _setup(potential, l, mass, plugins, units, dimension,
                                                           hard_core)
+    if int(dimension) % 2 == 0:  # a valid dimension by now (_setup checked it)
+        raise InputError(f"dimension {dimension}: the low-energy expansion (scattering length, effective "
+                         "range, Levinson's theorem) differs in even dimensions (logarithms at l = 0) and is "
+                         "implemented for odd ones (3, 5, ...); phase shifts take any dimension >= 2",
+                         parameter="dimension")
     waves = []
     notes: list[Note] = []
     v_inf = channels[0][3].v_infinity

@@ -44,14 +44,10 @@ def _energies(text: str, log: bool, unit: Optional[str], pot, units: Optional[st
     """--energies START:STOP:NUM or E1,E2,... in the output unit, as the API's energies (its unit system)."""
     from radsolve.analysis.scattering import energy_grid
     from radsolve.errors import InputError
-    from radsolve.units import energy_unit_factor, family_unit_system, unit_system
+    from radsolve.units import family_unit_system, stored_energy_factor
 
     system = family_unit_system(pot.family, units)
-    factor = 1.0
-    if unit is not None:
-        factor = energy_unit_factor(unit)
-        if system.name != "atomic":
-            factor /= unit_system(system.name).energy_factor()
+    factor = stored_energy_factor(system.name, unit)
     parts = text.split(":")
     try:
         if len(parts) == 3:

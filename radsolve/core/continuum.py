@@ -811,8 +811,9 @@ def scattering_length(potential, profile, L: float, mass: float, tol: float,
     k_scale = 1.0 / max(size, r_min)
     tail = channel_tail(potential, profile, mass, k_scale, k_scale, tol * max(size, 1e-300), r_min)
     if tail.kind != "short":
-        raise InputError("a Coulomb tail has no scattering length (the Coulomb-modified effective-range "
-                         "expansion is not implemented)", parameter="potential")
+        raise InputError("a Coulomb tail has no scattering length of its own: use scattering(), which gives "
+                         "the Coulomb-modified effective-range expansion (repulsive tail, l = 0)",
+                         parameter="potential")
     norm = _double_factorial(2 * Lint + 1) * _double_factorial(2 * Lint - 1)
     # V beyond R changes B/A by about 2 m int_R^inf |V| r**(2L+2) dr (first order in V; textbook):
     # below a share of tol times the natural size**(2L+1)

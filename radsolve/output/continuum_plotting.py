@@ -22,15 +22,10 @@ from radsolve.output.sweep_plotting import _colors, _figure, _save
 def _energies_in(result, unit: str | None):
     """(unit, factor, the result's energies in it): the unit system's own energy unit by default;
     an energy of the result divided by ``factor`` is in ``unit``."""
-    from radsolve.units import energy_unit_factor, unit_system
+    from radsolve.units import stored_energy_factor, stored_energy_unit
 
-    system = result.units
-    if unit is None:
-        return ("hartree" if system == "atomic" else "MeV"), 1.0, np.asarray(result.energies)
-    factor = energy_unit_factor(unit)
-    if system != "atomic":
-        factor /= unit_system(system).energy_factor()
-    return unit, factor, np.asarray(result.energies) / factor
+    factor = stored_energy_factor(result.units, unit)
+    return stored_energy_unit(result.units, unit), factor, np.asarray(result.energies) / factor
 
 
 def plot_phase_shifts(result, path, unit: str | None = None, title: str | None = None) -> None:

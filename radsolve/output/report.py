@@ -52,11 +52,9 @@ def _value_text(x: Any) -> str:
 
 def _unit_factor(unit: str, result: Any = None) -> float:
     """Stored energy units per ``unit``: hartree per unit, or MeV per unit for a nuclear result."""
-    from radsolve.units import energy_unit_factor, unit_system
+    from radsolve.units import stored_energy_factor
 
-    factor = energy_unit_factor(unit)
-    system = getattr(result, "units", "atomic")
-    return factor if system == "atomic" else factor / unit_system(system).energy_factor()
+    return stored_energy_factor(getattr(result, "units", "atomic"), unit)
 
 
 def _system_of(result):
