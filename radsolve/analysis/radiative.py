@@ -779,7 +779,7 @@ def sum_rules(tr: TransitionResult, tol: float = 1e-8, levels=None) -> list[dict
                 bound -= g * x.oscillator_strength
                 bound_err += g * x.oscillator_strength_error
         tail = tail_err = 0.0
-        coulomb = prof.tail.kind == "long" and prof.tail.power == 1.0 and prof.tail.coefficient < 0
+        coulomb = prof.tail.coulomb and prof.tail.coefficient < 0
         left_out = [x for x in tr.occupied if x in by_label and abs(by_label[x].l - lev.l) == 1]
         if left_out:
             why.append("E1 partners treated as occupied are left out (" + ", ".join(left_out)

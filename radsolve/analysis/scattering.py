@@ -580,7 +580,7 @@ def scattering(potential, l=0, *, mass=None, tol: float = 1e-8, hard_core: float
         if prof.confining:
             channel_tail(cpot, prof, kinetic, 1.0, 1.0, tol, 1.0)  # raises: no continuum
         tail = prof.tail
-        coulomb = tail.kind == "long" and tail.power == 1.0
+        coulomb = tail.coulomb
         if coulomb and tail.coefficient < 0:
             raise InputError("an attractive Coulomb tail binds infinitely many levels: Levinson's theorem does "
                              "not apply and there is no scattering length; use phase_shifts() (a repulsive "

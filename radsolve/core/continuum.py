@@ -142,7 +142,7 @@ def channel_tail(potential, profile, mass: float, k_min: float, k_max: float, to
     if tail.kind == "short":
         coefficient = 0.0
         kind = "short"
-    elif tail.kind == "long" and tail.power == 1.0:
+    elif tail.coulomb:
         coefficient = float(tail.coefficient)
         kind = "coulomb"
     elif tail.kind == "inverse_square":
@@ -211,17 +211,23 @@ def _coulomb(L: int, eta: np.ndarray, x: np.ndarray):
     eta = np.broadcast_to(np.asarray(eta, dtype=float), x.shape)
     # Steed's first fraction needs about rho terms
     F, G, ok = coulomb_waves(L, eta, x, iterations=max(4000, int(2.0 * float(np.max(x, initial=0.0))) + 200))
-    if not ok.all():
-        import mpmath
-
-        with mpmath.workdps(20):
-            for i in np.nonzero(~ok.ravel())[0]:
-                try:
-                    F.flat[i] = float(mpmath.coulombf(L, eta.flat[i], x.flat[i], maxterms=10**6))
-                    G.flat[i] = float(mpmath.coulombg(L, eta.flat[i], x.flat[i], maxterms=10**6))
-                except (mpmath.libmp.NoConvergence, ZeroDivisionError, ValueError):
-                    F.flat[i] = G.flat[i] = math.nan  # the phase there is NaN: not converged, said so
+    for i in np.nonzero(~ok.ravel())[0]:
+        f, g = _coulomb_fg_mpmath(L, eta.flat[i], x.flat[i])
+        F.flat[i], G.flat[i] = f.real, g.real  # NaN where mpmath fails: the phase is then not converged, said so
     return F, -G
+
+
+def _coulomb_fg_mpmath(L: int, eta, rho) -> tuple[complex, complex]:
+    """(F_L, G_L) at real or complex eta and rho by mpmath (its hypergeometric forms continue
+    analytically), 20 digits; NaNs where mpmath's series do not converge."""
+    import mpmath
+
+    with mpmath.workdps(20):
+        try:
+            return (complex(mpmath.coulombf(L, eta, rho, maxterms=10**6)),
+                    complex(mpmath.coulombg(L, eta, rho, maxterms=10**6)))
+        except (mpmath.libmp.NoConvergence, ZeroDivisionError, ValueError):
+            return complex(math.nan, math.nan), complex(math.nan, math.nan)
 
 
 def coulomb_waves(L: int, eta: np.ndarray, rho: np.ndarray, iterations: int = 4000):
@@ -985,14 +991,10 @@ def _outgoing(L: int, z):
 
 
 def _outgoing_coulomb(L: int, eta: complex, z: complex) -> complex:
-    """H+ = G_L + i F_L at complex eta and rho (mpmath: its hypergeometric forms continue analytically)."""
-    import mpmath
-
-    with mpmath.workdps(20):
-        try:
-            return complex(mpmath.coulombg(L, eta, z, maxterms=10**6) + 1j * mpmath.coulombf(L, eta, z, maxterms=10**6))
-        except (mpmath.libmp.NoConvergence, ZeroDivisionError, ValueError):
-            return complex(math.nan, math.nan)  # the pole is then NaN: the methods "disagree", said so
+    """H+ = G_L + i F_L at complex eta and rho (NaN where mpmath fails: the pole is then NaN and the
+    methods "disagree", said so)."""
+    f, g = _coulomb_fg_mpmath(L, eta, z)
+    return g + 1j * f
 
 
 def siegert_mismatch(grid, values, L: float, mass: float, energy: complex, exponent: float, rows,

@@ -114,6 +114,11 @@ class TailLaw:
             return 0.5 + root, 0.5 - root
         return None
 
+    @property
+    def coulomb(self) -> bool:
+        """A Coulomb law C/r (the probe rounds a power within 0.01 of a whole number to it)."""
+        return self.kind == "long" and self.power == 1.0
+
     def infinitely_many(self, L: float, mass: float) -> str | None:
         """Why this tail binds infinitely many levels, or None if it does not."""
         if self.kind == "confining":

@@ -424,7 +424,7 @@ def _coulomb_extent(ch: _Channel, wanted: int, mass: float) -> float:
     Only a starting point: the search checks it as it checks any other.
     """
     tail = ch.profile.tail
-    if ch.confining or tail.kind != "long" or tail.coefficient >= 0 or abs(tail.power - 1.0) > 1e-6 or wanted < 1:
+    if ch.confining or not tail.coulomb or tail.coefficient >= 0 or wanted < 1:
         return 0.0
     n = wanted + ch.effective_l
     return 6.0 * n * n / (mass * abs(tail.coefficient))
