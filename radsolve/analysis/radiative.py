@@ -100,6 +100,16 @@ def dirac_conventions() -> dict[str, str]:
                 "both G > 0 as r -> 0", gauge=GAUGE)
 
 
+#: Per equation: (the model note of the JSON, the short note's parenthesis, the conventions).
+_EQUATION_TEXT = {
+    "schrodinger": (MODEL_NOTE, "nonrelativistic, spinless, E1 only", lambda: dict(CONVENTIONS)),
+    "dirac": (DIRAC_MODEL_NOTE, "Dirac levels of one electron, E1 only, long-wavelength length form",
+              dirac_conventions),
+    "klein-gordon": (KLEIN_GORDON_MODEL_NOTE, "Klein-Gordon spin-0 levels, E1 only, long-wavelength length form",
+                     klein_gordon_conventions),
+}
+
+
 def _constants() -> dict[str, float]:
     from scipy.constants import c, fine_structure, h, physical_constants
 
@@ -267,13 +277,7 @@ class TransitionResult(ResultProtocol):
     @property
     def short_note(self) -> str:
         """The model-calculation caveat in one line (CSV comment, table footer)."""
-        if self.equation == "dirac":
-            return ("model calculation (Dirac levels of one electron, E1 only, long-wavelength length form); "
-                    "for rates used in diagnostics or safety work, use evaluated data compilations.")
-        if self.equation == "klein-gordon":
-            return ("model calculation (Klein-Gordon spin-0 levels, E1 only, long-wavelength length form); "
-                    "for rates used in diagnostics or safety work, use evaluated data compilations.")
-        return ("model calculation (nonrelativistic, spinless, E1 only); for rates used in "
+        return (f"model calculation ({_EQUATION_TEXT[self.equation][1]}); for rates used in "
                 "diagnostics or safety work, use evaluated data compilations.")
 
     @property
@@ -385,10 +389,8 @@ class TransitionResult(ResultProtocol):
             "status": str(self.status),
             "message": self.message,
             "notes": [n.to_dict() for n in self.notes],
-            "conventions": {"dirac": dirac_conventions, "klein-gordon": klein_gordon_conventions}.get(
-                self.equation, lambda: dict(CONVENTIONS))(),
-            "note": {"dirac": DIRAC_MODEL_NOTE, "klein-gordon": KLEIN_GORDON_MODEL_NOTE}.get(self.equation,
-                                                                                            MODEL_NOTE),
+            "conventions": _EQUATION_TEXT[self.equation][2](),
+            "note": _EQUATION_TEXT[self.equation][0],
             "lines": [x.to_dict(factor) for x in self.lines],
             "states": [s.to_dict(factor) for s in self.states],
             **({"sum_rules": [dict(r) for r in self.sum_rules]} if self.sum_rules else {}),

@@ -370,20 +370,16 @@ def e1_rate(result, upper: str, lower: str) -> Estimate:
     l_u + l_l odd (textbook, e.g. Grant, "Relativistic Quantum Theory of Atoms and Molecules", 2007, for
     the angular factor).
     """
-    from scipy.constants import fine_structure, physical_constants
+    from radsolve.analysis.radiative import _constants, e1_line
 
     if result.units != "atomic":
         raise InputError("E1 rates of Dirac levels are implemented in atomic units only", parameter="units")
     up, low = _e1_pair(result, upper, lower)
-    omega = up.energy - low.energy
     radial = radial_e1(result, up, low)
-    c = 1.0 / fine_structure
-    per_au = 4.0 * omega**3 / (3.0 * c**3) * _angular(up, low) / (2 * up.j + 1)
-    seconds = physical_constants["atomic unit of time"][0]
-    rate = per_au * radial.value**2 / seconds
-    error = per_au * 2.0 * abs(radial.value) * radial.error / seconds
-    error += rate * 3.0 * (abs(up.error_estimate) + abs(low.error_estimate)) / omega
-    return Estimate(rate, error, "s^-1", None, bool(error <= 1e-6 * rate))
+    line = e1_line(up, low, up.energy - low.energy, abs(up.error_estimate) + abs(low.error_estimate), radial,
+                   _angular(up, low) * radial.value**2, 2 * up.j + 1, 2 * low.j + 1, _constants())
+    return Estimate(line.einstein_A, line.einstein_A_error, "s^-1", None,
+                    bool(line.einstein_A_error <= 1e-6 * line.einstein_A))
 
 
 def e1_lines(result) -> list[dict]:
