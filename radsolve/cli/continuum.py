@@ -11,7 +11,7 @@ import typer
 from radsolve.cli.adapter import (OutputFormat, plugin_dirs, parse_assignments, reported_errors, say,
                                   solver_call, with_option, write_output, folder_exists, l_values)
 from radsolve.cli.options import (FormatOption, LOption, LmaxOption, MassOption, OutFileOption, OutputUnitOption,
-                                  ParamOption, PluginsOption, SpinOrbitOption, UnitsOption)
+                                  ParamOption, PluginsOption, ProgressOption, SpinOrbitOption, UnitsOption)
 
 PHASE_TOL_HELP = "target absolute error of each phase shift, radians (1e-12 ... 0.1)"
 
@@ -29,8 +29,6 @@ WorkersOption = Annotated[Optional[int], typer.Option(
     "--workers", "-w", metavar="N",
     help="worker processes over pieces of the energy grid [default: 1, this process]; the rows do not "
          "depend on N")]
-ProgressOption = Annotated[Optional[bool], typer.Option(
-    "--progress/--no-progress", help="progress bar on stderr [default: only when stderr is a terminal]")]
 
 
 def _potential(name, params, plugins, units, expr):

@@ -112,3 +112,7 @@ ReportFormatOption = Annotated[ReportFormat, typer.Option(
     "--format", "-f", help="table for reading, json for programs")]
 OutFileOption = Annotated[Optional[Path], typer.Option(
     "--out", "-o", metavar="FILE", help="write the output to FILE instead of stdout")]
+
+#: --progress of the commands that run many computations (sweeps, long energy grids).
+ProgressOption = Annotated[Optional[bool], typer.Option(
+    "--progress/--no-progress", help="progress bar on stderr [default: only when stderr is a terminal]")]

@@ -13,7 +13,7 @@ from radsolve.cli.adapter import (ReportFormat, say, fail, reported_errors, pars
                                   l_values, only_given, check_png, write_output)
 from radsolve.cli.options import (ReportFormatOption, OutFileOption, ParamOption, LOption, LmaxOption, CountOption, MassOption, PluginsOption,
                                   MethodOption, UnitsOption, TolOption, OutputUnitOption, SpinOrbitOption,
-                                  DimensionOption, EquationOption)
+                                  DimensionOption, EquationOption, ProgressOption)
 from radsolve.core.targets import THRESHOLD_TOL_RANGE
 
 
@@ -53,9 +53,7 @@ def sweep_command(
         "--cluster", metavar="ADDRESS",
         help="run on Dask: tcp://host:port of a running scheduler, or 'local' for a local "
              "Dask cluster (needs radsolve[cluster])")] = None,
-    progress: Annotated[Optional[bool], typer.Option(
-        "--progress/--no-progress",
-        help="progress bar on stderr [default: only when stderr is a terminal]")] = None,
+    progress: ProgressOption = None,
     plugins: PluginsOption = None,
 ) -> None:
     """The K lowest levels of NAME for each l at every point of a parameter grid.
