@@ -169,7 +169,7 @@ def _integral_estimate(result, label, weight, unit, upto=None, tol=None) -> Esti
     from radsolve.core.relativistic.front import hbar_c, rest_energy
 
     level = _dirac_level(result, label, ("dirac", "klein-gordon"))
-    values, scale, edges = [], 0.0, 0.0
+    values = []
     rest = rest_energy(result.units, result.mass)
     for sample in level.samples:
         r, w, density = _density(result, level, sample)
@@ -179,28 +179,26 @@ def _integral_estimate(result, label, weight, unit, upto=None, tol=None) -> Esti
         # two spans beyond them and integrated from 0 (their difference, and a thousandth, as error).
         inside = np.nonzero(np.abs(sample.u) > 1e-6 * np.max(np.abs(sample.u)))[0]
         first = int(inside[0]) if inside.size else 0
+        f = density * weight(r) if upto is None else density
+        terms = w * density * (weight(r) if upto is None else (r < upto))
+        below, below_error = _power_law_start(r, f, first)
         if upto is None:
-            terms = w * density * weight(r)
-            f = density * weight(r)
-            below, below_error = _power_law_start(r, f, first)
             values.append(float(np.sum(terms[first:])) + below)
         else:
-            terms = w * density * (r < upto)
-            f = density
-            below, below_error = _power_law_start(r, f, first)
             values.append(_partial_sum(r[first:], w[first:], density[first:], upto) + below
                           if upto > r[first] else float(np.sum(terms)))
-        scale = float(np.sum(np.abs(terms)))
-        # what the wall may cut off (the last decay length), taken whole as uncertain
-        if math.isfinite(result.v_infinity):
-            w_rel = sample.energy - result.v_infinity
-            decay = math.sqrt(max(-w_rel * (w_rel + 2.0 * rest), 1e-300)) / hbar_c(result.units)
-        else:  # confining (a growing scalar): the density's own e-folding rate before the wall
-            a, b = max(r.size - 20, 0), max(r.size - 10, 1)
-            with np.errstate(all="ignore"):
-                decay = 0.5 * math.log(abs(density[a]) / abs(density[b])) / (r[b] - r[a])
-            decay = decay if math.isfinite(decay) and decay > 0 else 1e-300
-        edges = float(np.sum(np.abs(terms[r > r[-1] - 1.0 / decay]))) + below_error
+    # the scale and what the wall may cut off (the last decay length, taken whole as uncertain),
+    # from the finest grid
+    scale = float(np.sum(np.abs(terms)))
+    if math.isfinite(result.v_infinity):
+        w_rel = sample.energy - result.v_infinity
+        decay = math.sqrt(max(-w_rel * (w_rel + 2.0 * rest), 1e-300)) / hbar_c(result.units)
+    else:  # confining (a growing scalar): the density's own e-folding rate before the wall
+        a, b = max(r.size - 20, 0), max(r.size - 10, 1)
+        with np.errstate(all="ignore"):
+            decay = 0.5 * math.log(abs(density[a]) / abs(density[b])) / (r[b] - r[a])
+        decay = decay if math.isfinite(decay) and decay > 0 else 1e-300
+    edges = float(np.sum(np.abs(terms[r > r[-1] - 1.0 / decay]))) + below_error
     # The states carry the rounding noise their energy shows (relative), 1e-13 at least.
     floor = (level.convergence or {}).get("rounding_floor", 0.0) or 0.0
     rounding = max(1e-13, float(floor) / max(abs(level.energy), 1e-300))
