@@ -762,3 +762,20 @@ def test_kink_of_the_potential_against_an_independent_ode_solution():
                 gap = _mod_pi(res.phase[i, j] - float(mpmath.atan(t)))
                 # measured: within 1.2e-12
                 assert abs(gap) < 1e-10 and abs(gap) <= res.error[i, j] + 1e-12, (l, e, gap)
+
+
+def test_strength_tail_passes_over_nodes_at_the_rounding_floor():
+    # df/dE = E**-4 on the resolved nodes (an exact power law), then two nodes of noise whose
+    # estimates exceed their values, the second rising: the tail must follow E**-4, not the noise.
+    from radsolve.analysis.scattering import _strength_tail
+
+    computed = np.array([10.0, 20.0, 40.0, 80.0, 160.0])
+    dfde = computed**-4.0
+    errors = 1e-6 * dfde
+    dfde[3:], errors[3:] = [1e-20, 5e-18], [3e-20, 9e-18]
+    capped = np.array([1e3, 1e4])
+    tail = _strength_tail(dfde[None, :], errors[None, :], computed, capped)
+    np.testing.assert_allclose(tail[0], capped**-4.0, rtol=1e-9)
+    # no resolved, falling pair at all: the tail stays at the size of the highest nodes
+    flat = _strength_tail(np.array([[1e-20, 2e-20, 5e-20]]), np.array([[1e-19] * 3]), computed[:3], capped)
+    assert np.all(flat == 5e-20)

@@ -994,6 +994,33 @@ class ContinuumStrength:
                 "notes": [n.to_dict() for n in self.notes]}
 
 
+def _strength_tail(dfde, errors, computed, capped):
+    """df/dE at the ``capped`` energies (rows: final l), from the ``computed`` ones.
+
+    A power law through the two highest nodes whose values stand above their
+    own estimates carries the tail, when it falls faster than 1/E (the sum
+    converges, so the integrand must; textbook).  Nodes at the rounding floor
+    (estimate above the value: a short-range well's integrand falls faster
+    than any power and reaches it early) would give a rising, exploding law:
+    they are passed over.  Where no such law exists, the tail is taken at the
+    size of the highest nodes (noise), and the caller counts the whole tail
+    in the estimate.
+    """
+    out = np.empty((dfde.shape[0], capped.size))
+    for i in range(dfde.shape[0]):
+        resolved = np.flatnonzero((dfde[i] > 2.0 * errors[i]) & np.isfinite(dfde[i]))[-2:]
+        slope = math.nan
+        if resolved.size == 2:
+            a, b = resolved
+            with np.errstate(all="ignore"):
+                slope = math.log(dfde[i, b] / dfde[i, a]) / math.log(computed[b] / computed[a])
+        if math.isfinite(slope) and slope < -1.0:
+            out[i] = dfde[i, resolved[1]] * (capped / computed[resolved[1]]) ** slope
+        else:
+            out[i] = np.max(np.abs(dfde[i, -2:]))
+    return out
+
+
 def continuum_strength(potential, level: str = "1s", *, mass=None, tol: float = 1e-8, plugins=None,
                        bound_state=None) -> ContinuumStrength:
     """The integral of df/dE over the continuum of a bound ``level`` (atomic units), with its estimate.
@@ -1042,11 +1069,7 @@ def continuum_strength(potential, level: str = "1s", *, mass=None, tol: float = 
         cap = capped[sl]
         ee = e[sl]
         if cap.any():
-            # a power law through the two highest computed nodes carries the capped ones
-            free = np.nonzero(~cap)[0][-2:]
-            with np.errstate(all="ignore"):
-                slope = np.log(dfde[:, free[1]] / dfde[:, free[0]]) / math.log(ee[free[1]] / ee[free[0]])
-                dfde[:, cap] = dfde[:, free[1], None] * (ee[None, cap] / ee[free[1]]) ** slope[:, None]
+            dfde[:, cap] = _strength_tail(dfde[:, ~cap], ddfde[:, ~cap], ee[~cap], ee[cap])
             dfde = np.where(np.isfinite(dfde), dfde, 0.0)
         w = 0.5 * wts * jac[sl]
         totals.append(dfde @ w)
