@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 from scipy.linalg import eigvalsh_tridiagonal
 
-from radsolve.core.tridiagonal import EigenStatistics, eigenpairs, rounding_sensitivity
+from radsolve.core.tridiagonal import EigenStatistics, eigenpairs, none_below, rounding_sensitivity, sturm_count
 
 
 def _box(n: int):
@@ -42,6 +42,43 @@ def test_predictions_of_the_wrong_levels_never_give_a_wrong_index(shift):
     values, _, _ = eigenpairs(d, e, lo, hi, exact[lo + shift : hi + 1 + shift], stats=stats)
     assert np.allclose(values, exact[lo : hi + 1], rtol=1e-12, atol=0)
     assert stats.missed > 0  # the fallback is visible in the statistic
+
+
+def test_predictions_of_the_lowest_levels_shifted_up_are_refused():
+    # lo = 0: the proof that nothing lies below the first window is the one-pass
+    # factorization (none_below); predictions one level too high must fail it.
+    d, e, exact = _box(300)
+    stats = EigenStatistics()
+    values, _, _ = eigenpairs(d, e, 0, 4, exact[1:6], stats=stats)
+    assert np.allclose(values, exact[:5], rtol=1e-12, atol=0)
+    assert stats.missed > 0
+
+
+def _graded(n: int = 800):
+    """A hydrogen-like graded Jacobi matrix (diagonal from ~1e20 down to ~1) and its
+    eigenvalues by LAPACK bisection to full precision (scipy, the reference)."""
+    x = np.linspace(np.log(1e-10), np.log(60.0), n + 2)[1:-1]
+    h = x[1] - x[0]
+    r = np.exp(x)
+    b = r * r
+    d = (1.0 / h**2 + b * (-1.0 / r) + 0.125) / b
+    e = -0.5 / h**2 / np.sqrt(b[:-1] * b[1:])
+    exact = eigvalsh_tridiagonal(d, e, select="i", select_range=(0, 5), lapack_driver="stebz",
+                                 tol=4 * np.finfo(float).tiny)
+    return d, e, exact
+
+
+@pytest.mark.parametrize("matrix", ["box", "graded"])
+def test_none_below_agrees_with_the_eigenvalues(matrix):
+    d, e, exact = _box(400) if matrix == "box" else _graded()
+    lowest = exact[0]
+    for relative in (1e-9, 1e-6, 1e-2):
+        gap = relative * abs(lowest)
+        assert none_below(d, e, lowest - gap)
+        assert not none_below(d, e, lowest + gap)
+        assert sturm_count(d, e, lowest - gap) == 0 and sturm_count(d, e, lowest + gap) == 1
+    assert not none_below(d, e, exact[3])
+    assert none_below(d, e, float(np.min(d) - 2 * np.max(np.abs(e))) - 1.0)
 
 
 def test_no_prediction_means_bisection_by_index():

@@ -29,7 +29,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from radsolve.core.grids import GridSpan, mapping_x, potential_on_grid
+from radsolve.core.grids import GridSpan, box_span, mapping_x, potential_on_grid, shared_radius
 from radsolve.core.recurrence import three_term
 
 #: Beyond the last radius integrated, V - V(inf) differs from its tail law by
@@ -167,11 +167,6 @@ def zero_energy_solution(values: np.ndarray, grid, L: float, mass: float, expone
                 start=start, beyond=beyond, r=r, weights=grid.weights[1:], u=u_all, last_zero=last_zero)
 
 
-def _span(r_min: float, r_max: float, step: float, anchors) -> GridSpan:
-    scale = r_max / max(math.log(r_max / r_min), 1.0)
-    return GridSpan.covering(r_min, r_max, step, scale, anchors)
-
-
 def asymptotic_radius(potential, profile, mass: float) -> float:
     """Where the probed tail law describes V - V(inf) to TAIL_PERTURBATION (for counting)."""
     from radsolve.core.probe import PROBE_RADII, _raw
@@ -220,12 +215,12 @@ def count_bound(potential, profile, L: float, mass: float, inner_radius: float,
               10.0 * profile.inner_length, 2.0 * max(profile.breakpoints, default=0.0))
     if math.isfinite(profile.range):
         far = max(far, 2.0 * profile.range)
-    radius = min(max(far, 4.0 * inner_radius), largest_radius)
+    radius = min(shared_radius(max(far, 4.0 * inner_radius), outward=True), largest_radius)
     anchors = [b for b in profile.breakpoints if inner_radius < b < radius]
 
     note_extra = ""
     for _ in range(12):
-        span = _span(inner_radius, radius, COARSE_STEP, anchors)
+        span = box_span(inner_radius, radius, COARSE_STEP, anchors)
         step_div = _resolution(potential, profile, span, L, mass)
         counts, shots = [], []
         for k in range(MAX_HALVINGS + 2):

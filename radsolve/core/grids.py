@@ -28,6 +28,8 @@ extrapolation needs.
 
 from __future__ import annotations
 
+import functools
+import math
 from dataclasses import dataclass, field
 from typing import Iterable
 
@@ -75,10 +77,13 @@ class RadialGrid:
     def size(self) -> int:
         return self.r.size
 
-    @property
+    @functools.cached_property
     def weights(self) -> np.ndarray:
-        """Trapezoid weights in xi mapped to r: sum(weights * f) ~ integral of f dr."""
-        return self.step * self.jacobian
+        """Trapezoid weights in xi mapped to r: sum(weights * f) ~ integral of f dr (read-only,
+        computed once: every state sampled on this grid shares it)."""
+        weights = self.step * self.jacobian
+        weights.flags.writeable = False
+        return weights
 
     def liouville_coefficients(self, potential_values: np.ndarray, l: int, mass: float, centrifugal: float | None = None):
         """Return (b, q) of the transformed equation.
@@ -128,11 +133,13 @@ def radius_from_x(x, scale: float, start=None) -> np.ndarray:
         # without overflowing e^t.
         linear_guess = log_s + np.log(np.maximum(x - log_s, 1e-300))
         t = np.minimum(x, np.where(x - log_s > 0, np.maximum(linear_guess, log_s), x))
+    # |t| <= max(|x|, |ln s| + |x|) bounds the root's size for the stopping test
+    settled = 1e-15 * max(1.0, float(np.max(np.abs(x), initial=0.0)) + abs(log_s))
     for _ in range(100):
         et = np.exp(t - log_s)  # e^t / s
         delta = (t + et - x) / (1.0 + et)
-        t = t - delta
-        if np.max(np.abs(delta)) < 1e-15 * max(1.0, float(np.max(np.abs(t)))):
+        t -= delta
+        if np.max(np.abs(delta), initial=0.0) < settled:
             break
     return np.exp(t)
 
@@ -379,6 +386,42 @@ class GridSpan:
         r, jac, schwarz = self.mapping.points(x, self.anchors, None if coarser is None else coarser.r)
         return RadialGrid(step=step, scale=self.scale, x=x, r=r, jacobian=jac, schwarzian=schwarz,
                           mapping=self.mapping)
+
+
+#: Boundary radii are moved to powers of this factor (see :func:`shared_radius`).
+RADIUS_QUANTUM = 2.0 ** 0.125
+
+
+def shared_radius(radius: float, *, outward: bool) -> float:
+    """``radius`` moved to the nearest power of :data:`RADIUS_QUANTUM` inward (or outward).
+
+    Used where a boundary may move that way without loss (an inner boundary
+    further in, an integration further out): neighbouring problems -- the
+    points of a sweep or a fit -- then land on the same boundaries, so on the
+    same grids, which :func:`box_span` builds once.
+    """
+    if not (math.isfinite(radius) and radius > 0.0):
+        return radius
+    power = math.log(radius) / math.log(RADIUS_QUANTUM)
+    whole = math.ceil(power - 1e-9) if outward else math.floor(power + 1e-9)
+    return RADIUS_QUANTUM ** whole
+
+
+def box_span(r_min: float, radius: float, step: float, anchors=()) -> GridSpan:
+    """Grids from r_min to radius, with the crossover scale s = R / ln(R / r_min).
+
+    That s balances the points spent on the logarithmic and the linear part
+    for a fixed accuracy of the states that fill the box.
+    """
+    return _box_span(float(r_min), float(radius), float(step), tuple(float(a) for a in (anchors or ())))
+
+
+@functools.lru_cache(maxsize=8)
+def _box_span(r_min: float, radius: float, step: float, anchors: tuple) -> GridSpan:
+    # A memo of a pure function: neighbouring points of a sweep or a fit solve
+    # and count on the same spans, so on the same grids (each built once).
+    scale = radius / max(math.log(radius / r_min), 1.0)
+    return GridSpan.covering(r_min, radius, step, scale, anchors)
 
 
 def potential_on_grid(pot, r: np.ndarray, breakpoints) -> np.ndarray:

@@ -651,17 +651,29 @@ def decay_radius(potential, L: float, mass: float, energy: float, start: float, 
     classically allowed region (or near the inner scale).
     """
     first = max(start, 1e-28)
-    r = np.geomspace(first, max(first * 1e14, 1e12), 14000)
+    last = max(first * 1e14, 1e12)
+    # Located on a coarse grid (~50 points per decade), then computed on a fine one
+    # (~1000 per decade) between the coarse points around the turning point and the end.
+    r = np.geomspace(first, last, int(50 * math.log10(last / first)) + 2)
+    i_turn, end = _decay_bracket(potential, L, mass, energy, nepers, r)
+    if end is None:
+        return float(last)
+    lo, hi = r[max(i_turn - 1, 0)], r[min(end + 1, r.size - 1)]
+    fine = np.geomspace(lo, hi, int(1000 * math.log10(hi / lo)) + 2)
+    i_turn, end = _decay_bracket(potential, L, mass, energy, nepers, fine)
+    return float(fine[end] if end is not None else fine[-1])
+
+
+def _decay_bracket(potential, L: float, mass: float, energy: float, nepers: float, r: np.ndarray):
+    """(index of the outer turning point, first index where the WKB decay from it reaches
+    ``nepers``, or None) on the radii ``r``."""
     with np.errstate(all="ignore"):
         u = effective_potential(potential, L, mass, r) - energy
     u = np.where(np.isfinite(u), u, np.inf)
     allowed = np.nonzero(u < 0)[0]
-    i_turn = allowed[-1] if allowed.size else 0
-    rr = r[i_turn:]
+    i_turn = int(allowed[-1]) if allowed.size else 0
     kappa = np.sqrt(np.maximum(2.0 * mass * u[i_turn:], 0.0))
     kappa = np.where(np.isfinite(kappa), kappa, 1e300)
-    integral = np.concatenate(([0.0], np.cumsum(0.5 * (kappa[1:] + kappa[:-1]) * np.diff(rr))))
+    integral = np.concatenate(([0.0], np.cumsum(0.5 * (kappa[1:] + kappa[:-1]) * np.diff(r[i_turn:]))))
     beyond = np.nonzero(integral >= nepers)[0]
-    if beyond.size == 0:
-        return float(rr[-1])
-    return float(rr[beyond[0]])
+    return i_turn, (i_turn + int(beyond[0]) if beyond.size else None)

@@ -48,7 +48,7 @@ from radsolve.core import probe as probing
 from radsolve.core.counting import BoundCount, count_bound
 from radsolve.errors import InputError
 from radsolve.core.extrapolation import extrapolate
-from radsolve.core.grids import GridSpan, potential_on_grid
+from radsolve.core.grids import GridSpan, box_span, potential_on_grid, shared_radius
 from radsolve.core.protocol import Note, Outcome
 from radsolve.core.result import GridSample, Level, SolveResult, certificate_key, level_designation
 from radsolve.core.solvers.base import METHODS, RadialSolver, solver_class
@@ -144,8 +144,9 @@ class _BoxPlan:
     largest_radius: float = math.inf  # no box beyond this radius
     anchors: tuple[float, ...] = ()
     at_limit: bool = False  # the box could not grow any further
-    #: key -> (energies, peak radii) of the wanted levels on the last planning grid:
-    #: the first refinement grid's windows
+    #: key -> (energies, peak radii, states) of the wanted levels on the last planning
+    #: grid or a neighbouring solve's first grid: the first refinement grid's windows
+    #: and start vectors (states None where there are none)
     predicted: dict = field(default_factory=dict)
     #: what the planning solves' eigenvalue searches did
     statistics: EigenStatistics = field(default_factory=EigenStatistics)
@@ -222,17 +223,24 @@ def _inner_radius(pot, prof, L, mass, targets: Targets, energy: float) -> float:
     ``targets.boundary_tol`` there (not for cores), and the level has grown
     by ``targets.core_nepers`` e-folds from there to its inner turning point
     (WKB), so that a steep core or a high centrifugal barrier costs no grid
-    points where the state is negligible.
+    points where the state is negligible.  The radius is then moved inward to
+    a shared value (:func:`radsolve.core.grids.shared_radius`; further in,
+    both bounds hold better), never below where V is known to be finite.
     """
     a = prof.inner_cutoff(L, mass, targets.boundary_tol)
+    floor = max(prof.origin.finite_from * 10.0, 1e-28)
     if math.isinf(energy) or prof.scale_free:
-        return a
+        return _shared_inner(a, floor)
     hi = max(prof.inner_length, a) * 1e6 if math.isfinite(prof.inner_length) else a * 1e6
-    lo = max(a, prof.origin.finite_from * 10.0, 1e-28)
+    lo = max(a, floor)
     if prof.origin.kind == "core":
-        lo = max(prof.origin.finite_from * 10.0, 1e-28)
+        lo = floor
     wkb = probing.wkb_inner_radius(pot, L, mass, energy, targets.core_nepers, lo, hi)
-    return max(a, wkb) if prof.origin.kind != "core" else max(wkb, lo)
+    return _shared_inner(max(a, wkb) if prof.origin.kind != "core" else max(wkb, lo), floor)
+
+
+def _shared_inner(radius: float, floor: float) -> float:
+    return max(shared_radius(radius, outward=False), min(radius, floor))
 
 
 def _inner_index(span: GridSpan, refinement: int, radius: float, coarse_r: np.ndarray) -> int:
@@ -246,20 +254,7 @@ def _breakpoints(channels) -> tuple[float, ...]:
 
 
 def _span(r_min: float, radius: float, step: float, anchors) -> GridSpan:
-    """Grids from r_min to radius, with the crossover scale s = R / ln(R / r_min).
-
-    That s balances the points spent on the logarithmic and the linear part
-    for a fixed accuracy of the states that fill the box.
-    """
-    return _span_of(float(r_min), float(radius), float(step), tuple(float(a) for a in (anchors or ())))
-
-
-@functools.lru_cache(maxsize=4)
-def _span_of(r_min: float, radius: float, step: float, anchors: tuple) -> GridSpan:
-    # A memo of a pure function: the points of a sweep or a fit that continue from
-    # their neighbour solve in the same box, and so on the same grids (built once).
-    scale = radius / max(math.log(radius / r_min), 1.0)
-    return GridSpan.covering(r_min, radius, step, scale, anchors)
+    return box_span(r_min, radius, step, anchors)
 
 
 def _solver(cls, grid, values, ch: _Channel, mass, inner) -> RadialSolver:
@@ -290,8 +285,8 @@ def _levels_on(cls, grid, ch: _Channel, mass, inner, count, guesses=None, energi
                peaks=None, statistics: EigenStatistics | None = None, precision=None,
                count_threshold: bool = True, previous=None):
     """The lowest ``count`` levels of one channel on one grid, energies from its reference:
-    ``(energies, u, below, values, noise)``, ``noise`` the solver's rounding noise of each
-    level where it measures one (else empty).
+    ``(energies, u, below, values, noise, solver)``, ``noise`` the solver's rounding noise of
+    each level where it measures one (else empty), ``solver`` the one used (for a later count).
 
     ``energies_only`` (finite differences, for planning): u is None, and no eigenvector is computed.
     ``below``: the levels below the threshold on this grid (None for a confining channel, or
@@ -308,7 +303,7 @@ def _levels_on(cls, grid, ch: _Channel, mass, inner, count, guesses=None, energi
     below = None if ch.confining or not count_threshold else solver.count_below(0.0)
     if statistics is not None:
         statistics.add(solver.statistics)
-    return energies, u, below, values, (solver.level_noise() if u is not None else [])
+    return energies, u, below, values, (solver.level_noise() if u is not None else []), solver
 
 
 @functools.lru_cache(maxsize=64)
@@ -330,14 +325,13 @@ def _predictions(history: list, reference: float, order: int, planned=None):
     if not history:
         if planned is None:
             return None, None
-        energies, peaks = planned
+        energies, peaks = planned[:2]
         return [e - reference for e in energies], list(peaks)
-    last = np.array([e for (e, _, _) in history[-1]]) - reference
+    last = np.array([step[0] for step in history[-1]]) - reference
     if len(history) >= 2:
-        prev = np.array([e for (e, _, _) in history[-2]]) - reference
+        prev = np.array([step[0] for step in history[-2]]) - reference
         last = last + (last - prev) / 2.0**order
-    peaks = [float(g.r[int(np.argmax(np.abs(u)))]) for (_, u, g) in history[-1]]
-    return list(last), peaks
+    return list(last), [step[3] for step in history[-1]]
 
 
 def _anchors_of(grid) -> tuple[float, ...]:
@@ -376,15 +370,17 @@ def _plan_box(channels, count, mass, targets: Targets, breakpoints) -> _BoxPlan:
     needed = 0.0
     short: list = []
     most = max(wanted.values())
+    found: dict = {}
     for _ in range(80):
         span, halvings, grid, coarse_r = _planning_grid(r_min, radius, breakpoints, active, mass, tops, most)
         needed = 0.0
         short = []
         for ch in active:
             inner = _inner_index(span, halvings, ch.inner_radius, coarse_r)
-            energies, _, below, _, _ = _levels_on(FiniteDifference, grid, ch, mass, inner, wanted[ch.key],
+            energies, _, below, _, _, _ = _levels_on(FiniteDifference, grid, ch, mass, inner, wanted[ch.key],
                                                energies_only=True, statistics=statistics)
             energies = energies + ch.reference
+            found[ch.key] = [float(x) for x in energies]
             if below is not None and below < wanted[ch.key]:
                 short.append(ch.key)
             top = float(energies[-1])
@@ -402,11 +398,11 @@ def _plan_box(channels, count, mass, targets: Targets, breakpoints) -> _BoxPlan:
     else:  # pragma: no cover - the loop above always reaches its limit
         notes.append(Note("box", "box search did not settle"))
     final_radius = max(needed if needed > 0 else radius, 2.0 * biggest_feature, 4.0 * r_in)
-    final_radius = min(max(final_radius, min(radius, final_radius)), largest)
+    final_radius = min(shared_radius(max(final_radius, min(radius, final_radius)), outward=True), largest)
     predicted: dict = {}
     if not confining:
         final_radius, predicted = _verify_box(active, wanted, mass, targets, final_radius, breakpoints, largest,
-                                              r_min, statistics)
+                                              r_min, statistics, found)
     span = _refined_span(r_min, final_radius, breakpoints, active, mass, tops, most)
     at_limit = final_radius >= largest * (1 - 1e-12)
     notes += _span_notes(span, at_limit, largest)
@@ -476,13 +472,17 @@ def _continued_plan(previous, channels, count, mass, mu, system: str, dimension:
         if not all(lev.converged and lev.samples for lev in chosen):
             return None
         predicted[ch.key] = ([lev.energy for lev in chosen],
-                             [float(lev.samples[0].r[int(np.argmax(np.abs(lev.samples[0].u)))]) for lev in chosen])
+                             [float(lev.samples[0].r[int(np.argmax(np.abs(lev.samples[0].u)))]) for lev in chosen],
+                             [lev.samples[0].u for lev in chosen])
     active = [ch for ch in channels if wanted[ch.key] > 0]
     if not active:
         return None
     r_min = min(ch.inner_radius for ch in channels)
     largest = _largest_radius(r_min)
-    radius = min(max(lev.convergence.get("box", 0.0) for lev in previous.levels), largest)
+    # The neighbour's span ends less than a coarse step beyond the shared radius it planned
+    # (a few per cent at most): that radius again, so the two share their grids.
+    box = max(lev.convergence.get("box", 0.0) for lev in previous.levels)
+    radius = largest if box >= largest * (1 - 1e-12) else min(shared_radius(box, outward=False), largest)
     if not radius > 4.0 * max(ch.inner_radius for ch in channels):
         return None
     tops = {ch.key: ch.reference for ch in active}
@@ -508,7 +508,7 @@ def _planning_grid(r_min, radius, breakpoints, channels, mass, tops, most):
 
 
 def _verify_box(channels, wanted, mass, targets: Targets, radius, breakpoints, largest, r_min,
-                statistics: EigenStatistics) -> tuple[float, dict]:
+                statistics: EigenStatistics, found: dict) -> tuple[float, dict]:
     """Grow the outer radius until the wall shifts no wanted level by more than its boundary target.
 
     The WKB decay estimate ignores the amplitude's prefactor, which is large
@@ -516,6 +516,8 @@ def _verify_box(channels, wanted, mass, targets: Targets, radius, breakpoints, l
     formula, see :func:`_box_error`) on the planning grid settles it.
     Also returns, for each channel, the energies and peak radii of the wanted
     levels on the last planning grid (windows for the first refinement grid).
+    ``found``: each channel's energies on the box search's last grid, which
+    start the eigenvalue searches here (windows, not bisection by index).
     """
     from radsolve.core.solvers.fd import FiniteDifference
 
@@ -529,10 +531,17 @@ def _verify_box(channels, wanted, mass, targets: Targets, radius, breakpoints, l
             if not wanted[ch.key] or ch.confining:
                 continue
             inner = _inner_index(span, halvings, ch.inner_radius, coarse_r)
-            energies, u, _, values, _ = _levels_on(FiniteDifference, grid, ch, mass, inner, wanted[ch.key],
-                                                statistics=statistics)
+            known = found.get(ch.key)
+            guesses = precision = None
+            if known is not None and len(known) == wanted[ch.key]:
+                guesses = [x - ch.reference for x in known]
+                precision = [targets.energy_target(x, ch.v_inf) for x in known]
+            energies, u, _, values, _, _ = _levels_on(FiniteDifference, grid, ch, mass, inner, wanted[ch.key],
+                                                guesses=guesses, precision=precision, statistics=statistics,
+                                                count_threshold=False)
+            found[ch.key] = [float(x) + ch.reference for x in energies]
             predicted[ch.key] = ([float(x) + ch.reference for x in energies],
-                                 [float(grid.r[int(np.argmax(np.abs(row)))]) for row in u])
+                                 [float(grid.r[int(np.argmax(np.abs(row)))]) for row in u], list(u))
             for energy, row in zip(energies, u):
                 shift = _box_error(grid, row, values, ch.centrifugal, mass, energy)
                 target = targets.boundary_target(energy + ch.reference, ch.v_inf)
@@ -541,7 +550,7 @@ def _verify_box(channels, wanted, mass, targets: Targets, radius, breakpoints, l
                     growth = max(growth, targets.wall_growth(shift, target, kappa))
         if growth == 0.0 or radius >= largest:
             return radius, predicted
-        radius = min(radius + min(growth, 4.0 * radius), largest)
+        radius = min(shared_radius(radius + min(growth, 4.0 * radius), outward=True), largest)
     return radius, predicted
 
 
@@ -553,12 +562,16 @@ def _grown(plan: _BoxPlan, growth: float, breakpoints) -> _BoxPlan | None:
     starts again from the coarsest grid anyway.
     """
     span = plan.span
-    if span.r_max >= plan.largest_radius * (1 - 1e-12):
+    if not _can_grow(plan):
         return None
-    radius = min(span.r_max + min(growth, 4.0 * span.r_max), plan.largest_radius)
+    radius = min(shared_radius(span.r_max + min(growth, 4.0 * span.r_max), outward=True), plan.largest_radius)
     new = _span(span.r_min, radius, span.coarse_step, breakpoints)
     return replace(plan, span=new, search_radius=max(plan.search_radius, new.r_max), anchors=new.anchors,
                    at_limit=radius >= plan.largest_radius * (1 - 1e-12))
+
+
+def _can_grow(plan: _BoxPlan) -> bool:
+    return plan.span.r_max < plan.largest_radius * (1 - 1e-12)
 
 
 def _decay_rate(grid, values, centrifugal, mass, energy) -> float:
@@ -590,7 +603,25 @@ def _box_error(grid, u_row, values, centrifugal, mass, energy) -> float:
     return float(du * du / (2.0 * mass) / (2.0 * kappa))
 
 
-def _inner_boundary_error(grid, u_row, inner, mass, exponent, values, energy, inverse_square=0.0) -> float:
+def _first_above(row: np.ndarray, start: int, level: float) -> int | None:
+    """The first index from ``start`` on where |row| exceeds ``level``, or None.
+
+    Looked for in growing blocks: the state rises from the origin, so the
+    first block nearly always holds it (a whole-row scan per level would cost
+    as much as the level's eigenvector).
+    """
+    block = 64
+    while start < row.size:
+        stop = min(start + block, row.size)
+        hit = np.flatnonzero(np.abs(row[start:stop]) > level)
+        if hit.size:
+            return start + int(hit[0])
+        start, block = stop, 4 * block
+    return None
+
+
+def _inner_boundary_error(grid, u_row, inner, mass, exponent, values, energy, inverse_square=0.0,
+                          peak: float | None = None) -> float:
     """Energy shift from imposing u ~ r**lambda at a = r[inner].
 
     A hard wall at a would shift the level by C**2 (2 lambda - 1)
@@ -603,11 +634,11 @@ def _inner_boundary_error(grid, u_row, inner, mass, exponent, values, energy, in
     above the rounding noise of the eigenvector.
     """
     r, a = grid.r, grid.r[inner]
-    peak = np.max(np.abs(u_row))
-    reliable = np.nonzero(np.abs(u_row[inner + 1 :]) > 1e-6 * peak)[0]
-    if reliable.size == 0:
+    if peak is None:
+        peak = float(np.max(np.abs(u_row)))
+    j = _first_above(u_row, inner + 1, 1e-6 * peak)
+    if j is None:
         return 0.0
-    j = inner + 1 + int(reliable[0])
     # C**2 a**(2 lambda - 1) = u(r_j)**2 (a / r_j)**(2 lambda) / a, in logarithms (lambda may be large)
     log_shift = (2.0 * math.log(abs(u_row[j])) + 2.0 * exponent * math.log(a / r[j]) - math.log(a)
                  + math.log(max(2.0 * exponent - 1.0, 0.25) / (2.0 * mass)))
@@ -648,12 +679,20 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
             # solver keeps its noise well below it).
             precision = None if guesses is None else [
                 targets.energy_target(g + ch.reference, ch.v_inf) for g in guesses]
-            previous = [step[1] for step in history[ch.key][-1]] if history[ch.key] else None
-            energies, u, _, values, noise = _levels_on(cls, grid, ch, mass, inner, want, guesses, peaks=peaks,
+            planned = plan.predicted.get(ch.key)
+            if history[ch.key]:
+                previous = [step[1] for step in history[ch.key][-1]]
+            else:  # the planning grid's or the neighbour's states, where there are any
+                previous = planned[2] if planned is not None and len(planned) > 2 else None
+            energies, u, _, values, noise, solver = _levels_on(cls, grid, ch, mass, inner, want, guesses, peaks=peaks,
                                                        statistics=statistics, precision=precision,
                                                        count_threshold=False, previous=previous)
-            last_grid[ch.key] = (grid, inner, values)
-            history[ch.key].append([(float(energies[k]) + ch.reference, u[k], grid) for k in range(want)])
+            last_grid[ch.key] = solver
+            size = np.abs(u[:want])
+            tops = np.argmax(size, axis=1)
+            peaks_now = size[np.arange(want), tops]
+            history[ch.key].append([(float(energies[k]) + ch.reference, u[k], grid, float(grid.r[tops[k]]))
+                                    for k in range(want)])
             levels = best[ch.key]
             profile = ch.potential.potential_error(grid.r) if hasattr(ch.potential, "potential_error") else None
             splits = _unsettled_pairs(history[ch.key])
@@ -674,7 +713,7 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
                 shifted = ex.value - ch.reference
                 wall = 0.0 if ch.confining else _box_error(grid, u[k], values, ch.centrifugal, mass, shifted)
                 inner_err = _inner_boundary_error(grid, u[k], inner, mass, ch.exponent, values, shifted,
-                                                  ch.profile.origin.inverse_square)
+                                                  ch.profile.origin.inverse_square, float(peaks_now[k]))
                 estimate = ex.estimate + wall + inner_err
                 degenerate = splits.get(k, 0.0)
                 if degenerate:
@@ -714,14 +753,14 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
     # one Sturm count per channel, not one per grid.
     for ch in channels:
         if ch.key in last_grid and not ch.confining:
-            grid, inner, values = last_grid[ch.key]
-            solver = _solver(cls, grid, values, ch, mass, inner)
+            solver = last_grid[ch.key]  # its searches are already in the statistic
+            searched = replace(solver.statistics)
             grid_counts[ch.key].append(solver.count_below(0.0))
-            statistics.add(solver.statistics)
+            statistics.add(solver.statistics.minus(searched))
     samples = {
         ch.key: [
             tuple(GridSample(step=g.step, r=g.r, weights=g.weights, u=uk, energy=e, mapping=g.mapping)
-                  for (e, uk, g) in (step[k] for step in history[ch.key]))
+                  for (e, uk, g, _) in (step[k] for step in history[ch.key]))
             for k in range(plan.wanted[ch.key])
         ]
         for ch in channels
@@ -747,8 +786,8 @@ def _unsettled_pairs(history: list) -> dict:
     """
     if len(history) < 2:
         return {}
-    last = np.array([e for (e, _, _) in history[-1]])
-    prev = np.array([e for (e, _, _) in history[-2]])
+    last = np.array([e for (e, *_) in history[-1]])
+    prev = np.array([e for (e, *_) in history[-2]])
     if last.size < 2:
         return {}
     gap_now, gap_before = np.diff(last), np.diff(prev)
@@ -882,7 +921,7 @@ def solve(
 
     runs: dict = {}
     for attempt in range(4):
-        may_grow = attempt < 3 and _grown(plan, 1.0, breakpoints) is not None
+        may_grow = attempt < 3 and _can_grow(plan)
         runs = {cls: _run_method(channels, plan, kinetic, targets, cls, may_grow) for cls in classes}
         # One box for every method: grow it for all when any needs it.
         growth = max(_wall_growth(run.best, targets, channels) for run in runs.values())

@@ -11,13 +11,15 @@ A file or entry point that cannot be loaded, or that breaks the protocol, does
 not stop the others: it is kept as a :class:`BrokenFamily` (listed by
 ``radsolve potentials`` with its cause; using it raises that cause).  Two
 families with the same NAME are both unusable under that name, and the error
-names both sources.  Discovery keeps no state between calls: each call looks at
-the folders and the environment as they are then.
+names both sources.  Each call looks at the entry points, the folders and the
+environment as they are then; only the built-ins, which ship inside the
+package, are read once per process.
 """
 
 from __future__ import annotations
 
 import difflib
+import functools
 import hashlib
 import importlib
 import importlib.util
@@ -99,7 +101,9 @@ def _builtin_package():
     return importlib.import_module("radsolve.potentials.builtin")
 
 
-def _builtin_families() -> list[PotentialFamily | BrokenFamily]:
+@functools.lru_cache(maxsize=1)
+def _builtin_families() -> tuple[PotentialFamily | BrokenFamily, ...]:
+    """The built-in families (frozen objects; read once: they ship inside the package)."""
     import pkgutil
 
     package = _builtin_package()
@@ -122,7 +126,7 @@ def _builtin_families() -> list[PotentialFamily | BrokenFamily]:
             found.append(_family_from_object(module, source, "built-in", file=source))
         except PluginError as exc:
             found.append(BrokenFamily(str(module.NAME), source, "built-in", str(exc), source))
-    return found
+    return tuple(found)
 
 
 def _entry_point_families() -> list[PotentialFamily | BrokenFamily]:

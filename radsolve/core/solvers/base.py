@@ -157,10 +157,15 @@ class RadialSolver:
         u = np.zeros((w_interior.shape[0], self.grid.size))
         stop = start + w_interior.shape[1]
         u[:, start:stop] = w_interior * np.sqrt(self.grid.jacobian[start:stop])
-        norm = np.sqrt(np.sum(self.grid.weights * u**2, axis=1))
+        norm = np.sqrt((u * u) @ self.grid.weights)
         u /= norm[:, None]
-        # Sign convention: positive where |u| first exceeds a small fraction of its maximum.
-        size = np.abs(u)
-        first = np.argmax(size > 1e-3 * np.max(size, axis=1, keepdims=True), axis=1)
-        u *= np.where(u[np.arange(u.shape[0]), first] < 0, -1.0, 1.0)[:, None]
-        return u
+        return positive_near_origin(u)
+
+
+def positive_near_origin(u: np.ndarray) -> np.ndarray:
+    """The sign convention of every state (rows of ``u``, changed in place): positive
+    where |u| first exceeds a small fraction of its maximum."""
+    size = np.abs(u)
+    first = np.argmax(size > 1e-3 * np.max(size, axis=1, keepdims=True), axis=1)
+    u *= np.where(u[np.arange(u.shape[0]), first] < 0, -1.0, 1.0)[:, None]
+    return u

@@ -19,7 +19,7 @@ from typing import Sequence
 
 import numpy as np
 
-from radsolve.core.solvers.base import RadialSolver
+from radsolve.core.solvers.base import RadialSolver, positive_near_origin
 from radsolve.core.tridiagonal import eigenpairs, sturm_count
 
 
@@ -93,16 +93,31 @@ class FiniteDifference(RadialSolver):
         values, z, noise = self._solve(indices, guesses, vectors=True, rows=rows, precision=precision,
                                        starts=starts)
         self._noise = list(noise)
-        w = (z / np.sqrt(b)[:, None]).T
-        return values, self.to_u(w, self.inner + 1)
+        return values, self._states(z)
+
+    def _states(self, z: np.ndarray) -> np.ndarray:
+        """u (rows, whole grid) from unit eigenvectors z (columns) of T.
+
+        w = z / sqrt(b) and u = sqrt(r') w with b = r'**2, so u = z / sqrt(r'),
+        and sum(weights * u**2) = h sum(z**2) = h: u = z / sqrt(h r') is
+        normalized by construction (as :meth:`to_u` would normalize it).
+        """
+        n = self.grid.size
+        sl = slice(self.inner + 1, n - 1)
+        u = np.zeros((z.shape[1], n))
+        u[:, sl] = z.T * (1.0 / np.sqrt(self.grid.step * self.grid.jacobian[sl]))
+        return positive_near_origin(u)
 
     def _starts(self, previous, b) -> list | None:
-        """The states of the grid this one halves, as start vectors of this matrix.
+        """States of the grid this one halves, or of a grid of this size, as start vectors of this matrix.
 
-        Every other point of this grid is a point of that one; the points
-        between take the mean of their neighbours (good to the step squared,
-        which one inverse iteration makes good to rounding).  None when the
-        states are not on the grid this one halves.
+        Every other point of this grid is a point of the one it halves; the
+        points between take the mean of their neighbours (good to the step
+        squared, which one inverse iteration makes good to rounding).  States
+        of a grid of this size (a neighbouring point of a sweep, on the same
+        span) are taken as they are.  None for states of any other grid.
+        A start vector only speeds the search up: the levels' indices are
+        proven whatever it is.
         """
         n = self.grid.size
         sl = slice(self.inner + 1, n - 1)
@@ -110,10 +125,13 @@ class FiniteDifference(RadialSolver):
         out = []
         for u in previous:
             u = np.asarray(u, dtype=float)
-            if u.ndim != 1 or 2 * (u.size - 1) != n - 1:
+            if u.ndim == 1 and u.size == n:
+                fine = u
+            elif u.ndim == 1 and 2 * (u.size - 1) == n - 1:
+                fine = np.empty(n)
+                fine[0::2] = u
+                fine[1::2] = 0.5 * (u[:-1] + u[1:])
+            else:
                 return None
-            fine = np.empty(n)
-            fine[0::2] = u
-            fine[1::2] = 0.5 * (u[:-1] + u[1:])
             out.append(fine[sl] * scale)
         return out
