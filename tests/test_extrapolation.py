@@ -70,6 +70,18 @@ def test_settled_estimate_with_a_large_next_term_stays_honest():
     assert settled.estimate >= abs(settled.value - LIMIT)
 
 
+def test_a_slow_term_hidden_below_the_lower_columns_is_not_trusted():
+    # Numerov's orders (4, 6, 8, 10) with a small h**4.6 term: the raw values and the
+    # first columns show orders within 0.5 of the promised ones (4.0, 6.3, 8.0), but the
+    # column with two entries converges like h**4.6, not h**10.  Trusting its order from
+    # the columns below put the estimate 14 times below the true error; the lower columns
+    # must show their orders closely before a column's unseen order is taken on trust.
+    values = [LIMIT + h**4 + 30 * h**6 + 300 * h**8 + 1e-3 * h**4.6 for h in 0.25 / 2.0 ** np.arange(5)]
+    out = extrapolate(values, (4, 6, 8, 10), 1e-15, settled=True)
+    assert out.order_ok
+    assert out.estimate >= abs(out.value - LIMIT)
+
+
 def test_wrong_order_is_not_settled():
     # An h**3 term the method does not promise: the columns do not show their orders,
     # so the settled rule must not apply, and the estimate stays honest.

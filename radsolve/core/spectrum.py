@@ -200,13 +200,16 @@ def _channels(pot, ls, spin_orbit, dimension, mass, targets: Targets) -> list[_C
         )
     shift = (dimension - 3) / 2.0
     out = []
+    profiles: dict = {}  # channels sharing one potential share its probe
     for l in ls:
         js = [None]
         if spin_orbit:
             js = [0.5] if l == 0 else [l - 0.5, l + 0.5]
         for j in js:
             channel_pot = pot.channel(l, j) if hasattr(pot, "channel") else pot
-            prof = probing.profile(channel_pot, mass)
+            prof = profiles.get(id(channel_pot))
+            if prof is None:
+                prof = profiles[id(channel_pot)] = probing.profile(channel_pot, mass)
             effective = l + shift
             prof.check_bounded_below(effective, mass)
             exponent = prof.origin_exponent(effective, mass)
