@@ -36,7 +36,7 @@ from radsolve.core.recurrence import three_term
 #: less than this (as 2 m r**2 |difference|).
 TAIL_PERTURBATION = 1e-6
 #: Coarsest step in xi of the zero-energy grid.
-COARSE_STEP = 0.05
+COARSE_STEP = 0.1
 #: At most this many extra halvings to make two grids agree.
 MAX_HALVINGS = 4
 #: Never more points than this on one zero-energy grid.

@@ -613,7 +613,7 @@ def _first_above(row: np.ndarray, start: int, level: float) -> int | None:
     first block nearly always holds it (a whole-row scan per level would cost
     as much as the level's eigenvector).
     """
-    block = 64
+    block = 512
     while start < row.size:
         stop = min(start + block, row.size)
         hit = np.flatnonzero(np.abs(row[start:stop]) > level)

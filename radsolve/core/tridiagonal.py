@@ -207,8 +207,9 @@ def _rayleigh(d, e, x: float, row, stats: EigenStatistics, start=None, enough: f
     then within that bound of an eigenvalue (the residual bound of a
     symmetric matrix), which the caller's precision does not resolve.
     """
-    if start is not None and start.size == d.size and np.all(np.isfinite(start)) and np.any(start):
-        rhs = start / np.linalg.norm(start)
+    size = float(start @ start) if start is not None and start.size == d.size else 0.0
+    if 0.0 < size < np.inf:  # finite and not all zero
+        rhs = start / np.sqrt(size)
     else:
         rhs = _start_vector(d.size, row)
     rho = np.inf
