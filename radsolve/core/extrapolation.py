@@ -18,6 +18,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+_EPS = float(np.finfo(float).eps)
 #: The observed order may differ from the expected one by this much.
 ORDER_TOLERANCE = 0.3
 #: A lower whole-number order (a jump on the grid) must be this close to an integer ...
@@ -61,7 +62,7 @@ class Extrapolation:
     order_ok: bool
 
 
-def _observed(e: np.ndarray, end: int) -> float | None:
+def _observed(e, end: int) -> float | None:
     d1, d2 = abs(e[end - 2] - e[end - 1]), abs(e[end - 1] - e[end])
     return math.log2(d1 / d2) if d1 > 0 and d2 > 0 else None
 
@@ -70,7 +71,7 @@ def _column_settled(column: list, order: int, tolerance: float = SETTLED_ORDER_T
     """The last three entries of a Richardson column decrease by the factor 2**order their next term promises."""
     if len(column) < 3:
         return False
-    observed = _observed(np.asarray(column[-3:]), 2)
+    observed = _observed(column[-3:], 2)
     return observed is not None and abs(observed - order) < tolerance
 
 
@@ -123,9 +124,10 @@ def extrapolate(values, orders: tuple[int, ...], relative_rounding: float = 1e-1
     correction removes most of the error, and in any case it is a third of
     the estimate, so the estimate still covers it.
     """
-    e = np.asarray(values, dtype=float)
-    k = e.size
-    floor = max(64.0 * np.finfo(float).eps, relative_rounding) * abs(e[-1])
+    # plain floats: a table of a few entries per level and grid, where array overhead would dominate
+    e = [float(v) for v in np.ravel(values)]
+    k = len(e)
+    floor = max(64.0 * _EPS, relative_rounding) * abs(e[-1])
     if k < 3:
         return Extrapolation(float(e[-1]), math.inf, None, False)
     d2 = abs(e[-2] - e[-1])
@@ -146,7 +148,7 @@ def extrapolate(values, orders: tuple[int, ...], relative_rounding: float = 1e-1
         best = e[-1] + (e[-1] - e[-2]) / (2.0**p - 1.0)
         estimate = max(abs(best - e[-1]), abs(e[-1] - e[-2]))
         return Extrapolation(float(best), float(max(estimate, floor)), observed, False)
-    table = [list(e)]
+    table = [e]
     for j in range(min(k - 1, len(use))):
         factor = 2.0 ** use[j] - 1.0
         prev = table[-1]

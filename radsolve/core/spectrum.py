@@ -623,8 +623,18 @@ def _first_above(row: np.ndarray, start: int, level: float) -> int | None:
     return None
 
 
-def _inner_boundary_error(grid, u_row, inner, mass, exponent, values, energy, inverse_square=0.0,
-                          peak: float | None = None) -> float:
+def _rises(u: np.ndarray, start: int, peaks: np.ndarray, block: int = 512) -> list:
+    """For each state (rows of ``u``), :func:`_first_above` its ``1e-6 * peak`` from ``start``:
+    one array operation over the first block for all of them, the rest one by one."""
+    lead = np.abs(u[:, start : start + block]) > (1e-6 * peaks)[:, None]
+    found = lead.any(axis=1)
+    first = np.argmax(lead, axis=1)
+    return [start + int(first[k]) if found[k] else _first_above(u[k], start + block, 1e-6 * float(peaks[k]))
+            for k in range(u.shape[0])]
+
+
+def _inner_boundary_error(grid, u_row, inner, rise: int | None, mass, exponent, values, energy,
+                          inverse_square=0.0) -> float:
     """Energy shift from imposing u ~ r**lambda at a = r[inner].
 
     A hard wall at a would shift the level by C**2 (2 lambda - 1)
@@ -633,15 +643,14 @@ def _inner_boundary_error(grid, u_row, inner, mass, exponent, values, energy, in
     condition errs only by the potential's relative correction to the
     logarithmic derivative of u at a, about 2 m a**2 |V(a) - E| / lambda,
     which multiplies that shift (a c/r**2 term is part of the power law
-    itself and is left out of V there).  C is read off u where it is well
-    above the rounding noise of the eigenvector.
+    itself and is left out of V there).  C is read off u at ``rise``, the first
+    point where u is well above the rounding noise of the eigenvector
+    (:func:`_rises`; None: nowhere, no shift).
     """
     r, a = grid.r, grid.r[inner]
-    if peak is None:
-        peak = float(np.max(np.abs(u_row)))
-    j = _first_above(u_row, inner + 1, 1e-6 * peak)
-    if j is None:
+    if rise is None:
         return 0.0
+    j = rise
     # C**2 a**(2 lambda - 1) = u(r_j)**2 (a / r_j)**(2 lambda) / a, in logarithms (lambda may be large)
     log_shift = (2.0 * math.log(abs(u_row[j])) + 2.0 * exponent * math.log(a / r[j]) - math.log(a)
                  + math.log(max(2.0 * exponent - 1.0, 0.25) / (2.0 * mass)))
@@ -693,7 +702,7 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
             last_grid[ch.key] = solver
             size = np.abs(u[:want])
             tops = np.argmax(size, axis=1)
-            peaks_now = size[np.arange(want), tops]
+            rises = _rises(u[:want], inner + 1, size[np.arange(want), tops])
             history[ch.key].append([(float(energies[k]) + ch.reference, u[k], grid, float(grid.r[tops[k]]))
                                     for k in range(want)])
             levels = best[ch.key]
@@ -715,8 +724,8 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
                 ex = extrapolate(series, cls.error_orders, rounding, settled=True)
                 shifted = ex.value - ch.reference
                 wall = 0.0 if ch.confining else _box_error(grid, u[k], values, ch.centrifugal, mass, shifted)
-                inner_err = _inner_boundary_error(grid, u[k], inner, mass, ch.exponent, values, shifted,
-                                                  ch.profile.origin.inverse_square, float(peaks_now[k]))
+                inner_err = _inner_boundary_error(grid, u[k], inner, rises[k], mass, ch.exponent, values, shifted,
+                                                  ch.profile.origin.inverse_square)
                 estimate = ex.estimate + wall + inner_err
                 degenerate = splits.get(k, 0.0)
                 if degenerate:
