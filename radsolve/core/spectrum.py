@@ -256,10 +256,6 @@ def _breakpoints(channels) -> tuple[float, ...]:
     return tuple(sorted({b for ch in channels for b in ch.profile.breakpoints}))
 
 
-def _span(r_min: float, radius: float, step: float, anchors) -> GridSpan:
-    return box_span(r_min, radius, step, anchors)
-
-
 def _solver(cls, grid, values, ch: _Channel, mass, inner) -> RadialSolver:
     return cls(grid, values, ch.l, mass, inner, origin_exponent=ch.exponent, centrifugal=ch.centrifugal)
 
@@ -323,7 +319,7 @@ def _predictions(history: list, reference: float, order: int, planned=None):
 
     With two grids known, the leading error term ~h**order is extrapolated
     (the next grid moves a level by 2**-order times the last change).  On the
-    first grid, the planning grid's ``(energies, peaks)`` when there are any.
+    first grid, ``planned``'s energies and peaks when there are any (``plan.predicted``).
     """
     if not history:
         if planned is None:
@@ -365,7 +361,7 @@ def _plan_box(channels, count, mass, targets: Targets, breakpoints) -> _BoxPlan:
     confining = all(ch.confining for ch in channels)
     notes: list[Note] = []
     if not active:
-        span = _span(r_min, radius, COARSE_STEP, breakpoints)
+        span = box_span(r_min, radius, COARSE_STEP, breakpoints)
         return _BoxPlan(span, wanted, (), radius, largest, span.anchors)
     nepers = targets.decay_nepers
     statistics = EigenStatistics()
@@ -443,9 +439,9 @@ def _span_notes(span: GridSpan, at_limit: bool, largest: float) -> list[Note]:
 
 def _refined_span(r_min, radius, breakpoints, channels, mass, tops, most) -> GridSpan:
     """The refinement's span for this box: its coarse step resolves the wanted states (``_PHASE_COARSE``)."""
-    span = _span(r_min, radius, COARSE_STEP, breakpoints)
+    span = box_span(r_min, radius, COARSE_STEP, breakpoints)
     halvings = _planning_halvings(channels, span, mass, tops, most, _PHASE_COARSE)
-    return _span(r_min, radius, COARSE_STEP / 2**halvings, breakpoints) if halvings else span
+    return box_span(r_min, radius, COARSE_STEP / 2**halvings, breakpoints) if halvings else span
 
 
 def _continued_plan(previous, channels, count, mass, mu, system: str, dimension: int, targets: Targets,
@@ -505,7 +501,7 @@ def _planning_halvings(channels, span, mass, tops, most: int, phase: float = _PH
 
 def _planning_grid(r_min, radius, breakpoints, channels, mass, tops, most):
     """(span, halvings, grid, coarse radii) of the planning grid for a box of this radius."""
-    span = _span(r_min, radius, PLANNING_STEP, breakpoints)
+    span = box_span(r_min, radius, PLANNING_STEP, breakpoints)
     halvings = _planning_halvings(channels, span, mass, tops, most)
     return span, halvings, _grid(span, halvings), span.grid(0).r
 
@@ -568,7 +564,7 @@ def _grown(plan: _BoxPlan, growth: float, breakpoints) -> _BoxPlan | None:
     if not _can_grow(plan):
         return None
     radius = min(shared_radius(span.r_max + min(growth, 4.0 * span.r_max), outward=True), plan.largest_radius)
-    new = _span(span.r_min, radius, span.coarse_step, breakpoints)
+    new = box_span(span.r_min, radius, span.coarse_step, breakpoints)
     return replace(plan, span=new, search_radius=max(plan.search_radius, new.r_max), anchors=new.anchors,
                    at_limit=radius >= plan.largest_radius * (1 - 1e-12))
 
