@@ -234,3 +234,32 @@ def test_two_dimensional_hydrogen():
 def test_bad_arguments_raise_input_errors_naming_the_input(kwargs, match):
     with pytest.raises(InputError, match=match):
         radsolve.solve("coulomb", **kwargs)
+
+
+@pytest.mark.parametrize("l, excess", [(1, 1e-7), (1, 1e-5), (1, 1e-4), (2, 1e-7), (2, 1e-4)])
+def test_square_well_just_past_binding_is_never_certified_empty(l, excess):
+    # An l >= 1 square well binds its first level when k0 a passes the first zero of
+    # j_(l-1) (pi for l = 1, 4.4934 for l = 2; textbook formula).  Just past it the
+    # zero-energy solution's growing part beyond the well is tiny and the grids once
+    # flipped its sign on two grids alike: "no bound state", certain.  The count must
+    # be 1, or say it is uncertain; where it is certain and the level converges, the
+    # energy matches the spherical-Bessel matching condition (textbook formula).
+    import math
+    from scipy import optimize, special
+    from radsolve.potentials import make_family
+
+    root = optimize.brentq(lambda x: special.spherical_jn(l - 1, x), 3.0, 5.0) if l > 1 else math.pi
+    V0 = (root * (1 + excess)) ** 2 / 2  # radius 1, mass 1
+    family = make_family("edge_well", lambda r: np.where(np.asarray(r) < 1.0, -V0, 0.0), {},
+                         breakpoints=lambda: [1.0])
+    res = radsolve.solve(family.bind(), l=l, count=1, tol=1e-10)
+    cert = res.certificates[l]
+    assert cert.count == 1 or not cert.certain, cert
+    for lev in res.levels:
+        if lev.converged or lev.status.value == "rounding floor":
+            kappa_match = lambda E: (math.sqrt(2 * (E + V0)) * special.spherical_jn(l, math.sqrt(2 * (E + V0)), True)
+                                     * special.spherical_kn(l, math.sqrt(-2 * E))
+                                     - math.sqrt(-2 * E) * special.spherical_kn(l, math.sqrt(-2 * E), True)
+                                     * special.spherical_jn(l, math.sqrt(2 * (E + V0))))
+            exact = optimize.brentq(kappa_match, -0.5 * V0, -1e-14, xtol=1e-300, rtol=1e-15)
+            assert abs(lev.energy - exact) <= max(10 * lev.error_estimate, 1e-9 * abs(exact)), (lev, exact)

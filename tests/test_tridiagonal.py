@@ -149,3 +149,9 @@ def test_start_vectors_of_the_wrong_states_never_give_a_wrong_index():
     guesses = 0.5 * (exact[lo : hi + 1] + exact[lo + 1 : hi + 2])
     values, _, _ = eigenpairs(d, e, lo, hi, guesses, starts=starts, stats=EigenStatistics())
     assert np.allclose(values, exact[lo : hi + 1], rtol=1e-12, atol=0)
+
+
+def test_none_below_proves_nothing_from_a_nan_and_handles_one_row():
+    assert not none_below(np.array([1.0, np.nan, 1.0]), np.array([0.1, 0.1]), 0.0)
+    assert not none_below(np.array([1.0, 1.0, 1.0]), np.array([np.nan, 0.1]), 0.0)
+    assert none_below(np.array([1.0]), np.array([]), 0.5) and not none_below(np.array([1.0]), np.array([]), 1.5)

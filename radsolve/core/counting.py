@@ -234,7 +234,8 @@ def count_bound(potential, profile, L: float, mass: float, inner_radius: float,
                 shot = _repulsive_tail_zeros(shot)
             counts.append(shot.nodes)
             shots.append(shot)
-            if len(counts) >= 2 and counts[-1] == counts[-2] and _same_side(shots[-1], shots[-2]):
+            if (len(counts) >= 2 and counts[-1] == counts[-2] and _same_side(shots[-1], shots[-2])
+                    and _growth_resolved(shots[-2], shots[-1])):
                 break
         if not shots:
             return BoundCount(None, False, "the zero-energy solution needs more grid points than allowed: "
@@ -269,6 +270,12 @@ def count_bound(potential, profile, L: float, mass: float, inner_radius: float,
                                         f"({counts[-2] if len(counts) > 1 else '?'} -> {count}): a level lies "
                                         "too close to the threshold to tell whether it is bound",
                           outermost, binding)
+    if not _growth_resolved(shots[-2], shots[-1]):
+        return BoundCount(count, False, "the growing part of the zero-energy solution beyond the radii "
+                                        f"integrated ({radius:.4g}) is not resolved by the grids (it changed "
+                                        "between the two finest by more than half of itself): a level lies "
+                                        "too close to the threshold to tell whether it is bound",
+                          outermost, binding)
     if long_repulsive and getattr(shot, "undecided", False):
         return BoundCount(count, False, "the repulsive long-range tail leaves open whether the zero-energy "
                                         "solution has another zero far out", outermost, binding)
@@ -285,6 +292,26 @@ def _same_side(a: Shot, b: Shot) -> bool:
     """Both grids put the growing part of the tail on the same side of zero (or none)."""
     return (a.growing == 0.0) == (b.growing == 0.0) and np.sign(a.growing) * np.sign(a.u[-1]) == \
         np.sign(b.growing) * np.sign(b.u[-1])
+
+
+def _growth_resolved(coarse: Shot, fine: Shot) -> bool:
+    """The finer grid knows the growing part of u0 beyond the last radius well enough to trust its sign.
+
+    Beyond the radii integrated u0 = a (r/R)**nu_plus + b (r/R)**nu_minus, and
+    whether it has one more zero there is the sign of a/b (a zero lies
+    beyond when -1 < a/b < 0).  Just above a threshold depth a/b is tiny (the
+    level is bound by little and its zero lies far out), and the
+    discretization error can flip its sign on two grids alike.  It is
+    trusted when it moved between the two grids by at most half of itself
+    (the finer grid's error is a fraction of that move: a third for second
+    order).  The ratio, not a alone: both are on the scale of u's peak,
+    which a itself sets once the growing part dominates.
+    """
+    def ratio(shot: Shot) -> float:
+        return shot.growing / shot.decaying if shot.decaying != 0.0 else shot.growing
+
+    q_coarse, q_fine = ratio(coarse), ratio(fine)
+    return abs(q_fine - q_coarse) <= 0.5 * abs(q_fine)
 
 
 def _repulsive_tail_zeros(shot: Shot) -> Shot:

@@ -159,8 +159,11 @@ def none_below(d: np.ndarray, e: np.ndarray, x: float, stats: EigenStatistics | 
         return True
     if stats is not None:
         stats.sturm_counts += 1
-    _, _, info = dpttrf(d - x, e)
-    return info == 0
+    if d.size == 1:
+        return bool(d[0] - x > 0.0)
+    pivots, _, info = dpttrf(d - x, e)
+    # a NaN entry passes the pivot test but reaches the last pivot: no proof then
+    return info == 0 and bool(np.isfinite(pivots[-1]))
 
 
 def bisect_by_index(d: np.ndarray, e: np.ndarray, lo: int, hi: int) -> np.ndarray:
