@@ -246,11 +246,14 @@ def dask_client(cluster, workers: int | None, timeout: float = CLUSTER_TIMEOUT):
     if address == "local":
         n = workers if workers is not None else usable_cores()
         # No dashboard, and the scheduler's small HTTP server on a free loopback
-        # port, so that a second cluster on this machine does not clash.
+        # port, so that a second cluster on this machine does not clash.  Its logs
+        # only at CRITICAL: a worker whose heartbeat meets the scheduler already
+        # closing logs a traceback at ERROR when we shut the cluster down; a task's
+        # own failure reaches us through its future, not through the log.
         local = distributed.LocalCluster(n_workers=n, threads_per_worker=1, processes=True,
                                          host="127.0.0.1", dashboard_address=None,
                                          scheduler_kwargs={"dashboard_address": "127.0.0.1:0"},
-                                         silence_logs=logging.ERROR)
+                                         silence_logs=logging.CRITICAL)
         return distributed.Client(local), True, local
     try:
         client = distributed.Client(address, timeout=timeout)
