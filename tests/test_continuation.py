@@ -49,3 +49,18 @@ def test_a_neighbour_that_does_not_fit_is_ignored():
         assert res.success
         for lev in res.levels:
             assert abs(lev.energy - exact_hydrogenic(lev.n, 1.0)) <= 1e-10 * abs(lev.energy)
+
+
+def test_sweep_over_decades_in_few_steps_matches_solving_each_point_alone():
+    # Coulomb Z from 1e3 to 1e-3 and back in a few steps: the length scale jumps by up to 300x
+    # between neighbours.  Each row must be as good as solving its point alone: converged and
+    # within its estimate of E = -Z**2 / (2 n**2) (textbook formula).
+    Zs = [1000.0, 300.0, 1.0, 0.3, 0.001, 0.002, 1.0, 1000.0]
+    res = radsolve.sweep("coulomb", {"Z": Zs}, l=[0], count=2, tol=1e-10, workers=1, progress=False)
+    assert res.status == "success", res.message
+    for label, n in (("1s", 1), ("2s", 2)):
+        track = res.level(label)
+        for i, Z in enumerate(Zs):
+            exact = -Z**2 / (2.0 * n**2)
+            assert track.bound[i] and track.converged[i], (label, Z)
+            assert abs(track.energy[i] - exact) <= 10.0 * track.error_estimate[i], (label, Z)

@@ -444,13 +444,21 @@ def _refined_span(r_min, radius, breakpoints, channels, mass, tops, most) -> Gri
     return box_span(r_min, radius, COARSE_STEP / 2**halvings, breakpoints) if halvings else span
 
 
+#: A neighbour's plan is used when its inner radii are within this factor of the new ones.
+_NEIGHBOUR_SCALE = 4.0
+
+
 def _continued_plan(previous, channels, count, mass, mu, system: str, dimension: int, targets: Targets,
                     breakpoints) -> _BoxPlan | None:
     """A plan from a neighbouring solve's box and energies (see ``solve(continue_from=...)``), or None.
 
     It applies when the neighbour solved the same partial waves with the
     same mass, dimension and unit system, in a box (no confining channel),
-    and has a converged level for every node count this solve wants.
+    has a converged level for every node count this solve wants, and its
+    channels start within a factor :data:`_NEIGHBOUR_SCALE` of this solve's
+    inner radii: a potential whose length scale moved further (a sweep over
+    decades in a few steps) gets a box of its own, which the neighbour's,
+    grown a few times by the wall test, may not reach.
     """
     if not isinstance(previous, SolveResult) or not previous.levels:
         return None
@@ -469,6 +477,9 @@ def _continued_plan(previous, channels, count, mass, mu, system: str, dimension:
             return None
         chosen = [mine[k] for k in range(wanted[ch.key])]
         if not all(lev.converged and lev.samples for lev in chosen):
+            return None
+        theirs = [lev.convergence.get("inner_radius", math.nan) for lev in chosen]
+        if not all(ch.inner_radius / _NEIGHBOUR_SCALE <= a <= ch.inner_radius * _NEIGHBOUR_SCALE for a in theirs):
             return None
         predicted[ch.key] = ([lev.energy for lev in chosen],
                              [float(lev.samples[0].r[int(np.argmax(np.abs(lev.samples[0].u)))]) for lev in chosen],
