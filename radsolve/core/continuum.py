@@ -38,7 +38,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from radsolve.core import probe as probing
-from radsolve.core.grids import GridSpan, potential_on_grid
+from radsolve.core.grids import GridSpan, box_span, potential_on_grid
 from radsolve.errors import InputError
 
 #: Phase of the fastest wave per step of the coarsest grid.
@@ -491,11 +491,6 @@ def _richardson(values: list, orders: tuple) -> tuple[np.ndarray, np.ndarray]:
     return table[-1], np.abs(table[-1] - table[-2])
 
 
-def _span(r_min: float, r_max: float, step: float, anchors) -> GridSpan:
-    scale = r_max / max(math.log(r_max / r_min), 1.0)
-    return GridSpan.covering(r_min, r_max, step, scale, anchors)
-
-
 def _coarse_step(potential, profile, span_probe: GridSpan, L: float, mass: float, e_max: float) -> float:
     """The step in xi after which the fastest wave turns by PHASE_PER_STEP per step."""
     grid = span_probe.grid(0)
@@ -566,9 +561,9 @@ def channel_phases(potential, profile, L: float, l: int, mass: float, energies: 
         span_min = r_min * (1.0 - 1e-3)
     else:
         span_min = r_min
-    probe_span = _span(span_min, r_end, 0.1, anchors)
+    probe_span = box_span(span_min, r_end, 0.1, anchors)
     step = _coarse_step(potential, profile, probe_span, L, mass, e_max)
-    span = _span(span_min, r_end, step, anchors)
+    span = box_span(span_min, r_end, step, anchors)
     if energies.size > 1 and span.intervals(3) + 1 > MAX_POINTS and float(k.max()) > 1.5 * float(k.min()):
         # too fine a grid for the fastest waves to refine: the slower ones get a band of their own
         low = k <= math.sqrt(float(k.max()) * float(k.min()))
@@ -840,9 +835,9 @@ def scattering_length(potential, profile, L: float, mass: float, tol: float,
     if hard_core is not None:
         anchors = sorted(set(anchors) | {r_min})
     span_min = r_min * (1.0 - 1e-3) if hard_core is not None else r_min
-    span = _span(span_min, r_end, 0.1, anchors)
+    span = box_span(span_min, r_end, 0.1, anchors)
     step = _coarse_step(potential, profile, span, L, mass, 0.0)
-    span = _span(span_min, r_end, step, anchors)
+    span = box_span(span_min, r_end, step, anchors)
     jumps = [b for b in span.anchors if hard_core is None or b != r_min]
     # Numerov's h**4, h**6 series; breakpoints (corrected, jump_terms) add every whole power from h**4
     orders = (4, 5, 6, 7, 8) if jumps else (4, 6, 8, 10)
@@ -946,9 +941,9 @@ def log_derivatives(potential, profile, L: float, mass: float, energies: np.ndar
                          f"potential's origin law is imposed (r < {r_min:.3g}); choose a larger radius",
                          parameter="radius")
     anchors = sorted({b for b in profile.breakpoints if r_min < b < radius} | {radius})
-    span_probe = _span(r_min, radius * 1.05, 0.1, anchors)
+    span_probe = box_span(r_min, radius * 1.05, 0.1, anchors)
     step = _coarse_step(potential, profile, span_probe, L, mass, e_max)
-    span = _span(r_min, radius * 1.05, step, anchors)
+    span = box_span(r_min, radius * 1.05, step, anchors)
     jumps = [b for b in span.anchors if b != radius] + ([radius] if radius in profile.breakpoints else [])
     orders = (2, 3, 4, 5, 6, 7) if jumps else (4, 6, 8, 10)
     history = []
@@ -1053,9 +1048,9 @@ def siegert_pole(potential, profile, L: float, mass: float, guess: complex, tol:
     coulomb = tail.coefficient if tail.kind == "coulomb" else 0.0
     r_end = END_FACTOR * tail.radius
     anchors = [b for b in profile.breakpoints if r_min < b < r_end]
-    span = _span(r_min, r_end, 0.1, anchors)
+    span = box_span(r_min, r_end, 0.1, anchors)
     step = _coarse_step(potential, profile, span, L, mass, e_max)
-    span = _span(r_min, r_end, step, anchors)
+    span = box_span(r_min, r_end, step, anchors)
     orders = (2, 3, 4, 5, 6, 7) if span.anchors else (4, 6, 8, 10)
     coarse = span.grid(0)
     ia = min(int(np.searchsorted(coarse.r, tail.radius)), coarse.size - 2)

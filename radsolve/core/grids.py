@@ -133,7 +133,7 @@ def radius_from_x(x, scale: float, start=None) -> np.ndarray:
         # without overflowing e^t.
         linear_guess = log_s + np.log(np.maximum(x - log_s, 1e-300))
         t = np.minimum(x, np.where(x - log_s > 0, np.maximum(linear_guess, log_s), x))
-    # |t| <= max(|x|, |ln s| + |x|) bounds the root's size for the stopping test
+    # the root's size is at most |x| + |ln s|: the scale of the stopping test
     settled = 1e-15 * max(1.0, float(np.max(np.abs(x), initial=0.0)) + abs(log_s))
     for _ in range(100):
         et = np.exp(t - log_s)  # e^t / s

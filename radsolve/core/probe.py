@@ -660,7 +660,7 @@ def decay_radius(potential, L: float, mass: float, energy: float, start: float, 
         return float(last)
     lo, hi = r[max(i_turn - 1, 0)], r[min(end + 1, r.size - 1)]
     fine = np.geomspace(lo, hi, int(1000 * math.log10(hi / lo)) + 2)
-    i_turn, end = _decay_bracket(potential, L, mass, energy, nepers, fine)
+    _, end = _decay_bracket(potential, L, mass, energy, nepers, fine)
     return float(fine[end] if end is not None else fine[-1])
 
 

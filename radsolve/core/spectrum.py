@@ -40,7 +40,7 @@ from __future__ import annotations
 import functools
 import math
 from dataclasses import dataclass, field, replace
-from typing import Any
+from typing import Any, NamedTuple
 
 import numpy as np
 
@@ -135,6 +135,15 @@ class _Channel:
         return min(count, cert.count + extra)
 
 
+class _Prediction(NamedTuple):
+    """A channel's wanted levels on a grid before the refinement's first: the windows and
+    start vectors of its searches."""
+
+    energies: list  # absolute
+    peaks: list  # radii where the states are largest
+    states: list  # u on that grid
+
+
 @dataclass(frozen=True)
 class _BoxPlan:
     span: GridSpan
@@ -144,9 +153,8 @@ class _BoxPlan:
     largest_radius: float = math.inf  # no box beyond this radius
     anchors: tuple[float, ...] = ()
     at_limit: bool = False  # the box could not grow any further
-    #: key -> (energies, peak radii, states) of the wanted levels on the last planning
-    #: grid or a neighbouring solve's first grid: the first refinement grid's windows
-    #: and start vectors (states None where there are none)
+    #: key -> _Prediction of the wanted levels on the last planning grid or a
+    #: neighbouring solve's first grid (for the first refinement grid)
     predicted: dict = field(default_factory=dict)
     #: what the planning solves' eigenvalue searches did
     statistics: EigenStatistics = field(default_factory=EigenStatistics)
@@ -324,8 +332,7 @@ def _predictions(history: list, reference: float, order: int, planned=None):
     if not history:
         if planned is None:
             return None, None
-        energies, peaks = planned[:2]
-        return [e - reference for e in energies], list(peaks)
+        return [e - reference for e in planned.energies], list(planned.peaks)
     last = np.array([step[0] for step in history[-1]]) - reference
     if len(history) >= 2:
         prev = np.array([step[0] for step in history[-2]]) - reference
@@ -481,9 +488,10 @@ def _continued_plan(previous, channels, count, mass, mu, system: str, dimension:
         theirs = [lev.convergence.get("inner_radius", math.nan) for lev in chosen]
         if not all(ch.inner_radius / _NEIGHBOUR_SCALE <= a <= ch.inner_radius * _NEIGHBOUR_SCALE for a in theirs):
             return None
-        predicted[ch.key] = ([lev.energy for lev in chosen],
-                             [float(lev.samples[0].r[int(np.argmax(np.abs(lev.samples[0].u)))]) for lev in chosen],
-                             [lev.samples[0].u for lev in chosen])
+        predicted[ch.key] = _Prediction(
+            [lev.energy for lev in chosen],
+            [float(lev.samples[0].r[int(np.argmax(np.abs(lev.samples[0].u)))]) for lev in chosen],
+            [lev.samples[0].u for lev in chosen])
     active = [ch for ch in channels if wanted[ch.key] > 0]
     if not active:
         return None
@@ -550,8 +558,8 @@ def _verify_box(channels, wanted, mass, targets: Targets, radius, breakpoints, l
                                                 guesses=guesses, precision=precision, statistics=statistics,
                                                 count_threshold=False)
             found[ch.key] = [float(x) + ch.reference for x in energies]
-            predicted[ch.key] = ([float(x) + ch.reference for x in energies],
-                                 [float(grid.r[int(np.argmax(np.abs(row)))]) for row in u], list(u))
+            predicted[ch.key] = _Prediction(found[ch.key], [float(grid.r[int(np.argmax(np.abs(row)))]) for row in u],
+                                            list(u))
             for energy, row in zip(energies, u):
                 shift = _box_error(grid, row, values, ch.centrifugal, mass, energy)
                 target = targets.boundary_target(energy + ch.reference, ch.v_inf)
@@ -613,31 +621,21 @@ def _box_error(grid, u_row, values, centrifugal, mass, energy) -> float:
     return float(du * du / (2.0 * mass) / (2.0 * kappa))
 
 
-def _first_above(row: np.ndarray, start: int, level: float) -> int | None:
-    """The first index from ``start`` on where |row| exceeds ``level``, or None.
-
-    Looked for in growing blocks: the state rises from the origin, so the
-    first block nearly always holds it (a whole-row scan per level would cost
-    as much as the level's eigenvector).
-    """
-    block = 512
-    while start < row.size:
-        stop = min(start + block, row.size)
-        hit = np.flatnonzero(np.abs(row[start:stop]) > level)
-        if hit.size:
-            return start + int(hit[0])
-        start, block = stop, 4 * block
-    return None
-
-
 def _rises(u: np.ndarray, start: int, peaks: np.ndarray, block: int = 512) -> list:
-    """For each state (rows of ``u``), :func:`_first_above` its ``1e-6 * peak`` from ``start``:
-    one array operation over the first block for all of them, the rest one by one."""
-    lead = np.abs(u[:, start : start + block]) > (1e-6 * peaks)[:, None]
-    found = lead.any(axis=1)
-    first = np.argmax(lead, axis=1)
-    return [start + int(first[k]) if found[k] else _first_above(u[k], start + block, 1e-6 * float(peaks[k]))
-            for k in range(u.shape[0])]
+    """For each state (rows of ``u``), the first index from ``start`` on where |u| exceeds
+    ``1e-6 * peak``, or None.  The states rise from the origin, so the first ``block``
+    points nearly always hold it: one array operation for all of them there (a whole-row
+    scan per level would cost as much as the level's eigenvector), the rest row by row."""
+    level = 1e-6 * peaks
+    lead = np.abs(u[:, start : start + block]) > level[:, None]
+    out: list = []
+    for k in range(u.shape[0]):
+        if lead[k].any():
+            out.append(start + int(np.argmax(lead[k])))
+            continue
+        hit = np.flatnonzero(np.abs(u[k, start + block :]) > level[k])
+        out.append(start + block + int(hit[0]) if hit.size else None)
+    return out
 
 
 def _inner_boundary_error(grid, u_row, inner, rise: int | None, mass, exponent, values, energy,
@@ -692,17 +690,16 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
             if want == 0:
                 continue
             inner = _inner_index(span, refinement, ch.inner_radius, coarse_r)
-            guesses, peaks = _predictions(history[ch.key], ch.reference, cls.error_orders[0],
-                                          plan.predicted.get(ch.key))
+            planned = plan.predicted.get(ch.key)
+            guesses, peaks = _predictions(history[ch.key], ch.reference, cls.error_orders[0], planned)
             # The accuracy each grid energy needs: the level's target (the
             # solver keeps its noise well below it).
             precision = None if guesses is None else [
                 targets.energy_target(g + ch.reference, ch.v_inf) for g in guesses]
-            planned = plan.predicted.get(ch.key)
             if history[ch.key]:
                 previous = [step[1] for step in history[ch.key][-1]]
             else:  # the planning grid's or the neighbour's states, where there are any
-                previous = planned[2] if planned is not None and len(planned) > 2 else None
+                previous = planned.states if planned is not None else None
             energies, u, _, values, noise, solver = _levels_on(cls, grid, ch, mass, inner, want, guesses, peaks=peaks,
                                                        statistics=statistics, precision=precision,
                                                        count_threshold=False, previous=previous)
@@ -772,10 +769,10 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
     # one Sturm count per channel, not one per grid.
     for ch in channels:
         if ch.key in last_grid and not ch.confining:
-            solver = last_grid[ch.key]  # its searches are already in the statistic
-            searched = replace(solver.statistics)
+            solver = last_grid[ch.key]
+            solver.statistics = EigenStatistics()  # its searches are already in the run's statistic
             grid_counts[ch.key].append(solver.count_below(0.0))
-            statistics.add(solver.statistics.minus(searched))
+            statistics.add(solver.statistics)
     samples = {
         ch.key: [
             tuple(GridSample(step=g.step, r=g.r, weights=g.weights, u=uk, energy=e, mapping=g.mapping)

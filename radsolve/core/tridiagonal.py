@@ -100,10 +100,6 @@ class EigenStatistics:
         for f in fields(self):
             setattr(self, f.name, getattr(self, f.name) + getattr(other, f.name))
 
-    def minus(self, earlier: "EigenStatistics") -> "EigenStatistics":
-        """What was done since ``earlier`` (a copy of this statistic taken then)."""
-        return EigenStatistics(**{f.name: getattr(self, f.name) - getattr(earlier, f.name) for f in fields(self)})
-
     def as_dict(self) -> dict:
         return {f.name: getattr(self, f.name) for f in fields(self)}
 
