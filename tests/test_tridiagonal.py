@@ -155,3 +155,36 @@ def test_none_below_proves_nothing_from_a_nan_and_handles_one_row():
     assert not none_below(np.array([1.0, np.nan, 1.0]), np.array([0.1, 0.1]), 0.0)
     assert not none_below(np.array([1.0, 1.0, 1.0]), np.array([np.nan, 0.1]), 0.0)
     assert none_below(np.array([1.0]), np.array([]), 0.5) and not none_below(np.array([1.0]), np.array([]), 1.5)
+
+
+@pytest.mark.parametrize("matrix", ["box", "graded", "random"])
+def test_sturm_count_agrees_with_the_eigenvalues_at_every_depth(matrix):
+    # The count by pivot runs restarts at each negative pivot and hands counts of more
+    # than a few dozen to stebz: both regimes, against eigenvalues from an outside
+    # reference (the box: textbook formula; the others: numpy's dense eigvalsh).
+    if matrix == "box":
+        d, e, exact = _box(300)
+    else:
+        if matrix == "graded":
+            d, e, _ = _graded(300)
+        else:
+            rng = np.random.default_rng(7)
+            d, e = rng.normal(size=300), rng.normal(size=299)
+        exact = np.linalg.eigvalsh(np.diag(d) + np.diag(e, 1) + np.diag(e, -1))
+    for k in (0, 1, 2, 5, 23, 24, 25, 60, 299):
+        below = exact[k - 1] if k else exact[0] - abs(exact[0]) - 1.0
+        x = float(0.5 * (below + exact[k]))  # k eigenvalues lie below x
+        assert sturm_count(d, e, x) == k
+    assert sturm_count(d, e, float(exact[-1]) + 1.0) == exact.size
+
+
+def test_sturm_count_through_a_zero_pivot():
+    # d = (0, 0, 5), e = (1, 1): at x = 0 the first pivot is exactly zero (the leading
+    # minor is singular, the matrix is not); the count goes on past it.  Reference:
+    # numpy's dense eigvalsh.
+    d, e = np.array([0.0, 0.0, 5.0]), np.ones(2)
+    exact = np.linalg.eigvalsh(np.diag(d) + np.diag(e, 1) + np.diag(e, -1))
+    assert np.min(np.abs(exact)) > 0.1
+    for x in (0.0, -2.0, 1.0, 6.0):
+        assert sturm_count(d, e, x) == np.count_nonzero(exact < x)
+    assert sturm_count(np.array([0.0]), np.array([]), 0.5) == 1 and sturm_count(np.array([0.0]), np.array([]), -0.5) == 0

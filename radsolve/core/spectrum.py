@@ -215,9 +215,11 @@ def _channels(pot, ls, spin_orbit, dimension, mass, targets: Targets) -> list[_C
             js = [0.5] if l == 0 else [l - 0.5, l + 0.5]
         for j in js:
             channel_pot = pot.channel(l, j) if hasattr(pot, "channel") else pot
-            prof = profiles.get(id(channel_pot))
+            # a channel that adds nothing to V shares the probe of V itself
+            shared = id(pot) if getattr(channel_pot, "plain", False) else id(channel_pot)
+            prof = profiles.get(shared)
             if prof is None:
-                prof = profiles[id(channel_pot)] = probing.profile(channel_pot, mass)
+                prof = profiles[shared] = probing.profile(channel_pot, mass)
             effective = l + shift
             prof.check_bounded_below(effective, mass)
             exponent = prof.origin_exponent(effective, mass)

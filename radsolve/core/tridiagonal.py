@@ -39,6 +39,7 @@ that missed, bisections, Sturm counts, solves); the benchmarks print it.
 from __future__ import annotations
 
 import functools
+import math
 from dataclasses import dataclass, fields
 
 import numpy as np
@@ -130,20 +131,68 @@ def rounding_sensitivity(d: np.ndarray, e: np.ndarray, vectors: np.ndarray) -> n
     return NOISE_FACTOR * np.finfo(float).eps * np.sqrt(total)
 
 
+#: Negative pivots a count by pivot runs (:func:`_count_by_pivots`) follows before
+#: it leaves the count to stebz (each one restarts the factorization).
+_PIVOT_RESTARTS = 24
+_TINY = float(np.finfo(float).tiny)
+
+
 def sturm_count(d: np.ndarray, e: np.ndarray, x: float, stats: EigenStatistics | None = None) -> int:
-    """Number of eigenvalues of tridiag(e, d, e) below ``x`` (one Sturm count, LAPACK)."""
+    """Number of eigenvalues of tridiag(e, d, e) below ``x`` (one Sturm count; one
+    exactly at ``x`` counts, as in LAPACK stebz)."""
     if d.size == 0:
-        return 0
-    low = float(np.min(d) - 2.0 * np.max(np.abs(e), initial=0.0)) - 1.0
-    if x <= low:
         return 0
     if stats is not None:
         stats.sturm_counts += 1
+    count = _count_by_pivots(d, e, x)
+    if count is not None:
+        return count
+    low = float(np.min(d) - 2.0 * np.max(np.abs(e), initial=0.0)) - 1.0
+    if x <= low:
+        return 0
     # stebz with a tolerance wider than any interval stops after counting.
     m, *_rest, info = dstebz(d, e, 1, low, float(x), 1, 1, np.inf, b"E")
     if info != 0:  # pragma: no cover - LAPACK refuses only malformed input
         raise RuntimeError(f"LAPACK dstebz failed (info = {info})")
     return int(m)
+
+
+def _count_by_pivots(d: np.ndarray, e: np.ndarray, x: float) -> int | None:
+    """The Sturm count as the number of negative pivots of T - x = L D L**T, or None.
+
+    LAPACK pttrf runs exactly the Sturm recurrence p_i = d_i - x - e_(i-1)**2 / p_(i-1),
+    stopping at the first pivot that is not positive; the count goes on from
+    there, the next pivot formed by hand (a zero pivot taken as a tiny negative
+    one, as stebz does).  The levels wanted lie at the bottom of the spectrum,
+    so a count passes few negative pivots: one pass over the matrix in a few
+    calls, where stebz makes three.  None (the caller counts with stebz) after
+    :data:`_PIVOT_RESTARTS` negative pivots, or when a pivot is not a number.
+    """
+    n = d.size
+    pivots = d - x
+    offdiagonal = e.copy()
+    count = start = 0
+    for _ in range(_PIVOT_RESTARTS + 1):
+        if start == n - 1:  # one row left (pttrf wants at least one off-diagonal entry)
+            last = float(pivots[-1])
+            return count + (last <= 0.0) if math.isfinite(last) else None
+        # in place on the tails of the two working copies: nothing is copied again
+        _, _, info = dpttrf(pivots[start:], offdiagonal[start:], overwrite_d=1, overwrite_e=1)
+        if info == 0:
+            return count if math.isfinite(pivots[-1]) else None
+        k = start + info - 1
+        p = float(pivots[k])
+        if not p <= 0.0:  # pragma: no cover - pttrf stops only at a pivot <= 0
+            return None
+        count += 1
+        if k == n - 1:
+            return count
+        ek = float(offdiagonal[k])  # not yet touched: the factorization stopped before it
+        pivots[k + 1] -= ek * ek / min(p, -_TINY * max(1.0, ek * ek))
+        if not math.isfinite(pivots[k + 1]):
+            return None
+        start = k + 1
+    return None
 
 
 def none_below(d: np.ndarray, e: np.ndarray, x: float, stats: EigenStatistics | None = None) -> bool:

@@ -129,9 +129,28 @@ def _builtin_families() -> tuple[PotentialFamily | BrokenFamily, ...]:
     return tuple(found)
 
 
-def _entry_point_families() -> list[PotentialFamily | BrokenFamily]:
-    from importlib.metadata import entry_points
+def _entry_point_families() -> tuple[PotentialFamily | BrokenFamily, ...]:
+    """The families other installed packages declare (entry-point group ``radsolve.potentials``).
 
+    Reading the installed packages' metadata takes milliseconds, more than a
+    small solve, so the scan is kept while the places it reads stay as they
+    were: the folders on sys.path, each with its modification time (installing
+    or removing a package changes its folder's).
+    """
+    import importlib.metadata
+
+    places = []
+    for entry in sys.path:
+        try:
+            places.append((entry, os.stat(entry or ".").st_mtime_ns))
+        except OSError:
+            places.append((entry, None))
+    return _scan_entry_points(tuple(places), importlib.metadata.entry_points)
+
+
+@functools.lru_cache(maxsize=4)
+def _scan_entry_points(places: tuple, entry_points) -> tuple[PotentialFamily | BrokenFamily, ...]:
+    """The scan of :func:`_entry_point_families` for one state of ``places`` (and one ``entry_points``)."""
     found: list[PotentialFamily | BrokenFamily] = []
     for ep in sorted(entry_points(group=ENTRY_POINT_GROUP), key=lambda e: (e.name, e.value)):
         dist = getattr(getattr(ep, "dist", None), "name", None)
@@ -148,7 +167,7 @@ def _entry_point_families() -> list[PotentialFamily | BrokenFamily]:
         except PluginError as exc:
             found.append(BrokenFamily(str(getattr(obj, "NAME", ep.name)), source, "entry point",
                                       str(exc), file))
-    return found
+    return tuple(found)
 
 
 def _as_path_list(dirs: Any) -> list[str]:

@@ -37,8 +37,11 @@ def describe_point(keys, values) -> str:
 #: Points are solved in runs of this many consecutive points (after the first point,
 #: which is solved alone), each continuing from the one before it
 #: (``solve(continue_from=...)``).  Runs start at fixed indices and every back end's
-#: chunks hold whole runs, so a point's row does not depend on the back end.
-RUN = 8
+#: chunks hold whole runs, so a point's row does not depend on the back end.  The
+#: first point of a run plans its box from scratch (about half a dozen continued
+#: points' worth of work), so runs are long; a chunk of one or two runs is still
+#: well under a second of work.
+RUN = 32
 
 
 def run_of(index: int) -> int:
