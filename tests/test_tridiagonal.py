@@ -81,13 +81,31 @@ def test_none_below_agrees_with_the_eigenvalues(matrix):
     assert none_below(d, e, float(np.min(d) - 2 * np.max(np.abs(e))) - 1.0)
 
 
-def test_no_prediction_means_bisection_by_index():
-    d, e, exact = _box(200)
+@pytest.mark.parametrize("size", [200, 2000])
+def test_no_prediction_means_values_by_index(size):
+    # Without vectors: all eigenvalues (sterf) for the small matrix, bisection by index
+    # for the large one; with vectors, always bisection (full relative accuracy).
+    d, e, exact = _box(size)
     stats = EigenStatistics()
     values, vectors, _ = eigenpairs(d, e, 0, 4, None, vectors=False, stats=stats)
     assert vectors is None
-    assert np.allclose(values, exact[:5], rtol=1e-13, atol=0)
+    # on this uniform matrix both are accurate to the rounding of its norm, 4/h**2
+    # (backward stability, common practice), far above the 9.87 at the bottom
+    norm_rounding = 64 * np.finfo(float).eps * 4.0 * (size + 1) ** 2
+    assert np.allclose(values, exact[:5], rtol=0, atol=norm_rounding)
     assert stats.bisected == 5
+    values, vectors, _ = eigenpairs(d, e, 0, 4, None, vectors=True, stats=stats)
+    assert np.allclose(values, exact[:5], rtol=0, atol=norm_rounding) and vectors.shape == (size, 5)
+
+
+def test_lowest_values_of_a_small_graded_matrix_agree_with_bisection():
+    # The planning grids' energies come from all eigenvalues on these graded matrices:
+    # close to LAPACK bisection (scipy, the reference) at every level asked.
+    from radsolve.core.tridiagonal import lowest_values
+
+    d, e, exact = _graded(250)
+    values = lowest_values(d, e, 0, 5)
+    assert np.allclose(values, exact, rtol=1e-12, atol=0)
 
 
 def test_rounding_sensitivity_covers_the_effect_of_perturbed_entries():

@@ -57,8 +57,13 @@ from radsolve.core.inputs import validated_count, validated_dimension, validated
 from radsolve.core.targets import Status, Targets, validated_tol
 from radsolve.core.tridiagonal import EigenStatistics
 
-#: Step in xi of the coarsest grid of the refinement sequence.
+#: Step in xi of the coarsest grid of the refinement sequence ...
 COARSE_STEP = 0.1
+#: ... twice that for a tol at or above this: the error series is then read off
+#: grids half as fine, whose Richardson estimates (h**6 after four grids) stay
+#: far below such a tol, at half the points.  A level the coarser start does not
+#: serve gets the finer grids all the same (one more refinement is allowed).
+LOOSE_TOL = 1e-9
 #: Step of the grid used to choose the box.
 PLANNING_STEP = 0.2
 #: The finest grid allowed: this many halvings of the coarsest step.
@@ -126,6 +131,13 @@ class _Channel:
         """The energy the solvers measure from: V(inf), or 0 for a confining channel."""
         return 0.0 if self.confining else self.v_inf
 
+    @property
+    def potential_key(self) -> tuple:
+        """Equal for channels whose V - reference is the same function (partial waves
+        that add nothing to V): on a shared grid they share its values."""
+        base = self.potential.base if getattr(self.potential, "plain", False) else self.potential
+        return id(base), self.reference
+
     def wanted(self, count: int) -> int:
         """How many levels to compute: ``count``, or fewer when fewer are bound."""
         cert = self.certificate
@@ -142,6 +154,9 @@ class _Prediction(NamedTuple):
     energies: list  # absolute
     peaks: list  # radii where the states are largest
     states: list  # u on that grid
+    #: (grid, the outputs of _levels_on) when that grid is the refinement's first
+    #: (the box was verified on it): the refinement takes them instead of solving again
+    solved: tuple | None = None
 
 
 @dataclass(frozen=True)
@@ -292,16 +307,22 @@ def _phase_halvings(channels, span: GridSpan, mass, tops: dict, limit: float) ->
 
 def _levels_on(cls, grid, ch: _Channel, mass, inner, count, guesses=None, energies_only: bool = False,
                peaks=None, statistics: EigenStatistics | None = None, precision=None,
-               count_threshold: bool = True, previous=None):
+               count_threshold: bool = True, previous=None, shared: dict | None = None):
     """The lowest ``count`` levels of one channel on one grid, energies from its reference:
     ``(energies, u, below, values, noise, solver)``, ``noise`` the solver's rounding noise of
     each level where it measures one (else empty), ``solver`` the one used (for a later count).
 
     ``energies_only`` (finite differences, for planning): u is None, and no eigenvector is computed.
     ``below``: the levels below the threshold on this grid (None for a confining channel, or
-    when ``count_threshold`` is False).
+    when ``count_threshold`` is False).  ``shared``: V - reference on this grid by
+    :attr:`_Channel.potential_key`, filled and read here (the channels of one grid share it).
     """
-    values = potential_on_grid(ch.potential, grid.r, _anchors_of(grid)) - ch.reference
+    values = None if shared is None else shared.get(ch.potential_key)
+    if values is None:
+        values = potential_on_grid(ch.potential, grid.r, _anchors_of(grid)) - ch.reference
+        if shared is not None:
+            values.flags.writeable = False  # read by every channel that shares it
+            shared[ch.potential_key] = values
     solver = _solver(cls, grid, values, ch, mass, inner)
     if energies_only:
         energies, u = solver.energies(list(range(count)), guesses=guesses), None
@@ -383,10 +404,11 @@ def _plan_box(channels, count, mass, targets: Targets, breakpoints) -> _BoxPlan:
         span, halvings, grid, coarse_r = _planning_grid(r_min, radius, breakpoints, active, mass, tops, most)
         needed = 0.0
         short = []
+        shared: dict = {}
         for ch in active:
             inner = _inner_index(span, halvings, ch.inner_radius, coarse_r)
             energies, _, below, _, _, _ = _levels_on(FiniteDifference, grid, ch, mass, inner, wanted[ch.key],
-                                               energies_only=True, statistics=statistics)
+                                               energies_only=True, statistics=statistics, shared=shared)
             energies = energies + ch.reference
             found[ch.key] = [float(x) for x in energies]
             if below is not None and below < wanted[ch.key]:
@@ -408,10 +430,12 @@ def _plan_box(channels, count, mass, targets: Targets, breakpoints) -> _BoxPlan:
     final_radius = max(needed if needed > 0 else radius, 2.0 * biggest_feature, 4.0 * r_in)
     final_radius = min(shared_radius(max(final_radius, min(radius, final_radius)), outward=True), largest)
     predicted: dict = {}
+    span = None
     if not confining:
-        final_radius, predicted = _verify_box(active, wanted, mass, targets, final_radius, breakpoints, largest,
-                                              r_min, statistics, found)
-    span = _refined_span(r_min, final_radius, breakpoints, active, mass, tops, most)
+        final_radius, predicted, span = _verify_box(active, wanted, mass, targets, final_radius, breakpoints,
+                                                    largest, r_min, statistics, found, tops)
+    if span is None:
+        span = _refined_span(r_min, final_radius, breakpoints, active, mass, tops, most, targets)
     at_limit = final_radius >= largest * (1 - 1e-12)
     notes += _span_notes(span, at_limit, largest)
     return _BoxPlan(span, wanted, tuple(notes), max(radius, final_radius), largest, span.anchors, at_limit,
@@ -446,11 +470,22 @@ def _span_notes(span: GridSpan, at_limit: bool, largest: float) -> list[Note]:
     return notes
 
 
-def _refined_span(r_min, radius, breakpoints, channels, mass, tops, most) -> GridSpan:
+def _coarse_step(targets: Targets) -> float:
+    """The largest coarse step of the refinement for this tol (see :data:`LOOSE_TOL`)."""
+    return 2.0 * COARSE_STEP if targets.tol >= LOOSE_TOL else COARSE_STEP
+
+
+def _max_refinements(targets: Targets) -> int:
+    """Halvings allowed after the coarse step: the finest grid is the same whatever tol."""
+    return MAX_REFINEMENTS + round(math.log2(_coarse_step(targets) / COARSE_STEP))
+
+
+def _refined_span(r_min, radius, breakpoints, channels, mass, tops, most, targets: Targets) -> GridSpan:
     """The refinement's span for this box: its coarse step resolves the wanted states (``_PHASE_COARSE``)."""
-    span = box_span(r_min, radius, COARSE_STEP, breakpoints)
+    step = _coarse_step(targets)
+    span = box_span(r_min, radius, step, breakpoints)
     halvings = _planning_halvings(channels, span, mass, tops, most, _PHASE_COARSE)
-    return box_span(r_min, radius, COARSE_STEP / 2**halvings, breakpoints) if halvings else span
+    return box_span(r_min, radius, step / 2**halvings, breakpoints) if halvings else span
 
 
 #: A neighbour's plan is used when its inner radii are within this factor of the new ones.
@@ -506,7 +541,7 @@ def _continued_plan(previous, channels, count, mass, mu, system: str, dimension:
     if not radius > 4.0 * max(ch.inner_radius for ch in channels):
         return None
     tops = {ch.key: ch.reference for ch in active}
-    span = _refined_span(r_min, radius, breakpoints, active, mass, tops, max(wanted.values()))
+    span = _refined_span(r_min, radius, breakpoints, active, mass, tops, max(wanted.values()), targets)
     at_limit = radius >= largest * (1 - 1e-12)
     return _BoxPlan(span, wanted, tuple(_span_notes(span, at_limit, largest)), radius, largest, span.anchors,
                     at_limit, predicted)
@@ -528,40 +563,43 @@ def _planning_grid(r_min, radius, breakpoints, channels, mass, tops, most):
 
 
 def _verify_box(channels, wanted, mass, targets: Targets, radius, breakpoints, largest, r_min,
-                statistics: EigenStatistics, found: dict) -> tuple[float, dict]:
+                statistics: EigenStatistics, found: dict, tops: dict) -> tuple[float, dict, GridSpan]:
     """Grow the outer radius until the wall shifts no wanted level by more than its boundary target.
 
     The WKB decay estimate ignores the amplitude's prefactor, which is large
     for weakly bound, extended levels; the wall's own shift (Hadamard
-    formula, see :func:`_box_error`) on the planning grid settles it.
-    Also returns, for each channel, the energies and peak radii of the wanted
-    levels on the last planning grid (windows for the first refinement grid).
-    ``found``: each channel's energies on the box search's last grid, which
-    start the eigenvalue searches here (windows, not bisection by index).
+    formula, see :func:`_box_error`) on the first refinement grid of the box
+    settles it.  Returns the radius, for each channel a :class:`_Prediction`
+    of the wanted levels on that grid (with the solve itself: the refinement
+    starts from it), and the refinement's span.  ``found``: each channel's
+    energies on the box search's last grid, which start the eigenvalue
+    searches here (windows, not bisection by index); ``tops``: as for
+    :func:`_refined_span`.
     """
     from radsolve.core.solvers.fd import FiniteDifference
 
-    tops = {ch.key: ch.reference for ch in channels if not ch.confining}
     most = max(wanted.values())
     for _ in range(8):
-        span, halvings, grid, coarse_r = _planning_grid(r_min, radius, breakpoints, channels, mass, tops, most)
+        span = _refined_span(r_min, radius, breakpoints, channels, mass, tops, most, targets)
+        grid = _grid(span, 0)
         growth = 0.0
         predicted = {}
+        shared: dict = {}
         for ch in channels:
             if not wanted[ch.key] or ch.confining:
                 continue
-            inner = _inner_index(span, halvings, ch.inner_radius, coarse_r)
+            inner = _inner_index(span, 0, ch.inner_radius, grid.r)
             known = found.get(ch.key)
             guesses = precision = None
             if known is not None and len(known) == wanted[ch.key]:
                 guesses = [x - ch.reference for x in known]
                 precision = [targets.energy_target(x, ch.v_inf) for x in known]
-            energies, u, _, values, _, _ = _levels_on(FiniteDifference, grid, ch, mass, inner, wanted[ch.key],
-                                                guesses=guesses, precision=precision, statistics=statistics,
-                                                count_threshold=False)
+            solved = _levels_on(FiniteDifference, grid, ch, mass, inner, wanted[ch.key], guesses=guesses,
+                                precision=precision, statistics=statistics, count_threshold=False, shared=shared)
+            energies, u, _, values, _, _ = solved
             found[ch.key] = [float(x) + ch.reference for x in energies]
             predicted[ch.key] = _Prediction(found[ch.key], [float(grid.r[int(np.argmax(np.abs(row)))]) for row in u],
-                                            list(u))
+                                            list(u), (grid, FiniteDifference, solved))
             for energy, row in zip(energies, u):
                 shift = _box_error(grid, row, values, ch.centrifugal, mass, energy)
                 target = targets.boundary_target(energy + ch.reference, ch.v_inf)
@@ -569,9 +607,9 @@ def _verify_box(channels, wanted, mass, targets: Targets, radius, breakpoints, l
                     kappa = _decay_rate(grid, values, ch.centrifugal, mass, energy)
                     growth = max(growth, targets.wall_growth(shift, target, kappa))
         if growth == 0.0 or radius >= largest:
-            return radius, predicted
+            return radius, predicted, span
         radius = min(shared_radius(radius + min(growth, 4.0 * radius), outward=True), largest)
-    return radius, predicted
+    return radius, predicted, _refined_span(r_min, radius, breakpoints, channels, mass, tops, most, targets)
 
 
 def _grown(plan: _BoxPlan, growth: float, breakpoints) -> _BoxPlan | None:
@@ -681,12 +719,13 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
     last_grid: dict = {}
     statistics = EigenStatistics()
     finest = False
-    for refinement in range(MAX_REFINEMENTS + 1):
+    for refinement in range(_max_refinements(targets) + 1):
         if span.intervals(refinement) + 1 > MAX_POINTS:
             finest = True
             break
         grid = _grid(span, refinement)
         all_done, any_improving = True, False
+        shared: dict = {}
         for ch in channels:
             want = plan.wanted[ch.key]
             if want == 0:
@@ -702,9 +741,14 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
                 previous = [step[1] for step in history[ch.key][-1]]
             else:  # the planning grid's or the neighbour's states, where there are any
                 previous = planned.states if planned is not None else None
-            energies, u, _, values, noise, solver = _levels_on(cls, grid, ch, mass, inner, want, guesses, peaks=peaks,
-                                                       statistics=statistics, precision=precision,
-                                                       count_threshold=False, previous=previous)
+            first = planned.solved if refinement == 0 and planned is not None else None
+            if first is not None and first[0] is grid and first[1] is cls and len(first[2][0]) == want:
+                energies, u, _, values, noise, solver = first[2]  # the box was verified on this grid
+                noise = list(noise)
+            else:
+                energies, u, _, values, noise, solver = _levels_on(
+                    cls, grid, ch, mass, inner, want, guesses, peaks=peaks, statistics=statistics,
+                    precision=precision, count_threshold=False, previous=previous, shared=shared)
             last_grid[ch.key] = solver
             size = np.abs(u[:want])
             tops = np.argmax(size, axis=1)
