@@ -125,7 +125,7 @@ def extrapolate(values, orders: tuple[int, ...], relative_rounding: float = 1e-1
     the estimate, so the estimate still covers it.
     """
     # plain floats: a table of a few entries per level and grid, where array overhead would dominate
-    e = [float(v) for v in np.ravel(values)]
+    e = [float(v) for v in (values if isinstance(values, list) else np.ravel(values))]
     k = len(e)
     floor = max(64.0 * _EPS, relative_rounding) * abs(e[-1])
     if k < 3:

@@ -17,6 +17,7 @@ from scipy.linalg.lapack import dtbtrs
 _CHUNK = 8192
 #: Largest growth (natural log) allowed within one chunk.
 _GROWTH = 600.0
+_GROWTH_FACTOR = math.exp(_GROWTH)
 
 
 def three_term(alpha: np.ndarray, beta: np.ndarray | None, y_prev: float, y_cur: float,
@@ -44,22 +45,36 @@ def three_term(alpha: np.ndarray, beta: np.ndarray | None, y_prev: float, y_cur:
         is exact, and so is every ratio of neighbours.
     """
     alpha = np.asarray(alpha, dtype=float)
-    beta = np.ones_like(alpha) if beta is None else np.asarray(beta, dtype=float)
+    unit_beta = beta is None
+    beta = np.ones_like(alpha) if unit_beta else np.asarray(beta, dtype=float)
     out = np.empty(alpha.size + 1)
     out[0] = y_cur
     logs = np.zeros(alpha.size + 1)
     if alpha.size == 0:
         return (out, logs) if local else out
-    # Each step multiplies |y| by at most |alpha| + |beta|: cut the chunks so
-    # that no chunk can grow by more than e**_GROWTH (no overflow, whatever the
-    # potential), and rescale between chunks.
-    growth = np.cumsum(np.log1p(np.abs(alpha) + np.abs(beta)))
+    # First in chunks of _CHUNK steps, accepted when no chunk actually grew by more
+    # than e**_GROWTH (the usual case: one call per chunk); otherwise again in chunks
+    # cut where the growth bound |alpha| + |beta| per step allows e**_GROWTH at most,
+    # whatever the potential (no overflow, no underflow against a chunk's largest value).
+    quick = list(range(0, alpha.size, _CHUNK)) + [alpha.size]
+    if _run_chunks(alpha, beta, quick, y_prev, y_cur, local, out, logs, check=True):
+        return (out, logs) if local else out
+    growth = np.cumsum(np.log1p(np.abs(alpha) + (1.0 if unit_beta else np.abs(beta))))
     ends = [0]
     while ends[-1] < alpha.size:
         start = ends[-1]
         base = growth[start - 1] if start > 0 else 0.0
         stop = int(np.searchsorted(growth, base + _GROWTH, side="right"))
         ends.append(min(max(stop, start + 1), start + _CHUNK, alpha.size))
+    out[0] = y_cur
+    logs[:] = 0.0
+    _run_chunks(alpha, beta, ends, y_prev, y_cur, local, out, logs, check=False)
+    return (out, logs) if local else out
+
+
+def _run_chunks(alpha, beta, ends, y_prev, y_cur, local: bool, out, logs, check: bool) -> bool:
+    """Fill ``out`` (and ``logs``) chunk by chunk between ``ends``; with ``check``, stop and
+    return False at the first chunk whose largest value exceeds e**_GROWTH (or is not finite)."""
     prev, cur = y_prev, y_cur
     log_total = 0.0
     for pos, end in zip(ends[:-1], ends[1:]):
@@ -75,8 +90,10 @@ def three_term(alpha: np.ndarray, beta: np.ndarray | None, y_prev: float, y_cur:
         if n > 1:
             rhs[1, 0] = -b[1] * cur
         z = dtbtrs(band, rhs, uplo="L", diag="U")[0][:, 0]
-        scale = np.max(np.abs(z))
-        if not np.isfinite(scale) or scale == 0.0:
+        scale = float(np.max(np.abs(z)))
+        if check and not scale <= _GROWTH_FACTOR * max(abs(prev), abs(cur)):
+            return False
+        if not math.isfinite(scale) or scale == 0.0:
             scale = 1.0
         if local:
             # z continues from (prev, cur) on their scale: put this chunk on its own.
@@ -89,4 +106,4 @@ def three_term(alpha: np.ndarray, beta: np.ndarray | None, y_prev: float, y_cur:
         out[: pos + 1] /= scale
         out[pos + 1 : pos + 1 + n] = z / scale
         prev, cur = out[pos + n - 1], out[pos + n]
-    return (out, logs) if local else out
+    return True

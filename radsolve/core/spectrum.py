@@ -45,7 +45,7 @@ from typing import Any, NamedTuple
 import numpy as np
 
 from radsolve.core import probe as probing
-from radsolve.core.counting import BoundCount, count_bound
+from radsolve.core.counting import BoundCount, asymptotic_radius, count_bound
 from radsolve.errors import InputError
 from radsolve.core.extrapolation import extrapolate
 from radsolve.core.grids import GridSpan, box_span, potential_on_grid, shared_radius
@@ -232,14 +232,17 @@ def _channels(pot, ls, spin_orbit, dimension, mass, targets: Targets) -> list[_C
             channel_pot = pot.channel(l, j) if hasattr(pot, "channel") else pot
             # a channel that adds nothing to V shares the probe of V itself
             shared = id(pot) if getattr(channel_pot, "plain", False) else id(channel_pot)
-            prof = profiles.get(shared)
-            if prof is None:
-                prof = profiles[shared] = probing.profile(channel_pot, mass)
+            if shared not in profiles:
+                probe = probing.profile(channel_pot, mass)
+                # the probe, and the count's asymptotic radius computed once when first asked for
+                profiles[shared] = probe, functools.cache(functools.partial(asymptotic_radius, channel_pot,
+                                                                            probe, mass))
+            prof, tail_radius = profiles[shared]
             effective = l + shift
             prof.check_bounded_below(effective, mass)
             exponent = prof.origin_exponent(effective, mass)
             inner = _inner_radius(channel_pot, prof, effective, mass, targets, prof.v_infinity)
-            cert = count_bound(channel_pot, prof, effective, mass, inner, _largest_radius(inner))
+            cert = count_bound(channel_pot, prof, effective, mass, inner, _largest_radius(inner), tail_radius)
             out.append(_Channel(l, j, channel_pot, prof, effective, exponent, inner, cert))
     return out
 
@@ -668,10 +671,12 @@ def _rises(u: np.ndarray, start: int, peaks: np.ndarray, block: int = 512) -> li
     scan per level would cost as much as the level's eigenvector), the rest row by row."""
     level = 1e-6 * peaks
     lead = np.abs(u[:, start : start + block]) > level[:, None]
+    found = lead.any(axis=1)
+    first = np.argmax(lead, axis=1)
     out: list = []
     for k in range(u.shape[0]):
-        if lead[k].any():
-            out.append(start + int(np.argmax(lead[k])))
+        if found[k]:
+            out.append(start + int(first[k]))
             continue
         hit = np.flatnonzero(np.abs(u[k, start + block :]) > level[k])
         out.append(start + block + int(hit[0]) if hit.size else None)
@@ -724,7 +729,7 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
             finest = True
             break
         grid = _grid(span, refinement)
-        all_done, any_improving = True, False
+        all_done, any_improving, short_box = True, False, False
         shared: dict = {}
         for ch in channels:
             want = plan.wanted[ch.key]
@@ -750,6 +755,10 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
                     cls, grid, ch, mass, inner, want, guesses, peaks=peaks, statistics=statistics,
                     precision=precision, count_threshold=False, previous=previous, shared=shared)
             last_grid[ch.key] = solver
+            bound = ch.certificate.count
+            if refinement >= 1 and not ch.confining and bound is not None and any(
+                    float(energies[k]) >= 0.0 for k in range(min(want, bound))):
+                short_box = True  # a level the count certifies is not below the threshold in this box
             size = np.abs(u[:want])
             tops = np.argmax(size, axis=1)
             rises = _rises(u[:want], inner + 1, size[np.arange(want), tops])
@@ -803,8 +812,11 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
                        and targets.met(lev["error"], lev["energy"], ch.v_inf))
                 limited = lev["grids"] >= 3 and lev["potential_limit"] > 0 and lev["error"] <= lev["potential_limit"]
                 all_done &= met or limited
-        if may_grow and refinement == 1 and _wall_growth(best, targets, channels) > 0.0:
-            break  # the wall is too close: the caller grows the box before refining further
+        if may_grow and refinement >= 1 and (short_box or _wall_growth(best, targets, channels) > 0.0):
+            # The wall is too close, or the box holds fewer levels than the count certifies
+            # (its Sturm count on this grid, below, says so): the caller grows the box
+            # before refining further.
+            break
         if refinement >= 2 and all_done:
             break
         if refinement >= 3 and not any_improving:
@@ -846,13 +858,13 @@ def _unsettled_pairs(history: list) -> dict:
     between the last two grids.  Returns {level index: the change of its
     splitting} for the unsettled ones (an error size to carry).
     """
-    if len(history) < 2:
+    if len(history) < 2 or len(history[-1]) < 2:
         return {}
-    last = np.array([e for (e, *_) in history[-1]])
-    prev = np.array([e for (e, *_) in history[-2]])
-    if last.size < 2:
-        return {}
-    gap_now, gap_before = np.diff(last), np.diff(prev)
+    # plain floats: a handful of levels per grid
+    last = [step[0] for step in history[-1]]
+    prev = [step[0] for step in history[-2]]
+    gap_now = [b - a for a, b in zip(last[:-1], last[1:])]
+    gap_before = [b - a for a, b in zip(prev[:-1], prev[1:])]
     out: dict = {}
     for k, (g1, g0) in enumerate(zip(gap_now, gap_before)):
         change = abs(g1 - g0)

@@ -76,6 +76,8 @@ _RESIDUAL_SHARE_OF_PRECISION = 1e-2
 _SETTLED_STEP = 1e-8
 #: The largest relative residual bound of an accepted Rayleigh quotient.
 _RESIDUAL = 1e-8
+#: A Rayleigh step this small (relative) is at the rounding level.
+_TINY_STEP = 64.0 * float(np.finfo(float).eps)
 
 
 @dataclass
@@ -279,25 +281,26 @@ def _rayleigh(d, e, x: float, row, stats: EigenStatistics, start=None, enough: f
     symmetric matrix), which the caller's precision does not resolve.
     """
     size = float(start @ start) if start is not None and start.size == d.size else 0.0
-    if 0.0 < size < np.inf:  # finite and not all zero
-        rhs = start / np.sqrt(size)
+    if 0.0 < size < math.inf:  # finite and not all zero
+        rhs = start * (1.0 / math.sqrt(size))
     else:
         rhs = _start_vector(d.size, row)
-    rho = np.inf
-    tiny = 64.0 * np.finfo(float).eps
+    rho = math.inf
+    tiny = _TINY_STEP
     first = True
     for _ in range(_MAX_RAYLEIGH):
         _, _, _, y, info = dgtsv(e, d - x, e, rhs)
         stats.solves += 1
         size = float(y @ y)
-        if info > 0 or not np.isfinite(size) or size == 0.0:
-            return x, None, np.inf  # exactly singular or overflowing: let bisection decide
+        if info > 0 or not math.isfinite(size) or size == 0.0:
+            return x, None, math.inf  # exactly singular or overflowing: let bisection decide
         overlap = float(rhs @ y)
         step = overlap / size
         x += step
         # ||(T - x) y|| / ||y|| with x the new quotient: sqrt(1 - overlap**2/|y|**2) / |y| <= 1/|y|
-        rho = float(np.sqrt(max(1.0 - overlap * overlap / size, 0.0) / size))
-        rhs = y / np.sqrt(size)
+        rho = math.sqrt(max(1.0 - overlap * overlap / size, 0.0) / size)
+        y *= 1.0 / math.sqrt(size)  # y is the solver's own output array
+        rhs = y
         # Converged: the step is at the rounding level, or no longer shrinks as a
         # converging iteration's does (cubically), which only rounding noise does;
         # or the residual already bounds the value within what is asked.
@@ -307,11 +310,11 @@ def _rayleigh(d, e, x: float, row, stats: EigenStatistics, start=None, enough: f
             break
         first = False
     else:
-        return x, None, np.inf  # did not settle: let bisection decide
+        return x, None, math.inf  # did not settle: let bisection decide
     if rho > _RESIDUAL * abs(x):
         # The value is a Rayleigh quotient, exact to ~rho**2 / gap: a large
         # residual leaves it less accurate than bisection would be.
-        return x, None, np.inf
+        return x, None, math.inf
     return x, rhs, max(rho, tiny * abs(x))
 
 
@@ -411,9 +414,16 @@ def eigenpairs(d: np.ndarray, e: np.ndarray, lo: int, hi: int, predictions=None,
     vecs = np.zeros((d.size, count), order="F")  # filled column by column
     values = np.full(count, np.nan)
     windows: list = [None] * count
-    needed = None if precision is None else np.broadcast_to(np.asarray(precision, dtype=float), (count,))
+    if precision is None:
+        needed = None
+    elif np.ndim(precision) == 0:
+        needed = [float(precision)] * count
+    else:
+        needed = [float(p) for p in precision]
+        if len(needed) != count:
+            raise ValueError(f"{len(needed)} precisions for {count} levels")
     for j, guess in enumerate(predictions):
-        enough = 0.0 if needed is None or not np.isfinite(needed[j]) else _RESIDUAL_SHARE_OF_PRECISION * needed[j]
+        enough = 0.0 if needed is None or not math.isfinite(needed[j]) else _RESIDUAL_SHARE_OF_PRECISION * needed[j]
         x, z, rho = _rayleigh(d, e, float(guess), None if rows is None else rows[j], stats,
                               start=None if starts is None else starts[j], enough=enough)
         if z is not None:
@@ -424,8 +434,8 @@ def eigenpairs(d: np.ndarray, e: np.ndarray, lo: int, hi: int, predictions=None,
     else:
         good = _proven_each(d, e, lo, windows, stats)
     noise = RAYLEIGH_NOISE_FACTOR * rounding_sensitivity(d, e, vecs)
-    for j in np.flatnonzero(good):
-        if needed is None or noise[j] > _NOISE_SHARE_OF_PRECISION * needed[j]:
+    for j in range(count):
+        if good[j] and (needed is None or noise[j] > _NOISE_SHARE_OF_PRECISION * needed[j]):
             polished = _bisected_in(d, e, windows[j], stats)
             if polished is None:
                 good[j] = False
@@ -433,14 +443,16 @@ def eigenpairs(d: np.ndarray, e: np.ndarray, lo: int, hi: int, predictions=None,
             values[j] = polished
             noise[j] /= RAYLEIGH_NOISE_FACTOR
             stats.polished += 1
-    stats.confirmed += int(np.count_nonzero(good))
-    stats.missed += int(count - np.count_nonzero(good))
-    for j in np.flatnonzero(~good):
+    confirmed = int(np.count_nonzero(good))
+    stats.confirmed += confirmed
+    stats.missed += count - confirmed
+    for j in (range(0) if confirmed == count else np.flatnonzero(~good)):
         # the window missed or was not proven: this level by index, never a neighbour
         values[j] = bisect_by_index(d, e, lo + j, lo + j)[0]
         vecs[:, j] = vectors_at(d, e, values[j : j + 1], stats)[:, 0]
         noise[j] = rounding_sensitivity(d, e, vecs[:, j : j + 1])[0]
-    if vectors and count > 1 and np.any(np.diff(values) <= CLUSTER_GAP * np.abs(values[1:])):
+    if vectors and count > 1 and any(values[j + 1] - values[j] <= CLUSTER_GAP * abs(values[j + 1])
+                                     for j in range(count - 1)):
         vecs = vectors_at(d, e, values, stats)  # close pairs: orthogonalized together
         noise = rounding_sensitivity(d, e, vecs)
     return values, (vecs if vectors else None), (noise if vectors else None)

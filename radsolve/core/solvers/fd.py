@@ -88,7 +88,8 @@ class FiniteDifference(RadialSolver):
         if peaks is not None and guesses is not None and len(peaks) == len(indices):
             # rows of this grid's matrix nearest to the radii where the states peaked before
             r = self.grid.r[self.inner + 1 : self.grid.size - 1]
-            rows = [None if p is None else int(min(np.searchsorted(r, p), r.size - 1)) for p in peaks]
+            at = np.minimum(np.searchsorted(r, [0.0 if p is None else p for p in peaks]), r.size - 1)
+            rows = [None if p is None else int(i) for p, i in zip(peaks, at)]
         starts = self._starts(previous, b) if previous is not None and len(previous) == len(indices) else None
         values, z, noise = self._solve(indices, guesses, vectors=True, rows=rows, precision=precision,
                                        starts=starts)
