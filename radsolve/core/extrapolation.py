@@ -67,15 +67,20 @@ def _observed(e, end: int) -> float | None:
     return math.log2(d1 / d2) if d1 > 0 and d2 > 0 else None
 
 
-def _column_settled(column: list, order: int, tolerance: float = SETTLED_ORDER_TOLERANCE) -> bool:
-    """The last three entries of a Richardson column decrease by the factor 2**order their next term promises."""
-    if len(column) < 3:
-        return False
-    observed = _observed(column[-3:], 2)
+def _last_orders(table: list) -> tuple[list, float | None]:
+    """Each column's order on its last three entries (None with fewer), and the raw
+    values' order on the triple before their last one (None with fewer than four)."""
+    seen = [_observed(column, len(column) - 1) if len(column) >= 3 else None for column in table]
+    raw = table[0]
+    before = _observed(raw, len(raw) - 2) if len(raw) >= 4 else None
+    return seen, before
+
+
+def _close(observed: float | None, order: int, tolerance: float) -> bool:
     return observed is not None and abs(observed - order) < tolerance
 
 
-def _settled_below(table: list, use: tuple, j: int) -> bool:
+def _settled_below(table: list, use: tuple, j: int, seen: list, before: float | None) -> bool:
     """Every column below j shows its promised order -- the raw values on their last two
     triples (four grids at least), each higher column on its last triple -- and so does
     column j itself once it has three entries.  While column j has only two (its order
@@ -83,14 +88,14 @@ def _settled_below(table: list, use: tuple, j: int) -> bool:
     (:data:`SETTLED_TRUST_TOLERANCE`): a table not yet in its asymptotic regime can show
     orders within the looser tolerance and still have a column j converging far more
     slowly than promised (a deep double well, Numerov: orders 4.0, 6.3, 8.0 below, 4.6
-    in the column, an estimate 11 times below the error)."""
+    in the column, an estimate 11 times below the error).  ``seen``, ``before``: from
+    :func:`_last_orders`."""
     tolerance = SETTLED_ORDER_TOLERANCE if len(table[j]) >= 3 else SETTLED_TRUST_TOLERANCE
-    if len(table[0]) < 4 or not (_column_settled(table[0], use[0], tolerance)
-                                 and _column_settled(table[0][:-1], use[0], tolerance)):
+    if len(table[0]) < 4 or not (_close(seen[0], use[0], tolerance) and _close(before, use[0], tolerance)):
         return False
-    if len(table[j]) >= 3 and not _column_settled(table[j], use[j]):
+    if len(table[j]) >= 3 and not _close(seen[j], use[j], SETTLED_ORDER_TOLERANCE):
         return False
-    return all(_column_settled(table[i], use[i], tolerance) for i in range(1, j))
+    return all(_close(seen[i], use[i], tolerance) for i in range(1, j))
 
 
 def extrapolate(values, orders: tuple[int, ...], relative_rounding: float = 1e-14,
@@ -159,6 +164,7 @@ def extrapolate(values, orders: tuple[int, ...], relative_rounding: float = 1e-1
     # candidates; deep columns amplify rounding noise, so the candidate whose
     # estimate is smallest is taken (its own estimate still bounds it).
     best, estimate = table[-1][-1], math.inf
+    seen, before = _last_orders(table) if settled else ([], None)
     for j in range(1, len(table)):
         column = table[j]
         if len(column) < 2:
@@ -166,7 +172,7 @@ def extrapolate(values, orders: tuple[int, ...], relative_rounding: float = 1e-1
         est = max(abs(column[-1] - table[j - 1][-1]), abs(column[-1] - column[-2]))
         value = column[-1]
         if (settled and j < len(use) and abs(column[-1] - column[-2]) > SETTLED_ABOVE_NOISE * floor
-                and _settled_below(table, use, j)):
+                and _settled_below(table, use, j, seen, before)):
             next_correction = abs(column[-1] - column[-2]) / (2.0 ** use[j] - 1.0)
             if SETTLED_SAFETY * next_correction < est:
                 # The next column's value is this one plus that correction: report it,

@@ -664,21 +664,21 @@ def _box_error(grid, u_row, values, centrifugal, mass, energy) -> float:
     return float(du * du / (2.0 * mass) / (2.0 * kappa))
 
 
-def _rises(u: np.ndarray, start: int, peaks: np.ndarray, block: int = 512) -> list:
-    """For each state (rows of ``u``), the first index from ``start`` on where |u| exceeds
+def _rises(size: np.ndarray, start: int, peaks: np.ndarray, block: int = 512) -> list:
+    """For each state (rows of ``size``: |u|), the first index from ``start`` on where |u| exceeds
     ``1e-6 * peak``, or None.  The states rise from the origin, so the first ``block``
     points nearly always hold it: one array operation for all of them there (a whole-row
     scan per level would cost as much as the level's eigenvector), the rest row by row."""
     level = 1e-6 * peaks
-    lead = np.abs(u[:, start : start + block]) > level[:, None]
+    lead = size[:, start : start + block] > level[:, None]
     found = lead.any(axis=1)
     first = np.argmax(lead, axis=1)
     out: list = []
-    for k in range(u.shape[0]):
+    for k in range(size.shape[0]):
         if found[k]:
             out.append(start + int(first[k]))
             continue
-        hit = np.flatnonzero(np.abs(u[k, start + block :]) > level[k])
+        hit = np.flatnonzero(size[k, start + block :] > level[k])
         out.append(start + block + int(hit[0]) if hit.size else None)
     return out
 
@@ -761,7 +761,7 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
                 short_box = True  # a level the count certifies is not below the threshold in this box
             size = np.abs(u[:want])
             tops = np.argmax(size, axis=1)
-            rises = _rises(u[:want], inner + 1, size[np.arange(want), tops])
+            rises = _rises(size, inner + 1, size[np.arange(want), tops])
             history[ch.key].append([(float(energies[k]) + ch.reference, u[k], grid, float(grid.r[tops[k]]))
                                     for k in range(want)])
             levels = best[ch.key]
@@ -770,8 +770,11 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
             v_eff = values + ch.centrifugal / (2.0 * mass * grid.r**2)
             # Rounding grows with the energies the state sees, not only with
             # its own: a level high in a deep well has |V - E| >> |E|.
-            seen_all = (np.asarray(u[:want]) ** 2 * np.abs(v_eff[None, :] - np.asarray(energies[:want])[:, None])) \
-                @ grid.weights
+            spread = v_eff[None, :] - np.asarray(energies[:want])[:, None]  # |V_eff - E| u**2, in place
+            np.abs(spread, out=spread)
+            spread *= size
+            spread *= size
+            seen_all = spread @ grid.weights
             for k in range(want):
                 series = [step[k][0] for step in history[ch.key]]
                 seen = float(seen_all[k])

@@ -339,10 +339,14 @@ def _count_is(d, e, x: float, count: int, stats: EigenStatistics) -> bool:
     return none_below(d, e, x, stats) if count == 0 else sturm_count(d, e, x, stats) == count
 
 
-def _bisected_in(d, e, window: tuple, stats: EigenStatistics) -> float | None:
-    """The eigenvalue inside ``window`` by bisection (LAPACK stebz), or None if it holds not exactly one."""
+def _bisected_in(d, e, window: tuple, stats: EigenStatistics, noise: float = 0.0) -> float | None:
+    """The eigenvalue inside ``window`` by bisection (LAPACK stebz), or None if it holds not exactly one.
+
+    ``noise``: the rounding noise of bisection's value on this matrix; the
+    bisection stops once the interval is below half of it (further steps only
+    move the value within its noise)."""
     low, high = window
-    m, w, *_rest, info = dstebz(d, e, 1, low, high, 1, 1, ABSOLUTE_TOLERANCE, b"E")
+    m, w, *_rest, info = dstebz(d, e, 1, low, high, 1, 1, max(ABSOLUTE_TOLERANCE, 0.5 * noise), b"E")
     stats.sturm_counts += 2
     return float(w[0]) if info == 0 and m == 1 else None
 
@@ -436,7 +440,7 @@ def eigenpairs(d: np.ndarray, e: np.ndarray, lo: int, hi: int, predictions=None,
     noise = RAYLEIGH_NOISE_FACTOR * rounding_sensitivity(d, e, vecs)
     for j in range(count):
         if good[j] and (needed is None or noise[j] > _NOISE_SHARE_OF_PRECISION * needed[j]):
-            polished = _bisected_in(d, e, windows[j], stats)
+            polished = _bisected_in(d, e, windows[j], stats, noise[j] / RAYLEIGH_NOISE_FACTOR)
             if polished is None:
                 good[j] = False
                 continue
