@@ -130,6 +130,26 @@ def test_tolerance_is_honoured_for_loose_tol():
         assert abs(lev.energy - exact) <= 10 * lev.error_estimate + 1e-14
 
 
+@pytest.mark.parametrize("tol", [1e-10, 1.5e-9, 1e-9, 1e-8, 1e-7])
+@pytest.mark.parametrize("method", ["fd", "numerov"])
+def test_estimates_honest_on_both_sides_of_the_loose_start(tol, method):
+    # From tol = 1e-9 on, the refinement starts from grids twice as coarse: the estimates
+    # must stay honest there as below it.  Coulomb Z = 3 (exact_hydrogenic: sympy) and the
+    # oscillator E = (2 n_r + l + 3/2) omega (textbook formula), every l up to 3.
+    coulomb = radsolve.solve(radsolve.potential("coulomb", Z=3), l=[0, 1, 2, 3], count=4, tol=tol, method=method)
+    oscillator = radsolve.solve(radsolve.potential("harmonic", omega=0.7), l=[0, 1, 2, 3], count=4, tol=tol,
+                                method=method)
+    assert coulomb.success and oscillator.success
+    for lev in coulomb.levels:
+        exact = exact_hydrogenic(lev.n, 3)
+        assert abs(lev.energy - exact) <= max(10 * lev.error_estimate, 1e-15)
+        assert abs(lev.energy - exact) <= 10 * tol * abs(exact)
+    for lev in oscillator.levels:
+        exact = (2 * lev.nodes + lev.l + 1.5) * 0.7
+        assert abs(lev.energy - exact) <= max(10 * lev.error_estimate, 1e-15)
+        assert abs(lev.energy - exact) <= 10 * tol * abs(exact)
+
+
 def test_high_n_coulomb_levels():
     # n up to 20 for l = 0: the box must grow with n**2 (textbook formula for E)
     result = radsolve.solve("coulomb", l=0, count=20)

@@ -271,6 +271,8 @@ class Mapping:
         for b, xk in zip(breakpoints, self.knots):
             r = np.where(x == xk, b, r)
         s = self.scale
+        if not self.knots:  # no breakpoint moved: xi = x (the expressions below with delta = 0)
+            return r, r * s / (r + s), _base_schwarzian(r, s)
         _, d1, d2, d3 = self._delta(x)
         xi1 = 1.0 + d1
         dx_dxi = 1.0 / xi1

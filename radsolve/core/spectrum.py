@@ -154,8 +154,8 @@ class _Prediction(NamedTuple):
     energies: list  # absolute
     peaks: list  # radii where the states are largest
     states: list  # u on that grid
-    #: (grid, the outputs of _levels_on) when that grid is the refinement's first
-    #: (the box was verified on it): the refinement takes them instead of solving again
+    #: (grid, solver class, the outputs of _levels_on) when that grid is the refinement's
+    #: first (the box was verified on it): the refinement takes them instead of solving again
     solved: tuple | None = None
 
 
@@ -168,7 +168,7 @@ class _BoxPlan:
     largest_radius: float = math.inf  # no box beyond this radius
     anchors: tuple[float, ...] = ()
     at_limit: bool = False  # the box could not grow any further
-    #: key -> _Prediction of the wanted levels on the last planning grid or a
+    #: key -> _Prediction of the wanted levels on the box verification's grid or a
     #: neighbouring solve's first grid (for the first refinement grid)
     predicted: dict = field(default_factory=dict)
     #: what the planning solves' eigenvalue searches did
@@ -729,7 +729,7 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
             finest = True
             break
         grid = _grid(span, refinement)
-        all_done, any_improving, short_box = True, False, False
+        all_done, any_improving = True, False
         shared: dict = {}
         for ch in channels:
             want = plan.wanted[ch.key]
@@ -744,7 +744,7 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
                 targets.energy_target(g + ch.reference, ch.v_inf) for g in guesses]
             if history[ch.key]:
                 previous = [step[1] for step in history[ch.key][-1]]
-            else:  # the planning grid's or the neighbour's states, where there are any
+            else:  # the box verification's or the neighbour's states, where there are any
                 previous = planned.states if planned is not None else None
             first = planned.solved if refinement == 0 and planned is not None else None
             if first is not None and first[0] is grid and first[1] is cls and len(first[2][0]) == want:
@@ -755,10 +755,6 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
                     cls, grid, ch, mass, inner, want, guesses, peaks=peaks, statistics=statistics,
                     precision=precision, count_threshold=False, previous=previous, shared=shared)
             last_grid[ch.key] = solver
-            bound = ch.certificate.count
-            if refinement >= 1 and not ch.confining and bound is not None and any(
-                    float(energies[k]) >= 0.0 for k in range(min(want, bound))):
-                short_box = True  # a level the count certifies is not below the threshold in this box
             size = np.abs(u[:want])
             tops = np.argmax(size, axis=1)
             rises = _rises(size, inner + 1, size[np.arange(want), tops])
@@ -815,10 +811,11 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
                        and targets.met(lev["error"], lev["energy"], ch.v_inf))
                 limited = lev["grids"] >= 3 and lev["potential_limit"] > 0 and lev["error"] <= lev["potential_limit"]
                 all_done &= met or limited
-        if may_grow and refinement >= 1 and (short_box or _wall_growth(best, targets, channels) > 0.0):
-            # The wall is too close, or the box holds fewer levels than the count certifies
-            # (its Sturm count on this grid, below, says so): the caller grows the box
-            # before refining further.
+        if may_grow and refinement == 1 and _wall_growth(best, targets, channels) > 0.0:
+            # The wall is too close: the caller grows the box before refining further.  Only
+            # here: on the next grids a state's far tail is still poorly resolved, and its wall
+            # shift can read thousands of times its target where the finest grid's is below it
+            # (a deep double well at tol 3e-8: the box grew 27-fold and its levels hit the finest grid).
             break
         if refinement >= 2 and all_done:
             break

@@ -11,9 +11,11 @@ A file or entry point that cannot be loaded, or that breaks the protocol, does
 not stop the others: it is kept as a :class:`BrokenFamily` (listed by
 ``radsolve potentials`` with its cause; using it raises that cause).  Two
 families with the same NAME are both unusable under that name, and the error
-names both sources.  Each call looks at the entry points, the folders and the
-environment as they are then; only the built-ins, which ship inside the
-package, are read once per process.
+names both sources.  Each call looks at the folders and the environment as
+they are then, and at the entry points as installed then (their scan is kept
+while the folders on ``sys.path`` and their modification times are unchanged,
+which installing or removing a package changes); the built-ins, which ship
+inside the package, are read once per process.
 """
 
 from __future__ import annotations
