@@ -85,6 +85,28 @@ class RadialGrid:
         weights.flags.writeable = False
         return weights
 
+    @functools.cached_property
+    def jacobian_squared(self) -> np.ndarray:
+        """(dr/dxi)**2, the b of :meth:`liouville_coefficients` (read-only, computed once)."""
+        return _read_only(self.jacobian**2)
+
+    @functools.cached_property
+    def r_squared(self) -> np.ndarray:
+        """r**2 at the points (read-only, computed once)."""
+        return _read_only(self.r**2)
+
+    @functools.cached_property
+    def sqrt_jacobian(self) -> np.ndarray:
+        """sqrt(b / (dr/dxi)) = sqrt(dr/dxi), which turns a state u into a vector of the
+        symmetric finite-difference matrix (read-only, computed once)."""
+        return _read_only(np.sqrt(self.jacobian_squared / self.jacobian))
+
+    @functools.cached_property
+    def unit_state_scale(self) -> np.ndarray:
+        """1 / sqrt(h dr/dxi): a unit eigenvector of that matrix times this is a normalized u
+        (read-only, computed once)."""
+        return _read_only(1.0 / np.sqrt(self.step * self.jacobian))
+
     def liouville_coefficients(self, potential_values: np.ndarray, l: int, mass: float, centrifugal: float | None = None):
         """Return (b, q) of the transformed equation.
 
@@ -100,11 +122,16 @@ class RadialGrid:
             The factor in the centrifugal term c/(2 m r**2); l(l+1) by
             default, L(L+1) with L = l + (d-3)/2 in d dimensions.
         """
-        b = self.jacobian**2
+        b = self.jacobian_squared
         factor = l * (l + 1) if centrifugal is None else centrifugal
-        centrifugal = factor / (2.0 * mass * self.r**2)
+        centrifugal = factor / (2.0 * mass * self.r_squared)
         q = b * (potential_values + centrifugal) - self.schwarzian / (4.0 * mass)
         return b, q
+
+
+def _read_only(values: np.ndarray) -> np.ndarray:
+    values.flags.writeable = False
+    return values
 
 
 def mapping_x(r, scale: float):

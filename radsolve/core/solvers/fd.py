@@ -83,14 +83,13 @@ class FiniteDifference(RadialSolver):
     def levels(self, indices: Sequence[int], guesses=None, peaks=None, precision=None,
                previous=None) -> tuple[np.ndarray, np.ndarray]:
         indices = list(indices)
-        _, _, b = self._cached_matrix()
         rows = None
         if peaks is not None and guesses is not None and len(peaks) == len(indices):
             # rows of this grid's matrix nearest to the radii where the states peaked before
             r = self.grid.r[self.inner + 1 : self.grid.size - 1]
             at = np.minimum(np.searchsorted(r, [0.0 if p is None else p for p in peaks]), r.size - 1)
             rows = [None if p is None else int(i) for p, i in zip(peaks, at)]
-        starts = self._starts(previous, b) if previous is not None and len(previous) == len(indices) else None
+        starts = self._starts(previous) if previous is not None and len(previous) == len(indices) else None
         values, z, noise = self._solve(indices, guesses, vectors=True, rows=rows, precision=precision,
                                        starts=starts)
         self._noise = list(noise)
@@ -106,10 +105,10 @@ class FiniteDifference(RadialSolver):
         n = self.grid.size
         sl = slice(self.inner + 1, n - 1)
         u = np.zeros((z.shape[1], n))
-        u[:, sl] = z.T * (1.0 / np.sqrt(self.grid.step * self.grid.jacobian[sl]))
+        u[:, sl] = z.T * self.grid.unit_state_scale[sl]
         return positive_near_origin(u)
 
-    def _starts(self, previous, b) -> list | None:
+    def _starts(self, previous) -> list | None:
         """States of the grid this one halves, or of a grid of this size, as start vectors of this matrix.
 
         Every other point of this grid is a point of the one it halves; the
@@ -122,7 +121,7 @@ class FiniteDifference(RadialSolver):
         """
         n = self.grid.size
         sl = slice(self.inner + 1, n - 1)
-        scale = np.sqrt(b / self.grid.jacobian[sl])  # z = u sqrt(b / (dr/dx)) on this matrix's rows
+        scale = self.grid.sqrt_jacobian[sl]  # z = u sqrt(b / (dr/dx)) on this matrix's rows
         out = []
         for u in previous:
             u = np.asarray(u, dtype=float)
