@@ -173,7 +173,7 @@ def asymptotic_radius(potential, profile, mass: float) -> float:
 
     tail = profile.tail
     r = PROBE_RADII
-    v = _raw(potential, r)
+    v = profile.probe_values if getattr(profile, "probe_values", None) is not None else _raw(potential, r)
     delta = v - profile.v_infinity
     if tail.kind in ("short",) and math.isinf(tail.power):
         model = np.zeros_like(r)

@@ -28,7 +28,7 @@ m is the kinetic mass of -u''/(2m)).
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -155,6 +155,8 @@ class PotentialProfile:
         detected (``detected`` says which).
     detected : bool
         True when the breakpoints were found by scanning V (no hook).
+    probe_values : ndarray or None
+        V at :data:`PROBE_RADII` as probed (read-only; infinities and NaN kept).
     """
 
     v_infinity: float
@@ -164,6 +166,7 @@ class PotentialProfile:
     range: float
     breakpoints: tuple[float, ...]
     detected: bool = False
+    probe_values: np.ndarray | None = field(default=None, repr=False, compare=False)
 
     # Names kept from the first release: the small-r law as two numbers.
     @property
@@ -520,6 +523,7 @@ def profile(potential, mass: float, scan_breakpoints: bool = True) -> PotentialP
     """Probe ``potential`` for kinetic mass ``mass`` (see the module docstring)."""
     r = PROBE_RADII
     v = _raw(potential, r)
+    v.flags.writeable = False  # kept on the profile
     origin, i0 = _origin_law(r, v, potential.small_r() if hasattr(potential, "small_r") else None)
 
     hook_vinf = potential.v_infinity() if hasattr(potential, "v_infinity") else None
@@ -585,6 +589,7 @@ def profile(potential, mass: float, scan_breakpoints: bool = True) -> PotentialP
         range=rng,
         breakpoints=bps,
         detected=detected,
+        probe_values=v,
     )
 
 

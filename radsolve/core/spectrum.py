@@ -110,28 +110,29 @@ class _Channel:
     inner_radius: float  # where its grid starts
     certificate: BoundCount
 
-    @property
+    # Cached: the refinement asks for these for every level on every grid.
+    @functools.cached_property
     def key(self) -> Key:
         return (self.l, self.j)
 
-    @property
+    @functools.cached_property
     def centrifugal(self) -> float:
         return self.effective_l * (self.effective_l + 1.0)
 
-    @property
+    @functools.cached_property
     def v_inf(self) -> float:
         return self.profile.v_infinity
 
-    @property
+    @functools.cached_property
     def confining(self) -> bool:
         return self.profile.confining
 
-    @property
+    @functools.cached_property
     def reference(self) -> float:
         """The energy the solvers measure from: V(inf), or 0 for a confining channel."""
         return 0.0 if self.confining else self.v_inf
 
-    @property
+    @functools.cached_property
     def potential_key(self) -> tuple:
         """Equal for channels whose V - reference is the same function (partial waves
         that add nothing to V): on a shared grid they share its values."""
@@ -292,12 +293,15 @@ def _phase_halvings(channels, span: GridSpan, mass, tops: dict, limit: float) ->
     """Halvings of the span's coarse step after which no wanted state turns by more than ``limit`` per step."""
     grid = span.grid(0)
     worst = 0.0
+    raw: dict = {}  # V on this grid, by the channels that share it
     for ch in channels:
         top = tops.get(ch.key)
         if top is None:
             continue
+        if ch.potential_key not in raw:
+            raw[ch.potential_key] = probing._raw(ch.potential, grid.r)
         with np.errstate(all="ignore"):
-            v_eff = probing._raw(ch.potential, grid.r) + ch.centrifugal / (2.0 * mass * grid.r**2)
+            v_eff = raw[ch.potential_key] + ch.centrifugal / (2.0 * mass * grid.r_squared)
             k = np.sqrt(np.maximum(2.0 * mass * (top - v_eff), 0.0))
         phase = k * grid.jacobian * span.coarse_step
         phase = phase[np.isfinite(phase)]
