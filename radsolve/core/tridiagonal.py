@@ -289,7 +289,7 @@ def _rayleigh(d, e, x: float, row, stats: EigenStatistics, start=None, enough: f
     tiny = _TINY_STEP
     first = True
     for _ in range(_MAX_RAYLEIGH):
-        _, _, _, y, info = dgtsv(e, d - x, e, rhs)
+        _, _, _, y, info = dgtsv(e, d - x, e, rhs, overwrite_d=1)  # d - x is ours to overwrite
         stats.solves += 1
         size = float(y @ y)
         if info > 0 or not math.isfinite(size) or size == 0.0:
