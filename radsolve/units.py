@@ -613,10 +613,32 @@ class UnitSystem:
         """The m of -1/(2 m) u'' in this system's units for reduced mass ``mass``."""
         if self.name == "atomic":
             return float(mass)
+        return float(mass) / self.hbar_c() ** 2
+
+    def hbar_c(self) -> float:
+        """hbar c in this system's energy times length unit (CODATA via scipy.constants):
+        1/alpha hartree bohr in atomic units (hbar = 1, c = 1/alpha), MeV fm in nuclear units."""
         from scipy import constants as const
 
-        hbar_c_MeV_fm = const.hbar * const.c / (const.mega * const.e * const.femto)
-        return float(mass) / hbar_c_MeV_fm**2
+        if self.name == "atomic":
+            return 1.0 / const.fine_structure
+        return const.hbar * const.c / (const.mega * const.e * const.femto)
+
+    def coulomb_constant(self) -> float:
+        """alpha hbar c, the strength of -1/r between unit charges: 1 hartree bohr in
+        atomic units, about 1.44 MeV fm in nuclear units."""
+        if self.name == "atomic":
+            return 1.0
+        from scipy import constants as const
+
+        return const.fine_structure * self.hbar_c()
+
+    def rest_energy(self, mass: float) -> float:
+        """mass c**2 in this system's energy unit, ``mass`` in ``mass_unit`` (electron
+        masses: times c**2 = 1/alpha**2 hartree; MeV/c**2: the number itself)."""
+        if self.name == "atomic":
+            return float(mass) * self.hbar_c() ** 2
+        return float(mass)
 
 
 def unit_system(name: str | None) -> UnitSystem:

@@ -283,3 +283,26 @@ def test_units_import_does_not_pull_in_scipy():
                          cwd=tempfile.mkdtemp(prefix="radsolve-cwd-"))
     assert out.stdout.strip() == "False"
     assert math.isfinite(energy_unit_factor("eV"))
+
+
+def test_unit_system_constants_against_codata():
+    # hbar c, alpha hbar c and m c**2 in each system, against CODATA via scipy.constants
+    # computed here independently (MeV fm from SI; the electron's rest energy from
+    # the "electron mass energy equivalent" and the hartree energy).
+    from scipy import constants as const
+    from scipy.constants import physical_constants
+
+    from radsolve.units import unit_system
+
+    atomic, nuclear = unit_system("atomic"), unit_system("nuclear")
+    hbar_c_mev_fm = const.hbar * const.c / const.e / 1e6 / 1e-15
+    assert nuclear.hbar_c() == pytest.approx(hbar_c_mev_fm, rel=1e-14)
+    assert nuclear.coulomb_constant() == pytest.approx(const.alpha * hbar_c_mev_fm, rel=1e-14)
+    assert atomic.hbar_c() == pytest.approx(1.0 / const.alpha, rel=1e-14)
+    assert atomic.coulomb_constant() == 1.0
+    electron_in_hartree = physical_constants["electron mass energy equivalent"][0] / physical_constants[
+        "Hartree energy"][0]
+    assert atomic.rest_energy(1.0) == pytest.approx(electron_in_hartree, rel=1e-9)
+    assert nuclear.rest_energy(938.272) == 938.272
+    # the kinetic mass of nuclear units absorbs (hbar c)**2
+    assert nuclear.kinetic_mass(938.272) == pytest.approx(938.272 / hbar_c_mev_fm**2, rel=1e-14)

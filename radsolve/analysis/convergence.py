@@ -67,9 +67,9 @@ def exact_relativistic_energy(equation: str, n: int, l: int, j: float | None, Z:
 
     from radsolve.core.relativistic.effective import kappa_of
     from radsolve.core.relativistic.exact import dirac_coulomb, klein_gordon_coulomb
-    from radsolve.core.relativistic.front import rest_energy
+    from radsolve.units import unit_system
 
-    za, rest = Z * fine_structure, rest_energy("atomic", mass)
+    za, rest = Z * fine_structure, unit_system("atomic").rest_energy(mass)
     if equation == "dirac":
         return dirac_coulomb(n, kappa_of(l, j), za, rest)
     return klein_gordon_coulomb(n, l, za, rest)

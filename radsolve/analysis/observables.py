@@ -628,9 +628,9 @@ class State(ResultProtocol):
     # sec. 12), with the reduced mass mu in place of the particle mass, as the Dirac solver has it.
 
     def _mc2(self) -> float:
-        from radsolve.core.relativistic.front import rest_energy
+        from radsolve.units import unit_system
 
-        return rest_energy("atomic", self.mass)
+        return unit_system("atomic").rest_energy(self.mass)
 
     def mass_velocity(self) -> Estimate:
         """-<p^4>/(8 mu^3 c^2) = -<(E - V)^2>/(2 mu c^2), hartree (using p^2/(2 mu) = E - V on the state)."""

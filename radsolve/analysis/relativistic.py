@@ -41,16 +41,16 @@ def _dirac_level(result, label: str, equations=("dirac",)):
 def _components(result, level, sample):
     """(r, weights, G, F) on one sample grid, normalized: sum(weights (G^2 + F^2)) = 1."""
     from radsolve.core.relativistic.effective import kappa_of
-    from radsolve.core.relativistic.front import hbar_c, rest_energy
+    from radsolve.units import unit_system
 
     pot = result.potential
     r, w, u = sample.r, sample.weights, sample.u
     v = _potential_on(result, level, r)
-    hc = hbar_c(result.units)
+    hc = unit_system(result.units).hbar_c()
     if getattr(result, "scalar", False):
         with np.errstate(all="ignore"):
             v = v - np.asarray(pot.scalar(r, finite=False), dtype=float)  # A = W - V + S + 2mc^2
-    big_a = sample.energy - v + 2.0 * rest_energy(result.units, result.mass)
+    big_a = sample.energy - v + 2.0 * unit_system(result.units).rest_energy(result.mass)
     inside = u != 0.0
     g = np.where(inside, np.sqrt(np.where(inside, big_a, 1.0)) * u, 0.0)
     jacobian = w / sample.step
@@ -76,11 +76,11 @@ def _kg_components(result, level, sample):
     normalized so that the integral of rho u^2 dr is 1 (textbook, e.g. Greiner, "Relativistic Quantum
     Mechanics: Wave Equations", 2000, ch. 1).
     """
-    from radsolve.core.relativistic.front import rest_energy
+    from radsolve.units import unit_system
 
     r, w, u = sample.r, sample.weights, sample.u
     v = _potential_on(result, level, r)
-    rest = rest_energy(result.units, result.mass)
+    rest = unit_system(result.units).rest_energy(result.mass)
     rho = np.where(u != 0.0, (sample.energy - v + rest) / rest, 0.0)
     norm = math.sqrt(float(np.sum(w * rho * u * u)))
     return r, w, u / norm, rho
@@ -166,11 +166,11 @@ def _power_law_start(r, f, first):
 def _integral_estimate(result, label, weight, unit, upto=None, tol=None) -> Estimate:
     """The integral of density * weight (or up to ``upto``), judged against 10 tol (default the solve's)."""
     from radsolve.core.extrapolation import richardson
-    from radsolve.core.relativistic.front import hbar_c, rest_energy
+    from radsolve.units import unit_system
 
     level = _dirac_level(result, label, ("dirac", "klein-gordon"))
     values = []
-    rest = rest_energy(result.units, result.mass)
+    rest = unit_system(result.units).rest_energy(result.mass)
     for sample in level.samples:
         r, w, density = _density(result, level, sample)
         # Near the origin, where u is below 1e-6 of its maximum, F comes from differences of tiny numbers
@@ -192,7 +192,7 @@ def _integral_estimate(result, label, weight, unit, upto=None, tol=None) -> Esti
     scale = float(np.sum(np.abs(terms)))
     if math.isfinite(result.v_infinity):
         w_rel = sample.energy - result.v_infinity
-        decay = math.sqrt(max(-w_rel * (w_rel + 2.0 * rest), 1e-300)) / hbar_c(result.units)
+        decay = math.sqrt(max(-w_rel * (w_rel + 2.0 * rest), 1e-300)) / unit_system(result.units).hbar_c()
     else:  # confining (a growing scalar): the density's own e-folding rate before the wall
         a, b = max(r.size - 20, 0), max(r.size - 10, 1)
         with np.errstate(all="ignore"):
@@ -335,9 +335,9 @@ def _kg_mixed_weight(result, energy_sum: float, r, potential):
     states normalized by their charge density (textbook construction; it becomes the Schrodinger
     dipole as (W - V)/mc^2 -> 0).  This is the length form of the velocity-form current element.
     """
-    from radsolve.core.relativistic.front import rest_energy
+    from radsolve.units import unit_system
 
-    rest = rest_energy(result.units, result.mass)
+    rest = unit_system(result.units).rest_energy(result.mass)
     return (energy_sum + 2.0 * rest - 2.0 * potential) / (2.0 * rest)
 
 
@@ -348,10 +348,11 @@ def _decay_factor(result, level, sample, r_end, r):
     decays more slowly, so the tighter level is continued on its asymptotic decay (the power-law factor
     r^(Z/k) is left out, and half of what the continuation adds is counted as error).
     """
-    from radsolve.core.relativistic.front import hbar_c, rest_energy
+    from radsolve.units import unit_system
 
     w = sample.energy - (result.v_infinity if math.isfinite(result.v_infinity) else 0.0)
-    k = math.sqrt(max(-w * (w + 2.0 * rest_energy(result.units, result.mass)), 0.0)) / hbar_c(result.units)
+    system = unit_system(result.units)
+    k = math.sqrt(max(-w * (w + 2.0 * system.rest_energy(result.mass)), 0.0)) / system.hbar_c()
     return np.exp(-k * (np.asarray(r) - r_end))
 
 

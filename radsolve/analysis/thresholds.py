@@ -509,9 +509,10 @@ class _RelativisticZeroEnergy(_ZeroEnergy):
     """
 
     def relativistic(self, equation: str, system_name: str, mu: float) -> None:
-        from radsolve.core.relativistic.front import hbar_c, rest_energy
+        from radsolve.units import unit_system
 
-        self.equation, self.hbar_c, self.rest = equation, hbar_c(system_name), rest_energy(system_name, mu)
+        system = unit_system(system_name)
+        self.equation, self.hbar_c, self.rest = equation, system.hbar_c(), system.rest_energy(mu)
         self.system_name = system_name
         self._channels: dict = {}
 

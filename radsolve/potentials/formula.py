@@ -95,12 +95,9 @@ def constant_values(units: str = "atomic") -> dict[str, float]:
     """The values of :data:`CONSTANTS` in unit system ``units`` (CODATA via scipy.constants)."""
     from scipy import constants as const
 
-    alpha = const.fine_structure
-    if units == "nuclear":
-        hbarc = const.hbar * const.c / (const.mega * const.e * const.femto)  # MeV fm
-    else:
-        hbarc = 1.0 / alpha  # hbar = 1 and c = 1/alpha in atomic units: hartree bohr
-    return {"pi": math.pi, "alpha": alpha, "hbarc": hbarc}
+    from radsolve.units import unit_system
+
+    return {"pi": math.pi, "alpha": const.fine_structure, "hbarc": unit_system(units).hbar_c()}
 
 
 class FormulaError(InputError):

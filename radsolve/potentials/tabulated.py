@@ -420,12 +420,7 @@ def tabulated_potential(source: Any, *, r_unit: str | None = None, v_unit: str |
 
     digest = hashlib.sha1(np.concatenate([r_sys, v_sys, [spline_degree]]).tobytes()).hexdigest()[:10]
     where = f"{where} [{system.name} units, data {digest}]"
-    if system.name == "nuclear":
-        from scipy import constants as const
-
-        k = const.fine_structure * const.hbar * const.c / (const.mega * const.e * const.femto)
-    else:
-        k = 1.0
+    k = system.coulomb_constant()
     table = TabulatedTable(r_sys, v_sys, beyond_rule, inside_rule, k, spline_degree)
 
     def V(r):

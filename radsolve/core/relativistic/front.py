@@ -43,22 +43,6 @@ CONVENTIONS = {
 _OUTCOME_RANK = {Outcome.SUCCESS: 0, Outcome.NOT_CONVERGED: 1, Outcome.INCOMPLETE: 2, Outcome.FAILED: 3}
 
 
-def hbar_c(system_name: str) -> float:
-    """hbar c in the system's energy x length unit (atomic: 1/alpha; nuclear: MeV fm)."""
-    from scipy import constants as const
-
-    if system_name == "atomic":
-        return 1.0 / const.fine_structure
-    return const.hbar * const.c / (const.mega * const.e * const.femto)
-
-
-def rest_energy(system_name: str, mu: float) -> float:
-    """mu c^2 in the system's energy unit (mu in electron masses or MeV/c^2)."""
-    if system_name == "atomic":
-        return mu * hbar_c("atomic") ** 2
-    return mu
-
-
 def solve_relativistic(equation, potential, l, *, count, mass, tol, method, plugins, spin_orbit, dimension,
                        units, scalar) -> SolveResult:
     from radsolve.core import spectrum
@@ -81,8 +65,8 @@ def solve_relativistic(equation, potential, l, *, count, mass, tol, method, plug
     system = spectrum._unit_system(pot, units)
     mu = system.parse_mass(mass)
     kinetic = system.kinetic_mass(mu)
-    hc = hbar_c(system.name)
-    rest = rest_energy(system.name, mu)
+    hc = system.hbar_c()
+    rest = system.rest_energy(mu)
     scalar_fn = _scalar_function(pot, scalar)
     confining = _scalar_confines(pot, scalar_fn)
 

@@ -43,9 +43,9 @@ FORMULA = "V(r) = -kappa hbar c / r + sigma r + offset"
 
 def _hbar_c():
     """hbar c in MeV fm (CODATA via scipy.constants)."""
-    from scipy import constants as const
+    from radsolve.units import unit_system
 
-    return const.hbar * const.c / (const.mega * const.e * const.femto)
+    return unit_system("nuclear").hbar_c()
 
 
 def _default_string_tension():

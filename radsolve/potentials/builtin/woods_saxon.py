@@ -89,9 +89,9 @@ def nuclear_radius(A, r0, radius):
 
 def _coulomb_constant():
     """alpha hbar c in MeV fm (CODATA via scipy.constants)."""
-    from scipy import constants as const
+    from radsolve.units import unit_system
 
-    return const.fine_structure * const.hbar * const.c / (const.mega * const.e * const.femto)
+    return unit_system("nuclear").coulomb_constant()
 
 
 def fermi(r, R, a):
