@@ -46,11 +46,12 @@ def _components(result, level, sample):
     pot = result.potential
     r, w, u = sample.r, sample.weights, sample.u
     v = _potential_on(result, level, r)
-    hc = unit_system(result.units).hbar_c()
+    system = unit_system(result.units)
+    hc = system.hbar_c()
     if getattr(result, "scalar", False):
         with np.errstate(all="ignore"):
             v = v - np.asarray(pot.scalar(r, finite=False), dtype=float)  # A = W - V + S + 2mc^2
-    big_a = sample.energy - v + 2.0 * unit_system(result.units).rest_energy(result.mass)
+    big_a = sample.energy - v + 2.0 * system.rest_energy(result.mass)
     inside = u != 0.0
     g = np.where(inside, np.sqrt(np.where(inside, big_a, 1.0)) * u, 0.0)
     jacobian = w / sample.step
@@ -170,7 +171,8 @@ def _integral_estimate(result, label, weight, unit, upto=None, tol=None) -> Esti
 
     level = _dirac_level(result, label, ("dirac", "klein-gordon"))
     values = []
-    rest = unit_system(result.units).rest_energy(result.mass)
+    system = unit_system(result.units)
+    rest = system.rest_energy(result.mass)
     for sample in level.samples:
         r, w, density = _density(result, level, sample)
         # Near the origin, where u is below 1e-6 of its maximum, F comes from differences of tiny numbers
@@ -192,7 +194,7 @@ def _integral_estimate(result, label, weight, unit, upto=None, tol=None) -> Esti
     scale = float(np.sum(np.abs(terms)))
     if math.isfinite(result.v_infinity):
         w_rel = sample.energy - result.v_infinity
-        decay = math.sqrt(max(-w_rel * (w_rel + 2.0 * rest), 1e-300)) / unit_system(result.units).hbar_c()
+        decay = math.sqrt(max(-w_rel * (w_rel + 2.0 * rest), 1e-300)) / system.hbar_c()
     else:  # confining (a growing scalar): the density's own e-folding rate before the wall
         a, b = max(r.size - 20, 0), max(r.size - 10, 1)
         with np.errstate(all="ignore"):

@@ -173,7 +173,7 @@ def asymptotic_radius(potential, profile, mass: float) -> float:
 
     tail = profile.tail
     r = PROBE_RADII
-    v = profile.probe_values if getattr(profile, "probe_values", None) is not None else _raw(potential, r)
+    v = profile.probe_values if profile.probe_values is not None else _raw(potential, r)
     delta = v - profile.v_infinity
     if tail.kind in ("short",) and math.isinf(tail.power):
         model = np.zeros_like(r)
@@ -192,15 +192,13 @@ def asymptotic_radius(potential, profile, mass: float) -> float:
 
 
 def count_bound(potential, profile, L: float, mass: float, inner_radius: float,
-                largest_radius: float, tail_radius=None) -> BoundCount:
+                largest_radius: float) -> BoundCount:
     """The number of levels of one partial wave below V(inf) (see the module docstring).
 
     ``potential`` is the channel's potential, ``profile`` its probe, ``L`` the
     effective angular momentum (l + (d-3)/2), ``inner_radius`` where the
     grid starts (as for the solve), ``largest_radius`` the largest radius
-    that may be integrated to; ``tail_radius``: a function of no argument
-    returning :func:`asymptotic_radius` of this potential and mass (channels
-    that share V share one that computes it once), or None.
+    that may be integrated to.
     """
     tail = profile.tail
     why = tail.infinitely_many(L, mass)
@@ -213,7 +211,7 @@ def count_bound(potential, profile, L: float, mass: float, inner_radius: float,
     certain_law = tail.kind != "irregular"
     exponent = profile.origin_exponent(L, mass)
 
-    far = max(asymptotic_radius(potential, profile, mass) if tail_radius is None else tail_radius(),
+    far = max(asymptotic_radius(potential, profile, mass),
               10.0 * profile.inner_length, 2.0 * max(profile.breakpoints, default=0.0))
     if math.isfinite(profile.range):
         far = max(far, 2.0 * profile.range)

@@ -45,7 +45,7 @@ from typing import Any, NamedTuple
 import numpy as np
 
 from radsolve.core import probe as probing
-from radsolve.core.counting import BoundCount, asymptotic_radius, count_bound
+from radsolve.core.counting import BoundCount, count_bound
 from radsolve.errors import InputError
 from radsolve.core.extrapolation import extrapolate
 from radsolve.core.grids import GridSpan, box_span, potential_on_grid, shared_radius
@@ -135,9 +135,8 @@ class _Channel:
     @functools.cached_property
     def potential_key(self) -> tuple:
         """Equal for channels whose V - reference is the same function (partial waves
-        that add nothing to V): on a shared grid they share its values."""
-        base = self.potential.base if getattr(self.potential, "plain", False) else self.potential
-        return id(base), self.reference
+        that add nothing to V): they share its probe, and its values on a shared grid."""
+        return id(_own_potential(self.potential)), self.reference
 
     def wanted(self, count: int) -> int:
         """How many levels to compute: ``count``, or fewer when fewer are bound."""
@@ -146,6 +145,12 @@ class _Channel:
             return count
         extra = 0 if cert.certain else 1  # look for the one the count is unsure of
         return min(count, cert.count + extra)
+
+
+def _own_potential(channel_pot):
+    """The potential whose values a channel's are: V itself for a partial wave that adds
+    nothing to it (the same function for every such l), else the channel's own."""
+    return channel_pot.base if getattr(channel_pot, "plain", False) else channel_pot
 
 
 class _Prediction(NamedTuple):
@@ -231,19 +236,15 @@ def _channels(pot, ls, spin_orbit, dimension, mass, targets: Targets) -> list[_C
             js = [0.5] if l == 0 else [l - 0.5, l + 0.5]
         for j in js:
             channel_pot = pot.channel(l, j) if hasattr(pot, "channel") else pot
-            # a channel that adds nothing to V shares the probe of V itself
-            shared = id(pot) if getattr(channel_pot, "plain", False) else id(channel_pot)
+            shared = id(_own_potential(channel_pot))
             if shared not in profiles:
-                probe = probing.profile(channel_pot, mass)
-                # the probe, and the count's asymptotic radius computed once when first asked for
-                profiles[shared] = probe, functools.cache(functools.partial(asymptotic_radius, channel_pot,
-                                                                            probe, mass))
-            prof, tail_radius = profiles[shared]
+                profiles[shared] = probing.profile(channel_pot, mass)
+            prof = profiles[shared]
             effective = l + shift
             prof.check_bounded_below(effective, mass)
             exponent = prof.origin_exponent(effective, mass)
             inner = _inner_radius(channel_pot, prof, effective, mass, targets, prof.v_infinity)
-            cert = count_bound(channel_pot, prof, effective, mass, inner, _largest_radius(inner), tail_radius)
+            cert = count_bound(channel_pot, prof, effective, mass, inner, _largest_radius(inner))
             out.append(_Channel(l, j, channel_pot, prof, effective, exponent, inner, cert))
     return out
 
@@ -477,14 +478,15 @@ def _span_notes(span: GridSpan, at_limit: bool, largest: float) -> list[Note]:
     return notes
 
 
+def _loose_doublings(targets: Targets) -> int:
+    """How many times the refinement's coarse step is doubled for this tol (see
+    :data:`LOOSE_TOL`); as many more halvings are allowed, so the finest grid is the same."""
+    return 1 if targets.tol >= LOOSE_TOL else 0
+
+
 def _coarse_step(targets: Targets) -> float:
-    """The largest coarse step of the refinement for this tol (see :data:`LOOSE_TOL`)."""
-    return 2.0 * COARSE_STEP if targets.tol >= LOOSE_TOL else COARSE_STEP
-
-
-def _max_refinements(targets: Targets) -> int:
-    """Halvings allowed after the coarse step: the finest grid is the same whatever tol."""
-    return MAX_REFINEMENTS + round(math.log2(_coarse_step(targets) / COARSE_STEP))
+    """The largest coarse step of the refinement for this tol."""
+    return COARSE_STEP * 2 ** _loose_doublings(targets)
 
 
 def _refined_span(r_min, radius, breakpoints, channels, mass, tops, most, targets: Targets) -> GridSpan:
@@ -728,7 +730,7 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
     last_grid: dict = {}
     statistics = EigenStatistics()
     finest = False
-    for refinement in range(_max_refinements(targets) + 1):
+    for refinement in range(MAX_REFINEMENTS + _loose_doublings(targets) + 1):
         if span.intervals(refinement) + 1 > MAX_POINTS:
             finest = True
             break
@@ -753,7 +755,6 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
             first = planned.solved if refinement == 0 and planned is not None else None
             if first is not None and first[0] is grid and first[1] is cls and len(first[2][0]) == want:
                 energies, u, _, values, noise, solver = first[2]  # the box was verified on this grid
-                noise = list(noise)
             else:
                 energies, u, _, values, noise, solver = _levels_on(
                     cls, grid, ch, mass, inner, want, guesses, peaks=peaks, statistics=statistics,
@@ -767,7 +768,7 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
             levels = best[ch.key]
             profile = ch.potential.potential_error(grid.r) if hasattr(ch.potential, "potential_error") else None
             splits = _unsettled_pairs(history[ch.key])
-            v_eff = values + ch.centrifugal / (2.0 * mass * grid.r**2)
+            v_eff = values + ch.centrifugal / (2.0 * mass * grid.r_squared)
             # Rounding grows with the energies the state sees, not only with
             # its own: a level high in a deep well has |V - E| >> |E|.
             spread = v_eff[None, :] - np.asarray(energies[:want])[:, None]  # |V_eff - E| u**2, in place

@@ -286,7 +286,6 @@ def _rayleigh(d, e, x: float, row, stats: EigenStatistics, start=None, enough: f
     else:
         rhs = _start_vector(d.size, row)
     rho = math.inf
-    tiny = _TINY_STEP
     first = True
     for _ in range(_MAX_RAYLEIGH):
         _, _, _, y, info = dgtsv(e, d - x, e, rhs, overwrite_d=1)  # d - x is ours to overwrite
@@ -304,7 +303,7 @@ def _rayleigh(d, e, x: float, row, stats: EigenStatistics, start=None, enough: f
         # Converged: the step is at the rounding level, or no longer shrinks as a
         # converging iteration's does (cubically), which only rounding noise does;
         # or the residual already bounds the value within what is asked.
-        if abs(step) <= tiny * abs(x) or (not first and abs(step) <= _SETTLED_STEP * abs(x)) or rho <= enough:
+        if abs(step) <= _TINY_STEP * abs(x) or (not first and abs(step) <= _SETTLED_STEP * abs(x)) or rho <= enough:
             # Convergence is cubic: after a second step this small the next would be below
             # rounding, and the vector, iterated twice with shifts this close, is as good as it gets.
             break
@@ -315,7 +314,7 @@ def _rayleigh(d, e, x: float, row, stats: EigenStatistics, start=None, enough: f
         # The value is a Rayleigh quotient, exact to ~rho**2 / gap: a large
         # residual leaves it less accurate than bisection would be.
         return x, None, math.inf
-    return x, rhs, max(rho, tiny * abs(x))
+    return x, rhs, max(rho, _TINY_STEP * abs(x))
 
 
 def _proven(d, e, lo: int, hi: int, windows: list, stats: EigenStatistics) -> bool:
@@ -450,7 +449,7 @@ def eigenpairs(d: np.ndarray, e: np.ndarray, lo: int, hi: int, predictions=None,
     confirmed = int(np.count_nonzero(good))
     stats.confirmed += confirmed
     stats.missed += count - confirmed
-    for j in (range(0) if confirmed == count else np.flatnonzero(~good)):
+    for j in np.flatnonzero(~good):
         # the window missed or was not proven: this level by index, never a neighbour
         values[j] = bisect_by_index(d, e, lo + j, lo + j)[0]
         vecs[:, j] = vectors_at(d, e, values[j : j + 1], stats)[:, 0]
