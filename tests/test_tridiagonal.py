@@ -206,3 +206,23 @@ def test_sturm_count_through_a_zero_pivot():
     for x in (0.0, -2.0, 1.0, 6.0):
         assert sturm_count(d, e, x) == np.count_nonzero(exact < x)
     assert sturm_count(np.array([0.0]), np.array([]), 0.5) == 1 and sturm_count(np.array([0.0]), np.array([]), -0.5) == 0
+
+
+@pytest.mark.parametrize("offset", [1e-12, 1e-13, 1e-14])
+def test_a_level_near_zero_is_confirmed_in_a_window_as_wide_as_its_noise(offset):
+    # The box matrix shifted so that level 37 sits `offset` below zero: its value is far
+    # smaller than its rounding noise (~1e-16 of the entries), like a level just below
+    # threshold in a large box.  A window of 1e-9 of the value is then narrower than what
+    # the Sturm counts at its ends can resolve; it must still be confirmed (not sent to
+    # bisection by index), with the value bisection gives within its noise.
+    d, e, exact = _box(4000)
+    h2 = (1.0 / 4001) ** 2
+    d = (d - exact[37]) * h2 - offset  # eigenvalues (exact - exact[37]) h**2 - offset
+    e = e * h2
+    reference = eigvalsh_tridiagonal(d, e, select="i", select_range=(37, 37))[0]
+    assert reference < 0 and abs(reference) < 10 * offset  # textbook: exact[37] shifted to ~ -offset
+    stats = EigenStatistics()
+    values, _, noise = eigenpairs(d, e, 37, 37, [reference * (1 + 1e-6)], precision=[abs(reference) * 1e-3],
+                                  stats=stats)
+    assert stats.missed == 0 and stats.confirmed == 1
+    assert abs(values[0] - reference) <= noise[0]

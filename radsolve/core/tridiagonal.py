@@ -65,7 +65,8 @@ RAYLEIGH_NOISE_FACTOR = 2.0
 #: A Rayleigh quotient is kept when its noise is below this share of the precision asked.
 _NOISE_SHARE_OF_PRECISION = 0.1
 #: The bisection window around a Rayleigh quotient: at least this wide (relative),
-#: far beyond the quotient's rounding noise.
+#: far beyond the quotient's rounding noise -- except for a value near zero, whose
+#: window is then as wide as that noise (:func:`eigenpairs`).
 _POLISH_WINDOW = 1e-9
 #: Computed residual bounds are widened by this factor before they prove anything.
 _RESIDUAL_SAFETY = 8.0
@@ -425,18 +426,26 @@ def eigenpairs(d: np.ndarray, e: np.ndarray, lo: int, hi: int, predictions=None,
         needed = [float(p) for p in precision]
         if len(needed) != count:
             raise ValueError(f"{len(needed)} precisions for {count} levels")
+    residuals = [math.inf] * count
     for j, guess in enumerate(predictions):
         enough = 0.0 if needed is None or not math.isfinite(needed[j]) else _RESIDUAL_SHARE_OF_PRECISION * needed[j]
         x, z, rho = _rayleigh(d, e, float(guess), None if rows is None else rows[j], stats,
                               start=None if starts is None else starts[j], enough=enough)
         if z is not None:
-            half = max(_RESIDUAL_SAFETY * rho, _POLISH_WINDOW * abs(x))
-            windows[j], values[j], vecs[:, j] = (x - half, x + half), x, z
+            values[j], vecs[:, j], residuals[j] = x, z, rho
+    noise = RAYLEIGH_NOISE_FACTOR * rounding_sensitivity(d, e, vecs)
+    for j in range(count):
+        if math.isfinite(residuals[j]):
+            # Never narrower than the value's rounding noise: the Sturm counts at the ends
+            # are exact only for a matrix perturbed by rounding, whose eigenvalue moves as much
+            # (a level just below threshold in a large box: the counts missed a window 1e-9 wide).
+            x = float(values[j])
+            half = max(_RESIDUAL_SAFETY * residuals[j], _POLISH_WINDOW * abs(x), float(noise[j]))
+            windows[j] = (x - half, x + half)
     if None not in windows and _proven(d, e, lo, hi, windows, stats):
         good = np.ones(count, dtype=bool)
     else:
         good = _proven_each(d, e, lo, windows, stats)
-    noise = RAYLEIGH_NOISE_FACTOR * rounding_sensitivity(d, e, vecs)
     for j in range(count):
         if good[j] and (needed is None or noise[j] > _NOISE_SHARE_OF_PRECISION * needed[j]):
             polished = _bisected_in(d, e, windows[j], stats, noise[j] / RAYLEIGH_NOISE_FACTOR)
