@@ -263,3 +263,24 @@ def test_square_well_just_past_binding_is_never_certified_empty(l, excess):
                                      * special.spherical_jn(l, math.sqrt(2 * (E + V0))))
             exact = optimize.brentq(kappa_match, -0.5 * V0, -1e-14, xtol=1e-300, rtol=1e-15)
             assert abs(lev.energy - exact) <= max(10 * lev.error_estimate, 1e-9 * abs(exact)), (lev, exact)
+
+
+@pytest.mark.parametrize("orders", [(2, 4, 6), (4, 6, 8)])
+def test_next_grid_predictions_are_exact_for_the_error_series_they_assume(orders):
+    # Values c0 + c1 h**p1 + c2 h**p2 on steps 4, 2, 1 determine the value at h = 1/2 exactly
+    # (interpolation by the same three functions; textbook), and on steps 2, 1 the two-term law.
+    from radsolve.core.spectrum import _predictions
+
+    def value(h, terms):
+        return -0.5 + sum(c * h**p for c, p in zip((0.3, -0.7)[:terms], orders))
+
+    def history(steps, terms):
+        return [[(value(h, terms), None, None, 1.0)] for h in steps]
+
+    predicted, peaks = _predictions(history([4.0, 2.0, 1.0], 2), 0.0, orders)
+    assert predicted[0] == pytest.approx(value(0.5, 2), rel=1e-14) and peaks == [1.0]
+    predicted, _ = _predictions(history([2.0, 1.0], 1), 0.0, orders)
+    assert predicted[0] == pytest.approx(value(0.5, 1), rel=1e-14)
+    # one grid: its own value; none: no prediction
+    assert _predictions(history([1.0], 1), 0.0, orders)[0] == [value(1.0, 1)]
+    assert _predictions([], 0.0, orders) == (None, None)

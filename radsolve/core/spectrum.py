@@ -353,22 +353,37 @@ def _takes(cls, name: str) -> bool:
     return name in parameters or any(p.kind is p.VAR_KEYWORD for p in parameters.values())
 
 
-def _predictions(history: list, reference: float, order: int, planned=None):
+def _predictions(history: list, reference: float, orders: tuple, planned=None):
     """Each level's energy on the next grid, from its coarser grids, and where its state peaked.
 
-    With two grids known, the leading error term ~h**order is extrapolated
-    (the next grid moves a level by 2**-order times the last change).  On the
-    first grid, ``planned``'s energies and peaks when there are any (``plan.predicted``).
+    The values on the last grids are fitted by c0 + c1 h**p1 (two grids) or
+    c0 + c1 h**p1 + c2 h**p2 (three or more), p the method's error orders, and
+    the fit is evaluated at the next step: a prediction good to the next order
+    lets most Rayleigh iterations on the finest grids stop after one solve.  On
+    the first grid, ``planned``'s energies and peaks when there are any
+    (``plan.predicted``).  Predictions only start the searches: each level's
+    index is proven on its grid whatever they are.
     """
     if not history:
         if planned is None:
             return None, None
         return [e - reference for e in planned.energies], list(planned.peaks)
-    last = np.array([step[0] for step in history[-1]]) - reference
-    if len(history) >= 2:
-        prev = np.array([step[0] for step in history[-2]]) - reference
-        last = last + (last - prev) / 2.0**order
-    return list(last), [step[3] for step in history[-1]]
+    terms = min(len(history), 3, len(orders) + 1)
+    known = np.array([[step[0] for step in history[k]] for k in range(-terms, 0)]) - reference
+    next_values = _prediction_weights(tuple(orders[: terms - 1])) @ known
+    return list(next_values), [step[3] for step in history[-1]]
+
+
+@functools.lru_cache(maxsize=16)
+def _prediction_weights(orders: tuple) -> np.ndarray:
+    """Weights of the values on grids of steps 2**(m-1), ..., 2, 1 (oldest first) that give the
+    value at step 1/2 of the function c0 + sum_i c_i h**orders[i] through them (m = len(orders) + 1)."""
+    steps = 2.0 ** np.arange(len(orders), -1, -1)
+    system = np.stack([np.ones_like(steps)] + [steps**p for p in orders], axis=1)
+    at_next = np.array([1.0] + [0.5**p for p in orders])
+    weights = np.linalg.solve(system.T, at_next)
+    weights.flags.writeable = False
+    return weights
 
 
 def _anchors_of(grid) -> tuple[float, ...]:
@@ -743,7 +758,7 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
                 continue
             inner = _inner_index(span, refinement, ch.inner_radius, coarse_r)
             planned = plan.predicted.get(ch.key)
-            guesses, peaks = _predictions(history[ch.key], ch.reference, cls.error_orders[0], planned)
+            guesses, peaks = _predictions(history[ch.key], ch.reference, cls.error_orders, planned)
             # The accuracy each grid energy needs: the level's target (the
             # solver keeps its noise well below it).
             precision = None if guesses is None else [
