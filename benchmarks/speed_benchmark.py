@@ -13,7 +13,9 @@ Figures (one process unless said otherwise):
   Sturm counts and tridiagonal solves;
 - growth with nmax (10, 20, 40) and with tol (1e-6 ... 1e-12), fd and numerov;
 - a sweep: Yukawa Z = 1, 1000 screening lengths from 1 to 40 bohr, l = 0 and
-  1, 3 levels each, tol 1e-8: points per second, serial and with 2 workers;
+  1, 3 levels each, tol 1e-8: points per second, serial and with 2 workers,
+  and how many of its levels equal those of solving each point alone within
+  the two estimates;
 - a fit of 2 parameters to 3 levels;
 - `radsolve levels coulomb` as a whole process, and the first solve of a
   fresh process.
@@ -104,6 +106,29 @@ def sweep_rate(workers: int, points: int) -> float:
     return points / seconds, res
 
 
+def rows_against_single_solves(res, points: int) -> tuple[int, int, int]:
+    """(levels within the two estimates of the single-point solve, levels compared, bound in one only)."""
+    import radsolve
+
+    lengths = np.linspace(1.0, 40.0, points)
+    alone = [radsolve.solve(radsolve.potential("yukawa", Z=1.0, screening_length=x), l=[0, 1], count=3, tol=1e-8)
+             for x in lengths]
+    within = compared = mismatched = 0
+    for label in res.labels():
+        track = res.level(label)
+        for i, single in enumerate(alone):
+            found = {(lev.l, lev.nodes): lev for lev in single.levels}
+            lev = found.get((track.l, track.nodes))
+            if bool(track.bound[i]) != (lev is not None):
+                mismatched += 1
+                continue
+            if lev is None:
+                continue
+            compared += 1
+            within += int(abs(track.energy[i] - lev.energy) <= track.error_estimate[i] + lev.error_estimate)
+    return within, compared, mismatched
+
+
 def dask_overhead(points: int):
     """Seconds per point that a local Dask cluster adds to the same sweep on a 2-process pool."""
     try:
@@ -181,6 +206,9 @@ def main(argv=None) -> None:
         serial, res = sweep_rate(1, 1000)
         print(f"sweep (Yukawa, 1000 points, l = 0, 1, 3 levels, tol 1e-8): {serial:6.1f} points/s serial "
               f"(goal >= 200), status {res.status}")
+        within, compared, mismatched = rows_against_single_solves(res, 1000)
+        print(f"  rows against solving each point alone: {within} of {compared} levels within the two "
+              f"estimates, {mismatched} bound in one only")
         two, _ = sweep_rate(2, 1000)
         print(f"  with 2 workers: {two:6.1f} points/s, speed-up {two / serial:.2f}")
         overhead = dask_overhead(200)
