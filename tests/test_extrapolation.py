@@ -82,6 +82,34 @@ def test_a_slow_term_hidden_below_the_lower_columns_is_not_trusted():
     assert out.estimate >= abs(out.value - LIMIT)
 
 
+def test_a_lower_order_read_off_the_data_does_not_vouch_for_an_unseen_column():
+    # Numerov (orders 4, 6, 8, 10) with a kink of V on the grid: the series runs in even
+    # powers from h**2 on.  The data show h**2, so every integer power from 2 is assumed;
+    # with these coefficients (those of a property-battery case, seed 7, index 689) the
+    # column after h**2 looks like h**3 on four grids (2.99) by a cancellation of the
+    # h**4, h**6 and h**8 terms, and the column that eliminates h**3 changes by a tenth of
+    # its error.  Its order is unseen under a guessed expansion: the estimate must not
+    # rest on it (it was 50 times below the true error).  The limit is exact by construction.
+    values = [LIMIT + 3.206e-2 * h**2 - 2.017e-4 * h**4 + 1.3756e-4 * h**6 - 4.196e-5 * h**8
+              for h in 2.0 ** -np.arange(4)]
+    out = extrapolate(values, (4, 6, 8, 10), 1e-15, settled=True)
+    assert out.order_ok and abs(out.observed - 2.0) < 0.01
+    assert out.estimate >= abs(out.value - LIMIT)
+
+
+def test_a_higher_promised_order_keeps_the_promised_expansion():
+    # Numerov at a breakpoint promises h**2, h**4, ...; for a state that barely reaches the
+    # breakpoint the h**2 coefficient is tiny and the grids show h**4.  That is a higher
+    # order of the same expansion, not a new one: read as "h**4, h**5, h**6, ..." it gave an
+    # estimate 15 times below the error.  Coefficients of a solve that did (empty core, 9g,
+    # Numerov); the limit is exact by construction.
+    terms = {2: 2.34e-9, 4: -2.668e-5, 6: -7.94e-7, 8: -1.736e-7, 10: 5.915e-8}
+    values = [LIMIT + sum(c * h**p for p, c in terms.items()) for h in 2.0 ** -np.arange(5)]
+    out = extrapolate(values, (2, 4, 6, 8, 10), 1e-15, settled=True)
+    assert out.order_ok and abs(out.observed - 4.0) < 0.1
+    assert out.estimate >= abs(out.value - LIMIT)
+
+
 def test_wrong_order_is_not_settled():
     # An h**3 term the method does not promise: the columns do not show their orders,
     # so the settled rule must not apply, and the estimate stays honest.

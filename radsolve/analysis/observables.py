@@ -184,10 +184,10 @@ class HellmannFeynmanCheck:
                 "relative_difference": self.relative_difference, "agrees": self.agrees}
 
 
-def _error_orders(method: str) -> tuple[int, ...]:
+def _error_orders(method: str, breakpoints: bool = False) -> tuple[int, ...]:
     from radsolve.core.solvers.base import solver_class
 
-    return tuple(solver_class(method).error_orders)
+    return solver_class(method).orders(breakpoints)
 
 
 def _rounding(method: str, size: int) -> float:
@@ -240,7 +240,8 @@ class State(ResultProtocol):
         self.grids: list[SampleGrid] = prepared_samples(level, self.origin_exponent,
                                                         correction_power(self.profile))
         self.method = level.sample_method or (level.method if level.method != "both" else "fd")
-        self.orders = _error_orders(self.method)
+        self.orders = _error_orders(self.method, bool(self.grids) and self.profile.breakpoints_between(
+            self.grids[-1].r[0], self.grids[-1].r[-1]))
         self._values_cache: dict[int, np.ndarray] = {}
 
     # ------------------------------------------------------------ construction

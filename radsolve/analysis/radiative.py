@@ -400,13 +400,18 @@ class TransitionResult(ResultProtocol):
 # ---------------------------------------------------------------- matrix elements
 
 
-def _orders(*methods: str) -> tuple[int, ...]:
+def _orders(*methods: str, breakpoints: bool = False) -> tuple[int, ...]:
     from radsolve.core.solvers.base import solver_class
 
     orders: set[int] = set()
     for m in methods:
-        orders |= set(solver_class(m).error_orders)
+        orders |= set(solver_class(m).orders(breakpoints))
     return tuple(sorted(orders))
+
+
+def _breakpoints_on(profile, grids: list[SampleGrid]) -> bool:
+    """V has a breakpoint inside the finest grid of these samples."""
+    return bool(grids) and profile.breakpoints_between(grids[-1].r[0], grids[-1].r[-1])
 
 
 def _rounding(method: str, size: int) -> float:
@@ -425,7 +430,8 @@ def common_samples(a: list[SampleGrid], b: list[SampleGrid]) -> int:
     return count
 
 
-def _dipole(level_a, grids_a: list[SampleGrid], level_b, grids_b: list[SampleGrid], tol: float) -> Estimate:
+def _dipole(level_a, grids_a: list[SampleGrid], level_b, grids_b: list[SampleGrid], tol: float,
+            breakpoints: bool = False) -> Estimate:
     from radsolve.core.extrapolation import richardson
 
     k = common_samples(grids_a, grids_b)
@@ -440,7 +446,7 @@ def _dipole(level_a, grids_a: list[SampleGrid], level_b, grids_b: list[SampleGri
     ma = level_a.sample_method or "fd"
     mb = level_b.sample_method or "fd"
     rounding = max(_rounding(ma, grids_a[k - 1].r.size), _rounding(mb, grids_b[k - 1].r.size))
-    value, estimate, observed = richardson(values, _orders(ma, mb), rounding)
+    value, estimate, observed = richardson(values, _orders(ma, mb, breakpoints=breakpoints), rounding)
     estimate = max(estimate, rounding * scale)
     converged = math.isfinite(estimate) and estimate <= 100.0 * tol * max(abs(value), 1e-3 * scale)
     return Estimate(float(value), float(estimate), "bohr", observed, bool(converged))
@@ -455,7 +461,8 @@ def radial_dipole(state_a, state_b) -> Estimate:
     if state_a.mass != state_b.mass or state_a.potential != state_b.potential:
         raise InputError("the two states belong to different potentials or masses")
     return _dipole(state_a.level, state_a.grids, state_b.level, state_b.grids,
-                   min(state_a.tol, state_b.tol))
+                   min(state_a.tol, state_b.tol),
+                   _breakpoints_on(state_a.profile, state_a.grids) or _breakpoints_on(state_b.profile, state_b.grids))
 
 
 # ---------------------------------------------------------------- the whole set
@@ -589,7 +596,9 @@ def transitions_from(result, nmax: int | None = None, *, dipole_charge: float = 
                 complete = False
         own: list[Line] = []
         for other in sorted(lower, key=lambda x: (x.n, x.l)):
-            d = _dipole(lev, grids[id(lev)], other, grids[id(other)], result.tol)
+            d = _dipole(lev, grids[id(lev)], other, grids[id(other)], result.tol,
+                        _breakpoints_on(profiles[lev.l], grids[id(lev)])
+                        or _breakpoints_on(profiles[other.l], grids[id(other)]))
             all_ok &= d.converged
             d_val = dipole_charge * d.value
             d_err = dipole_charge * d.error

@@ -4,8 +4,10 @@ Every quantity radsolve computes on a sequence of grids of steps h, h/2,
 h/4, ... (energies, observables, critical parameter values) is extrapolated
 to h = 0 here.  The error expansion a method promises (``orders``: h**2,
 h**4, ... for finite differences) holds only for a smooth potential with its
-breakpoints on the grid; a jump on a grid point lowers Numerov's order to
-h**2, h**3, ...; a jump between grid points destroys the expansion.  So the
+breakpoints on the grid; a jump of V or of its slope on a grid point brings
+Numerov's down to h**2, h**4, ... (``RadialSolver.orders``), with an h**2
+term as small as the state is at the breakpoint; a jump between grid points
+destroys the expansion.  So the
 observed order is read off the data and compared with the promise, and
 :func:`extrapolate` says (``order_ok``) whether the data show an order the
 extrapolation may rely on.
@@ -80,7 +82,8 @@ def _close(observed: float | None, order: int, tolerance: float) -> bool:
     return observed is not None and abs(observed - order) < tolerance
 
 
-def _settled_below(table: list, use: tuple, j: int, seen: list, before: float | None) -> bool:
+def _settled_below(table: list, use: tuple, j: int, seen: list, before: float | None,
+                   promised: bool = True) -> bool:
     """Every column below j shows its promised order -- the raw values on their last two
     triples (four grids at least), each higher column on its last triple -- and so does
     column j itself once it has three entries.  While column j has only two (its order
@@ -88,8 +91,15 @@ def _settled_below(table: list, use: tuple, j: int, seen: list, before: float | 
     (:data:`SETTLED_TRUST_TOLERANCE`): a table not yet in its asymptotic regime can show
     orders within the looser tolerance and still have a column j converging far more
     slowly than promised (a deep double well, Numerov: orders 4.0, 6.3, 8.0 below, 4.6
-    in the column, an estimate 11 times below the error).  ``seen``, ``before``: from
+    in the column, an estimate 11 times below the error).  Only under the expansion the
+    method promises (``promised``): under a lower order read off the data, which powers
+    follow it is itself a guess, and a column's order must be seen (a kink on the grid,
+    Numerov: h**2 seen, h**3 assumed next and even seen, 2.99, by chance on four grids,
+    while the series runs in even powers; the column eliminating h**3 then changed by a
+    tenth of its error, an estimate 38 times below it).  ``seen``, ``before``: from
     :func:`_last_orders`."""
+    if len(table[j]) < 3 and not promised:
+        return False
     tolerance = SETTLED_ORDER_TOLERANCE if len(table[j]) >= 3 else SETTLED_TRUST_TOLERANCE
     if len(table[0]) < 4 or not (_close(seen[0], use[0], tolerance) and _close(before, use[0], tolerance)):
         return False
@@ -139,14 +149,17 @@ def extrapolate(values, orders: tuple[int, ...], relative_rounding: float = 1e-1
     observed = _observed(e, k - 1)
     noisy = d2 < NOISE_FACTOR * floor
     earlier = _observed(e, k - 2) if k >= 4 else None
-    if noisy or observed is None or abs(observed - orders[0]) < ORDER_TOLERANCE:
-        use = orders
+    if (noisy or observed is None or abs(observed - orders[0]) < ORDER_TOLERANCE
+            or (observed > orders[0] and any(abs(observed - p) < ORDER_TOLERANCE for p in orders[1:]))):
+        # (a higher promised order: the leading terms are small, the expansion is still the
+        # promised one -- Numerov's h**2 from a breakpoint the state barely reaches)
+        use, promised = orders, True
         ok = True
     elif (observed >= 0.8 and abs(observed - round(observed)) < _INTEGER_TOLERANCE
           and (not confirm_lower_order
                or (earlier is not None and abs(earlier - observed) < ORDER_TOLERANCE))):
         q = int(round(observed))
-        use = tuple(range(q, q + 8))
+        use, promised = tuple(range(q, q + 8)), False
         ok = True
     else:
         p = min(max(observed, 0.5), float(orders[0]))
@@ -172,7 +185,7 @@ def extrapolate(values, orders: tuple[int, ...], relative_rounding: float = 1e-1
         est = max(abs(column[-1] - table[j - 1][-1]), abs(column[-1] - column[-2]))
         value = column[-1]
         if (settled and j < len(use) and abs(column[-1] - column[-2]) > SETTLED_ABOVE_NOISE * floor
-                and _settled_below(table, use, j, seen, before)):
+                and _settled_below(table, use, j, seen, before, promised)):
             next_correction = abs(column[-1] - column[-2]) / (2.0 ** use[j] - 1.0)
             if SETTLED_SAFETY * next_correction < est:
                 # The next column's value is this one plus that correction: report it,

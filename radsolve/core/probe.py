@@ -168,6 +168,11 @@ class PotentialProfile:
     detected: bool = False
     probe_values: np.ndarray | None = field(default=None, repr=False, compare=False)
 
+    def breakpoints_between(self, lo: float, hi: float) -> bool:
+        """Whether V has a breakpoint strictly between radii ``lo`` and ``hi`` (then on the
+        grid: the error series of a method may change, ``RadialSolver.orders``)."""
+        return any(lo < b < hi for b in self.breakpoints)
+
     # Names kept from the first release: the small-r law as two numbers.
     @property
     def small_r_coefficient(self) -> float:

@@ -758,7 +758,8 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
                 continue
             inner = _inner_index(span, refinement, ch.inner_radius, coarse_r)
             planned = plan.predicted.get(ch.key)
-            guesses, peaks = _predictions(history[ch.key], ch.reference, cls.error_orders, planned)
+            orders = cls.orders(ch.profile.breakpoints_between(max(ch.inner_radius, coarse_r[0]), coarse_r[-1]))
+            guesses, peaks = _predictions(history[ch.key], ch.reference, orders, planned)
             # The accuracy each grid energy needs: the level's target (the
             # solver keeps its noise well below it).
             precision = None if guesses is None else [
@@ -799,7 +800,7 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
                 if k < len(noise) and noise[k] is not None:
                     # the method's own measure of this level's sensitivity to rounding
                     rounding = max(rounding, noise[k] / max(abs(series[-1]), 1e-300))
-                ex = extrapolate(series, cls.error_orders, rounding, settled=True)
+                ex = extrapolate(series, orders, rounding, settled=True)
                 shifted = ex.value - ch.reference
                 wall = 0.0 if ch.confining else _box_error(grid, u[k], values, ch.centrifugal, mass, shifted)
                 inner_err = _inner_boundary_error(grid, u[k], inner, rises[k], mass, ch.exponent, values, shifted,

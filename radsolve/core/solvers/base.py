@@ -78,12 +78,25 @@ class RadialSolver:
     error_orders : tuple of int
         Powers of the step h in the asymptotic error expansion of the
         energies, leading first (used by Richardson extrapolation).
+    error_orders_at_breakpoints : tuple of int or None
+        The same where V or one of its derivatives jumps at a grid point (V
+        there the mean of its one-sided limits, ``grids.potential_on_grid``);
+        None: ``error_orders``.  See :meth:`orders`.
     relative_rounding(size) : classmethod
         Relative rounding noise of the energies; the floor of every estimate.
     """
 
     name = "base"
     error_orders: tuple[int, ...] = (2, 4, 6, 8)
+    error_orders_at_breakpoints: tuple[int, ...] | None = None
+
+    @classmethod
+    def orders(cls, breakpoints: bool) -> tuple[int, ...]:
+        """The error expansion to extrapolate with: ``error_orders``, or, when V has
+        breakpoints on the grid, ``error_orders_at_breakpoints`` where the method has one."""
+        if breakpoints and cls.error_orders_at_breakpoints is not None:
+            return tuple(cls.error_orders_at_breakpoints)
+        return tuple(cls.error_orders)
 
     @classmethod
     def relative_rounding(cls, size: int) -> float:
