@@ -64,3 +64,9 @@ def test_sweep_over_decades_in_few_steps_matches_solving_each_point_alone():
             exact = -Z**2 / (2.0 * n**2)
             assert track.bound[i] and track.converged[i], (label, Z)
             assert abs(track.energy[i] - exact) <= 10.0 * track.error_estimate[i], (label, Z)
+
+
+@pytest.mark.parametrize("wrong", ["hello", 3.0, [1, 2]])
+def test_continue_from_something_that_is_not_a_result_is_refused(wrong):
+    with pytest.raises(radsolve.InputError, match="continue_from"):
+        radsolve.solve("coulomb", l=0, count=2, continue_from=wrong)

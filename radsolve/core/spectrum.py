@@ -966,7 +966,8 @@ def solve(
         level needs it) and its energies start the eigenvalue searches.  The
         levels agree with a solve without it within their estimates; it only
         saves the box search.  Ignored where it does not apply (other
-        channels, a level it lacks or did not converge; relativistic equations).
+        channels, a level it lacks or did not converge; relativistic equations);
+        anything but a SolveResult is refused.
     equation : {"schrodinger", "dirac", "klein-gordon"}
         The wave equation.  Dirac: levels n l j (kappa), V the time component
         of a vector potential; Klein-Gordon: spin 0.  Both report E - mu c**2
@@ -990,6 +991,9 @@ def solve(
     """
     from radsolve.core.relativistic import SCHRODINGER, validated_equation
 
+    if continue_from is not None and not isinstance(continue_from, SolveResult):
+        raise InputError(f"continue_from takes the SolveResult of a nearby solve (or None), not a "
+                         f"{type(continue_from).__name__}", parameter="continue_from")
     equation = validated_equation(equation)
     if equation != SCHRODINGER:
         from radsolve.core.relativistic.front import solve_relativistic
