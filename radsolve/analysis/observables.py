@@ -36,6 +36,7 @@ from radsolve.core.wavefunctions import (
     _cumulative,
     _integral_upto,
     _local,
+    breakpoints_on,
     build_wavefunction,
     derivative_x,
     prepared_samples,
@@ -240,8 +241,7 @@ class State(ResultProtocol):
         self.grids: list[SampleGrid] = prepared_samples(level, self.origin_exponent,
                                                         correction_power(self.profile))
         self.method = level.sample_method or (level.method if level.method != "both" else "fd")
-        self.orders = _error_orders(self.method, bool(self.grids) and self.profile.breakpoints_between(
-            self.grids[-1].r[0], self.grids[-1].r[-1]))
+        self.orders = _error_orders(self.method, breakpoints_on(self.profile, self.grids))
         self._values_cache: dict[int, np.ndarray] = {}
 
     # ------------------------------------------------------------ construction

@@ -54,7 +54,7 @@ from radsolve.errors import InputError
 from radsolve.analysis.observables import Estimate, channel_potential, check_atomic_3d, correction_power
 from radsolve.core.protocol import Note, Outcome, ResultProtocol, message_of, worst, write_text
 from radsolve.core.serialize import records_to_csv
-from radsolve.core.wavefunctions import SampleGrid, prepared_samples
+from radsolve.core.wavefunctions import SampleGrid, breakpoints_on, prepared_samples
 
 #: Largest nmax accepted: every level's wavefunction on every grid is kept in
 #: memory (about nmax**2 levels).
@@ -409,10 +409,6 @@ def _orders(*methods: str, breakpoints: bool = False) -> tuple[int, ...]:
     return tuple(sorted(orders))
 
 
-def _breakpoints_on(profile, grids: list[SampleGrid]) -> bool:
-    """V has a breakpoint inside the finest grid of these samples."""
-    return bool(grids) and profile.breakpoints_between(grids[-1].r[0], grids[-1].r[-1])
-
 
 def _rounding(method: str, size: int) -> float:
     from radsolve.core.solvers.base import solver_class
@@ -462,7 +458,7 @@ def radial_dipole(state_a, state_b) -> Estimate:
         raise InputError("the two states belong to different potentials or masses")
     return _dipole(state_a.level, state_a.grids, state_b.level, state_b.grids,
                    min(state_a.tol, state_b.tol),
-                   _breakpoints_on(state_a.profile, state_a.grids) or _breakpoints_on(state_b.profile, state_b.grids))
+                   breakpoints_on(state_a.profile, state_a.grids) or breakpoints_on(state_b.profile, state_b.grids))
 
 
 # ---------------------------------------------------------------- the whole set
@@ -597,8 +593,8 @@ def transitions_from(result, nmax: int | None = None, *, dipole_charge: float = 
         own: list[Line] = []
         for other in sorted(lower, key=lambda x: (x.n, x.l)):
             d = _dipole(lev, grids[id(lev)], other, grids[id(other)], result.tol,
-                        _breakpoints_on(profiles[lev.l], grids[id(lev)])
-                        or _breakpoints_on(profiles[other.l], grids[id(other)]))
+                        breakpoints_on(profiles[lev.l], grids[id(lev)])
+                        or breakpoints_on(profiles[other.l], grids[id(other)]))
             all_ok &= d.converged
             d_val = dipole_charge * d.value
             d_err = dipole_charge * d.error

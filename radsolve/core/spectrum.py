@@ -743,6 +743,9 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
     best: dict = {ch.key: [] for ch in channels}
     grid_counts: dict = {ch.key: [] for ch in channels}
     last_grid: dict = {}
+    # each channel's error series: the method's own, or its breakpoint one where V has a breakpoint on the grid
+    orders_of = {ch.key: cls.orders(ch.profile.breakpoints_between(max(ch.inner_radius, coarse_r[0]), coarse_r[-1]))
+                 for ch in channels}
     statistics = EigenStatistics()
     finest = False
     for refinement in range(MAX_REFINEMENTS + _loose_doublings(targets) + 1):
@@ -758,7 +761,7 @@ def _run_method(channels, plan: _BoxPlan, mass, targets: Targets, cls: type[Radi
                 continue
             inner = _inner_index(span, refinement, ch.inner_radius, coarse_r)
             planned = plan.predicted.get(ch.key)
-            orders = cls.orders(ch.profile.breakpoints_between(max(ch.inner_radius, coarse_r[0]), coarse_r[-1]))
+            orders = orders_of[ch.key]
             guesses, peaks = _predictions(history[ch.key], ch.reference, orders, planned)
             # The accuracy each grid energy needs: the level's target (the
             # solver keeps its noise well below it).

@@ -327,6 +327,12 @@ def origin_fit(r, u, j: int, j2: int, lam: float, q: float, coefficient: float |
     return float(C), float(a), float(min(2.0 * term * term + 1e-300, 1.0))
 
 
+def breakpoints_on(profile, grids: list[SampleGrid]) -> bool:
+    """V (probed as ``profile``) has a breakpoint inside the finest of these sample grids: the
+    method's error series there is its breakpoint one (``RadialSolver.orders``)."""
+    return bool(grids) and profile.breakpoints_between(grids[-1].r[0], grids[-1].r[-1])
+
+
 def prepared_samples(level, lam: float, correction_power: float = 1.0) -> list[SampleGrid]:
     """Every sample of ``level`` prepared (coarsest first)."""
     if not level.samples:
