@@ -5,8 +5,9 @@ h/4, ... (energies, observables, critical parameter values) is extrapolated
 to h = 0 here.  The error expansion a method promises (``orders``: h**2,
 h**4, ... for finite differences) holds only for a smooth potential with its
 breakpoints on the grid; a jump of V or of its slope on a grid point brings
-Numerov's down to h**2, h**4, ... (``RadialSolver.orders``), with an h**2
-term as small as the state is at the breakpoint; a jump between grid points
+Numerov's down to h**2, h**4, ... (``RadialSolver.orders``; some steps add
+h**3, which the columns' orders then show), with an h**2 term as small as
+the state is at the breakpoint; a jump between grid points
 destroys the expansion.  So the
 observed order is read off the data and compared with the promise, and
 :func:`extrapolate` says (``order_ok``) whether the data show an order the
